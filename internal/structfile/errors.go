@@ -1,0 +1,77 @@
+package structfile
+
+import (
+	"fmt"
+	"strings"
+)
+
+// Error is one problem found in a structure file: where it is (file, line,
+// field) and what is wrong with what to do about it.
+type Error struct {
+	// File is the path or name the structure was read from.
+	File string
+	// Line is the 1-based source line, 0 when unknown.
+	Line int
+	// Field is the path of the offending field, for example
+	// "members[B3].section".
+	Field string
+	// Msg says what is wrong and, where it helps, what to do.
+	Msg string
+	// Err is the underlying cause (for example a units error), if any.
+	Err error
+}
+
+// Error formats the problem as "file:line: field: msg".
+func (e *Error) Error() string {
+	var b strings.Builder
+	b.WriteString(e.File)
+	if e.Line > 0 {
+		fmt.Fprintf(&b, ":%d", e.Line)
+	}
+	b.WriteString(": ")
+	if e.Field != "" {
+		b.WriteString(e.Field)
+		b.WriteString(": ")
+	}
+	b.WriteString(e.Msg)
+	return b.String()
+}
+
+// Unwrap returns the underlying cause.
+func (e *Error) Unwrap() error { return e.Err }
+
+// ErrorList is every problem found in one file, in line order. It is
+// returned as the error of Parse and LoadFile when the file is rejected.
+type ErrorList []*Error
+
+// maxListed bounds how many problems ErrorList.Error spells out.
+const maxListed = 50
+
+// Error lists the problems one per line (at most 50, then a count).
+func (l ErrorList) Error() string {
+	if len(l) == 0 {
+		return "no errors"
+	}
+	var b strings.Builder
+	for i, e := range l {
+		if i == maxListed {
+			fmt.Fprintf(&b, "\n... and %d more problems", len(l)-maxListed)
+			break
+		}
+		if i > 0 {
+			b.WriteByte('\n')
+		}
+		b.WriteString(e.Error())
+	}
+	return b.String()
+}
+
+// Unwrap returns the individual problems, so errors.Is and errors.As see
+// their causes.
+func (l ErrorList) Unwrap() []error {
+	out := make([]error, len(l))
+	for i, e := range l {
+		out[i] = e
+	}
+	return out
+}

@@ -1,0 +1,1081 @@
+package structfile
+
+import (
+	"fmt"
+	"math"
+	"sort"
+	"strings"
+
+	"go.yaml.in/yaml/v3"
+
+	"trussmonitor/internal/model"
+	"trussmonitor/internal/units"
+)
+
+// material is a material as declared, in SI.
+type material struct {
+	id       string
+	e        float64
+	alpha    float64
+	hasAlpha bool
+	density  float64
+	hasRho   bool
+	line     int
+}
+
+// section is a section as declared, in SI.
+type section struct {
+	id       string
+	area     float64
+	material string
+	mat      *material
+	line     int
+}
+
+// state carries the lookups built while reading one file.
+type state struct {
+	st        *model.Structure
+	dim       int
+	nodes     map[string]int
+	materials map[string]*material
+	sections  map[string]*section
+	members   map[string]int
+	memberMat []*material
+	groupLine map[string]int
+	supports  map[int]int // node index -> index in st.Supports
+	badNode   map[int]bool // nodes whose coordinates did not read
+}
+
+var axisNames = [3]string{"x", "y", "z"}
+
+// structure reads the root mapping.
+func (r *reader) structure(root *yaml.Node) *model.Structure {
+	r.checkAliases(root, 0)
+	if len(r.errs) > 0 {
+		return nil
+	}
+	m, ok := r.fields(root, "", "name", "title", "dimension", "units", "gravity",
+		"nodes", "materials", "sections", "members", "groups", "supports", "patterns", "cases")
+	if !ok {
+		return nil
+	}
+	s := &state{
+		st:        &model.Structure{Groups: map[string][]int{}},
+		nodes:     map[string]int{},
+		materials: map[string]*material{},
+		sections:  map[string]*section{},
+		members:   map[string]int{},
+		groupLine: map[string]int{},
+		supports:  map[int]int{},
+		badNode:   map[int]bool{},
+	}
+	if n, ok := r.need(m, root, "", "name"); ok {
+		if v, ok := r.id(n, "name"); ok {
+			s.st.Name = v
+		}
+	}
+	if n, ok := m["title"]; ok {
+		if v, ok := r.str(n, "title"); ok {
+			s.st.Title = v
+		}
+	}
+	s.dim = 3 // keep going with 3 if the dimension is missing or wrong
+	if n, ok := r.need(m, root, "", "dimension"); ok {
+		if v, ok := r.number(n, "dimension"); ok {
+			if v != 2 && v != 3 {
+				r.errorf(n, "dimension", "must be 2 (plane truss, x and y) or 3 (space truss, x, y and z), not %v", n.Value)
+			} else {
+				s.dim = int(v)
+			}
+		}
+	}
+	s.st.Dim = s.dim
+	r.unitsBlock(m["units"])
+	s.st.Gravity = [3]float64{0, -1, 0}
+	if s.dim == 3 {
+		s.st.Gravity = [3]float64{0, 0, -1}
+	}
+	if n, ok := m["gravity"]; ok {
+		if g, ok := r.vector(n, "gravity", s.dim); ok {
+			s.st.Gravity = g
+		}
+	}
+	if n, ok := r.need(m, root, "", "nodes"); ok {
+		r.nodes(s, n)
+	}
+	if n, ok := r.need(m, root, "", "materials"); ok {
+		r.materials(s, n)
+	}
+	if n, ok := r.need(m, root, "", "sections"); ok {
+		r.sections(s, n)
+	}
+	if n, ok := m["groups"]; ok {
+		r.groupsDecl(s, n)
+	}
+	if n, ok := r.need(m, root, "", "members"); ok {
+		r.members(s, n)
+	}
+	if n, ok := m["groups"]; ok {
+		r.groupsMembers(s, n)
+	}
+	for name, idx := range s.st.Groups {
+		if len(idx) == 0 {
+			r.errorAt(s.groupLine[name], "groups["+name+"]", "group has no members; list them under members: or give members groups: [%s]", name)
+		}
+		sort.Ints(idx)
+	}
+	if n, ok := m["supports"]; ok {
+		r.supports(s, n)
+	}
+	if n, ok := m["patterns"]; ok {
+		r.patterns(s, n)
+	}
+	if n, ok := m["cases"]; ok {
+		r.cases(s, n)
+	}
+	r.geometry(s)
+	return s.st
+}
+
+// unitsBlock reads the default unit per dimension.
+func (r *reader) unitsBlock(n *yaml.Node) {
+	r.units = map[units.Dimension]string{}
+	if n == nil {
+		return
+	}
+	keys := make([]string, 0, len(unitKeys))
+	byKey := map[string]units.Dimension{}
+	for d := units.Length; d <= units.Stiffness; d++ {
+		keys = append(keys, unitKeys[d])
+		byKey[unitKeys[d]] = d
+	}
+	m, ok := r.fields(n, "units", keys...)
+	if !ok {
+		return
+	}
+	for k, v := range m {
+		f := "units." + k
+		sym, ok := r.str(v, f)
+		if !ok {
+			continue
+		}
+		if _, err := units.Check(sym, byKey[k]); err != nil {
+			r.wrap(v, f, err, "")
+			continue
+		}
+		r.units[byKey[k]] = sym
+	}
+}
+
+// vector reads a dimensionless direction vector of dim components and
+// normalises it to unit length.
+func (r *reader) vector(n *yaml.Node, field string, dim int) ([3]float64, bool) {
+	var out [3]float64
+	items, ok := r.seq(n, field)
+	if !ok {
+		return out, false
+	}
+	if len(items) != dim {
+		r.errorf(n, field, "expected %d components for a %dD structure, found %d", dim, dim, len(items))
+		return out, false
+	}
+	good := true
+	for k, it := range items {
+		v, ok := r.number(it, fmt.Sprintf("%s[%d]", field, k))
+		if !ok {
+			good = false
+			continue
+		}
+		out[k] = v
+	}
+	if !good {
+		return out, false
+	}
+	l := math.Sqrt(out[0]*out[0] + out[1]*out[1] + out[2]*out[2])
+	if l == 0 || math.IsInf(l, 0) {
+		r.errorf(n, field, "the vector has zero length; give a direction such as [0, 1]")
+		return out, false
+	}
+	for k := range out {
+		out[k] /= l
+	}
+	return out, true
+}
+
+// item returns the field prefix of a list entry: name[id] once the id is
+// known, name[index] before.
+func item(list string, i int, id string) string {
+	if id != "" {
+		return list + "[" + id + "]"
+	}
+	return fmt.Sprintf("%s[%d]", list, i)
+}
+
+func (r *reader) nodes(s *state, n *yaml.Node) {
+	items, ok := r.seq(n, "nodes")
+	if !ok {
+		return
+	}
+	if len(items) == 0 {
+		r.errorf(n, "nodes", "no nodes declared")
+	}
+	for i, it := range items {
+		f := item("nodes", i, "")
+		m, ok := r.fields(it, f, "id", "at")
+		if !ok {
+			continue
+		}
+		var node model.Node
+		node.Line = it.Line
+		idn, ok := r.need(m, it, f, "id")
+		if ok {
+			node.ID, ok = r.id(idn, f+".id")
+		}
+		if !ok {
+			continue
+		}
+		f = item("nodes", i, node.ID)
+		if prev, dup := s.nodes[node.ID]; dup {
+			r.errorf(idn, f+".id", "duplicate node id %q (first declared on line %d)", node.ID, s.st.Nodes[prev].Line)
+			continue
+		}
+		at, ok := r.need(m, it, f, "at")
+		if ok {
+			node.X, ok = r.coords(s, at, f+".at")
+		}
+		if !ok {
+			s.badNode[len(s.st.Nodes)] = true
+		}
+		s.nodes[node.ID] = len(s.st.Nodes)
+		s.st.Nodes = append(s.st.Nodes, node)
+	}
+}
+
+// coords reads [x, y] or [x, y, z] lengths.
+func (r *reader) coords(s *state, n *yaml.Node, field string) ([3]float64, bool) {
+	var x [3]float64
+	items, ok := r.seq(n, field)
+	if !ok {
+		return x, false
+	}
+	if s.dim == 2 && len(items) == 3 {
+		r.errorf(items[2], field, "a z coordinate in a 2D file (dimension: 2); give [x, y], or set dimension: 3")
+		return x, false
+	}
+	if len(items) != s.dim {
+		want := "[x, y]"
+		if s.dim == 3 {
+			want = "[x, y, z]"
+		}
+		r.errorf(n, field, "expected %d coordinates %s, found %d", s.dim, want, len(items))
+		return x, false
+	}
+	good := true
+	for k, it := range items {
+		v, ok := r.quantity(it, fmt.Sprintf("%s[%d]", field, k), units.Length)
+		if !ok {
+			good = false
+		}
+		x[k] = v
+	}
+	return x, good
+}
+
+func (r *reader) materials(s *state, n *yaml.Node) {
+	items, ok := r.seq(n, "materials")
+	if !ok {
+		return
+	}
+	for i, it := range items {
+		f := item("materials", i, "")
+		m, ok := r.fields(it, f, "id", "modulus", "thermal_coefficient", "density", "description")
+		if !ok {
+			continue
+		}
+		idn, ok := r.need(m, it, f, "id")
+		if !ok {
+			continue
+		}
+		id, ok := r.id(idn, f+".id")
+		if !ok {
+			continue
+		}
+		f = item("materials", i, id)
+		if prev, dup := s.materials[id]; dup {
+			r.errorf(idn, f+".id", "duplicate material id %q (first declared on line %d)", id, prev.line)
+			continue
+		}
+		mat := &material{id: id, line: it.Line}
+		s.materials[id] = mat
+		if d, ok := m["description"]; ok {
+			r.str(d, f+".description")
+		}
+		if v, ok := r.need(m, it, f, "modulus"); ok {
+			if e, ok := r.quantity(v, f+".modulus", units.Stress); ok {
+				if e <= 0 {
+					r.errorf(v, f+".modulus", "modulus of elasticity must be positive, got %s", v.Value)
+				}
+				mat.e = e
+			}
+		}
+		if v, ok := m["thermal_coefficient"]; ok {
+			if a, ok := r.quantity(v, f+".thermal_coefficient", units.ThermalCoefficient); ok {
+				mat.alpha, mat.hasAlpha = a, true
+			}
+		}
+		if v, ok := m["density"]; ok {
+			if d, ok := r.quantity(v, f+".density", units.Density); ok {
+				if d < 0 {
+					r.errorf(v, f+".density", "density must not be negative, got %s", v.Value)
+				}
+				mat.density, mat.hasRho = d, true
+			}
+		}
+	}
+}
+
+func (r *reader) sections(s *state, n *yaml.Node) {
+	items, ok := r.seq(n, "sections")
+	if !ok {
+		return
+	}
+	for i, it := range items {
+		f := item("sections", i, "")
+		m, ok := r.fields(it, f, "id", "area", "material", "description")
+		if !ok {
+			continue
+		}
+		idn, ok := r.need(m, it, f, "id")
+		if !ok {
+			continue
+		}
+		id, ok := r.id(idn, f+".id")
+		if !ok {
+			continue
+		}
+		f = item("sections", i, id)
+		if prev, dup := s.sections[id]; dup {
+			r.errorf(idn, f+".id", "duplicate section id %q (first declared on line %d)", id, prev.line)
+			continue
+		}
+		sec := &section{id: id, line: it.Line}
+		s.sections[id] = sec
+		if d, ok := m["description"]; ok {
+			r.str(d, f+".description")
+		}
+		if v, ok := r.need(m, it, f, "area"); ok {
+			if a, ok := r.quantity(v, f+".area", units.Area); ok {
+				if a <= 0 {
+					r.errorf(v, f+".area", "cross-section area must be positive, got %s", v.Value)
+				}
+				sec.area = a
+			}
+		}
+		if v, ok := r.need(m, it, f, "material"); ok {
+			if mid, ok := r.id(v, f+".material"); ok {
+				mat, found := s.materials[mid]
+				if !found {
+					r.errorf(v, f+".material", "unknown material %q; declared materials: %s", mid, keyList(s.materials))
+				}
+				sec.material, sec.mat = mid, mat
+			}
+		}
+	}
+}
+
+// keyList lists a map's keys sorted, shortened for messages.
+func keyList[T any](m map[string]T) string {
+	if len(m) == 0 {
+		return "(none)"
+	}
+	keys := make([]string, 0, len(m))
+	for k := range m {
+		keys = append(keys, k)
+	}
+	sort.Strings(keys)
+	if len(keys) > 12 {
+		return strings.Join(keys[:12], ", ") + fmt.Sprintf(", ... (%d in all)", len(keys))
+	}
+	return strings.Join(keys, ", ")
+}
+
+// groupsDecl reads the group names (first pass, before members).
+func (r *reader) groupsDecl(s *state, n *yaml.Node) {
+	items, ok := r.seq(n, "groups")
+	if !ok {
+		return
+	}
+	for i, it := range items {
+		f := item("groups", i, "")
+		m, ok := r.fields(it, f, "name", "members", "description")
+		if !ok {
+			continue
+		}
+		nn, ok := r.need(m, it, f, "name")
+		if !ok {
+			continue
+		}
+		name, ok := r.id(nn, f+".name")
+		if !ok {
+			continue
+		}
+		if l, dup := s.groupLine[name]; dup {
+			r.errorf(nn, item("groups", i, name)+".name", "duplicate group name %q (first declared on line %d)", name, l)
+			continue
+		}
+		s.groupLine[name] = it.Line
+		s.st.Groups[name] = nil
+		if d, ok := m["description"]; ok {
+			r.str(d, item("groups", i, name)+".description")
+		}
+	}
+}
+
+// groupsMembers adds the members listed under each group (second pass).
+func (r *reader) groupsMembers(s *state, n *yaml.Node) {
+	if n.Kind != yaml.SequenceNode {
+		return // reported by groupsDecl
+	}
+	seenDecl := map[string]bool{}
+	for i, it := range n.Content {
+		if it.Kind != yaml.MappingNode {
+			continue
+		}
+		var name string
+		var list *yaml.Node
+		for k := 0; k+1 < len(it.Content); k += 2 {
+			switch it.Content[k].Value {
+			case "name":
+				name = it.Content[k+1].Value
+			case "members":
+				list = it.Content[k+1]
+			}
+		}
+		if s.groupLine[name] != it.Line || seenDecl[name] || list == nil {
+			continue // invalid or duplicate declaration, already reported
+		}
+		seenDecl[name] = true
+		f := item("groups", i, name) + ".members"
+		ids, nodes, _ := r.idList(list, f)
+		for k, id := range ids {
+			mi, found := s.members[id]
+			if !found {
+				r.errorf(nodes[k], f, "unknown member %q", id)
+				continue
+			}
+			r.addToGroup(s, name, mi, nodes[k], f)
+		}
+	}
+}
+
+// addToGroup adds member mi to group name, rejecting repeats.
+func (r *reader) addToGroup(s *state, name string, mi int, at *yaml.Node, field string) {
+	for _, x := range s.st.Groups[name] {
+		if x == mi {
+			r.errorf(at, field, "member %q is already in group %q", s.st.Members[mi].ID, name)
+			return
+		}
+	}
+	s.st.Groups[name] = append(s.st.Groups[name], mi)
+}
+
+func (r *reader) members(s *state, n *yaml.Node) {
+	items, ok := r.seq(n, "members")
+	if !ok {
+		return
+	}
+	if len(items) == 0 {
+		r.errorf(n, "members", "no members declared")
+	}
+	for i, it := range items {
+		f := item("members", i, "")
+		m, ok := r.fields(it, f, "id", "from", "to", "section", "groups")
+		if !ok {
+			continue
+		}
+		idn, ok := r.need(m, it, f, "id")
+		if !ok {
+			continue
+		}
+		id, ok := r.id(idn, f+".id")
+		if !ok {
+			continue
+		}
+		f = item("members", i, id)
+		if prev, dup := s.members[id]; dup {
+			r.errorf(idn, f+".id", "duplicate member id %q (first declared on line %d)", id, s.st.Members[prev].Line)
+			continue
+		}
+		mem := model.Member{ID: id, I: -1, J: -1, Line: it.Line}
+		good := true
+		for _, end := range []string{"from", "to"} {
+			v, ok := r.need(m, it, f, end)
+			if !ok {
+				good = false
+				continue
+			}
+			nid, ok := r.id(v, f+"."+end)
+			if !ok {
+				good = false
+				continue
+			}
+			ni, found := s.nodes[nid]
+			if !found {
+				r.errorf(v, f+"."+end, "unknown node %q; declare it under nodes:", nid)
+				good = false
+				continue
+			}
+			if end == "from" {
+				mem.I = ni
+			} else {
+				mem.J = ni
+			}
+		}
+		if good && mem.I == mem.J {
+			r.errorf(it, f, "member starts and ends at the same node %q", s.st.Nodes[mem.I].ID)
+		}
+		var mat *material
+		if v, ok := r.need(m, it, f, "section"); ok {
+			if sid, ok := r.id(v, f+".section"); ok {
+				sec, found := s.sections[sid]
+				if !found {
+					r.errorf(v, f+".section", "unknown section %q; declared sections: %s", sid, keyList(s.sections))
+				} else {
+					mem.Section, mem.A = sid, sec.area
+					if sec.mat != nil {
+						mat = sec.mat
+						mem.Material, mem.E, mem.Alpha, mem.Density = mat.id, mat.e, mat.alpha, mat.density
+					}
+				}
+			}
+		}
+		mi := len(s.st.Members)
+		s.members[id] = mi
+		s.st.Members = append(s.st.Members, mem)
+		s.memberMat = append(s.memberMat, mat)
+		if v, ok := m["groups"]; ok {
+			gf := f + ".groups"
+			names, nodes, _ := r.idList(v, gf)
+			for k, g := range names {
+				if _, found := s.groupLine[g]; !found {
+					r.errorf(nodes[k], gf, "unknown group %q; declare it under groups: (declared: %s)", g, keyList(s.groupLine))
+					continue
+				}
+				r.addToGroup(s, g, mi, nodes[k], gf)
+			}
+		}
+	}
+}
+
+func (r *reader) supports(s *state, n *yaml.Node) {
+	items, ok := r.seq(n, "supports")
+	if !ok {
+		return
+	}
+	for i, it := range items {
+		f := item("supports", i, "")
+		m, ok := r.fields(it, f, "node", "fix", "normal", "spring")
+		if !ok {
+			continue
+		}
+		nn, ok := r.need(m, it, f, "node")
+		if !ok {
+			continue
+		}
+		nid, ok := r.id(nn, f+".node")
+		if !ok {
+			continue
+		}
+		f = item("supports", i, nid)
+		ni, found := s.nodes[nid]
+		if !found {
+			r.errorf(nn, f+".node", "unknown node %q", nid)
+			continue
+		}
+		if prev, dup := s.supports[ni]; dup {
+			r.errorf(nn, f+".node", "node %q already has a support (line %d); put all its restraints in one entry", nid, s.st.Supports[prev].Line)
+			continue
+		}
+		sup := model.Support{Node: ni, Line: it.Line}
+		if v, ok := m["fix"]; ok {
+			axes, nodes, _ := r.idList(v, f+".fix")
+			for k, a := range axes {
+				ax := r.axis(s, nodes[k], f+".fix", a)
+				if ax < 0 {
+					continue
+				}
+				if sup.Fixed[ax] {
+					r.errorf(nodes[k], f+".fix", "%s is listed twice", a)
+				}
+				sup.Fixed[ax] = true
+			}
+		}
+		if v, ok := m["normal"]; ok {
+			if _, fixed := m["fix"]; fixed {
+				r.errorf(v, f+".normal", "an inclined roller (normal) cannot also fix axes in the same support; use either fix: or normal:")
+			} else if nv, ok := r.vector(v, f+".normal", s.dim); ok {
+				sup.Normal = &nv
+			}
+		}
+		if v, ok := m["spring"]; ok {
+			sm, ok := r.fields(v, f+".spring", axisNames[:s.dim]...)
+			if ok {
+				for ax := 0; ax < 3; ax++ {
+					sv, given := sm[axisNames[ax]]
+					if !given {
+						continue
+					}
+					sf := f + ".spring." + axisNames[ax]
+					k, ok := r.quantity(sv, sf, units.Stiffness)
+					if !ok {
+						continue
+					}
+					if k <= 0 {
+						r.errorf(sv, sf, "spring stiffness must be positive, got %s", sv.Value)
+						continue
+					}
+					if sup.Fixed[ax] {
+						r.errorf(sv, sf, "%s is both fixed and on a spring; use one", axisNames[ax])
+						continue
+					}
+					sup.Spring[ax] = k
+				}
+				if len(sm) == 0 {
+					r.errorf(v, f+".spring", "no spring stiffness given; write for example spring: {x: 20 MN/m}")
+				}
+			}
+		}
+		if !sup.Fixed[0] && !sup.Fixed[1] && !sup.Fixed[2] && sup.Normal == nil &&
+			sup.Spring == [3]float64{} {
+			if _, hasFix := m["fix"]; !hasFix {
+				if _, hasN := m["normal"]; !hasN {
+					if _, hasS := m["spring"]; !hasS {
+						r.errorf(it, f, "support restrains nothing; give fix:, normal: or spring:")
+					}
+				}
+			}
+			continue
+		}
+		s.supports[ni] = len(s.st.Supports)
+		s.st.Supports = append(s.st.Supports, sup)
+	}
+}
+
+// axis converts "x", "y" or "z" to 0..2, reporting bad names and z in 2D.
+func (r *reader) axis(s *state, n *yaml.Node, field, a string) int {
+	for k, name := range axisNames {
+		if a == name {
+			if k >= s.dim {
+				r.errorf(n, field, "axis z in a 2D file (dimension: 2); use x or y")
+				return -1
+			}
+			return k
+		}
+	}
+	r.errorf(n, field, "unknown axis %q; use x, y or z", a)
+	return -1
+}
+
+func (r *reader) patterns(s *state, n *yaml.Node) {
+	items, ok := r.seq(n, "patterns")
+	if !ok {
+		return
+	}
+	seen := map[string]int{}
+	for i, it := range items {
+		f := item("patterns", i, "")
+		m, ok := r.fields(it, f, "name", "description", "self_weight", "forces", "temperatures", "settlements", "unknown")
+		if !ok {
+			continue
+		}
+		nn, ok := r.need(m, it, f, "name")
+		if !ok {
+			continue
+		}
+		name, ok := r.id(nn, f+".name")
+		if !ok {
+			continue
+		}
+		f = item("patterns", i, name)
+		if l, dup := seen[name]; dup {
+			r.errorf(nn, f+".name", "duplicate pattern name %q (first declared on line %d)", name, l)
+			continue
+		}
+		seen[name] = it.Line
+		p := model.Pattern{Name: name, Line: it.Line}
+		if d, ok := m["description"]; ok {
+			r.str(d, f+".description")
+		}
+		if v, ok := m["unknown"]; ok {
+			p.Unknown, _ = r.boolean(v, f+".unknown")
+		}
+		if v, ok := m["self_weight"]; ok {
+			if w, ok := r.number(v, f+".self_weight"); ok {
+				p.SelfWeight = w
+				if w != 0 {
+					r.needDensity(s, v, f+".self_weight")
+				}
+			}
+		}
+		if v, ok := m["forces"]; ok {
+			r.forces(s, &p, v, f+".forces")
+		}
+		if v, ok := m["temperatures"]; ok {
+			r.temperatures(s, &p, v, f+".temperatures")
+		}
+		if v, ok := m["settlements"]; ok {
+			r.settlements(s, &p, v, f+".settlements")
+		}
+		_, hasF := m["forces"]
+		_, hasT := m["temperatures"]
+		_, hasS := m["settlements"]
+		_, hasW := m["self_weight"]
+		if !hasF && !hasT && !hasS && !hasW {
+			r.errorf(it, f, "pattern has no loads; give self_weight:, forces:, temperatures: or settlements:")
+		}
+		s.st.Patterns = append(s.st.Patterns, p)
+	}
+}
+
+// needDensity reports members whose material has no density when a pattern
+// asks for self-weight.
+func (r *reader) needDensity(s *state, at *yaml.Node, field string) {
+	missing := map[string]bool{}
+	for _, mat := range s.memberMat {
+		if mat != nil && !mat.hasRho {
+			missing[mat.id] = true
+		}
+	}
+	if len(missing) > 0 {
+		r.errorf(at, field, "self-weight needs a density, but material %s has none; add density: to it", keyList(missing))
+	}
+}
+
+func (r *reader) forces(s *state, p *model.Pattern, n *yaml.Node, field string) {
+	items, ok := r.seq(n, field)
+	if !ok {
+		return
+	}
+	for i, it := range items {
+		f := fmt.Sprintf("%s[%d]", field, i)
+		m, ok := r.fields(it, f, "node", "x", "y", "z")
+		if !ok {
+			continue
+		}
+		nn, ok := r.need(m, it, f, "node")
+		if !ok {
+			continue
+		}
+		nid, ok := r.id(nn, f+".node")
+		if !ok {
+			continue
+		}
+		ni, found := s.nodes[nid]
+		if !found {
+			r.errorf(nn, f+".node", "load on unknown node %q; declare it under nodes: or correct the id", nid)
+			continue
+		}
+		nf := model.NodalForce{Node: ni, Line: it.Line}
+		given, good := r.components(s, m, f, units.Force, nf.F[:])
+		if given == 0 {
+			r.errorf(it, f, "no force component given; write for example {node: %s, y: -10 kN}", nid)
+			continue
+		}
+		if good {
+			p.Forces = append(p.Forces, nf)
+		}
+	}
+}
+
+// components reads the x, y, z entries of m as quantities of dim into out,
+// returning how many were given and whether all were valid.
+func (r *reader) components(s *state, m map[string]*yaml.Node, f string, dim units.Dimension, out []float64) (int, bool) {
+	given, good := 0, true
+	for ax := 0; ax < 3; ax++ {
+		v, ok := m[axisNames[ax]]
+		if !ok {
+			continue
+		}
+		given++
+		if ax >= s.dim {
+			r.errorf(v, f+".z", "a z component in a 2D file (dimension: 2); use x and y")
+			good = false
+			continue
+		}
+		q, ok := r.quantity(v, f+"."+axisNames[ax], dim)
+		if !ok {
+			good = false
+			continue
+		}
+		out[ax] = q
+	}
+	return given, good
+}
+
+func (r *reader) temperatures(s *state, p *model.Pattern, n *yaml.Node, field string) {
+	items, ok := r.seq(n, field)
+	if !ok {
+		return
+	}
+	// first entry line per member, to reject a member heated twice
+	seen := map[int]int{}
+	for _, t := range p.Temperatures {
+		seen[t.Member] = t.Line
+	}
+	for i, it := range items {
+		f := fmt.Sprintf("%s[%d]", field, i)
+		m, ok := r.fields(it, f, "groups", "members", "change")
+		if !ok {
+			continue
+		}
+		cn, ok := r.need(m, it, f, "change")
+		if !ok {
+			continue
+		}
+		dt, ok := r.quantity(cn, f+".change", units.TemperatureChange)
+		if !ok {
+			continue
+		}
+		var targets []int
+		gn, hasG := m["groups"]
+		mn, hasM := m["members"]
+		if !hasG && !hasM {
+			r.errorf(it, f, "say which members change temperature: give groups: or members:")
+			continue
+		}
+		if hasG {
+			names, nodes, _ := r.idList(gn, f+".groups")
+			for k, g := range names {
+				idx := s.st.Groups[g]
+				if _, declared := s.groupLine[g]; !declared {
+					r.errorf(nodes[k], f+".groups", "unknown group %q; declared groups: %s", g, keyList(s.groupLine))
+					continue
+				}
+				targets = append(targets, idx...)
+			}
+		}
+		if hasM {
+			ids, nodes, _ := r.idList(mn, f+".members")
+			for k, id := range ids {
+				mi, found := s.members[id]
+				if !found {
+					r.errorf(nodes[k], f+".members", "unknown member %q", id)
+					continue
+				}
+				targets = append(targets, mi)
+			}
+		}
+		noAlpha := map[string]bool{}
+		for _, mi := range targets {
+			if l, dup := seen[mi]; dup {
+				r.errorf(it, f, "member %q already receives a temperature change in this pattern (line %d); a member may appear once per pattern", s.st.Members[mi].ID, l)
+				continue
+			}
+			seen[mi] = it.Line
+			if mat := s.memberMat[mi]; mat != nil && !mat.hasAlpha {
+				noAlpha[mat.id] = true
+			}
+			p.Temperatures = append(p.Temperatures, model.MemberTemperature{Member: mi, DeltaK: dt, Line: it.Line})
+		}
+		if len(noAlpha) > 0 {
+			r.errorf(it, f, "a temperature change needs a thermal coefficient, but material %s has none; add thermal_coefficient: to it", keyList(noAlpha))
+		}
+	}
+}
+
+func (r *reader) settlements(s *state, p *model.Pattern, n *yaml.Node, field string) {
+	items, ok := r.seq(n, field)
+	if !ok {
+		return
+	}
+	for i, it := range items {
+		f := fmt.Sprintf("%s[%d]", field, i)
+		m, ok := r.fields(it, f, "node", "x", "y", "z", "normal")
+		if !ok {
+			continue
+		}
+		nn, ok := r.need(m, it, f, "node")
+		if !ok {
+			continue
+		}
+		nid, ok := r.id(nn, f+".node")
+		if !ok {
+			continue
+		}
+		ni, found := s.nodes[nid]
+		if !found {
+			r.errorf(nn, f+".node", "settlement of unknown node %q", nid)
+			continue
+		}
+		si, supported := s.supports[ni]
+		if !supported {
+			r.errorf(nn, f+".node", "node %q has no support; a prescribed displacement needs a restraint in that direction", nid)
+			continue
+		}
+		sup := s.st.Supports[si]
+		st := model.Settlement{Node: ni, Line: it.Line}
+		given, good := r.components(s, m, f, units.Length, st.D[:])
+		for ax := 0; ax < s.dim; ax++ {
+			if v, ok := m[axisNames[ax]]; ok && !sup.Fixed[ax] {
+				r.errorf(v, f+"."+axisNames[ax], "node %q is not fixed in %s (support on line %d); a settlement needs a fixed direction", nid, axisNames[ax], sup.Line)
+				good = false
+			}
+		}
+		if v, ok := m["normal"]; ok {
+			given++
+			if sup.Normal == nil {
+				r.errorf(v, f+".normal", "node %q is not an inclined roller (support on line %d); give the settlement along a fixed axis", nid, sup.Line)
+				good = false
+			} else if d, ok := r.quantity(v, f+".normal", units.Length); ok {
+				st.D = [3]float64{d, 0, 0}
+			} else {
+				good = false
+			}
+		}
+		if given == 0 {
+			r.errorf(it, f, "no displacement given; write for example {node: %s, y: -10 mm}", nid)
+			continue
+		}
+		if good {
+			p.Settlements = append(p.Settlements, st)
+		}
+	}
+}
+
+func (r *reader) cases(s *state, n *yaml.Node) {
+	items, ok := r.seq(n, "cases")
+	if !ok {
+		return
+	}
+	seen := map[string]int{}
+	for i, it := range items {
+		f := item("cases", i, "")
+		m, ok := r.fields(it, f, "name", "description", "combine")
+		if !ok {
+			continue
+		}
+		nn, ok := r.need(m, it, f, "name")
+		if !ok {
+			continue
+		}
+		name, ok := r.id(nn, f+".name")
+		if !ok {
+			continue
+		}
+		f = item("cases", i, name)
+		if l, dup := seen[name]; dup {
+			r.errorf(nn, f+".name", "duplicate case name %q (first declared on line %d)", name, l)
+			continue
+		}
+		seen[name] = it.Line
+		if d, ok := m["description"]; ok {
+			r.str(d, f+".description")
+		}
+		c := model.Case{Name: name, Line: it.Line}
+		cn, ok := r.need(m, it, f, "combine")
+		if !ok {
+			continue
+		}
+		cf := f + ".combine"
+		if cn.Kind != yaml.MappingNode {
+			r.errorf(cn, cf, "expected pattern: factor lines, for example {dead: 1.0, crowd: 5.0}; found %s", kindName(cn))
+			continue
+		}
+		if len(cn.Content) == 0 {
+			r.errorf(cn, cf, "no patterns combined")
+		}
+		used := map[string]int{}
+		for k := 0; k+1 < len(cn.Content); k += 2 {
+			kn, vn := cn.Content[k], cn.Content[k+1]
+			pname, ok := r.id(kn, cf)
+			if !ok {
+				continue
+			}
+			pf := cf + "." + pname
+			if l, dup := used[pname]; dup {
+				r.errorf(kn, pf, "pattern listed twice in this case (first on line %d)", l)
+				continue
+			}
+			used[pname] = kn.Line
+			if !s.st.HasPattern(pname) {
+				r.errorf(kn, pf, "unknown pattern %q; declared patterns: %s", pname, patternList(s.st))
+				continue
+			}
+			v, ok := r.number(vn, pf)
+			if !ok {
+				continue
+			}
+			c.Factors = append(c.Factors, model.Factor{Pattern: pname, Factor: v})
+		}
+		s.st.Cases = append(s.st.Cases, c)
+	}
+}
+
+func patternList(st *model.Structure) string {
+	m := map[string]bool{}
+	for _, p := range st.Patterns {
+		m[p.Name] = true
+	}
+	return keyList(m)
+}
+
+// geometry checks for coincident nodes and zero-length members. Two points
+// count as coincident when closer than 1e-9 of the structure's bounding-box
+// diagonal (common practice: a relative tolerance well above rounding and
+// well below any real member length).
+func (r *reader) geometry(s *state) {
+	nodes := s.st.Nodes
+	if len(nodes) == 0 {
+		return
+	}
+	lo, hi := nodes[0].X, nodes[0].X
+	for _, n := range nodes {
+		for k := 0; k < 3; k++ {
+			lo[k] = math.Min(lo[k], n.X[k])
+			hi[k] = math.Max(hi[k], n.X[k])
+		}
+	}
+	tol := 1e-9 * dist(lo, hi)
+	order := make([]int, 0, len(nodes))
+	for i := range nodes {
+		if !s.badNode[i] {
+			order = append(order, i)
+		}
+	}
+	sort.Slice(order, func(a, b int) bool {
+		if nodes[order[a]].X[0] != nodes[order[b]].X[0] {
+			return nodes[order[a]].X[0] < nodes[order[b]].X[0]
+		}
+		return order[a] < order[b]
+	})
+	reported := 0
+	for a := 0; a < len(order) && reported < 100; a++ {
+		for b := a + 1; b < len(order); b++ {
+			p, q := nodes[order[a]], nodes[order[b]]
+			if q.X[0]-p.X[0] > tol {
+				break
+			}
+			if dist(p.X, q.X) <= tol {
+				first, second := p, q
+				if order[b] < order[a] {
+					first, second = q, p
+				}
+				r.errorAt(second.Line, "nodes["+second.ID+"].at", "node %q is at the same position as node %q (line %d); merge them or correct the coordinates", second.ID, first.ID, first.Line)
+				reported++
+			}
+		}
+	}
+	for _, m := range s.st.Members {
+		if m.I < 0 || m.J < 0 || m.I == m.J || s.badNode[m.I] || s.badNode[m.J] {
+			continue
+		}
+		if dist(nodes[m.I].X, nodes[m.J].X) <= tol {
+			r.errorAt(m.Line, "members["+m.ID+"]", "member has zero length: nodes %q and %q are at the same position", nodes[m.I].ID, nodes[m.J].ID)
+		}
+	}
+}
+
+func dist(a, b [3]float64) float64 {
+	dx, dy, dz := b[0]-a[0], b[1]-a[1], b[2]-a[2]
+	return math.Sqrt(dx*dx + dy*dy + dz*dz)
+}
