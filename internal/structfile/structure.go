@@ -42,7 +42,7 @@ type state struct {
 	members   map[string]int
 	memberMat []*material
 	groupLine map[string]int
-	supports  map[int]int // node index -> index in st.Supports
+	supports  map[int]int  // node index -> index in st.Supports
 	badNode   map[int]bool // nodes whose coordinates did not read
 }
 
