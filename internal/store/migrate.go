@@ -1,0 +1,146 @@
+package store
+
+import (
+	"context"
+	"database/sql"
+	"errors"
+	"fmt"
+)
+
+// migrations are applied in order; migration i brings the schema from
+// version i to version i+1. Never edit a released migration: append a new one.
+var migrations = []string{
+	// 1: raw readings, their channels and the dead letters.
+	`CREATE TABLE channels (
+		id        INTEGER PRIMARY KEY,
+		structure TEXT NOT NULL,
+		name      TEXT NOT NULL,
+		UNIQUE (structure, name)
+	);
+	CREATE TABLE readings (
+		channel INTEGER NOT NULL REFERENCES channels(id),
+		ts      INTEGER NOT NULL, -- Unix time in nanoseconds, logger clock
+		value   REAL    NOT NULL,
+		PRIMARY KEY (channel, ts)
+	) WITHOUT ROWID;
+	CREATE TABLE dead_letters (
+		id       INTEGER PRIMARY KEY,
+		topic    TEXT    NOT NULL,
+		received INTEGER NOT NULL, -- Unix ns, receiver clock
+		reason   TEXT    NOT NULL,
+		detail   TEXT    NOT NULL,
+		payload  BLOB    NOT NULL
+	);`,
+	// 2: model versions, alarm events, per-epoch results.
+	`CREATE TABLE models (
+		structure  TEXT    NOT NULL,
+		hash       TEXT    NOT NULL, -- SHA-256 of content, hex
+		content    BLOB    NOT NULL,
+		first_seen INTEGER NOT NULL,
+		PRIMARY KEY (structure, hash)
+	) WITHOUT ROWID;
+	CREATE TABLE model_activations (
+		structure TEXT    NOT NULL,
+		ts        INTEGER NOT NULL,
+		hash      TEXT    NOT NULL,
+		PRIMARY KEY (structure, ts),
+		FOREIGN KEY (structure, hash) REFERENCES models(structure, hash)
+	) WITHOUT ROWID;
+	CREATE TABLE events (
+		id        INTEGER PRIMARY KEY,
+		structure TEXT    NOT NULL,
+		rule      TEXT    NOT NULL,
+		subject   TEXT    NOT NULL,
+		kind      TEXT    NOT NULL CHECK (kind IN ('raised', 'cleared')),
+		ts        INTEGER NOT NULL,
+		evidence  TEXT    NOT NULL
+	);
+	CREATE INDEX events_by_time ON events (structure, ts);
+	CREATE TABLE results (
+		structure TEXT    NOT NULL,
+		ts        INTEGER NOT NULL,
+		payload   TEXT    NOT NULL,
+		PRIMARY KEY (structure, ts)
+	) WITHOUT ROWID;`,
+	// 3: time indexes used by retention and by the dead-letter listing.
+	`CREATE INDEX dead_letters_by_time ON dead_letters (received);
+	CREATE INDEX events_by_ts ON events (ts);`,
+}
+
+// schemaVersion returns the version recorded in the file, 0 for a new file.
+func schemaVersion(ctx context.Context, db *sql.DB) (int, error) {
+	var n int
+	err := db.QueryRowContext(ctx,
+		`SELECT count(*) FROM sqlite_master WHERE type = 'table' AND name = 'schema_version'`).Scan(&n)
+	if err != nil {
+		return 0, fmt.Errorf("reading schema version: %w", err)
+	}
+	if n == 0 {
+		return 0, nil
+	}
+	var v int
+	err = db.QueryRowContext(ctx, `SELECT version FROM schema_version`).Scan(&v)
+	if errors.Is(err, sql.ErrNoRows) {
+		return 0, nil
+	}
+	if err != nil {
+		return 0, fmt.Errorf("reading schema version: %w", err)
+	}
+	return v, nil
+}
+
+// migrate brings the file to version target, one migration per
+// transaction, so a crash mid-upgrade leaves the file at a whole version.
+func migrate(ctx context.Context, db *sql.DB, target int) error {
+	if _, err := db.ExecContext(ctx, `CREATE TABLE IF NOT EXISTS schema_version (version INTEGER NOT NULL)`); err != nil {
+		return fmt.Errorf("creating schema_version: %w", err)
+	}
+	for {
+		v, err := schemaVersion(ctx, db)
+		if err != nil {
+			return err
+		}
+		if v > len(migrations) {
+			return fmt.Errorf("schema version %d is newer than this program knows (%d); run the newer program or restore a backup", v, len(migrations))
+		}
+		if v >= target {
+			return nil
+		}
+		if err := applyMigration(ctx, db, v); err != nil {
+			return err
+		}
+	}
+}
+
+func applyMigration(ctx context.Context, db *sql.DB, from int) error {
+	tx, err := db.BeginTx(ctx, nil)
+	if err != nil {
+		return fmt.Errorf("migration %d->%d: %w", from, from+1, err)
+	}
+	defer tx.Rollback()
+	// Re-read inside the write transaction: another process may have
+	// migrated between our read and our lock.
+	var cur int
+	err = tx.QueryRowContext(ctx, `SELECT version FROM schema_version`).Scan(&cur)
+	if errors.Is(err, sql.ErrNoRows) {
+		cur = 0
+	} else if err != nil {
+		return fmt.Errorf("migration %d->%d: %w", from, from+1, err)
+	}
+	if cur != from {
+		return nil // someone else moved it; the caller loops
+	}
+	if _, err := tx.ExecContext(ctx, migrations[from]); err != nil {
+		return fmt.Errorf("migration %d->%d: %w", from, from+1, err)
+	}
+	if _, err := tx.ExecContext(ctx, `DELETE FROM schema_version`); err != nil {
+		return fmt.Errorf("migration %d->%d: %w", from, from+1, err)
+	}
+	if _, err := tx.ExecContext(ctx, `INSERT INTO schema_version (version) VALUES (?)`, from+1); err != nil {
+		return fmt.Errorf("migration %d->%d: %w", from, from+1, err)
+	}
+	if err := tx.Commit(); err != nil {
+		return fmt.Errorf("migration %d->%d: commit: %w", from, from+1, err)
+	}
+	return nil
+}
