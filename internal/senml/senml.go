@@ -253,6 +253,9 @@ func decodeRecord(i int, raw json.RawMessage, base *baseState, now time.Time) (R
 		}
 	}
 	if f, ok := fields["vb"]; ok {
+		if k := jsonKind(f); k != "a boolean" {
+			return Record{}, errf(ReasonBadRecord, i, "vb", "boolean value expected, got %s", k)
+		}
 		var b bool
 		if err := json.Unmarshal(f, &b); err != nil {
 			return Record{}, errf(ReasonBadRecord, i, "vb", "boolean value expected, got %s", jsonKind(f))
@@ -384,6 +387,9 @@ func clip(s string) string {
 
 func stringField(i int, field string, raw json.RawMessage) (string, error) {
 	var s string
+	if t := bytes.TrimSpace(raw); len(t) == 0 || t[0] != '"' {
+		return "", errf(ReasonBadRecord, i, field, "string expected, got %s", jsonKind(t))
+	}
 	if err := json.Unmarshal(raw, &s); err != nil {
 		return "", errf(ReasonBadRecord, i, field, "string expected, got %s", jsonKind(raw))
 	}
