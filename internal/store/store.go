@@ -39,8 +39,9 @@ type Store struct {
 	path string
 	opts Options
 
-	mu       sync.Mutex        // guards channels
-	channels map[chanKey]int64 // committed channel ids
+	mu       sync.Mutex            // guards channels and stmts
+	channels map[chanKey]int64     // committed channel ids
+	stmts    map[stmtKey]*sql.Stmt // prepared inserts by row count
 }
 
 type chanKey struct{ structure, name string }
@@ -70,7 +71,7 @@ func Open(path string, opts Options) (*Store, error) {
 	if err != nil {
 		return nil, fmt.Errorf("store: open %s: %w", path, err)
 	}
-	s := &Store{db: db, path: path, opts: opts, channels: map[chanKey]int64{}}
+	s := &Store{db: db, path: path, opts: opts, channels: map[chanKey]int64{}, stmts: map[stmtKey]*sql.Stmt{}}
 	if err := s.verifyPragmas(); err != nil {
 		db.Close()
 		return nil, err
@@ -134,5 +135,11 @@ func (s *Store) Path() string { return s.path }
 
 // Close closes the file. Pending transactions are rolled back.
 func (s *Store) Close() error {
+	s.mu.Lock()
+	for k, st := range s.stmts {
+		st.Close()
+		delete(s.stmts, k)
+	}
+	s.mu.Unlock()
 	return s.db.Close()
 }
