@@ -1,0 +1,214 @@
+// Package dashboard serves the read-only JSON API and the built-in
+// single-page dashboard of the monitor: the truss drawn to scale with its
+// members coloured by Baarda's normalised residual w, the series of measured
+// and predicted member force with the acceptance band, the fit status, the
+// estimated unknown loads and the event list.
+//
+// The package reads everything through a Source; it knows nothing of the
+// model, reconcile or sensors packages. The page is embedded in the binary
+// and needs no network. Binding the listener to loopback is the caller's
+// concern.
+//
+// The dashboard is a monitoring aid, not a safety verdict: decisions rest
+// with a licensed engineer under local codes.
+package dashboard
+
+import (
+	"errors"
+	"time"
+)
+
+// Caution is the safety text shown on the page and returned in every state
+// when the Source leaves State.Caution empty.
+const Caution = "This dashboard is a monitoring aid, not a safety verdict. An alarm, or the absence of one, " +
+	"does not establish that the structure is safe or unsafe. Decisions rest with a licensed engineer " +
+	"under local codes and the owner's inspection regime; the model is only as good as its inputs."
+
+// ErrNotFound is wrapped by a Source's errors for an unknown structure or
+// member; the handler answers such errors with 404.
+var ErrNotFound = errors.New("not found")
+
+// Source is what the dashboard reads. Implementations must be safe for
+// concurrent use: the handler calls them from many requests at once.
+type Source interface {
+	// Structures returns the names of the monitored structures, in the
+	// order the page lists them.
+	Structures() []string
+	// State returns the latest reconciled state of one structure. An
+	// unknown structure gives an error wrapping ErrNotFound.
+	State(structure string) (State, error)
+	// Series returns the per-epoch history of one gauged member with
+	// from <= time < to, oldest first.
+	Series(structure, member string, from, to time.Time) (Series, error)
+	// Events returns the alarm events of one structure with
+	// from <= time < to, oldest first.
+	Events(structure string, from, to time.Time) ([]Event, error)
+}
+
+// State is the latest reconciled epoch of one structure together with its
+// geometry.
+type State struct {
+	// Structure is the structure's name as used in the API paths.
+	Structure string
+	// Title is a human-readable name ("Alder Creek footbridge").
+	Title string
+	// ModelVersion is the content hash of the model in force.
+	ModelVersion string
+	// Epoch is the time of the latest reconciled epoch; the zero time means
+	// no epoch has been reconciled yet.
+	Epoch time.Time
+	// Geometry is the truss as drawn.
+	Geometry Geometry
+	// Gauged holds one entry per gauged member for the latest epoch.
+	Gauged []MemberState
+	// CriticalValue k of the local test (Baarda's w-test), e.g. 3.29 for
+	// alpha0 = 0.001. The acceptance band is predicted +- k sigma_residual.
+	CriticalValue float64
+	// Fit is the global test of the latest epoch.
+	Fit Fit
+	// Loads are the estimated unknown load magnitudes of the latest epoch.
+	Loads []LoadEstimate
+	// Caution is the safety text; the handler substitutes Caution when empty.
+	Caution string
+}
+
+// Geometry is the drawn shape of a truss in metres.
+type Geometry struct {
+	// Dimension is 2 for a plane truss (x, y; y up) or 3 for a space truss
+	// (x, y, z; z up).
+	Dimension int
+	// Nodes are the joints.
+	Nodes []Node
+	// Members are the bars.
+	Members []Member
+}
+
+// Node is one joint with its coordinates in metres; Z is 0 for plane trusses.
+type Node struct {
+	ID      string
+	X, Y, Z float64
+}
+
+// Member is one bar between two nodes.
+type Member struct {
+	ID string
+	// Start and End are node ids.
+	Start, End string
+	// Gauged says whether the member carries strain gauges.
+	Gauged bool
+}
+
+// MemberState is the reconciliation result of one gauged member in one epoch.
+type MemberState struct {
+	// ID is the member id.
+	ID string
+	// Measured is the measured axial force in N (tension positive).
+	Measured float64
+	// Predicted is the model's force in N including the estimated unknown
+	// loads, so that Measured - Predicted is the residual e.
+	Predicted float64
+	// SigmaResidual is the standard deviation of the residual e in N,
+	// sqrt((Q_e)_ii).
+	SigmaResidual float64
+	// W is Baarda's normalised residual e_i / sqrt((Q_e)_ii).
+	W float64
+	// Redundancy is the redundancy number r_i = (Q_e W)_ii, in [0, 1].
+	Redundancy float64
+	// MDB is the minimal detectable bias in N.
+	MDB float64
+	// Checkable is false when the redundancy is too small to test the
+	// member (or its gauge is missing in this epoch); such a member never
+	// alarms.
+	Checkable bool
+	// Alarm says whether an alarm on this member is active.
+	Alarm bool
+}
+
+// Fit is the global (chi-square) test of one epoch.
+type Fit struct {
+	// ChiSquare is T = e^T W e.
+	ChiSquare float64
+	// DOF is G - p, the degrees of freedom.
+	DOF int
+	// PValue is the chi-square survival probability of T.
+	PValue float64
+	// Alpha is the test's significance level.
+	Alpha float64
+	// Rejected says whether the global test rejected the model.
+	Rejected bool
+}
+
+// LoadEstimate is one estimated unknown load magnitude (theta_hat) with its
+// standard deviation.
+type LoadEstimate struct {
+	// Pattern is the load pattern's name.
+	Pattern string
+	// Value is the estimated magnitude in Unit.
+	Value float64
+	// StdDev is its standard deviation in Unit.
+	StdDev float64
+	// Unit of Value and StdDev, e.g. "N" or "1" for a pattern factor.
+	Unit string
+}
+
+// Series is the history of one gauged member.
+type Series struct {
+	// Structure and Member name the series.
+	Structure, Member string
+	// CriticalValue k of the w-test used for the band.
+	CriticalValue float64
+	// Points are the epochs, oldest first.
+	Points []SeriesPoint
+}
+
+// SeriesPoint is one epoch of a member's series.
+type SeriesPoint struct {
+	// Time is the epoch time.
+	Time time.Time
+	// Measured and Predicted forces in N; SigmaResidual in N.
+	Measured, Predicted, SigmaResidual float64
+	// W is the normalised residual.
+	W float64
+	// Checkable as in MemberState.
+	Checkable bool
+	// Alarm says whether an alarm on the member was active at Time.
+	Alarm bool
+}
+
+// Event is one alarm event (raised or cleared) with its evidence.
+type Event struct {
+	// Time the event happened.
+	Time time.Time
+	// Rule is the alarm rule's name.
+	Rule string
+	// Subject is what the rule is about: a member, gauge, channel or the
+	// structure.
+	Subject string
+	// Kind is "raised" or "cleared".
+	Kind string
+	// W is the normalised residual that raised it (0 when not applicable).
+	W float64
+	// Size is the estimated size of the deviation in SizeUnit.
+	Size float64
+	// SizeUnit is the unit of Size, e.g. "N".
+	SizeUnit string
+	// Message is a one-line human-readable summary.
+	Message string
+	// Causes are the top-ranked candidate causes, best first.
+	Causes []Cause
+}
+
+// Cause is one ranked candidate cause of a rejection.
+type Cause struct {
+	// Kind is the signature's kind, e.g. "gauge_fault", "stiffness_change",
+	// "support_settlement", "node_load".
+	Kind string
+	// Subject is the gauge, member, support or node concerned.
+	Subject string
+	// T is the test statistic T_c = (c^T W e)^2 / (c^T W Q_e W c).
+	T float64
+	// Size is the estimated size (c^T W e) / (c^T W Q_e W c) in Unit.
+	Size float64
+	// Unit of Size, e.g. "N", "1" (relative EA change), "m".
+	Unit string
+}

@@ -1,0 +1,214 @@
+package dashboard
+
+import (
+	"math"
+	"time"
+)
+
+// The JSON wire format of the API. Non-finite numbers (NaN, +-Inf) are
+// written as null, since JSON has no encoding for them; times are RFC 3339
+// in UTC with nanoseconds. docs/api.md documents these shapes.
+
+// num is a float64 that is null in JSON when not finite.
+type num = *float64
+
+func n(x float64) num {
+	if math.IsNaN(x) || math.IsInf(x, 0) {
+		return nil
+	}
+	return &x
+}
+
+type structuresJSON struct {
+	Structures []string `json:"structures"`
+}
+
+type errorJSON struct {
+	Error string `json:"error"`
+}
+
+type stateJSON struct {
+	Structure     string             `json:"structure"`
+	Title         string             `json:"title"`
+	ModelVersion  string             `json:"model_version"`
+	Epoch         *string            `json:"epoch"`
+	CriticalValue num                `json:"critical_value"`
+	Geometry      geometryJSON       `json:"geometry"`
+	Gauged        []memberStateJSON  `json:"gauged"`
+	Fit           fitJSON            `json:"fit"`
+	Loads         []loadEstimateJSON `json:"loads"`
+	Caution       string             `json:"caution"`
+}
+
+type geometryJSON struct {
+	Dimension int          `json:"dimension"`
+	Nodes     []nodeJSON   `json:"nodes"`
+	Members   []memberJSON `json:"members"`
+}
+
+type nodeJSON struct {
+	ID string `json:"id"`
+	X  num    `json:"x"`
+	Y  num    `json:"y"`
+	Z  num    `json:"z"`
+}
+
+type memberJSON struct {
+	ID     string `json:"id"`
+	Start  string `json:"start"`
+	End    string `json:"end"`
+	Gauged bool   `json:"gauged"`
+}
+
+type memberStateJSON struct {
+	ID            string `json:"id"`
+	Measured      num    `json:"measured_n"`
+	Predicted     num    `json:"predicted_n"`
+	SigmaResidual num    `json:"sigma_residual_n"`
+	BandLow       num    `json:"band_low_n"`
+	BandHigh      num    `json:"band_high_n"`
+	W             num    `json:"w"`
+	Redundancy    num    `json:"redundancy"`
+	MDB           num    `json:"mdb_n"`
+	Checkable     bool   `json:"checkable"`
+	Alarm         bool   `json:"alarm"`
+}
+
+type fitJSON struct {
+	ChiSquare num  `json:"chi_square"`
+	DOF       int  `json:"dof"`
+	PValue    num  `json:"p_value"`
+	Alpha     num  `json:"alpha"`
+	Rejected  bool `json:"rejected"`
+}
+
+type loadEstimateJSON struct {
+	Pattern string `json:"pattern"`
+	Value   num    `json:"value"`
+	StdDev  num    `json:"std_dev"`
+	Unit    string `json:"unit"`
+}
+
+type seriesJSON struct {
+	Structure     string            `json:"structure"`
+	Member        string            `json:"member"`
+	From          string            `json:"from"`
+	To            string            `json:"to"`
+	CriticalValue num               `json:"critical_value"`
+	Total         int               `json:"total_points"`
+	Points        []seriesPointJSON `json:"points"`
+}
+
+type seriesPointJSON struct {
+	Time          string `json:"time"`
+	Measured      num    `json:"measured_n"`
+	Predicted     num    `json:"predicted_n"`
+	SigmaResidual num    `json:"sigma_residual_n"`
+	BandLow       num    `json:"band_low_n"`
+	BandHigh      num    `json:"band_high_n"`
+	W             num    `json:"w"`
+	Checkable     bool   `json:"checkable"`
+	Alarm         bool   `json:"alarm"`
+}
+
+type eventsJSON struct {
+	Structure string      `json:"structure"`
+	From      string      `json:"from"`
+	To        string      `json:"to"`
+	Events    []eventJSON `json:"events"`
+}
+
+type eventJSON struct {
+	Time     string      `json:"time"`
+	Rule     string      `json:"rule"`
+	Subject  string      `json:"subject"`
+	Kind     string      `json:"kind"`
+	W        num         `json:"w"`
+	Size     num         `json:"size"`
+	SizeUnit string      `json:"size_unit"`
+	Message  string      `json:"message"`
+	Causes   []causeJSON `json:"causes"`
+}
+
+type causeJSON struct {
+	Kind    string `json:"kind"`
+	Subject string `json:"subject"`
+	T       num    `json:"t"`
+	Size    num    `json:"size"`
+	Unit    string `json:"unit"`
+}
+
+// timeText formats t as RFC 3339 with nanoseconds in UTC.
+func timeText(t time.Time) string { return t.UTC().Format(time.RFC3339Nano) }
+
+// band returns the acceptance band predicted -+ k sigma.
+func band(predicted, sigma, k float64) (lo, hi float64) {
+	return predicted - k*sigma, predicted + k*sigma
+}
+
+func toStateJSON(s State) stateJSON {
+	out := stateJSON{
+		Structure:     s.Structure,
+		Title:         s.Title,
+		ModelVersion:  s.ModelVersion,
+		CriticalValue: n(s.CriticalValue),
+		Geometry: geometryJSON{
+			Dimension: s.Geometry.Dimension,
+			Nodes:     make([]nodeJSON, 0, len(s.Geometry.Nodes)),
+			Members:   make([]memberJSON, 0, len(s.Geometry.Members)),
+		},
+		Gauged: make([]memberStateJSON, 0, len(s.Gauged)),
+		Fit: fitJSON{
+			ChiSquare: n(s.Fit.ChiSquare), DOF: s.Fit.DOF, PValue: n(s.Fit.PValue),
+			Alpha: n(s.Fit.Alpha), Rejected: s.Fit.Rejected,
+		},
+		Loads:   make([]loadEstimateJSON, 0, len(s.Loads)),
+		Caution: s.Caution,
+	}
+	if out.Caution == "" {
+		out.Caution = Caution
+	}
+	if !s.Epoch.IsZero() {
+		e := timeText(s.Epoch)
+		out.Epoch = &e
+	}
+	for _, nd := range s.Geometry.Nodes {
+		out.Geometry.Nodes = append(out.Geometry.Nodes, nodeJSON{ID: nd.ID, X: n(nd.X), Y: n(nd.Y), Z: n(nd.Z)})
+	}
+	for _, m := range s.Geometry.Members {
+		out.Geometry.Members = append(out.Geometry.Members, memberJSON{ID: m.ID, Start: m.Start, End: m.End, Gauged: m.Gauged})
+	}
+	for _, m := range s.Gauged {
+		lo, hi := band(m.Predicted, m.SigmaResidual, s.CriticalValue)
+		out.Gauged = append(out.Gauged, memberStateJSON{
+			ID: m.ID, Measured: n(m.Measured), Predicted: n(m.Predicted), SigmaResidual: n(m.SigmaResidual),
+			BandLow: n(lo), BandHigh: n(hi), W: n(m.W), Redundancy: n(m.Redundancy), MDB: n(m.MDB),
+			Checkable: m.Checkable, Alarm: m.Alarm,
+		})
+	}
+	for _, l := range s.Loads {
+		out.Loads = append(out.Loads, loadEstimateJSON{Pattern: l.Pattern, Value: n(l.Value), StdDev: n(l.StdDev), Unit: l.Unit})
+	}
+	return out
+}
+
+func toSeriesPointJSON(p SeriesPoint, k float64) seriesPointJSON {
+	lo, hi := band(p.Predicted, p.SigmaResidual, k)
+	return seriesPointJSON{
+		Time: timeText(p.Time), Measured: n(p.Measured), Predicted: n(p.Predicted),
+		SigmaResidual: n(p.SigmaResidual), BandLow: n(lo), BandHigh: n(hi), W: n(p.W),
+		Checkable: p.Checkable, Alarm: p.Alarm,
+	}
+}
+
+func toEventJSON(e Event) eventJSON {
+	out := eventJSON{
+		Time: timeText(e.Time), Rule: e.Rule, Subject: e.Subject, Kind: e.Kind,
+		W: n(e.W), Size: n(e.Size), SizeUnit: e.SizeUnit, Message: e.Message,
+		Causes: make([]causeJSON, 0, len(e.Causes)),
+	}
+	for _, c := range e.Causes {
+		out.Causes = append(out.Causes, causeJSON{Kind: c.Kind, Subject: c.Subject, T: n(c.T), Size: n(c.Size), Unit: c.Unit})
+	}
+	return out
+}
