@@ -214,7 +214,7 @@ var unitKeys = map[units.Dimension]string{
 // default unit) and returns it in SI.
 func (r *reader) quantity(n *yaml.Node, field string, dim units.Dimension) (float64, bool) {
 	if n.Kind != yaml.ScalarNode || isNull(n) {
-		r.errorf(n, field, "expected a %s such as \"%s\", found %s", dim, example(dim), kindName(n))
+		r.errorf(n, field, "expected a quantity of %s such as \"%s\", found %s", dim, example(dim), kindName(n))
 		return 0, false
 	}
 	def := r.units[dim]
@@ -231,7 +231,7 @@ func (r *reader) quantity(n *yaml.Node, field string, dim units.Dimension) (floa
 	case "!!str":
 		v, err = units.Parse(n.Value, dim, def)
 	default:
-		r.errorf(n, field, "expected a %s such as \"%s\", found %s", dim, example(dim), kindName(n))
+		r.errorf(n, field, "expected a quantity of %s such as \"%s\", found %s", dim, example(dim), kindName(n))
 		return 0, false
 	}
 	if err != nil {

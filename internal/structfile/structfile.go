@@ -45,6 +45,21 @@ func LoadFile(path string) (*model.Structure, error) {
 
 var yamlLine = regexp.MustCompile(`^yaml: line (\d+): (.*)$`)
 
+// parserProblems are the messages of the YAML parser stage (as opposed to
+// the scanner), whose line yaml.v3 reports counting from 0.
+var parserProblems = map[string]bool{
+	"did not find expected key":              true,
+	"did not find expected <document start>": true,
+	"did not find expected node content":     true,
+	"did not find expected ',' or '}'":       true,
+	"did not find expected ',' or ']'":       true,
+	"did not find expected '-' indicator":    true,
+	"found undefined tag handle":             true,
+	"found duplicate %YAML directive":        true,
+	"found incompatible YAML document":       true,
+	"found duplicate %TAG directive":         true,
+}
+
 // Parse reads and checks a structure file given as bytes; file names it in
 // messages and is stored in Structure.File. Hash is the hex SHA-256 of data.
 // On any problem it returns nil and an ErrorList.
@@ -58,7 +73,14 @@ func Parse(file string, data []byte) (s *model.Structure, err error) {
 		msg := perr.Error()
 		if m := yamlLine.FindStringSubmatch(msg); m != nil {
 			line, _ = strconv.Atoi(m[1])
-			msg = "YAML syntax: " + m[2]
+			if parserProblems[m[2]] {
+				// yaml.v3 reports parser (not scanner) errors with a
+				// 0-based line; make it 1-based like everything else.
+				line++
+				msg = "YAML syntax: " + m[2] + " (the line is where the enclosing list or mapping starts; the mistake is there or further down)"
+			} else {
+				msg = "YAML syntax: " + m[2]
+			}
 		}
 		return nil, ErrorList{{File: file, Line: line, Msg: msg, Err: perr}}
 	}

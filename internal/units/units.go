@@ -287,8 +287,8 @@ func Check(symbol string, dim Dimension) (Unit, error) {
 		return Unit{}, fmt.Errorf("%w %s; for %s use one of %s", ErrUnknownUnit, msg, dim, Symbols(dim))
 	}
 	if u.Dim != dim {
-		return Unit{}, fmt.Errorf("%w: %q is a unit of %s, expected a %s unit (one of %s)",
-			ErrWrongDimension, symbol, u.Dim, dim, Symbols(dim))
+		return Unit{}, fmt.Errorf("%w: %q is a unit of %s, expected %s %s unit (one of %s)",
+			ErrWrongDimension, symbol, u.Dim, article(dim.String()), dim, Symbols(dim))
 	}
 	return u, nil
 }
@@ -395,6 +395,14 @@ func scanNumber(s string) int {
 		}
 	}
 	return i
+}
+
+// article returns "an" before a vowel sound and "a" otherwise.
+func article(word string) string {
+	if word != "" && strings.ContainsRune("aeiou", rune(word[0])) {
+		return "an"
+	}
+	return "a"
 }
 
 func isDigit(c byte) bool { return c >= '0' && c <= '9' }

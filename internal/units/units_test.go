@@ -98,6 +98,7 @@ func TestParseErrors(t *testing.T) {
 		{"12 mN", Force, "", ErrUnknownUnit, []string{`"mN"`}},
 		{"12 mm", Force, "", ErrWrongDimension, []string{"length", "expected a force unit", "kN"}},
 		{"1 kPa", Stiffness, "", ErrWrongDimension, []string{"stress", "stiffness"}},
+		{"1 mm", Area, "", ErrWrongDimension, []string{"expected an area unit"}},
 		{"12", Force, "", ErrMissingUnit, []string{"no default force unit", "kN"}},
 		{"12", Force, "mm", ErrWrongDimension, []string{"length"}},
 		{"NaN kN", Force, "", ErrNotFinite, nil},
