@@ -1,0 +1,783 @@
+// Package ingest receives readings over MQTT and stores them durably,
+// exactly once, before acknowledging them.
+//
+// Flow: paho's message handler only puts the message on a bounded queue and
+// returns. One decoder goroutine turns each message into readings (SenML,
+// RFC 8428) and validates them against the structure's channel registry; one
+// committer goroutine takes what is queued (up to BatchSize messages),
+// writes the readings and the dead letters of all of them in one SQLite
+// transaction, and only then hands the messages, in arrival order, to the
+// acknowledger, which sends the PUBACKs. Nothing is acknowledged before it is
+// committed: a crash at any point leaves unacknowledged messages at the
+// broker, which redelivers them on the next connection (persistent session),
+// and the store's (channel, time) key drops the copies.
+//
+// Topics: shm/<structure>/<channel> carries a SenML pack whose records have
+// no name or the channel's name; shm/<structure> carries a pack whose records
+// are named by channel.
+//
+// Queue full: the handler never blocks paho's read loop (a blocked loop
+// stops keep-alive handling and the broker would drop the connection). The
+// queue is sized above the broker's per-client in-flight limit, so with a
+// correctly configured broker it cannot fill: the broker stops sending when
+// that many messages are unacknowledged. If it fills anyway, the message is
+// left unacknowledged (counted as a queue overflow) and, once the queue has
+// drained, the client reconnects so the broker redelivers it. Nothing is lost;
+// the price is duplicates, which the store ignores.
+package ingest
+
+import (
+	"context"
+	"crypto/tls"
+	"crypto/x509"
+	"errors"
+	"fmt"
+	"log/slog"
+	"math"
+	"os"
+	"strings"
+	"sync"
+	"sync/atomic"
+	"time"
+
+	paho "github.com/eclipse/paho.mqtt.golang"
+
+	"trussmonitor/internal/senml"
+	"trussmonitor/internal/store"
+)
+
+// Registry validates readings of one structure's channels. Errors should
+// implement Reason() string ("unknown_channel", "unit_mismatch",
+// "out_of_range", "not_finite"); others are counted as "invalid_reading".
+type Registry interface {
+	Validate(channel, unit string, value float64) error
+}
+
+// Observer receives ingest counts (metrics). Outcomes are "stored",
+// "duplicate", "rejected" (and "late", reported by the epoch assembler).
+// Rejected is called once per dead letter (one per message and reason).
+// Methods are called from ingest's goroutines and must not block.
+type Observer interface {
+	MessageHandled(structure, outcome string)
+	ReadingsHandled(structure, outcome string, n int)
+	Rejected(structure, reason string)
+	LastReading(structure, channel string, t time.Time)
+	BrokerDropped(n int)
+}
+
+// Message outcomes.
+const (
+	OutcomeStored    = "stored"
+	OutcomeDuplicate = "duplicate"
+	OutcomeRejected  = "rejected"
+	OutcomeLate      = "late"
+)
+
+// Rejection reasons of ingest's own (others come from senml and the registry).
+const (
+	ReasonOversized        = "oversized_payload"
+	ReasonBadTopic         = "bad_topic"
+	ReasonUnknownStructure = "unknown_structure"
+	ReasonUnknownChannel   = "unknown_channel"
+	ReasonNameMismatch     = "name_mismatch"
+	ReasonMissingName      = "missing_name"
+	ReasonAbsurdMagnitude  = "absurd_magnitude"
+	ReasonNotFinite        = "not_finite"
+	ReasonRelativeTime     = "relative_time"
+	ReasonTimeRange        = "bad_time"
+	ReasonEmptyPack        = "empty_pack"
+	ReasonInvalidReading   = "invalid_reading"
+)
+
+// Config configures the MQTT client and the ingest limits. Zero values take
+// the defaults named on each field.
+type Config struct {
+	// Broker is the broker URL: tcp://host:1883, or ssl://host:8883 (also
+	// tls://) for TLS.
+	Broker string `yaml:"broker"`
+	// ClientID is fixed so the broker keeps the session (and the messages
+	// queued while the monitor is down) between runs. Required.
+	ClientID string `yaml:"client_id"`
+	Username string `yaml:"username"`
+	Password string `yaml:"password"`
+	// CAFile is a PEM file of CA certificates trusted for the broker's
+	// certificate (system roots when empty).
+	CAFile string `yaml:"ca_file"`
+	// CertFile and KeyFile are the client certificate and key (PEM) for
+	// brokers that require client certificates.
+	CertFile string `yaml:"cert_file"`
+	KeyFile  string `yaml:"key_file"`
+	// ServerName overrides the name checked in the broker's certificate.
+	ServerName string `yaml:"server_name"`
+	// TopicPrefix is the first topic level. Default "shm".
+	TopicPrefix string `yaml:"topic_prefix"`
+	// MaxPayload is the largest accepted payload in bytes; larger ones are
+	// dead-lettered (truncated to this size). Default 1 MiB.
+	MaxPayload int `yaml:"max_payload"`
+	// QueueSize is the number of received messages waiting to be
+	// committed. Keep it above the broker's per-client in-flight limit.
+	// Default 65536.
+	QueueSize int `yaml:"queue_size"`
+	// BatchSize is the most messages committed in one transaction.
+	// Default 2000.
+	BatchSize int `yaml:"batch_size"`
+	// MaxAbsValue rejects readings whose magnitude exceeds it as absurd
+	// (before the registry's own range check). Default 1e12.
+	MaxAbsValue float64 `yaml:"max_abs_value"`
+	// AllowRelativeTime accepts SenML times relative to the receiver's
+	// clock (RFC 8428 section 4.5.3). Off by default: a redelivered
+	// relative-time reading gets a new timestamp and is stored twice.
+	AllowRelativeTime bool `yaml:"allow_relative_time"`
+	// ReconnectMin and ReconnectMax bound the reconnect backoff (doubling
+	// from min to max). Defaults 1 s and 30 s.
+	ReconnectMin time.Duration `yaml:"reconnect_min"`
+	ReconnectMax time.Duration `yaml:"reconnect_max"`
+	// KeepAlive is the MQTT keep-alive. Default 30 s.
+	KeepAlive time.Duration `yaml:"keep_alive"`
+	// LogEvery is the least time between two log lines of one rejection
+	// reason. Default 1 min.
+	LogEvery time.Duration `yaml:"log_every"`
+	// ShutdownTimeout bounds the final commit and acknowledgement on
+	// shutdown. Default 10 s.
+	ShutdownTimeout time.Duration `yaml:"shutdown_timeout"`
+}
+
+func (c *Config) setDefaults() {
+	if c.TopicPrefix == "" {
+		c.TopicPrefix = "shm"
+	}
+	if c.MaxPayload <= 0 {
+		c.MaxPayload = 1 << 20
+	}
+	if c.QueueSize <= 0 {
+		c.QueueSize = 65536
+	}
+	if c.BatchSize <= 0 {
+		c.BatchSize = 2000
+	}
+	if c.MaxAbsValue <= 0 {
+		c.MaxAbsValue = 1e12
+	}
+	if c.ReconnectMin <= 0 {
+		c.ReconnectMin = time.Second
+	}
+	if c.ReconnectMax <= 0 {
+		c.ReconnectMax = 30 * time.Second
+	}
+	if c.ReconnectMax < c.ReconnectMin {
+		c.ReconnectMax = c.ReconnectMin
+	}
+	if c.KeepAlive <= 0 {
+		c.KeepAlive = 30 * time.Second
+	}
+	if c.LogEvery <= 0 {
+		c.LogEvery = time.Minute
+	}
+	if c.ShutdownTimeout <= 0 {
+		c.ShutdownTimeout = 10 * time.Second
+	}
+}
+
+// Deps are the parts ingest works with.
+type Deps struct {
+	Store *store.Store
+	// Registries holds one channel registry per structure name; messages
+	// for other structures are rejected as "unknown_structure".
+	Registries map[string]Registry
+	Observer   Observer // may be nil
+	// OnCommitted receives the newly stored readings of each message after
+	// they are committed (duplicates left out), in arrival order. It runs
+	// on the committer goroutine: a slow callback slows ingestion.
+	OnCommitted func(structure string, rs []store.Reading)
+	// BrokerDrops, when set, is polled every second and increases are
+	// reported through Observer.BrokerDropped (e.g. broker.Broker.Dropped).
+	BrokerDrops func() int64
+	Logger      *slog.Logger     // nil discards
+	Now         func() time.Time // receiver clock; nil means time.Now
+}
+
+// Stats are ingest's running totals.
+type Stats struct {
+	Messages       int64 // messages received and processed
+	Stored         int64 // readings newly stored
+	Duplicates     int64 // readings already stored (redeliveries)
+	Rejected       map[string]int64
+	QueueOverflows int64 // messages left unacknowledged for redelivery
+	Commits        int64 // transactions
+	Connects       int64 // successful (re)connections
+}
+
+// Ingester is the MQTT-to-store ingestion. Create with New, start with Run.
+type Ingester struct {
+	cfg   Config
+	deps  Deps
+	obs   Observer
+	log   *slog.Logger
+	now   func() time.Time
+	tls   *tls.Config
+	limit *reasonLog
+
+	client paho.Client
+
+	qmu      sync.RWMutex // guards stopping and the send on queue
+	stopping bool
+	queue    chan received
+
+	overflow atomic.Bool
+	stats    struct {
+		sync.Mutex
+		Stats
+	}
+}
+
+type received struct {
+	msg paho.Message
+	at  time.Time
+}
+
+// New checks the configuration and prepares an Ingester.
+func New(cfg Config, deps Deps) (*Ingester, error) {
+	cfg.setDefaults()
+	if cfg.Broker == "" {
+		return nil, errors.New("ingest: config: broker URL is empty; set it, e.g. tcp://127.0.0.1:1883")
+	}
+	if cfg.ClientID == "" {
+		return nil, errors.New("ingest: config: client_id is empty; a fixed client id keeps the broker session (and the messages queued for it) between restarts")
+	}
+	if deps.Store == nil {
+		return nil, errors.New("ingest: no store")
+	}
+	if len(deps.Registries) == 0 {
+		return nil, errors.New("ingest: no structure registries; every structure whose readings are ingested needs one")
+	}
+	in := &Ingester{cfg: cfg, deps: deps, obs: deps.Observer, log: deps.Logger, now: deps.Now}
+	if in.obs == nil {
+		in.obs = nopObserver{}
+	}
+	if in.log == nil {
+		in.log = slog.New(slog.DiscardHandler)
+	}
+	if in.now == nil {
+		in.now = time.Now
+	}
+	in.limit = newReasonLog(cfg.LogEvery)
+	in.stats.Rejected = map[string]int64{}
+	if u := strings.ToLower(cfg.Broker); strings.HasPrefix(u, "ssl://") || strings.HasPrefix(u, "tls://") || strings.HasPrefix(u, "mqtts://") || cfg.CAFile != "" || cfg.CertFile != "" {
+		t, err := tlsConfig(cfg)
+		if err != nil {
+			return nil, err
+		}
+		in.tls = t
+	}
+	return in, nil
+}
+
+func tlsConfig(cfg Config) (*tls.Config, error) {
+	t := &tls.Config{MinVersion: tls.VersionTLS12, ServerName: cfg.ServerName}
+	if cfg.CAFile != "" {
+		pem, err := os.ReadFile(cfg.CAFile)
+		if err != nil {
+			return nil, fmt.Errorf("ingest: config: ca_file: %w", err)
+		}
+		pool := x509.NewCertPool()
+		if !pool.AppendCertsFromPEM(pem) {
+			return nil, fmt.Errorf("ingest: config: ca_file %s: no PEM certificates found", cfg.CAFile)
+		}
+		t.RootCAs = pool
+	}
+	if (cfg.CertFile == "") != (cfg.KeyFile == "") {
+		return nil, errors.New("ingest: config: cert_file and key_file go together; set both or neither")
+	}
+	if cfg.CertFile != "" {
+		c, err := tls.LoadX509KeyPair(cfg.CertFile, cfg.KeyFile)
+		if err != nil {
+			return nil, fmt.Errorf("ingest: config: client certificate %s / %s: %w", cfg.CertFile, cfg.KeyFile, err)
+		}
+		t.Certificates = []tls.Certificate{c}
+	}
+	return t, nil
+}
+
+// Stats returns a copy of the running totals.
+func (in *Ingester) Stats() Stats {
+	in.stats.Lock()
+	defer in.stats.Unlock()
+	s := in.stats.Stats
+	s.Rejected = make(map[string]int64, len(in.stats.Rejected))
+	for k, v := range in.stats.Rejected {
+		s.Rejected[k] = v
+	}
+	return s
+}
+
+func (in *Ingester) clientOptions() *paho.ClientOptions {
+	o := paho.NewClientOptions().
+		AddBroker(in.cfg.Broker).
+		SetClientID(in.cfg.ClientID).
+		SetCleanSession(false).
+		SetAutoAckDisabled(true).
+		SetOrderMatters(true).
+		SetAutoReconnect(true).
+		SetConnectRetry(true).
+		SetConnectRetryInterval(in.cfg.ReconnectMin).
+		SetMaxReconnectInterval(in.cfg.ReconnectMax).
+		SetKeepAlive(in.cfg.KeepAlive).
+		SetConnectTimeout(10 * time.Second)
+	if in.cfg.Username != "" {
+		o.SetUsername(in.cfg.Username).SetPassword(in.cfg.Password)
+	}
+	if in.tls != nil {
+		o.SetTLSConfig(in.tls)
+	}
+	// Messages the broker queued for the session arrive right after the
+	// CONNACK, before any SUBSCRIBE: the default handler takes them.
+	o.SetDefaultPublishHandler(in.onMessage)
+	o.SetOnConnectHandler(in.onConnect)
+	o.SetConnectionLostHandler(func(_ paho.Client, err error) {
+		in.log.Warn("MQTT connection lost; reconnecting", "broker", in.cfg.Broker, "err", err)
+	})
+	return o
+}
+
+// onConnect subscribes (again) on every connection. The broker keeps the
+// subscription in the persistent session; subscribing again is harmless
+// and covers a broker that lost its state.
+func (in *Ingester) onConnect(c paho.Client) {
+	in.stats.Lock()
+	in.stats.Connects++
+	in.stats.Unlock()
+	p := in.cfg.TopicPrefix
+	filters := map[string]byte{p + "/+": 1, p + "/+/+": 1}
+	tok := c.SubscribeMultiple(filters, nil)
+	go func() {
+		if !tok.WaitTimeout(30*time.Second) || tok.Error() != nil {
+			in.log.Error("MQTT subscribe failed; reconnecting", "broker", in.cfg.Broker, "filters", p+"/+ and "+p+"/+/+", "err", tok.Error())
+			return
+		}
+		in.log.Info("MQTT connected and subscribed", "broker", in.cfg.Broker, "client_id", in.cfg.ClientID)
+	}()
+}
+
+// onMessage is paho's handler: enqueue and return at once.
+func (in *Ingester) onMessage(_ paho.Client, m paho.Message) {
+	in.qmu.RLock()
+	defer in.qmu.RUnlock()
+	if in.stopping {
+		return // not acknowledged: the broker redelivers it next session
+	}
+	select {
+	case in.queue <- received{msg: m, at: in.now()}:
+	default:
+		in.overflow.Store(true)
+		in.stats.Lock()
+		in.stats.QueueOverflows++
+		in.stats.Unlock()
+		in.limit.log(in.log, "queue_full", "ingest queue full; message left unacknowledged for redelivery after a reconnect; raise queue_size above the broker's in-flight limit",
+			"queue_size", in.cfg.QueueSize, "topic", m.Topic())
+	}
+}
+
+// Run connects, ingests until ctx is cancelled, then stops taking messages,
+// commits and acknowledges what was queued, and disconnects. It returns nil
+// after a clean shutdown, or the error that stopped it.
+func (in *Ingester) Run(ctx context.Context) error {
+	in.queue = make(chan received, in.cfg.QueueSize)
+	decoded := make(chan decodedMsg, in.cfg.BatchSize)
+	acks := make(chan []paho.Message, 64)
+	in.client = paho.NewClient(in.clientOptions())
+	in.client.Connect() // retries in the background (SetConnectRetry)
+
+	var wg sync.WaitGroup
+	wg.Add(3)
+	go func() { defer wg.Done(); in.decodeLoop(in.queue, decoded) }()
+	var commitErr error
+	go func() { defer wg.Done(); commitErr = in.commitLoop(decoded, acks) }()
+	go func() { defer wg.Done(); in.ackLoop(acks) }()
+	pollDone := make(chan struct{})
+	if in.deps.BrokerDrops != nil {
+		go in.pollDrops(pollDone)
+	}
+
+	<-ctx.Done()
+	// Stop consumption: later messages stay unacknowledged at the broker.
+	in.qmu.Lock()
+	in.stopping = true
+	close(in.queue)
+	in.qmu.Unlock()
+	wg.Wait()
+	close(pollDone)
+	in.client.Disconnect(1000)
+	return commitErr
+}
+
+func (in *Ingester) pollDrops(done <-chan struct{}) {
+	t := time.NewTicker(time.Second)
+	defer t.Stop()
+	var last int64
+	for {
+		select {
+		case <-done:
+			return
+		case <-t.C:
+			n := in.deps.BrokerDrops()
+			if n > last {
+				in.obs.BrokerDropped(int(n - last))
+				in.log.Error("broker dropped QoS 1 messages (readings lost before reaching the monitor); raise the broker's in-flight and queue limits", "dropped", n-last, "total", n)
+			}
+			last = n
+		}
+	}
+}
+
+func (in *Ingester) decodeLoop(q <-chan received, out chan<- decodedMsg) {
+	defer close(out)
+	for r := range q {
+		out <- in.decode(r)
+	}
+}
+
+// commitLoop commits batches and passes the messages on for acknowledgement.
+func (in *Ingester) commitLoop(in2 <-chan decodedMsg, acks chan<- []paho.Message) error {
+	defer close(acks)
+	batch := make([]decodedMsg, 0, in.cfg.BatchSize)
+	for {
+		m, ok := <-in2
+		if !ok {
+			return nil
+		}
+		batch = append(batch[:0], m)
+	fill:
+		for len(batch) < in.cfg.BatchSize {
+			select {
+			case m, ok := <-in2:
+				if !ok {
+					break fill
+				}
+				batch = append(batch, m)
+			default:
+				break fill
+			}
+		}
+		if err := in.commitBatch(batch, acks); err != nil {
+			// Drain without acknowledging: the broker redelivers.
+			for range in2 {
+			}
+			return err
+		}
+		if in.overflow.Load() && len(in.queue) == 0 && len(in2) == 0 {
+			in.overflow.Store(false)
+			go in.reconnect()
+		}
+	}
+}
+
+// reconnect makes the broker redeliver messages that were left
+// unacknowledged when the queue overflowed.
+func (in *Ingester) reconnect() {
+	in.qmu.RLock()
+	stopping := in.stopping
+	in.qmu.RUnlock()
+	if stopping {
+		return
+	}
+	in.log.Warn("reconnecting to have the broker redeliver messages left unacknowledged on queue overflow")
+	in.client.Disconnect(1000)
+	in.client.Connect()
+}
+
+func (in *Ingester) ackLoop(acks <-chan []paho.Message) {
+	for ms := range acks {
+		for _, m := range ms {
+			m.Ack()
+		}
+	}
+}
+
+// commitBatch writes one batch, retrying while the store fails, then
+// queues the acknowledgements and runs the callbacks.
+func (in *Ingester) commitBatch(batch []decodedMsg, acks chan<- []paho.Message) error {
+	var b store.Batch
+	for _, m := range batch {
+		if len(m.readings) > 0 {
+			b.Groups = append(b.Groups, store.Group{Structure: m.structure, Readings: m.readings})
+		}
+		b.DeadLetters = append(b.DeadLetters, m.dead...)
+	}
+	var res store.CommitResult
+	var err error
+	deadline := time.Time{}
+	for attempt := 0; ; attempt++ {
+		ctx, cancel := context.WithTimeout(context.Background(), 30*time.Second)
+		res, err = in.deps.Store.Commit(ctx, b)
+		cancel()
+		if err == nil {
+			break
+		}
+		in.qmu.RLock()
+		stopping := in.stopping
+		in.qmu.RUnlock()
+		if stopping {
+			if deadline.IsZero() {
+				deadline = time.Now().Add(in.cfg.ShutdownTimeout)
+			}
+			if time.Now().After(deadline) {
+				return fmt.Errorf("ingest: commit of %d messages failed at shutdown; they stay unacknowledged and the broker redelivers them: %w", len(batch), err)
+			}
+		}
+		in.limit.log(in.log, "commit_failed", "ingest: commit failed; retrying, nothing acknowledged", "messages", len(batch), "err", err)
+		time.Sleep(min(time.Duration(1<<min(attempt, 6))*100*time.Millisecond, 5*time.Second))
+	}
+	ms := make([]paho.Message, len(batch))
+	for i, m := range batch {
+		ms[i] = m.raw
+	}
+	acks <- ms
+
+	// Counting and callbacks after the commit.
+	var stored, dups int64
+	g := 0
+	for _, m := range batch {
+		outcome := OutcomeRejected
+		if len(m.readings) > 0 {
+			n := res.Inserted[g]
+			newRs := m.readings
+			if n < len(m.readings) {
+				newRs = make([]store.Reading, 0, n)
+				for i, r := range m.readings {
+					if res.New[g][i] {
+						newRs = append(newRs, r)
+					}
+				}
+			}
+			g++
+			d := len(m.readings) - n
+			stored += int64(n)
+			dups += int64(d)
+			if n > 0 {
+				outcome = OutcomeStored
+				in.obs.ReadingsHandled(m.structure, OutcomeStored, n)
+				last := map[string]time.Time{}
+				for _, r := range newRs {
+					if r.Time.After(last[r.Channel]) {
+						last[r.Channel] = r.Time
+					}
+				}
+				for ch, t := range last {
+					in.obs.LastReading(m.structure, ch, t)
+				}
+			} else {
+				outcome = OutcomeDuplicate
+			}
+			if d > 0 {
+				in.obs.ReadingsHandled(m.structure, OutcomeDuplicate, d)
+			}
+			if n > 0 && in.deps.OnCommitted != nil {
+				in.deps.OnCommitted(m.structure, newRs)
+			}
+		}
+		if m.rejectedReadings > 0 {
+			in.obs.ReadingsHandled(m.structure, OutcomeRejected, m.rejectedReadings)
+		}
+		for _, d := range m.dead {
+			in.obs.Rejected(m.structure, d.Reason)
+		}
+		in.obs.MessageHandled(m.structure, outcome)
+	}
+	in.stats.Lock()
+	in.stats.Messages += int64(len(batch))
+	in.stats.Stored += stored
+	in.stats.Duplicates += dups
+	in.stats.Commits++
+	for _, m := range batch {
+		for _, d := range m.dead {
+			in.stats.Rejected[d.Reason]++
+		}
+	}
+	in.stats.Unlock()
+	return nil
+}
+
+// decodedMsg is one message after decoding and validation.
+type decodedMsg struct {
+	raw              paho.Message
+	structure        string
+	readings         []store.Reading
+	dead             []store.DeadLetter
+	rejectedReadings int
+}
+
+// rejection is a reason with its message.
+type rejection struct {
+	reason string
+	detail string
+}
+
+func reasonOf(err error, fallback string) string {
+	var r interface{ Reason() string }
+	if errors.As(err, &r) && r.Reason() != "" {
+		return r.Reason()
+	}
+	return fallback
+}
+
+// relativeLimit is 2^28 s: RFC 8428 section 4.5.3 reads smaller times as
+// relative to the receiver's clock.
+const relativeLimit = 1 << 28
+
+// decode turns one message into readings and dead letters.
+func (in *Ingester) decode(r received) decodedMsg {
+	m := r.msg
+	topic := m.Topic()
+	payload := m.Payload()
+	out := decodedMsg{raw: m}
+	reject := func(reason, detail string, n int) {
+		p := payload
+		if len(p) > in.cfg.MaxPayload {
+			p = p[:in.cfg.MaxPayload]
+		}
+		out.dead = append(out.dead, store.DeadLetter{Topic: topic, Received: r.at, Reason: reason, Detail: detail, Payload: append([]byte(nil), p...)})
+		out.rejectedReadings += n
+		in.limit.log(in.log, reason, "ingest: message rejected", "reason", reason, "topic", topic, "detail", detail)
+	}
+
+	structure, channel, err := in.parseTopic(topic)
+	out.structure = structure
+	if err != nil {
+		reject(ReasonBadTopic, err.Error(), 0)
+		return out
+	}
+	reg, ok := in.deps.Registries[structure]
+	if !ok {
+		reject(ReasonUnknownStructure, fmt.Sprintf("topic %s: structure %q is not configured; add its sensor map or fix the logger's topic", topic, structure), 0)
+		return out
+	}
+	if len(payload) > in.cfg.MaxPayload {
+		reject(ReasonOversized, fmt.Sprintf("topic %s: payload of %d bytes exceeds max_payload %d; split the pack or raise the limit", topic, len(payload), in.cfg.MaxPayload), 0)
+		return out
+	}
+	// With the receiver clock set to 2^28 s, a relative time (|t| < 2^28 s)
+	// resolves below 2^29 s (1987), where no logger's absolute time lies.
+	now := time.Unix(relativeLimit, 0).UTC()
+	if in.cfg.AllowRelativeTime {
+		now = r.at
+	}
+	recs, err := senml.Decode(payload, now)
+	if err != nil {
+		reject(reasonOf(err, "malformed_payload"), fmt.Sprintf("topic %s: %v", topic, err), 0)
+		return out
+	}
+	if len(recs) == 0 {
+		reject(ReasonEmptyPack, fmt.Sprintf("topic %s: SenML pack has no records", topic), 0)
+		return out
+	}
+	byReason := map[string][]string{}
+	var order []string
+	bad := func(reason, detail string) {
+		if _, seen := byReason[reason]; !seen {
+			order = append(order, reason)
+		}
+		byReason[reason] = append(byReason[reason], detail)
+	}
+	out.readings = make([]store.Reading, 0, len(recs))
+	for i, rec := range recs {
+		name := rec.Name
+		switch {
+		case channel != "" && name != "" && name != channel:
+			bad(ReasonNameMismatch, fmt.Sprintf("record %d names channel %q but the topic is channel %q", i, name, channel))
+			continue
+		case channel != "":
+			name = channel
+		case name == "":
+			bad(ReasonMissingName, fmt.Sprintf("record %d has no name; on topic %s every record must name its channel (n or bn+n)", i, topic))
+			continue
+		}
+		if math.IsNaN(rec.Value) || math.IsInf(rec.Value, 0) {
+			bad(ReasonNotFinite, fmt.Sprintf("record %d (channel %q): value %v is not finite", i, name, rec.Value))
+			continue
+		}
+		if math.Abs(rec.Value) > in.cfg.MaxAbsValue {
+			bad(ReasonAbsurdMagnitude, fmt.Sprintf("record %d (channel %q): |value| %g exceeds max_abs_value %g", i, name, rec.Value, in.cfg.MaxAbsValue))
+			continue
+		}
+		if !in.cfg.AllowRelativeTime && rec.Time.Unix() < 2*relativeLimit {
+			bad(ReasonRelativeTime, fmt.Sprintf("record %d (channel %q): time is relative to the receiver (below 2^28 s) or before 1987; the logger must send absolute times (bt/t, Unix seconds) so a redelivered reading is recognised", i, name))
+			continue
+		}
+		if rec.Time.Year() < 1971 || rec.Time.Year() > 2261 {
+			bad(ReasonTimeRange, fmt.Sprintf("record %d (channel %q): time %s outside 1971..2261, the range the store keeps", i, name, rec.Time.Format(time.RFC3339)))
+			continue
+		}
+		if err := reg.Validate(name, rec.Unit, rec.Value); err != nil {
+			bad(reasonOf(err, ReasonInvalidReading), fmt.Sprintf("record %d (channel %q): %v", i, name, err))
+			continue
+		}
+		out.readings = append(out.readings, store.Reading{Channel: name, Time: rec.Time, Value: rec.Value})
+	}
+	for _, reason := range order {
+		ds := byReason[reason]
+		detail := strings.Join(ds[:min(len(ds), 5)], "; ")
+		if len(ds) > 5 {
+			detail += fmt.Sprintf("; and %d more", len(ds)-5)
+		}
+		reject(reason, fmt.Sprintf("topic %s: %d of %d records rejected: %s", topic, len(ds), len(recs), detail), len(ds))
+	}
+	return out
+}
+
+// parseTopic splits prefix/structure[/channel].
+func (in *Ingester) parseTopic(topic string) (structure, channel string, err error) {
+	parts := strings.Split(topic, "/")
+	if parts[0] != in.cfg.TopicPrefix || len(parts) < 2 || len(parts) > 3 {
+		return "", "", fmt.Errorf("topic %q: want %s/<structure> or %s/<structure>/<channel>", topic, in.cfg.TopicPrefix, in.cfg.TopicPrefix)
+	}
+	structure = parts[1]
+	if structure == "" {
+		return "", "", fmt.Errorf("topic %q: empty structure level", topic)
+	}
+	if len(parts) == 3 {
+		channel = parts[2]
+		if channel == "" {
+			return structure, "", fmt.Errorf("topic %q: empty channel level", topic)
+		}
+	}
+	return structure, channel, nil
+}
+
+type nopObserver struct{}
+
+func (nopObserver) MessageHandled(string, string)         {}
+func (nopObserver) ReadingsHandled(string, string, int)   {}
+func (nopObserver) Rejected(string, string)               {}
+func (nopObserver) LastReading(string, string, time.Time) {}
+func (nopObserver) BrokerDropped(int)                     {}
+
+// reasonLog logs at most one line per reason per interval, with the count
+// of lines suppressed since.
+type reasonLog struct {
+	every time.Duration
+	mu    sync.Mutex
+	last  map[string]time.Time
+	quiet map[string]int
+}
+
+func newReasonLog(every time.Duration) *reasonLog {
+	return &reasonLog{every: every, last: map[string]time.Time{}, quiet: map[string]int{}}
+}
+
+func (l *reasonLog) log(lg *slog.Logger, reason, msg string, args ...any) {
+	l.mu.Lock()
+	now := time.Now()
+	if t, ok := l.last[reason]; ok && now.Sub(t) < l.every {
+		l.quiet[reason]++
+		l.mu.Unlock()
+		return
+	}
+	l.last[reason] = now
+	n := l.quiet[reason]
+	l.quiet[reason] = 0
+	l.mu.Unlock()
+	if n > 0 {
+		args = append(args, "suppressed_since_last", n)
+	}
+	lg.Warn(msg, args...)
+}
