@@ -1,0 +1,241 @@
+// Package report writes the replay report folder: index.html (self-contained,
+// inline CSS and SVG, no scripts, no network), epochs.csv and events.csv.
+//
+// The same Report gives byte-identical files: columns are in a fixed order,
+// floats are written with strconv 'g' -1 (shortest text that reads back to the
+// same float64), times as UTC RFC 3339 with nanoseconds, and nothing depends
+// on the wall clock or on map order. Long periods are reduced for the plots
+// (minimum and maximum per pixel column) so a day at 1 Hz stays small; the
+// CSV files keep every epoch.
+//
+// The report is a monitoring aid, not a safety verdict: decisions rest with a
+// licensed engineer under local codes.
+package report
+
+import (
+	"bytes"
+	"errors"
+	"fmt"
+	"os"
+	"path/filepath"
+	"time"
+)
+
+// Caution is the safety text printed in the report when Report.Caution is
+// empty.
+const Caution = "This report is a monitoring aid, not a safety verdict. An alarm, or the absence of one, " +
+	"does not establish that the structure is safe or unsafe. Decisions rest with a licensed engineer " +
+	"under local codes and the owner's inspection regime; the model is only as good as its inputs."
+
+// Report is one replayed period of one structure.
+type Report struct {
+	// Structure is the structure's name; Title a human-readable name.
+	Structure, Title string
+	// ModelVersion is the content hash of the model used for the replay.
+	ModelVersion string
+	// From and To bound the replayed period.
+	From, To time.Time
+	// CriticalValue k of Baarda's w-test (e.g. 3.29 for alpha0 = 0.001); the
+	// acceptance band is predicted +- k sigma_residual.
+	CriticalValue float64
+	// Alpha is the significance level of the global chi-square test.
+	Alpha float64
+	// Members are the gauged members' ids, in column order.
+	Members []string
+	// Patterns are the unknown load patterns estimated, in column order.
+	Patterns []Pattern
+	// Epochs are the reconciled epochs, oldest first.
+	Epochs []Epoch
+	// Events are the alarm events of the period, oldest first.
+	Events []Event
+	// Caution is the safety text; Caution is used when empty.
+	Caution string
+}
+
+// Pattern names one unknown load pattern and the unit of its magnitude.
+type Pattern struct {
+	Name string
+	// Unit of the estimate, e.g. "N" or "1" for a pattern factor.
+	Unit string
+}
+
+// Epoch is one reconciled epoch.
+type Epoch struct {
+	// Time of the epoch.
+	Time time.Time
+	// Members holds one result per Report.Members entry, in that order.
+	Members []MemberResult
+	// Fit is the global test of the epoch.
+	Fit Fit
+	// Loads holds one estimate per Report.Patterns entry, in that order.
+	Loads []LoadEstimate
+}
+
+// MemberResult is one gauged member in one epoch.
+type MemberResult struct {
+	// Present is false when the member's gauge did not report in the epoch;
+	// the other fields are then ignored and written empty.
+	Present bool
+	// Measured and Predicted axial force in N (tension positive); Predicted
+	// includes the estimated unknown loads, so Measured - Predicted is the
+	// residual e.
+	Measured, Predicted float64
+	// SigmaResidual is the standard deviation of e in N, sqrt((Q_e)_ii).
+	SigmaResidual float64
+	// W is Baarda's normalised residual.
+	W float64
+	// Checkable is false when the redundancy is too small to test the member.
+	Checkable bool
+}
+
+// Fit is the global (chi-square) test of one epoch.
+type Fit struct {
+	ChiSquare float64
+	DOF       int
+	PValue    float64
+	Rejected  bool
+}
+
+// LoadEstimate is one estimated unknown load magnitude and its standard
+// deviation. Present is false when the pattern was not estimated in the epoch.
+type LoadEstimate struct {
+	Present       bool
+	Value, StdDev float64
+}
+
+// Event is one alarm event with its evidence.
+type Event struct {
+	Time time.Time
+	// Rule is the alarm rule's name; Subject the member, gauge, channel or
+	// structure it concerns.
+	Rule, Subject string
+	// Kind is "raised" or "cleared".
+	Kind string
+	// W is the normalised residual that raised the event (NaN when none).
+	W float64
+	// Size is the estimated size of the deviation in SizeUnit.
+	Size     float64
+	SizeUnit string
+	// Message is a one-line summary.
+	Message string
+	// Causes are the ranked candidate causes, best first; the report shows
+	// the first three.
+	Causes []Cause
+}
+
+// Cause is one ranked candidate cause.
+type Cause struct {
+	// Kind of signature, e.g. "gauge_fault", "stiffness_change",
+	// "support_settlement", "node_load"; Subject the item concerned.
+	Kind, Subject string
+	// T is the test statistic (c^T W e)^2 / (c^T W Q_e W c).
+	T float64
+	// Size is the estimated size (c^T W e) / (c^T W Q_e W c) in Unit.
+	Size float64
+	Unit string
+}
+
+// File names written by Write.
+const (
+	HTMLFile   = "index.html"
+	EpochsFile = "epochs.csv"
+	EventsFile = "events.csv"
+)
+
+// Write writes index.html, epochs.csv and events.csv into dir, creating it
+// if needed. Each file is written to a temporary name and renamed, so a
+// reader never sees half a file.
+func Write(dir string, r *Report) error {
+	if r == nil {
+		return errors.New("report: nothing to write (nil report)")
+	}
+	if err := r.validate(); err != nil {
+		return fmt.Errorf("report for %q: %w", r.Structure, err)
+	}
+	if err := os.MkdirAll(dir, 0o755); err != nil {
+		return fmt.Errorf("report: creating folder %s: %w", dir, err)
+	}
+	files := []struct {
+		name  string
+		write func(*bytes.Buffer, *Report) error
+	}{
+		{EpochsFile, writeEpochsCSV},
+		{EventsFile, writeEventsCSV},
+		{HTMLFile, writeHTML},
+	}
+	for _, f := range files {
+		var buf bytes.Buffer
+		if err := f.write(&buf, r); err != nil {
+			return fmt.Errorf("report: %s: %w", f.name, err)
+		}
+		if err := writeFileAtomic(filepath.Join(dir, f.name), buf.Bytes()); err != nil {
+			return fmt.Errorf("report: %w", err)
+		}
+	}
+	return nil
+}
+
+// validate checks that every epoch's rows line up with the column lists.
+func (r *Report) validate() error {
+	seen := make(map[string]bool, len(r.Members))
+	for _, m := range r.Members {
+		if m == "" {
+			return errors.New("a member id is empty; every gauged member needs its id")
+		}
+		if seen[m] {
+			return fmt.Errorf("member %q is listed twice in Members", m)
+		}
+		seen[m] = true
+	}
+	for i, e := range r.Epochs {
+		if len(e.Members) != len(r.Members) {
+			return fmt.Errorf("epoch %d (%s) has %d member results for %d members; give one per Report.Members entry",
+				i, timeText(e.Time), len(e.Members), len(r.Members))
+		}
+		if len(e.Loads) != len(r.Patterns) {
+			return fmt.Errorf("epoch %d (%s) has %d load estimates for %d patterns; give one per Report.Patterns entry",
+				i, timeText(e.Time), len(e.Loads), len(r.Patterns))
+		}
+		if i > 0 && e.Time.Before(r.Epochs[i-1].Time) {
+			return fmt.Errorf("epoch %d (%s) is earlier than epoch %d (%s); epochs must be oldest first",
+				i, timeText(e.Time), i-1, timeText(r.Epochs[i-1].Time))
+		}
+	}
+	return nil
+}
+
+func writeFileAtomic(path string, data []byte) error {
+	tmp, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".*")
+	if err != nil {
+		return fmt.Errorf("writing %s: %w", path, err)
+	}
+	name := tmp.Name()
+	if _, err := tmp.Write(data); err != nil {
+		tmp.Close()
+		os.Remove(name)
+		return fmt.Errorf("writing %s: %w", path, err)
+	}
+	if err := tmp.Close(); err != nil {
+		os.Remove(name)
+		return fmt.Errorf("writing %s: %w", path, err)
+	}
+	if err := os.Chmod(name, 0o644); err != nil {
+		os.Remove(name)
+		return fmt.Errorf("writing %s: %w", path, err)
+	}
+	if err := os.Rename(name, path); err != nil {
+		os.Remove(name)
+		return fmt.Errorf("writing %s: %w", path, err)
+	}
+	return nil
+}
+
+// timeText formats t as UTC RFC 3339 with nanoseconds.
+func timeText(t time.Time) string { return t.UTC().Format(time.RFC3339Nano) }
+
+func (r *Report) caution() string {
+	if r.Caution != "" {
+		return r.Caution
+	}
+	return Caution
+}
