@@ -15,7 +15,7 @@ type testStructure struct {
 	groups   []string
 }
 
-func (s testStructure) HasMember(id string) bool   { _, ok := s.members[id]; return ok }
+func (s testStructure) HasMember(id string) bool    { _, ok := s.members[id]; return ok }
 func (s testStructure) HasPattern(name string) bool { return contains(s.patterns, name) }
 func (s testStructure) HasGroup(name string) bool   { return contains(s.groups, name) }
 func (s testStructure) MemberProperties(id string) (e, a, alpha float64, ok bool) {
