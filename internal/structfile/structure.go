@@ -42,6 +42,7 @@ type state struct {
 	members   map[string]int
 	memberMat []*material
 	groupLine map[string]int
+	inGroup   map[string]map[int]bool
 	supports  map[int]int  // node index -> index in st.Supports
 	badNode   map[int]bool // nodes whose coordinates did not read
 }
@@ -66,6 +67,7 @@ func (r *reader) structure(root *yaml.Node) *model.Structure {
 		sections:  map[string]*section{},
 		members:   map[string]int{},
 		groupLine: map[string]int{},
+		inGroup:   map[string]map[int]bool{},
 		supports:  map[int]int{},
 		badNode:   map[int]bool{},
 	}
@@ -470,12 +472,16 @@ func (r *reader) groupsMembers(s *state, n *yaml.Node) {
 
 // addToGroup adds member mi to group name, rejecting repeats.
 func (r *reader) addToGroup(s *state, name string, mi int, at *yaml.Node, field string) {
-	for _, x := range s.st.Groups[name] {
-		if x == mi {
-			r.errorf(at, field, "member %q is already in group %q", s.st.Members[mi].ID, name)
-			return
-		}
+	set := s.inGroup[name]
+	if set == nil {
+		set = map[int]bool{}
+		s.inGroup[name] = set
 	}
+	if set[mi] {
+		r.errorf(at, field, "member %q is already in group %q", s.st.Members[mi].ID, name)
+		return
+	}
+	set[mi] = true
 	s.st.Groups[name] = append(s.st.Groups[name], mi)
 }
 
@@ -1036,35 +1042,11 @@ func (r *reader) geometry(s *state) {
 		}
 	}
 	tol := 1e-9 * dist(lo, hi)
-	order := make([]int, 0, len(nodes))
-	for i := range nodes {
-		if !s.badNode[i] {
-			order = append(order, i)
-		}
+	if math.IsInf(tol, 0) {
+		r.errorAt(nodes[0].Line, "nodes", "the coordinates span more than 1e150 m; check the units")
+		return
 	}
-	sort.Slice(order, func(a, b int) bool {
-		if nodes[order[a]].X[0] != nodes[order[b]].X[0] {
-			return nodes[order[a]].X[0] < nodes[order[b]].X[0]
-		}
-		return order[a] < order[b]
-	})
-	reported := 0
-	for a := 0; a < len(order) && reported < 100; a++ {
-		for b := a + 1; b < len(order); b++ {
-			p, q := nodes[order[a]], nodes[order[b]]
-			if q.X[0]-p.X[0] > tol {
-				break
-			}
-			if dist(p.X, q.X) <= tol {
-				first, second := p, q
-				if order[b] < order[a] {
-					first, second = q, p
-				}
-				r.errorAt(second.Line, "nodes["+second.ID+"].at", "node %q is at the same position as node %q (line %d); merge them or correct the coordinates", second.ID, first.ID, first.Line)
-				reported++
-			}
-		}
-	}
+	r.coincident(s, lo, tol)
 	for _, m := range s.st.Members {
 		if m.I < 0 || m.J < 0 || m.I == m.J || s.badNode[m.I] || s.badNode[m.J] {
 			continue
@@ -1072,6 +1054,52 @@ func (r *reader) geometry(s *state) {
 		if dist(nodes[m.I].X, nodes[m.J].X) <= tol {
 			r.errorAt(m.Line, "members["+m.ID+"]", "member has zero length: nodes %q and %q are at the same position", nodes[m.I].ID, nodes[m.J].ID)
 		}
+	}
+}
+
+// coincident reports nodes closer than tol to an earlier node. It hashes
+// the nodes into cells of side tol (relative to the lower corner lo of the
+// bounding box, so the cell numbers stay small) and compares each node with
+// the nodes of its own and the neighbouring cells: linear time for any
+// layout. At most 100 problems are reported.
+func (r *reader) coincident(s *state, lo [3]float64, tol float64) {
+	type cell [3]int64
+	nodes := s.st.Nodes
+	cellOf := func(x [3]float64) cell {
+		var c cell
+		if tol == 0 {
+			return c
+		}
+		for k := 0; k < 3; k++ {
+			c[k] = int64(math.Floor((x[k] - lo[k]) / tol))
+		}
+		return c
+	}
+	grid := make(map[cell][]int, len(nodes))
+	reported := 0
+	for i, n := range nodes {
+		if s.badNode[i] {
+			continue
+		}
+		c := cellOf(n.X)
+	search:
+		for dx := int64(-1); dx <= 1; dx++ {
+			for dy := int64(-1); dy <= 1; dy++ {
+				for dz := int64(-1); dz <= 1; dz++ {
+					for _, j := range grid[cell{c[0] + dx, c[1] + dy, c[2] + dz}] {
+						if dist(nodes[j].X, n.X) <= tol {
+							r.errorAt(n.Line, "nodes["+n.ID+"].at", "node %q is at the same position as node %q (line %d); merge them or correct the coordinates", n.ID, nodes[j].ID, nodes[j].Line)
+							reported++
+							break search
+						}
+					}
+				}
+			}
+		}
+		if reported >= 100 {
+			return
+		}
+		grid[c] = append(grid[c], i)
 	}
 }
 
