@@ -709,6 +709,7 @@ func (r *reader) patterns(s *state, n *yaml.Node) {
 		}
 		seen[name] = it.Line
 		p := model.Pattern{Name: name, Line: it.Line}
+		errsBefore := len(r.errs)
 		if d, ok := m["description"]; ok {
 			r.str(d, f+".description")
 		}
@@ -732,11 +733,8 @@ func (r *reader) patterns(s *state, n *yaml.Node) {
 		if v, ok := m["settlements"]; ok {
 			r.settlements(s, &p, v, f+".settlements")
 		}
-		_, hasF := m["forces"]
-		_, hasT := m["temperatures"]
-		_, hasS := m["settlements"]
-		_, hasW := m["self_weight"]
-		if !hasF && !hasT && !hasS && !hasW {
+		if len(r.errs) == errsBefore && p.SelfWeight == 0 && len(p.Forces) == 0 &&
+			len(p.Temperatures) == 0 && len(p.Settlements) == 0 {
 			r.errorf(it, f, "pattern has no loads; give self_weight:, forces:, temperatures: or settlements:")
 		}
 		s.st.Patterns = append(s.st.Patterns, p)
@@ -1047,6 +1045,7 @@ func (r *reader) geometry(s *state) {
 		return
 	}
 	r.coincident(s, lo, tol)
+	r.parallelMembers(s)
 	for _, m := range s.st.Members {
 		if m.I < 0 || m.J < 0 || m.I == m.J || s.badNode[m.I] || s.badNode[m.J] {
 			continue
@@ -1054,6 +1053,26 @@ func (r *reader) geometry(s *state) {
 		if dist(nodes[m.I].X, nodes[m.J].X) <= tol {
 			r.errorAt(m.Line, "members["+m.ID+"]", "member has zero length: nodes %q and %q are at the same position", nodes[m.I].ID, nodes[m.J].ID)
 		}
+	}
+}
+
+// parallelMembers reports a member joining the same two nodes as an
+// earlier one: in a pin-jointed model that is one member (with the summed
+// area) or, far more often, a typing mistake in an end node.
+func (r *reader) parallelMembers(s *state) {
+	type pair [2]int
+	first := make(map[pair]int, len(s.st.Members))
+	for k, m := range s.st.Members {
+		if m.I < 0 || m.J < 0 || m.I == m.J {
+			continue
+		}
+		key := pair{min(m.I, m.J), max(m.I, m.J)}
+		if j, dup := first[key]; dup {
+			o := s.st.Members[j]
+			r.errorAt(m.Line, "members["+m.ID+"]", "member joins the same nodes %q and %q as member %q (line %d); correct an end node, or model them as one member", s.st.Nodes[m.I].ID, s.st.Nodes[m.J].ID, o.ID, o.Line)
+			continue
+		}
+		first[key] = k
 	}
 }
 

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"io/fs"
 	"math"
+	"os"
 	"path/filepath"
 	"sort"
 	"strings"
@@ -340,5 +341,36 @@ func TestRoofLoads(t *testing.T) {
 	}
 	if s.Gravity != [3]float64{0, 0, -1} {
 		t.Errorf("gravity %v", s.Gravity)
+	}
+}
+
+// TestDocExample parses the full example of docs/structure-file.md, so the
+// documentation cannot drift from the reader.
+func TestDocExample(t *testing.T) {
+	doc, err := os.ReadFile("../../docs/structure-file.md")
+	if err != nil {
+		t.Fatal(err)
+	}
+	text := string(doc)
+	start := strings.Index(text, "```yaml\n")
+	if start < 0 {
+		t.Fatal("no yaml block in docs/structure-file.md")
+	}
+	body := text[start+len("```yaml\n"):]
+	body = body[:strings.Index(body, "```")]
+	s, err := Parse("docs/structure-file.md", []byte(body))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(s.Nodes) != 4 || len(s.Members) != 5 || len(s.Patterns) != 4 || len(s.Cases) != 2 {
+		t.Errorf("doc example: %d nodes, %d members, %d patterns, %d cases", len(s.Nodes), len(s.Members), len(s.Patterns), len(s.Cases))
+	}
+	k, _ := s.NodeIndex("L2")
+	if s.Nodes[k].X[0] != 6 {
+		t.Errorf("6000 mm read as %v m", s.Nodes[k].X[0])
+	}
+	p, _ := s.PatternIndex("temp_chords")
+	if got := s.Patterns[p].Temperatures; len(got) != 3 || got[2].DeltaK != 0.5 {
+		t.Errorf("temperatures %+v", got)
 	}
 }

@@ -174,6 +174,8 @@ func TestValidationErrors(t *testing.T) {
 		{"unknown top-level field", 1, "name: t\nloads: []", 2, "loads", `unknown field "loads"`},
 		{"missing required field", 11, "  - {id: s, material: steel}", 11, "sections[s].area", "required field is missing"},
 		{"pattern without loads", 22, "  - {name: p}", 22, "patterns[p]", "pattern has no loads"},
+		{"pattern with empty lists", 22, "  - {name: p, forces: [], self_weight: 0}", 22, "patterns[p]", "pattern has no loads"},
+		{"parallel members", 17, "  - {id: AC, from: C, to: B, section: s}", 17, "members[AC]", `member joins the same nodes "C" and "B" as member "BC" (line 16)`},
 		{"force without components", 22, "  - {name: p, forces: [{node: C}]}", 22, "patterns[p].forces[0]", "no force component given"},
 		{"temperature without target", 23, "  - {name: t, temperatures: [{change: 5 K}]}", 23, "patterns[t].temperatures[0]", "give groups: or members:"},
 		{"unknown is not a boolean", 22, "  - {name: p, unknown: maybe, forces: [{node: C, y: -10}]}", 22, "patterns[p].unknown", "expected true or false"},
