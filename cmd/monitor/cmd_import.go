@@ -99,7 +99,17 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) int
 		fmt.Fprintf(stderr, "monitor import: %v\n", err)
 		return 1
 	}
-	m, err := sensors.LoadFile(*sensorPath, st)
+	data, err := os.ReadFile(*sensorPath)
+	if err != nil {
+		fmt.Fprintf(stderr, "monitor import: sensor map: %v\n", err)
+		return 1
+	}
+	if name := sensors.StructureNameOf(data); name != "" && name != st.Name {
+		fmt.Fprintf(stderr, "monitor import: %s is the sensor map of %q but %s is structure %q; give the matching pair\n",
+			*sensorPath, name, *structPath, st.Name)
+		return 1
+	}
+	m, err := sensors.Parse(*sensorPath, data, st)
 	if err != nil {
 		fmt.Fprintf(stderr, "monitor import: %v\n", err)
 		return 1

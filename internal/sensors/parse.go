@@ -40,6 +40,20 @@ func Parse(file string, data []byte, st Structure) (*Map, error) {
 	return m, nil
 }
 
+// StructureNameOf returns the top-level "structure" field of sensor-map data
+// without validating anything else, or "" when there is none. Callers use it
+// to tell a mismatched pair of files apart before the full validation
+// reports every reference the wrong structure lacks.
+func StructureNameOf(data []byte) string {
+	var top struct {
+		Structure string `yaml:"structure"`
+	}
+	if err := yaml.Unmarshal(data, &top); err != nil {
+		return ""
+	}
+	return top.Structure
+}
+
 type parser struct {
 	file string
 	st   Structure

@@ -363,3 +363,12 @@ func FuzzParse(f *testing.F) {
 		}
 	})
 }
+
+func TestStructureNameOf(t *testing.T) {
+	if got := StructureNameOf([]byte(smallMap)); got != "test-truss" {
+		t.Errorf("got %q", got)
+	}
+	if got := StructureNameOf([]byte("[")); got != "" {
+		t.Errorf("got %q from broken YAML", got)
+	}
+}
