@@ -1,0 +1,290 @@
+package reconcile
+
+import (
+	"errors"
+	"fmt"
+	"sort"
+
+	"gonum.org/v1/gonum/stat/distuv"
+)
+
+// Kind is the kind of a candidate cause; it fixes the unit of its size.
+type Kind int
+
+// Kinds of candidate cause.
+const (
+	// GaugeFault is a bias of one gauge; signature: the unit vector of that
+	// gauged member; size in newtons.
+	GaugeFault Kind = iota + 1
+	// StiffnessChange is a relative change of one member's axial stiffness
+	// E A; signature: d(measured forces)/d(E A / E A0) at the current state,
+	// newtons per unit fraction; size as a fraction, shown in percent.
+	StiffnessChange
+	// SupportSettlement is a displacement of a support; signature in
+	// newtons per metre; size in metres, shown in millimetres.
+	SupportSettlement
+	// NodalLoad is an unmodelled force at one node in one direction;
+	// signature in newtons per newton; size in newtons.
+	NodalLoad
+)
+
+// String returns the kind's plain name.
+func (k Kind) String() string {
+	switch k {
+	case GaugeFault:
+		return "gauge_fault"
+	case StiffnessChange:
+		return "stiffness_change"
+	case SupportSettlement:
+		return "support_settlement"
+	case NodalLoad:
+		return "nodal_load"
+	}
+	return fmt.Sprintf("kind(%d)", int(k))
+}
+
+// Display returns the factor from the SI size to the displayed size and
+// the displayed unit: newtons for gauge faults and loads, percent of E A for
+// stiffness changes, millimetres for settlements.
+func (k Kind) Display() (scale float64, unit string) {
+	switch k {
+	case StiffnessChange:
+		return 100, "%"
+	case SupportSettlement:
+		return 1000, "mm"
+	default:
+		return 1, "N"
+	}
+}
+
+// Candidate is a hypothesis for what went wrong: a signature over the G
+// gauged members (the change of the measured forces per unit size of the
+// cause). Entries of unavailable members are ignored.
+type Candidate struct {
+	Kind      Kind
+	Label     string // e.g. "gauge B4", "E A of D2", "settlement L8 y"
+	Signature []float64
+}
+
+// Cause is the test of one candidate in one epoch (or over a window):
+//
+//	T_c  = (c^T W e)^2 / (c^T W Q_e W c)     ~ chi-square(1) without the cause
+//	size = (c^T W e) / (c^T W Q_e W c)
+//
+// Num and Den are the numerator c^T W e and the denominator c^T W Q_e W c.
+type Cause struct {
+	Kind        Kind
+	Label       string
+	T           float64 // test statistic (0 when not separable)
+	PValue      float64 // P(chi-square(1) > T)
+	Size        float64 // estimated size in SI (N, fraction, m)
+	DisplaySize float64 // Size in the displayed unit
+	DisplayUnit string  // "N", "%" or "mm"
+	// Separable is false when the signature lies (numerically) in the span
+	// of the unknown loads, or does not touch any available gauge: the data
+	// cannot tell this cause from a change of the estimated loads.
+	Separable bool
+	Num, Den  float64
+	sig2      float64 // c^T W c over the available gauges
+	Epochs    int     // epochs accumulated (1 for a single epoch)
+}
+
+// SeparableTol is the fraction of a signature's weighted norm that must
+// remain after projecting out the unknown loads, (c^T W Q_e W c) /
+// (c^T W c), for the candidate to be separable.
+const SeparableTol = 1e-6
+
+var chi1 = distuv.ChiSquared{K: 1}
+
+// Causes tests every candidate against this epoch's adjusted residuals and
+// returns them ranked (largest T_c first; non-separable ones last, in
+// input order).
+func (r *Result) Causes(cands []Candidate) ([]Cause, error) {
+	if r.plan == nil {
+		return nil, errors.New("reconcile: Causes on a Result that did not come from Solver.Epoch")
+	}
+	g := len(r.plan.mask)
+	pl := r.plan
+	pe := len(pl.est)
+	out := make([]Cause, len(cands))
+	cw := make([]float64, len(pl.idx))
+	qtc := make([]float64, pe)
+	sigma := pl.sigma
+	for n, c := range cands {
+		if len(c.Signature) != g {
+			return nil, fmt.Errorf("reconcile: candidate %q has a signature of %d entries; want %d (one per gauged member)", c.Label, len(c.Signature), g)
+		}
+		// Whitened signature cw = W^1/2 c over available rows.
+		num, sig2 := 0.0, 0.0
+		for k, i := range pl.idx {
+			v := c.Signature[i]
+			if !isFinite(v) {
+				return nil, fmt.Errorf("reconcile: candidate %q: signature entry %d is %v; want finite", c.Label, i, v)
+			}
+			cw[k] = v / sigma[i]
+			sig2 += cw[k] * cw[k]
+			num += cw[k] * r.ew[i]
+		}
+		// Den = |(I - Q Q^T) cw|^2 = |cw|^2 - |Q^T cw|^2, computed as the
+		// norm of the projected vector for accuracy.
+		for b := range qtc {
+			qtc[b] = 0
+		}
+		for k := range pl.idx {
+			row := pl.q[k*pe : k*pe+pe]
+			for b, v := range row {
+				qtc[b] += v * cw[k]
+			}
+		}
+		den := 0.0
+		for k := range pl.idx {
+			row := pl.q[k*pe : k*pe+pe]
+			pv := cw[k]
+			for b, v := range row {
+				pv -= v * qtc[b]
+			}
+			den += pv * pv
+		}
+		out[n] = finishCause(c.Kind, c.Label, num, den, sig2, 1)
+	}
+	rankCauses(out)
+	return out, nil
+}
+
+// finishCause turns the accumulated numerator and denominator into the
+// test statistic and size.
+func finishCause(kind Kind, label string, num, den, sig2 float64, epochs int) Cause {
+	c := Cause{Kind: kind, Label: label, Num: num, Den: den, sig2: sig2, Epochs: epochs, PValue: 1}
+	scale, unit := kind.Display()
+	c.DisplayUnit = unit
+	if sig2 > 0 && den > SeparableTol*sig2 {
+		c.Separable = true
+		c.T = num * num / den
+		c.Size = num / den
+		c.DisplaySize = c.Size * scale
+		c.PValue = chi1.Survival(c.T)
+	}
+	return c
+}
+
+// rankCauses sorts by T_c descending, separable first; stable so ties and
+// non-separable candidates keep their input order.
+func rankCauses(cs []Cause) {
+	sort.SliceStable(cs, func(i, j int) bool {
+		if cs[i].Separable != cs[j].Separable {
+			return cs[i].Separable
+		}
+		return cs[i].T > cs[j].T
+	})
+}
+
+// GaugeFaults returns the gauge-fault candidates of the G gauged members
+// (unit signatures), labelled "gauge <name>".
+func GaugeFaults(names []string) []Candidate {
+	out := make([]Candidate, len(names))
+	for i, n := range names {
+		sig := make([]float64, len(names))
+		sig[i] = 1
+		out[i] = Candidate{Kind: GaugeFault, Label: "gauge " + n, Signature: sig}
+	}
+	return out
+}
+
+// WindowRanker accumulates cause statistics over the last N epochs so that
+// a persistent cause rises above the noise. For each candidate (by label)
+// it sums the per-epoch numerators n_k = c_k^T W e_k and denominators d_k =
+// c_k^T W Q_e,k W c_k and reports
+//
+//	T_window = (sum n_k)^2 / (sum d_k),   size = (sum n_k) / (sum d_k).
+//
+// Epochs are independent, so without the cause sum n_k has mean 0 and
+// variance sum d_k: T_window is again chi-square(1), and size is the
+// weighted least-squares estimate of a cause of constant size over the
+// window (the signature itself may change between epochs, as a stiffness
+// sensitivity does with the load state). For a cause of size b its mean
+// grows as b^2 sum d_k, i.e. linearly with the number of epochs.
+// WindowRanker is not safe for concurrent use.
+type WindowRanker struct {
+	n    int
+	ring [][]Cause
+	pos  int
+	full bool
+}
+
+// NewWindowRanker returns a ranker over the last n epochs (n >= 1).
+func NewWindowRanker(n int) (*WindowRanker, error) {
+	if n < 1 {
+		return nil, fmt.Errorf("reconcile: cause window of %d epochs; want at least 1", n)
+	}
+	return &WindowRanker{n: n, ring: make([][]Cause, n)}, nil
+}
+
+// Add records one epoch's causes (as returned by Result.Causes); the
+// slice is copied.
+func (w *WindowRanker) Add(causes []Cause) {
+	w.ring[w.pos] = append(w.ring[w.pos][:0], causes...)
+	w.pos++
+	if w.pos == w.n {
+		w.pos = 0
+		w.full = true
+	}
+}
+
+// Reset forgets all epochs (for example after a model change).
+func (w *WindowRanker) Reset() {
+	for i := range w.ring {
+		w.ring[i] = w.ring[i][:0]
+	}
+	w.pos, w.full = 0, false
+}
+
+// Ranked returns the window statistics of every candidate seen in the
+// window, ranked as Result.Causes ranks (largest T first, non-separable
+// last, then by label).
+func (w *WindowRanker) Ranked() []Cause {
+	type acc struct {
+		kind           Kind
+		num, den, sig2 float64
+		epochs         int
+		first          int
+	}
+	sums := map[string]*acc{}
+	var labels []string
+	n := w.pos
+	if w.full {
+		n = w.n
+	}
+	for k := 0; k < n; k++ {
+		idx := k
+		if w.full {
+			idx = (w.pos + k) % w.n // oldest first
+		}
+		for _, c := range w.ring[idx] {
+			a, ok := sums[c.Label]
+			if !ok {
+				a = &acc{kind: c.Kind, first: len(labels)}
+				sums[c.Label] = a
+				labels = append(labels, c.Label)
+			}
+			a.num += c.Num
+			a.den += c.Den
+			a.sig2 += c.sig2
+			a.epochs += c.Epochs
+		}
+	}
+	out := make([]Cause, 0, len(labels))
+	for _, l := range labels {
+		a := sums[l]
+		out = append(out, finishCause(a.kind, l, a.num, a.den, a.sig2, a.epochs))
+	}
+	sort.SliceStable(out, func(i, j int) bool {
+		if out[i].Separable != out[j].Separable {
+			return out[i].Separable
+		}
+		if out[i].T != out[j].T {
+			return out[i].T > out[j].T
+		}
+		return false
+	})
+	return out
+}
