@@ -1,0 +1,220 @@
+package model
+
+import (
+	"errors"
+	"math"
+	"sort"
+
+	"gonum.org/v1/gonum/mat"
+
+	"trussmonitor/internal/sparse"
+)
+
+// denseNullLimit is the largest number of free DOFs for which the null space
+// of the stiffness matrix is computed by a dense symmetric eigen
+// decomposition; beyond it the free motions are the DOFs where the sparse
+// Cholesky pivot failed.
+const denseNullLimit = 1500
+
+// nullRatio is the eigenvalue ratio (to the largest) below which a motion is
+// counted as free.
+const nullRatio = 1e-9
+
+// mechanism builds the *MechanismError for a model whose factorisation
+// failed at free index pivot (-1 when the factor succeeded but the probe
+// solve showed near-singularity).
+func (m *Model) mechanism(pivot int) error {
+	nf := len(m.lo.free)
+	e := &MechanismError{Structure: m.s.Name}
+	if nf <= denseNullLimit {
+		e.Motions = m.denseNullSpace()
+	} else {
+		e.Motions, e.Partial = m.pivotMotions(pivot)
+	}
+	m.det.finish(len(e.Motions), e.Partial)
+	e.Determinacy = m.det
+	return e
+}
+
+// denseNullSpace returns a basis of the null space of K_ff from its
+// symmetric eigen decomposition: eigenvectors whose eigenvalue is below
+// nullRatio times the largest; if none is (a near-singular but not singular
+// matrix), the weakest eigenvector.
+func (m *Model) denseNullSpace() []FreeMotion {
+	nf := len(m.lo.free)
+	k := mat.NewSymDense(nf, nil)
+	m.lo.eachEntry(func(p, q int, v float64) {
+		if p > q {
+			p, q = q, p
+		}
+		k.SetSym(p, q, k.At(p, q)+v)
+	})
+	var eig mat.EigenSym
+	if !eig.Factorize(k, true) {
+		return []FreeMotion{{Nodes: nil, PivotDOF: "eigen decomposition did not converge"}}
+	}
+	vals := eig.Values(nil)
+	var vecs mat.Dense
+	eig.VectorsTo(&vecs)
+	lmax := math.Abs(vals[len(vals)-1])
+	if lmax == 0 {
+		lmax = 1
+	}
+	var out []FreeMotion
+	for i, l := range vals {
+		if l > nullRatio*lmax {
+			break
+		}
+		fm := m.describe(mat.Col(nil, i, &vecs))
+		fm.Ratio = math.Max(l, 0) / lmax
+		out = append(out, fm)
+	}
+	if len(out) == 0 {
+		// No exact null vector (near-singular): report the weakest motion.
+		fm := m.describe(mat.Col(nil, 0, &vecs))
+		fm.Ratio = vals[0] / lmax
+		out = append(out, fm)
+	}
+	return out
+}
+
+// pivotMotions finds the free motions of a large model by refactoring with a
+// stiff restraint at each DOF where the Cholesky pivot failed (each such
+// restraint removes exactly one null direction), up to 8 times. When the
+// factorisation succeeded but the probe solve failed, three steps of inverse
+// iteration give the weakest motion.
+func (m *Model) pivotMotions(pivot int) ([]FreeMotion, bool) {
+	if pivot < 0 {
+		return []FreeMotion{m.inverseIteration()}, false
+	}
+	nf := len(m.lo.free)
+	var kmax float64
+	diag := make([]float64, nf)
+	m.lo.eachEntry(func(p, q int, v float64) {
+		if p == q {
+			diag[p] += v
+		}
+	})
+	for _, v := range diag {
+		kmax = math.Max(kmax, v)
+	}
+	var out []FreeMotion
+	pinned := map[int]bool{}
+	for round := 0; round < 8; round++ {
+		if pivot < 0 || pivot >= nf || pinned[pivot] {
+			return out, true
+		}
+		pinned[pivot] = true
+		w := m.lo.free[pivot]
+		u := m.lo.toGlobal(w/m.lo.dim, unitAxis(w%m.lo.dim))
+		out = append(out, FreeMotion{
+			Nodes:    []NodeMotion{{Node: w / m.lo.dim, ID: m.s.Nodes[w/m.lo.dim].ID, Dir: u}},
+			Moving:   1,
+			PivotDOF: m.lo.dofLabel(m.s, w),
+		})
+		b := sparse.NewBuilder(nf)
+		m.lo.eachEntry(func(p, q int, v float64) { b.Add(p, q, v) })
+		for p := range pinned {
+			b.Add(p, p, kmax*1e3+1)
+		}
+		_, err := sparse.Factorize(b.Matrix(), sparse.Options{})
+		var npd *sparse.NotPositiveDefiniteError
+		if err == nil {
+			return out, false
+		}
+		if !errors.As(err, &npd) {
+			return out, true
+		}
+		pivot = npd.Index
+	}
+	return out, true
+}
+
+// inverseIteration returns the weakest motion of the factored K_ff by three
+// steps of inverse iteration from a fixed start vector.
+func (m *Model) inverseIteration() FreeMotion {
+	nf := len(m.lo.free)
+	x := make([]float64, nf)
+	for i := range x {
+		x[i] = 1 + 0.1*float64(i%7)
+	}
+	y := make([]float64, nf)
+	for it := 0; it < 3; it++ {
+		m.chol.Solve(y, x)
+		var mx float64
+		for _, v := range y {
+			if finite(v) {
+				mx = math.Max(mx, math.Abs(v))
+			}
+		}
+		if mx == 0 {
+			break
+		}
+		for i, v := range y {
+			if !finite(v) {
+				v = 0
+			}
+			x[i] = v / mx
+		}
+	}
+	return m.describe(x)
+}
+
+func unitAxis(a int) [3]float64 {
+	var v [3]float64
+	v[a] = 1
+	return v
+}
+
+// describe turns a vector over the free DOFs into the node motions it
+// represents (global directions, largest first, scaled to unit maximum;
+// nodes moving less than 1e-3 of the largest are left out).
+func (m *Model) describe(v []float64) FreeMotion {
+	d := m.lo.dim
+	w := make([]float64, d*m.lo.nn)
+	for i, dof := range m.lo.free {
+		w[dof] = v[i]
+	}
+	type nm struct {
+		n   int
+		u   [3]float64
+		mag float64
+	}
+	var all []nm
+	var mx float64
+	for n := 0; n < m.lo.nn; n++ {
+		var wn [3]float64
+		copy(wn[:d], w[n*d:n*d+d])
+		u := m.lo.toGlobal(n, wn)
+		l := norm3(u)
+		all = append(all, nm{n, u, l})
+		mx = math.Max(mx, l)
+	}
+	if mx == 0 {
+		return FreeMotion{}
+	}
+	sort.SliceStable(all, func(a, b int) bool { return all[a].mag > all[b].mag })
+	var fm FreeMotion
+	for _, a := range all {
+		if a.mag < 1e-3*mx {
+			break
+		}
+		fm.Moving++
+		if len(fm.Nodes) < 20 {
+			var dir [3]float64
+			for k := range dir {
+				dir[k] = roundSmall(a.u[k] / mx)
+			}
+			fm.Nodes = append(fm.Nodes, NodeMotion{Node: a.n, ID: m.s.Nodes[a.n].ID, Dir: dir})
+		}
+	}
+	return fm
+}
+
+// roundSmall sets values below 1e-9 in magnitude to zero for readability.
+func roundSmall(x float64) float64 {
+	if math.Abs(x) < 1e-9 {
+		return 0
+	}
+	return x
+}
