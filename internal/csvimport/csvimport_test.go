@@ -3,6 +3,7 @@ package csvimport
 import (
 	"errors"
 	"math"
+	"strconv"
 	"strings"
 	"testing"
 	"time"
@@ -134,4 +135,24 @@ func FuzzRead(f *testing.F) {
 			t.Fatal("negative counts")
 		}
 	})
+}
+
+// BenchmarkRead reads 10000 rows of 10 channels.
+func BenchmarkRead(b *testing.B) {
+	var sb strings.Builder
+	sb.WriteString("time,c0,c1,c2,c3,c4,c5,c6,c7,c8,c9\n")
+	for i := 0; i < 10000; i++ {
+		sb.WriteString(strconv.Itoa(1796173200 + i))
+		for j := 0; j < 10; j++ {
+			sb.WriteString(",1.2345e-4")
+		}
+		sb.WriteString("\n")
+	}
+	data := sb.String()
+	b.SetBytes(int64(len(data)))
+	for b.Loop() {
+		if _, err := Read(strings.NewReader(data), func(Record) error { return nil }); err != nil {
+			b.Fatal(err)
+		}
+	}
 }

@@ -479,6 +479,12 @@ func (p *parser) channel(n *yaml.Node, m *Map) (Channel, bool) {
 			if _, ok := get("wire_alpha"); !ok {
 				p.fail(n.Line, ch.ID, "wire_alpha", "missing; the temperature term needs the wire's thermal coefficient (1/K)")
 			}
+		} else {
+			for _, k := range []string{"wire_alpha", "steel_alpha"} {
+				if kn, ok := get(k); ok {
+					p.fail(kn.Line, ch.ID, k, "has no effect without temperature_channel; give the temperature channel or remove it")
+				}
+			}
 		}
 	case ch.Kind == KindLoad:
 		p.load(n, &ch, get, need)
@@ -662,6 +668,9 @@ func (p *parser) crossCheck(m *Map) {
 		z, ok := m.zeroStates[ch.ZeroState]
 		if !ok && ch.ZeroState != "" {
 			p.fail(ch.Line, ch.ID, "zero_state", "zero state %q is not declared in zero_states", ch.ZeroState)
+		}
+		if ch.TemperatureChannel != "" && ch.Kind != KindVibratingWire && len(ch.ThermalOutput) == 0 {
+			p.fail(ch.Line, ch.ID, "temperature_channel", "has no effect without thermal_output_microstrain; give the gauge's thermal output or remove it")
 		}
 		if ch.TemperatureChannel != "" {
 			i, ok := m.index[ch.TemperatureChannel]

@@ -2,6 +2,7 @@ package sensors
 
 import (
 	"errors"
+	"fmt"
 	"math"
 	"strings"
 	"testing"
@@ -294,6 +295,11 @@ func TestParseErrors(t *testing.T) {
 			[]string{`channel "V1_b"`, "share one zero state"}},
 		{"thermal output without thermometer", "  - {id: V1_a, kind: strain, member: V1, unit: \"/\", zero: 0, zero_state: z, noise_microstrain: 2, thermal_output_microstrain: [0, 1]}\n",
 			[]string{`field "temperature_channel"`, "missing"}},
+		{"thermometer without thermal output", "  - {id: V1_a, kind: strain, member: V1, unit: \"/\", zero: 0, zero_state: z, noise_microstrain: 2, temperature_channel: t}\n" +
+			"  - {id: t, kind: temperature, unit: Cel, groups: [top], noise: 0.1}\n",
+			[]string{`field "temperature_channel"`, "no effect"}},
+		{"wire alpha without thermometer", "  - {id: T1_a, kind: vibrating_wire, member: T1, unit: Hz, gauge_constant_microstrain: 3.5e-3, wire_alpha: 12e-6, zero: 800, zero_state: z, noise_microstrain: 2}\n",
+			[]string{`field "wire_alpha"`, "no effect"}},
 		{"volts without excitation", "  - {id: B1_a, kind: quarter_bridge, member: B1, unit: V, gauge_factor: 2, zero: 0, zero_state: z, noise_microstrain: 2}\n",
 			[]string{`field "excitation"`, "missing"}},
 		{"unknown pattern", "  - {id: p, kind: load, pattern: wind, unit: N, factor: 0.001, noise: 1}\n",
@@ -370,5 +376,47 @@ func TestStructureNameOf(t *testing.T) {
 	}
 	if got := StructureNameOf([]byte("[")); got != "" {
 		t.Errorf("got %q from broken YAML", got)
+	}
+}
+
+func ExampleMap_Evaluate() {
+	st := smallStructure()
+	m, err := Parse("example.yaml", []byte(`structure: demo
+permanent_loads: {dead: 1.0}
+zero_states:
+  - {id: z, loads: {dead: 1.0}}
+channels:
+  - {id: B1_a, kind: strain, member: B1, position: top face, unit: "/", zero: 0, zero_state: z, noise_microstrain: 3}
+  - {id: B1_b, kind: strain, member: B1, position: bottom face, unit: "/", zero: 0, zero_state: z, noise_microstrain: 3}
+`), st)
+	if err != nil {
+		fmt.Println(err)
+		return
+	}
+	// 130 and 70 microstrain on opposite faces: 100 axial, 30 bending.
+	a, _ := m.Convert("B1_a", 130e-6)
+	b, _ := m.Convert("B1_b", 70e-6)
+	s := m.Evaluate(map[string]float64{"B1_a": a, "B1_b": b})
+	mm := s.Members[0]
+	fmt.Printf("%s: N = %.1f kN +- %.2f kN from %d of %d gauges\n", mm.Member, mm.ForceN/1e3, mm.SigmaN/1e3, mm.Gauges, mm.Expected)
+	// Output: B1: N = 155.4 kN +- 3.30 kN from 2 of 2 gauges
+}
+
+// BenchmarkEvaluate converts and evaluates one epoch of the small map.
+func BenchmarkEvaluate(b *testing.B) {
+	m, err := Parse("small.yaml", []byte(smallMap), smallStructure())
+	if err != nil {
+		b.Fatal(err)
+	}
+	values := map[string]float64{}
+	for _, ch := range m.Channels() {
+		raw, err := m.Raw(ch.ID, 1e-5)
+		if err != nil {
+			b.Fatal(err)
+		}
+		values[ch.ID], _ = m.Convert(ch.ID, raw)
+	}
+	for b.Loop() {
+		m.Evaluate(values)
 	}
 }
