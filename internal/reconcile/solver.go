@@ -271,8 +271,8 @@ type Result struct {
 type plan struct {
 	mask      []bool
 	sigma     []float64 // G, the solver's (shared, read-only)
-	idx       []int // available members, length m
-	est       []int // estimable unknowns (columns of A), length pe
+	idx       []int     // available members, length m
+	est       []int     // estimable unknowns (columns of A), length pe
 	estimable []bool
 	q         []float64 // m x pe, orthonormal columns spanning W^1/2 A
 	rinv      []float64 // pe x pe, R^-1 (upper triangular)
