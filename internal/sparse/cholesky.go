@@ -243,6 +243,9 @@ func factorizeWith(a *Sym, m Method, ord Ordering, perm []int, orderTime time.Du
 	if err != nil {
 		return nil, err
 	}
+	if sf, ok := c.f.(*superFactor); ok {
+		c.perm = sf.sy.perm // composed with the elimination-tree postorder
+	}
 	return c, nil
 }
 

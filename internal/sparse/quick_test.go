@@ -25,7 +25,7 @@ func TestQuickBandDense(t *testing.T) {
 	}
 	rhs := make([]float64, n)
 	a.MulVec(rhs, x)
-	for _, m := range []Method{Dense, Band} {
+	for _, m := range []Method{Dense, Band, Supernodal} {
 		f, err := Factorize(a, Options{Method: m})
 		if err != nil {
 			t.Fatal(err)
