@@ -1,0 +1,329 @@
+// Package metrics exports the monitor's state as Prometheus metrics on a
+// registry passed in (never the default registry): member forces and test
+// statistics per epoch, fit statistics, estimated unknown loads, counters
+// of epochs and ingest outcomes, channel freshness, epoch latency and alarm
+// state, plus the HTTP handlers /metrics, /healthz and /readyz.
+//
+// Names carry the shm_ prefix and base units (newtons, seconds); counters
+// end in _total. Labels are limited to structure, member, channel,
+// pattern, outcome, reason (rejections only) and rule (alarm state only).
+package metrics
+
+import (
+	"fmt"
+	"sync"
+	"time"
+
+	"github.com/prometheus/client_golang/prometheus"
+)
+
+// Metric names, shared with the alerting rules (internal/alerts).
+const (
+	MemberMeasured       = "shm_member_force_measured_newtons"
+	MemberPredicted      = "shm_member_force_predicted_newtons"
+	MemberResidual       = "shm_member_residual_newtons"
+	MemberW              = "shm_member_w_statistic"
+	MemberMDB            = "shm_member_mdb_newtons"
+	MemberRedundancy     = "shm_member_redundancy"
+	MemberCheckable      = "shm_member_checkable"
+	FitChiSquare         = "shm_fit_chi_square"
+	FitDOF               = "shm_fit_degrees_of_freedom"
+	FitPValue            = "shm_fit_p_value"
+	UnknownLoad          = "shm_unknown_load_factor"
+	UnknownLoadStdDev    = "shm_unknown_load_factor_stddev"
+	Epochs               = "shm_epochs_total"
+	IngestMessages       = "shm_ingest_messages_total"
+	IngestReadings       = "shm_ingest_readings_total"
+	IngestRejections     = "shm_ingest_rejections_total"
+	ClockSkewReadings    = "shm_clock_skew_readings_total"
+	ChannelLastReading   = "shm_channel_last_reading_timestamp_seconds"
+	EpochDuration        = "shm_epoch_processing_seconds"
+	AlarmsFiring         = "shm_alarms_firing"
+	BrokerDroppedMessage = "shm_broker_dropped_messages_total"
+)
+
+// Epoch outcomes for Metrics.Epoch (common values; any string is accepted).
+const (
+	EpochAccepted = "accepted" // fitted, global test passed
+	EpochRejected = "rejected" // fitted, global test rejected
+	EpochSkipped  = "skipped"  // not fitted (missing load channel, no gauges)
+	EpochFailed   = "failed"   // fit impossible (unidentifiable unknowns)
+)
+
+// Metrics holds the collectors. Its methods are safe for concurrent use.
+type Metrics struct {
+	measured, predicted, residual, w, mdb, redund, checkable *prometheus.GaugeVec
+	chi2, dof, pvalue                                        *prometheus.GaugeVec
+	load, loadStd                                            *prometheus.GaugeVec
+	epochs, messages, readings, rejections, skew             *prometheus.CounterVec
+	lastReading                                              *prometheus.GaugeVec
+	latency                                                  *prometheus.HistogramVec
+	alarms                                                   *prometheus.GaugeVec
+	dropped                                                  prometheus.Counter
+
+	mu       sync.RWMutex
+	counters map[childKey]prometheus.Counter
+	gauges   map[childKey]prometheus.Gauge
+	hists    map[childKey]prometheus.Observer
+	lastSeen map[childKey]float64 // latest time stamp per channel, under mu
+}
+
+// childKey identifies a cached child: the vector it belongs to and its
+// two label values.
+type childKey struct {
+	vec  any
+	a, b string
+}
+
+// New creates the collectors and registers them on reg.
+func New(reg prometheus.Registerer) (*Metrics, error) {
+	if reg == nil {
+		return nil, fmt.Errorf("metrics: no registry given; pass prometheus.NewRegistry() (the default registry is not used)")
+	}
+	sm := []string{"structure", "member"}
+	st := []string{"structure"}
+	g := func(name, help string, labels []string) *prometheus.GaugeVec {
+		return prometheus.NewGaugeVec(prometheus.GaugeOpts{Name: name, Help: help}, labels)
+	}
+	c := func(name, help string, labels []string) *prometheus.CounterVec {
+		return prometheus.NewCounterVec(prometheus.CounterOpts{Name: name, Help: help}, labels)
+	}
+	m := &Metrics{
+		measured:   g(MemberMeasured, "Measured axial force of the gauged member in the last epoch (tension positive), newtons.", sm),
+		predicted:  g(MemberPredicted, "Axial force the model predicts for the gauged member under the recorded loads, newtons.", sm),
+		residual:   g(MemberResidual, "Residual r = measured - predicted member force, newtons.", sm),
+		w:          g(MemberW, "Baarda's w statistic of the member's adjusted residual (standard normal without a fault).", sm),
+		mdb:        g(MemberMDB, "Minimal detectable bias of the member's gauge, newtons (0 when the member cannot be checked at all).", sm),
+		redund:     g(MemberRedundancy, "Redundancy number r_i of the gauged member (0 to 1).", sm),
+		checkable:  g(MemberCheckable, "1 when the member's redundancy allows its w-test to alarm, else 0.", sm),
+		chi2:       g(FitChiSquare, "Global test statistic e^T W e of the last fitted epoch.", st),
+		dof:        g(FitDOF, "Degrees of freedom of the global test (available gauges - estimated unknowns).", st),
+		pvalue:     g(FitPValue, "P-value of the global chi-square test of the last fitted epoch.", st),
+		load:       g(UnknownLoad, "Estimated magnitude of an unknown load pattern, as a multiple of the pattern defined in the structure file.", []string{"structure", "pattern"}),
+		loadStd:    g(UnknownLoadStdDev, "Standard deviation of the estimated unknown load magnitude, same unit as shm_unknown_load_factor.", []string{"structure", "pattern"}),
+		epochs:     c(Epochs, "Epochs processed, by outcome.", []string{"structure", "outcome"}),
+		messages:   c(IngestMessages, "MQTT messages handled by ingest, by outcome.", []string{"structure", "outcome"}),
+		readings:   c(IngestReadings, "Readings handled by ingest, by outcome.", []string{"structure", "outcome"}),
+		rejections: c(IngestRejections, "Rejected payloads (dead letters), by reason.", []string{"structure", "reason"}),
+		skew:       c(ClockSkewReadings, "Readings whose logger time stamp was too far from the receive time (clock skew).", st),
+		lastReading: g(ChannelLastReading, "Logger time stamp of the channel's last stored reading, seconds since 1970.",
+			[]string{"structure", "channel"}),
+		latency: prometheus.NewHistogramVec(prometheus.HistogramOpts{
+			Name:    EpochDuration,
+			Help:    "Time to process one epoch (prediction, fit, tests, alarms), seconds.",
+			Buckets: prometheus.ExponentialBuckets(10e-6, 4, 9), // 10 us .. 0.66 s
+		}, st),
+		alarms:   g(AlarmsFiring, "Number of alarms of the rule currently firing.", []string{"structure", "rule"}),
+		dropped:  prometheus.NewCounter(prometheus.CounterOpts{Name: BrokerDroppedMessage, Help: "Messages the embedded broker dropped (in-flight or queue limits)."}),
+		counters: map[childKey]prometheus.Counter{},
+		gauges:   map[childKey]prometheus.Gauge{},
+		hists:    map[childKey]prometheus.Observer{},
+		lastSeen: map[childKey]float64{},
+	}
+	for _, col := range []prometheus.Collector{m.measured, m.predicted, m.residual, m.w, m.mdb, m.redund, m.checkable,
+		m.chi2, m.dof, m.pvalue, m.load, m.loadStd, m.epochs, m.messages, m.readings, m.rejections, m.skew,
+		m.lastReading, m.latency, m.alarms, m.dropped} {
+		if err := reg.Register(col); err != nil {
+			return nil, fmt.Errorf("metrics: registering collectors: %w (is a second Metrics registered on the same registry?)", err)
+		}
+	}
+	return m, nil
+}
+
+func (m *Metrics) counter(vec *prometheus.CounterVec, a, b string) prometheus.Counter {
+	k := childKey{vec, a, b}
+	m.mu.RLock()
+	c, ok := m.counters[k]
+	m.mu.RUnlock()
+	if ok {
+		return c
+	}
+	m.mu.Lock()
+	defer m.mu.Unlock()
+	if c, ok = m.counters[k]; !ok {
+		if vec == m.skew { // the only counter labelled by structure alone
+			c = vec.WithLabelValues(a)
+		} else {
+			c = vec.WithLabelValues(a, b)
+		}
+		m.counters[k] = c
+	}
+	return c
+}
+
+func (m *Metrics) gauge(vec *prometheus.GaugeVec, a, b string) prometheus.Gauge {
+	k := childKey{vec, a, b}
+	m.mu.RLock()
+	g, ok := m.gauges[k]
+	m.mu.RUnlock()
+	if ok {
+		return g
+	}
+	m.mu.Lock()
+	defer m.mu.Unlock()
+	if g, ok = m.gauges[k]; !ok {
+		g = vec.WithLabelValues(a, b)
+		m.gauges[k] = g
+	}
+	return g
+}
+
+// MessageHandled counts one MQTT message (ingest.Observer).
+func (m *Metrics) MessageHandled(structure, outcome string) {
+	m.counter(m.messages, structure, outcome).Inc()
+}
+
+// ReadingsHandled counts n readings (ingest.Observer).
+func (m *Metrics) ReadingsHandled(structure, outcome string, n int) {
+	if n > 0 {
+		m.counter(m.readings, structure, outcome).Add(float64(n))
+	}
+}
+
+// Rejected counts one dead letter (ingest.Observer).
+func (m *Metrics) Rejected(structure, reason string) {
+	m.counter(m.rejections, structure, reason).Inc()
+}
+
+// LastReading records the time stamp of a channel's latest reading
+// (ingest.Observer). An older time stamp than the one shown (a late
+// reading) does not move it back.
+func (m *Metrics) LastReading(structure, channel string, t time.Time) {
+	g := m.gauge(m.lastReading, structure, channel)
+	v := float64(t.UnixNano()) / 1e9
+	m.mu.Lock()
+	k := childKey{m.lastReading, structure, channel}
+	if prev, ok := m.lastSeen[k]; !ok || v > prev {
+		m.lastSeen[k] = v
+		g.Set(v)
+	}
+	m.mu.Unlock()
+}
+
+// BrokerDropped counts n messages dropped by the embedded broker
+// (ingest.Observer).
+func (m *Metrics) BrokerDropped(n int) {
+	if n > 0 {
+		m.dropped.Add(float64(n))
+	}
+}
+
+// ClockSkew counts n readings with a skewed logger clock.
+func (m *Metrics) ClockSkew(structure string, n int) {
+	if n > 0 {
+		m.counter(m.skew, structure, "").Add(float64(n))
+	}
+}
+
+// Epoch counts one epoch by outcome and records its processing time.
+func (m *Metrics) Epoch(structure, outcome string, took time.Duration) {
+	m.counter(m.epochs, structure, outcome).Inc()
+	k := childKey{m.latency, structure, ""}
+	m.mu.RLock()
+	h, ok := m.hists[k]
+	m.mu.RUnlock()
+	if !ok {
+		m.mu.Lock()
+		if h, ok = m.hists[k]; !ok {
+			h = m.latency.WithLabelValues(structure)
+			m.hists[k] = h
+		}
+		m.mu.Unlock()
+	}
+	h.Observe(took.Seconds())
+}
+
+// AlarmsFiring sets the number of firing alarms of rule.
+func (m *Metrics) AlarmsFiring(structure, rule string, n int) {
+	m.gauge(m.alarms, structure, rule).Set(float64(n))
+}
+
+// Structure returns the per-epoch gauges of one structure with its gauged
+// members and unknown load patterns, children resolved once, so that an
+// epoch's update costs a few nanoseconds per value.
+func (m *Metrics) Structure(name string, members, patterns []string) *StructureMetrics {
+	s := &StructureMetrics{members: append([]string(nil), members...), patterns: append([]string(nil), patterns...)}
+	s.rows = make([]memberGauges, len(members))
+	for i, mb := range members {
+		s.rows[i] = memberGauges{
+			measured:  m.measured.WithLabelValues(name, mb),
+			predicted: m.predicted.WithLabelValues(name, mb),
+			residual:  m.residual.WithLabelValues(name, mb),
+			w:         m.w.WithLabelValues(name, mb),
+			mdb:       m.mdb.WithLabelValues(name, mb),
+			redund:    m.redund.WithLabelValues(name, mb),
+			checkable: m.checkable.WithLabelValues(name, mb),
+		}
+	}
+	s.load = make([]prometheus.Gauge, len(patterns))
+	s.loadStd = make([]prometheus.Gauge, len(patterns))
+	for j, p := range patterns {
+		s.load[j] = m.load.WithLabelValues(name, p)
+		s.loadStd[j] = m.loadStd.WithLabelValues(name, p)
+	}
+	s.chi2 = m.chi2.WithLabelValues(name)
+	s.dof = m.dof.WithLabelValues(name)
+	s.pvalue = m.pvalue.WithLabelValues(name)
+	return s
+}
+
+// StructureMetrics are the cached per-epoch gauges of one structure.
+type StructureMetrics struct {
+	members, patterns []string
+	rows              []memberGauges
+	load, loadStd     []prometheus.Gauge
+	chi2, dof, pvalue prometheus.Gauge
+}
+
+type memberGauges struct {
+	measured, predicted, residual, w, mdb, redund, checkable prometheus.Gauge
+}
+
+// MemberValues are one gauged member's values in one epoch.
+type MemberValues struct {
+	Measured, Predicted, Residual float64 // newtons
+	W                             float64
+	MDB                           float64 // newtons
+	Redundancy                    float64
+	Checkable                     bool
+}
+
+// SetMember sets the values of gauged member i (the order given to
+// Structure). A member that did not report in an epoch is simply not set:
+// its series keep their last values, as the alarm evaluator assumes.
+func (s *StructureMetrics) SetMember(i int, v MemberValues) error {
+	if i < 0 || i >= len(s.rows) {
+		return fmt.Errorf("metrics: member index %d out of range (%d gauged members)", i, len(s.rows))
+	}
+	r := &s.rows[i]
+	r.measured.Set(v.Measured)
+	r.predicted.Set(v.Predicted)
+	r.residual.Set(v.Residual)
+	r.w.Set(v.W)
+	r.mdb.Set(v.MDB)
+	r.redund.Set(v.Redundancy)
+	c := 0.0
+	if v.Checkable {
+		c = 1
+	}
+	r.checkable.Set(c)
+	return nil
+}
+
+// SetFit sets the global test of the epoch.
+func (s *StructureMetrics) SetFit(chiSquare float64, dof int, pValue float64) {
+	s.chi2.Set(chiSquare)
+	s.dof.Set(float64(dof))
+	s.pvalue.Set(pValue)
+}
+
+// SetUnknownLoad sets the estimate of unknown load pattern j and its
+// standard deviation.
+func (s *StructureMetrics) SetUnknownLoad(j int, value, std float64) error {
+	if j < 0 || j >= len(s.load) {
+		return fmt.Errorf("metrics: unknown load index %d out of range (%d patterns)", j, len(s.load))
+	}
+	s.load[j].Set(value)
+	s.loadStd[j].Set(std)
+	return nil
+}

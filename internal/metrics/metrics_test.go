@@ -1,0 +1,180 @@
+package metrics
+
+import (
+	"bytes"
+	"errors"
+	"flag"
+	"io"
+	"net/http"
+	"net/http/httptest"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+	"time"
+
+	"github.com/prometheus/client_golang/prometheus"
+	"github.com/prometheus/client_golang/prometheus/testutil"
+)
+
+var update = flag.Bool("update", false, "rewrite testdata/metrics.golden")
+
+// Observer is the contract of internal/ingest (ingest.Observer), repeated
+// here so that the test fails when Metrics stops satisfying it.
+type Observer interface {
+	MessageHandled(structure, outcome string)
+	ReadingsHandled(structure, outcome string, n int)
+	Rejected(structure, reason string)
+	LastReading(structure, channel string, t time.Time)
+	BrokerDropped(n int)
+}
+
+var _ Observer = (*Metrics)(nil)
+
+// example fills the metrics with a fixed epoch of the Alder Creek
+// footbridge (invented demo values).
+func example(t testing.TB) (*prometheus.Registry, *Metrics) {
+	reg := prometheus.NewRegistry()
+	m, err := New(reg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	s := m.Structure("alder-creek", []string{"B4", "D2"}, []string{"crowd"})
+	if err := s.SetMember(0, MemberValues{Measured: 412500, Predicted: 409800, Residual: 2700, W: 0.84, MDB: 14100, Redundancy: 0.71, Checkable: true}); err != nil {
+		t.Fatal(err)
+	}
+	if err := s.SetMember(1, MemberValues{Measured: -88200, Predicted: -95400, Residual: 7200, W: 4.12, MDB: 9800, Redundancy: 0.62, Checkable: true}); err != nil {
+		t.Fatal(err)
+	}
+	s.SetFit(21.4, 13, 0.065)
+	if err := s.SetUnknownLoad(0, 3.25, 0.41); err != nil {
+		t.Fatal(err)
+	}
+	m.Epoch("alder-creek", EpochAccepted, 85*time.Microsecond)
+	m.Epoch("alder-creek", EpochRejected, 120*time.Microsecond)
+	m.MessageHandled("alder-creek", "stored")
+	m.MessageHandled("alder-creek", "stored")
+	m.MessageHandled("alder-creek", "duplicate")
+	m.ReadingsHandled("alder-creek", "stored", 72)
+	m.Rejected("alder-creek", "unknown_channel")
+	m.LastReading("alder-creek", "B4_a", time.Unix(1780000000, 500e6))
+	m.LastReading("alder-creek", "B4_a", time.Unix(1779999990, 0)) // late: does not move back
+	m.ClockSkew("alder-creek", 3)
+	m.AlarmsFiring("alder-creek", "MemberDiverging", 1)
+	m.BrokerDropped(2)
+	return reg, m
+}
+
+func TestMetricsGolden(t *testing.T) {
+	reg, _ := example(t)
+	srv := httptest.NewServer(Handler(reg, nil))
+	defer srv.Close()
+	resp, err := http.Get(srv.URL + "/metrics")
+	if err != nil {
+		t.Fatal(err)
+	}
+	body, _ := io.ReadAll(resp.Body)
+	resp.Body.Close()
+	golden := filepath.Join("testdata", "metrics.golden")
+	if *update {
+		if err := os.WriteFile(golden, body, 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	want, err := os.ReadFile(golden)
+	if err != nil {
+		t.Fatalf("%v (run go test -update to create it)", err)
+	}
+	if !bytes.Equal(body, want) {
+		t.Errorf("/metrics differs from %s (rerun with -update after checking):\n%s", golden, body)
+	}
+}
+
+func TestValuesAndLint(t *testing.T) {
+	reg, m := example(t)
+	for _, c := range []struct {
+		name      string
+		got, want float64
+	}{
+		{"w of D2", testutil.ToFloat64(m.w.WithLabelValues("alder-creek", "D2")), 4.12},
+		{"stored messages", testutil.ToFloat64(m.messages.WithLabelValues("alder-creek", "stored")), 2},
+		{"stored readings", testutil.ToFloat64(m.readings.WithLabelValues("alder-creek", "stored")), 72},
+		{"last reading B4_a", testutil.ToFloat64(m.lastReading.WithLabelValues("alder-creek", "B4_a")), 1780000000.5},
+		{"dropped", testutil.ToFloat64(m.dropped), 2},
+	} {
+		if c.got != c.want {
+			t.Errorf("%s = %v, want %v", c.name, c.got, c.want)
+		}
+	}
+	const want = `
+# HELP shm_ingest_rejections_total Rejected payloads (dead letters), by reason.
+# TYPE shm_ingest_rejections_total counter
+shm_ingest_rejections_total{reason="unknown_channel",structure="alder-creek"} 1
+`
+	if err := testutil.CollectAndCompare(m.rejections, strings.NewReader(want)); err != nil {
+		t.Error(err)
+	}
+	problems, err := testutil.GatherAndLint(reg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, p := range problems {
+		t.Errorf("lint: %s: %s", p.Metric, p.Text)
+	}
+	for _, col := range []prometheus.Collector{m.epochs, m.latency, m.lastReading} {
+		if ps, err := testutil.CollectAndLint(col); err != nil || len(ps) != 0 {
+			t.Errorf("lint: %v %v", ps, err)
+		}
+	}
+	if _, err := New(reg); err == nil {
+		t.Error("second registration on the same registry accepted")
+	}
+	if _, err := New(nil); err == nil {
+		t.Error("nil registry accepted")
+	}
+}
+
+func TestHealthAndReady(t *testing.T) {
+	reg := prometheus.NewRegistry()
+	var notReady error = errors.New("model not loaded")
+	h := Handler(reg, func() error { return notReady })
+	get := func(path string) (int, string) {
+		rec := httptest.NewRecorder()
+		h.ServeHTTP(rec, httptest.NewRequest(http.MethodGet, path, nil))
+		return rec.Code, rec.Body.String()
+	}
+	if code, _ := get("/healthz"); code != 200 {
+		t.Errorf("/healthz %d", code)
+	}
+	if code, body := get("/readyz"); code != 503 || !strings.Contains(body, "model not loaded") {
+		t.Errorf("/readyz %d %q, want 503 with the reason", code, body)
+	}
+	notReady = nil
+	if code, _ := get("/readyz"); code != 200 {
+		t.Errorf("/readyz %d after ready", code)
+	}
+}
+
+func BenchmarkObserver(b *testing.B) {
+	reg := prometheus.NewRegistry()
+	m, err := New(reg)
+	if err != nil {
+		b.Fatal(err)
+	}
+	b.Run("ReadingsHandled", func(b *testing.B) {
+		for b.Loop() {
+			m.ReadingsHandled("alder-creek", "stored", 1)
+		}
+	})
+	b.Run("WithLabelValues", func(b *testing.B) {
+		for b.Loop() {
+			m.readings.WithLabelValues("alder-creek", "stored").Add(1)
+		}
+	})
+	s := m.Structure("alder-creek", []string{"B4"}, nil)
+	b.Run("SetMember", func(b *testing.B) {
+		for b.Loop() {
+			_ = s.SetMember(0, MemberValues{W: 1})
+		}
+	})
+}
