@@ -40,9 +40,10 @@ type Equilibrium struct {
 	// MaxImbalanceN is the largest force component left over at any joint,
 	// or in the global sum, in newtons.
 	MaxImbalanceN float64
-	// Relative is MaxImbalanceN divided by the largest applied load
-	// component (by the largest member force or reaction when no nodal load
-	// acts, as for temperature or settlement).
+	// Relative is MaxImbalanceN divided by the largest load: the largest
+	// applied nodal force component, or equivalent nodal force of a
+	// temperature change (E A alpha dT) or of a settlement (K_full w_r), or,
+	// when all these are zero, the largest reaction or member force.
 	Relative float64
 	// Joint is the id of the joint with the largest imbalance.
 	Joint string
@@ -326,6 +327,7 @@ func (m *Model) result(ls *loadSet, w, n []float64) *Result {
 			eq.Joint = "(global)"
 		}
 	}
+	scale = math.Max(scale, m.equivalentLoadScale(ls))
 	if scale == 0 {
 		for _, v := range n {
 			other = math.Max(other, math.Abs(v))
@@ -337,4 +339,21 @@ func (m *Model) result(ls *loadSet, w, n []float64) *Result {
 	}
 	res.Equilibrium = eq
 	return res
+}
+
+// equivalentLoadScale returns the largest equivalent nodal force of the
+// temperature changes (E A alpha |dT|) and settlements (|K_full w_r|).
+func (m *Model) equivalentLoadScale(ls *loadSet) float64 {
+	var sc float64
+	for e, t := range ls.dT {
+		sc = math.Max(sc, math.Abs(m.lo.mem[e].eaa*t))
+	}
+	if wp := m.fullPrescribed(ls); wp != nil {
+		kw := make([]float64, len(wp))
+		m.lo.applyK(wp, kw)
+		for _, v := range kw {
+			sc = math.Max(sc, math.Abs(v))
+		}
+	}
+	return sc
 }
