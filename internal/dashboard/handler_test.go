@@ -5,6 +5,7 @@ import (
 	"io"
 	"net/http"
 	"net/http/httptest"
+	"net/url"
 	"strings"
 	"testing"
 	"time"
@@ -14,7 +15,7 @@ var t0 = time.Date(2026, 6, 14, 9, 0, 0, 0, time.UTC)
 
 // fixture returns a handler over 60 one-second epochs of the footbridge with
 // an alarm on D2 from epoch 50 on and one raised event.
-func fixture(t *testing.T) (*memSource, http.Handler) {
+func fixture(t testing.TB) (*memSource, http.Handler) {
 	t.Helper()
 	src := newMemSource()
 	for i := 0; i < 60; i++ {
@@ -280,4 +281,33 @@ func TestPageServed(t *testing.T) {
 	if strings.Count(js, "http://") != 1 || strings.Contains(js, "https://") {
 		t.Errorf("app.js refers to the network beyond the SVG namespace")
 	}
+}
+
+// FuzzTimeRange feeds arbitrary from and to parameters: the handler answers
+// 200 or 400 with a JSON body, never panics or fails otherwise.
+func FuzzTimeRange(f *testing.F) {
+	for _, s := range [][2]string{{"2026-06-14T09:00:00Z", "2026-06-14T09:01:00Z"}, {"", ""}, {"yesterday", ""},
+		{"2026-06-14T09:00:00+02:00", "2026-06-14T09:00:00.123456789Z"}, {"9999-12-31T23:59:59Z", "0000-01-01T00:00:00Z"}} {
+		f.Add(s[0], s[1])
+	}
+	_, h := fixture(f)
+	f.Fuzz(func(t *testing.T, from, to string) {
+		q := url.Values{}
+		if from != "" {
+			q.Set("from", from)
+		}
+		if to != "" {
+			q.Set("to", to)
+		}
+		for _, p := range []string{"/api/structures/alder-creek/members/D2/series?", "/api/structures/alder-creek/events?"} {
+			rec := httptest.NewRecorder()
+			h.ServeHTTP(rec, httptest.NewRequest(http.MethodGet, p+q.Encode(), nil))
+			if rec.Code != 200 && rec.Code != 400 {
+				t.Fatalf("from %q to %q: status %d", from, to, rec.Code)
+			}
+			if !json.Valid(rec.Body.Bytes()) {
+				t.Fatalf("from %q to %q: body is not JSON: %s", from, to, rec.Body.String())
+			}
+		}
+	})
 }
