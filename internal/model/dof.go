@@ -260,4 +260,3 @@ func (lo *layout) dofLabel(s *Structure, w int) string {
 		return fmt.Sprintf("%s t%d", id, a)
 	}
 }
-
