@@ -17,6 +17,10 @@ import (
 	"strings"
 	"testing"
 
+	"go/ast"
+	"go/parser"
+	"go/token"
+
 	"go.yaml.in/yaml/v3"
 
 	"trussmonitor/internal/config"
@@ -212,6 +216,37 @@ var promqlWords = map[string]bool{
 	"rate": true, "irate": true, "increase": true, "changes": true, "delta": true, "abs": true, "vector": true,
 	"time": true, "label_values": true, "bool": true, "offset": true, "clamp_min": true, "clamp_max": true,
 	"max_over_time": true, "min_over_time": true, "avg_over_time": true, "absent": true, "topk": true,
+	"histogram_quantile": true,
+}
+
+// exportedMetrics reads the metric names the monitor declares in
+// internal/metrics (string constants starting with shm_), with the series
+// names a histogram adds.
+func exportedMetrics(t *testing.T) map[string]bool {
+	t.Helper()
+	fset := token.NewFileSet()
+	f, err := parser.ParseFile(fset, filepath.Join("..", "internal", "metrics", "metrics.go"), nil, 0)
+	if err != nil {
+		t.Fatalf("reading the metric names of internal/metrics: %v", err)
+	}
+	out := map[string]bool{}
+	ast.Inspect(f, func(n ast.Node) bool {
+		lit, ok := n.(*ast.BasicLit)
+		if !ok || lit.Kind != token.STRING {
+			return true
+		}
+		if v, err := strconv.Unquote(lit.Value); err == nil && strings.HasPrefix(v, "shm_") {
+			out[v] = true
+			for _, suf := range []string{"_bucket", "_sum", "_count"} {
+				out[v+suf] = true
+			}
+		}
+		return true
+	})
+	if len(out) == 0 {
+		t.Fatal("internal/metrics declares no shm_ metric names")
+	}
+	return out
 }
 
 var (
@@ -297,25 +332,29 @@ func TestDashboardDefinition(t *testing.T) {
 			keys = append(keys, k)
 		}
 		sort.Strings(keys)
+		exported := exportedMetrics(t)
 		used := map[string]bool{}
 		var rules strings.Builder
 		rules.WriteString("groups:\n  - name: dashboard-queries\n    rules:\n")
 		for i, k := range keys {
 			e := exprs[k]
-			names := metricNames(e)
-			if len(names) == 0 && !strings.Contains(e, "time()") {
+			// dashboard variables replaced by example values
+			q := strings.NewReplacer("$structure", "alder-creek", "$member", "D2|B3", "$k", "3.29").Replace(e)
+			names := metricNames(q)
+			if len(names) == 0 && !strings.Contains(e, "time()") && !strings.Contains(e, "$k") {
 				t.Errorf("%s: %q refers to no metric", k, e)
 			}
 			for _, n := range names {
 				used[n] = true
 				if !strings.HasPrefix(n, "shm_") {
 					t.Errorf("%s: %q refers to %q, which does not start with shm_", k, e, n)
+				} else if !exported[n] {
+					t.Errorf("%s: %q refers to %q, which internal/metrics does not export", k, e, n)
 				}
 			}
 			if strings.HasPrefix(e, "label_values(") {
 				continue // a dashboard-tool function, not PromQL
 			}
-			q := strings.NewReplacer("$structure", "alder-creek", "$member", "D2|B3").Replace(e)
 			fmt.Fprintf(&rules, "      - record: dashboard:query_%d\n        expr: %s\n", i, strconv.Quote(q))
 		}
 		names := make([]string, 0, len(used))
