@@ -1,0 +1,441 @@
+package pipeline
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"sort"
+	"strings"
+	"time"
+
+	"gonum.org/v1/gonum/mat"
+
+	"trussmonitor/internal/model"
+	"trussmonitor/internal/reconcile"
+	"trussmonitor/internal/sensors"
+)
+
+// Outcomes of an epoch (the `outcome` label of shm_epochs_total).
+const (
+	OutcomeAccepted = "accepted" // fitted, global test passed
+	OutcomeRejected = "rejected" // fitted, global test rejected
+	OutcomeSkipped  = "skipped"  // not fitted: a load or temperature input missing, or no gauge
+	OutcomeFailed   = "failed"   // fit impossible (unknowns not identifiable with the gauges present)
+)
+
+// MemberResult is one gauged member in one epoch.
+type MemberResult struct {
+	Member string
+	// Available is true when every gauge of the member reported (a member
+	// with a missing face gauge is not used: its mean strain would carry
+	// bending).
+	Available bool
+	// MeasuredN is E A times the mean compensated gauge strain, the change
+	// since the zero reading, in newtons.
+	MeasuredN float64
+	// PredictedN is the model's prediction of the same change from the
+	// recorded loads and temperatures (unknown loads not included).
+	PredictedN float64
+	// ResidualN = MeasuredN - PredictedN; AdjustedN is the residual after
+	// the unknown loads are fitted.
+	ResidualN, AdjustedN float64
+	// SigmaN is the measurement standard deviation; SigmaAdjustedN the
+	// standard deviation of the adjusted residual, sqrt((Q_e)_ii).
+	SigmaN, SigmaAdjustedN float64
+	// FittedN = PredictedN + the unknown loads' share: the model's best
+	// estimate of the member force change.
+	FittedN    float64
+	W          float64
+	Redundancy float64
+	MDBN       float64
+	Checkable  bool
+}
+
+// LoadEstimate is the estimated factor of one unknown load pattern.
+type LoadEstimate struct {
+	Pattern   string
+	Value     float64
+	Std       float64
+	Estimable bool
+}
+
+// Cause is one ranked candidate cause of a rejected fit.
+type Cause struct {
+	Kind      string  // gauge_fault, stiffness_change, support_settlement, nodal_load
+	Subject   string  // member, support direction or node direction
+	Label     string  // human-readable
+	T         float64 // test statistic, chi-square(1) without the cause
+	PValue    float64
+	Size      float64 // in Unit
+	Unit      string  // N, %, mm
+	Separable bool
+	Epochs    int
+}
+
+// Result is everything computed for one epoch.
+type Result struct {
+	Structure string
+	Time      time.Time
+	Outcome   string
+	// Reason explains a skipped or failed epoch.
+	Reason    string
+	Members   []MemberResult
+	ChiSquare float64
+	DOF       int
+	PValue    float64
+	Rejected  bool
+	Critical  float64
+	Loads     []LoadEstimate
+	// Causes are this epoch's ranked causes (rejected fits only), Window
+	// the sliding-window ranking.
+	Causes []Cause
+	Window []Cause
+	// MissingChannels are the channels that did not report in the epoch.
+	MissingChannels []string
+}
+
+// ProcessorOptions configure a Processor.
+type ProcessorOptions struct {
+	// Reconcile are the statistical options (test sizes, thresholds).
+	Reconcile reconcile.Options
+	// EstimateMissingLoads turns a measured pattern whose load channel is
+	// missing into an unknown to estimate; otherwise the epoch is skipped.
+	EstimateMissingLoads bool
+	// CauseWindow is the number of epochs of the sliding-window ranking
+	// (default 60).
+	CauseWindow int
+	// MaxCauses caps the ranked lists kept per epoch (default 10).
+	MaxCauses int
+}
+
+// Processor reconciles one structure's epochs: snapshot in, Result out.
+// Everything that does not change between epochs is computed at
+// construction (influence matrices, signatures) or cached per set of
+// available members (inside the reconcile.Solver).
+type Processor struct {
+	structure string
+	lm        *linearModel
+	sm        *sensors.Map
+	opt       ProcessorOptions
+	sigma     []float64
+	solvers   map[string]*reconcile.Solver // by the sorted list of missing measured patterns
+	window    *reconcile.WindowRanker
+	fixed     []reconcile.Candidate // gauge, settlement and nodal-load candidates
+	subjects  map[string]string     // candidate label -> subject
+	kinds     map[string]string
+	y, yhat   []float64
+	avail     []bool
+}
+
+// NewProcessor builds the reconciliation of model m with sensor map sm.
+func NewProcessor(m *model.Model, sm *sensors.Map, opt ProcessorOptions) (*Processor, error) {
+	if opt.CauseWindow <= 0 {
+		opt.CauseWindow = 60
+	}
+	if opt.MaxCauses <= 0 {
+		opt.MaxCauses = 10
+	}
+	lm, err := newLinearModel(m, sm)
+	if err != nil {
+		return nil, err
+	}
+	p := &Processor{
+		structure: m.Structure().Name,
+		lm:        lm,
+		sm:        sm,
+		opt:       opt,
+		solvers:   map[string]*reconcile.Solver{},
+		subjects:  map[string]string{},
+		kinds:     map[string]string{},
+	}
+	p.opt.Reconcile.MemberNames = lm.names
+	if p.sigma, err = fullSetSigma(sm, lm.names); err != nil {
+		return nil, err
+	}
+	if _, err := p.solverFor(nil); err != nil {
+		return nil, err
+	}
+	if p.window, err = reconcile.NewWindowRanker(opt.CauseWindow); err != nil {
+		return nil, err
+	}
+	for i, c := range reconcile.GaugeFaults(lm.names) {
+		p.fixed = append(p.fixed, c)
+		p.subjects[c.Label] = lm.names[i]
+	}
+	for j, l := range lm.settleLabels {
+		c := reconcile.Candidate{Kind: reconcile.SupportSettlement, Label: "settlement " + l, Signature: column(lm.settle, j)}
+		p.fixed = append(p.fixed, c)
+		p.subjects[c.Label] = l
+	}
+	for j, l := range lm.loadLabels {
+		c := reconcile.Candidate{Kind: reconcile.NodalLoad, Label: "load at " + l, Signature: column(lm.nodal, j)}
+		p.fixed = append(p.fixed, c)
+		p.subjects[c.Label] = l
+	}
+	for _, mb := range m.Structure().Members {
+		p.subjects["E A of "+mb.ID] = mb.ID
+	}
+	n := len(lm.gauged)
+	p.y, p.yhat, p.avail = make([]float64, n), make([]float64, n), make([]bool, n)
+	return p, nil
+}
+
+// fullSetSigma returns each gauged member's force standard deviation with
+// all its gauges reporting, from the sensor map's noise figures (the
+// weights of the least-squares fit).
+func fullSetSigma(sm *sensors.Map, names []string) ([]float64, error) {
+	values := map[string]float64{}
+	for _, ch := range sm.Channels() {
+		values[ch.ID] = 0
+		if ch.Kind == sensors.KindTemperature {
+			values[ch.ID] = 15
+		}
+	}
+	snap := sm.Evaluate(values)
+	byName := map[string]float64{}
+	for _, mm := range snap.Members {
+		byName[mm.Member] = mm.SigmaN
+	}
+	out := make([]float64, len(names))
+	for i, n := range names {
+		s := byName[n]
+		if !(s > 0) || math.IsInf(s, 0) {
+			return nil, fmt.Errorf("sensor map %s: member %s: gauge noise gives force standard deviation %g N; give every gauge a positive noise figure", sm.File(), n, s)
+		}
+		out[i] = s
+	}
+	return out, nil
+}
+
+func column(a *mat.Dense, j int) []float64 {
+	r, _ := a.Dims()
+	out := make([]float64, r)
+	for i := range out {
+		out[i] = a.At(i, j)
+	}
+	return out
+}
+
+// Gauged returns the gauged member ids in row order.
+func (p *Processor) Gauged() []string { return append([]string(nil), p.lm.names...) }
+
+// Unknown returns the unknown load patterns in estimate order.
+func (p *Processor) Unknown() []string { return append([]string(nil), p.lm.unknown...) }
+
+// Sigma returns the gauged members' force standard deviations (N).
+func (p *Processor) Sigma() []float64 { return append([]float64(nil), p.sigma...) }
+
+// Critical returns the critical value of |w|.
+func (p *Processor) Critical() float64 {
+	s, _ := p.solverFor(nil)
+	return s.Critical()
+}
+
+// solverFor returns the solver whose unknowns are the structure's unknown
+// patterns plus the given missing measured patterns.
+func (p *Processor) solverFor(missing []string) (*reconcile.Solver, error) {
+	key := strings.Join(missing, "\x00")
+	if s, ok := p.solvers[key]; ok {
+		return s, nil
+	}
+	lm := p.lm
+	g := len(lm.gauged)
+	cols := len(lm.unknown) + len(missing)
+	names := append(append([]string(nil), lm.unknown...), missing...)
+	var a *mat.Dense
+	if cols > 0 {
+		a = mat.NewDense(g, cols, nil)
+		for i := 0; i < g; i++ {
+			for j := range lm.unknown {
+				a.Set(i, j, lm.hu.At(i, j))
+			}
+			for j, name := range missing {
+				k := indexOf(lm.known, name)
+				if k < 0 {
+					return nil, fmt.Errorf("pattern %q is not a measured pattern", name)
+				}
+				a.Set(i, len(lm.unknown)+j, lm.hq.At(i, k))
+			}
+		}
+	} else {
+		a = mat.NewDense(g, 1, nil) // no unknowns: a zero column is not estimable
+	}
+	opt := p.opt.Reconcile
+	opt.UnknownNames = names
+	if cols == 0 {
+		opt.DropUnidentifiable = true
+	}
+	s, err := reconcile.NewSolver(a, p.sigma, opt)
+	if err != nil {
+		return nil, fmt.Errorf("structure %s: reconciliation: %w", p.structure, err)
+	}
+	if len(p.solvers) < 64 {
+		p.solvers[key] = s
+	}
+	return s, nil
+}
+
+func indexOf(list []string, s string) int {
+	for i, v := range list {
+		if v == s {
+			return i
+		}
+	}
+	return -1
+}
+
+// Process reconciles one epoch's snapshot taken at time t.
+func (p *Processor) Process(t time.Time, snap *sensors.Snapshot, missingChannels []string) *Result {
+	lm := p.lm
+	res := &Result{Structure: p.structure, Time: t, MissingChannels: missingChannels}
+	res.Members = make([]MemberResult, len(lm.names))
+	byName := make(map[string]*sensors.MemberMeasurement, len(snap.Members))
+	for i := range snap.Members {
+		byName[snap.Members[i].Member] = &snap.Members[i]
+	}
+	if len(snap.MissingTemperatures) > 0 {
+		res.Outcome, res.Reason = OutcomeSkipped, "temperature missing for group(s) "+strings.Join(snap.MissingTemperatures, ", ")
+	}
+	var missing []string
+	if len(snap.MissingLoads) > 0 {
+		if p.opt.EstimateMissingLoads {
+			missing = snap.MissingLoads
+		} else if res.Outcome == "" {
+			res.Outcome, res.Reason = OutcomeSkipped, "load channel missing for pattern(s) "+strings.Join(snap.MissingLoads, ", ")
+		}
+	}
+	nAvail := 0
+	for g, name := range lm.names {
+		mr := &res.Members[g]
+		mr.Member = name
+		mr.SigmaN = p.sigma[g]
+		mm := byName[name]
+		p.avail[g] = mm != nil && mm.Gauges > 0 && mm.Gauges == mm.Expected
+		mr.Available = p.avail[g]
+		if mm == nil {
+			continue
+		}
+		mr.MeasuredN = mm.ForceN
+		mr.PredictedN = lm.predict(g, snap.Loads, snap.Temperatures, mm.ZeroLoads, mm.ZeroTemperatures)
+		mr.ResidualN = mr.MeasuredN - mr.PredictedN
+		p.y[g], p.yhat[g] = mr.MeasuredN, mr.PredictedN
+		if p.avail[g] {
+			nAvail++
+		}
+	}
+	if res.Outcome == "" && nAvail == 0 {
+		res.Outcome, res.Reason = OutcomeSkipped, "no gauged member reported all its gauges"
+	}
+	if res.Outcome != "" {
+		return res
+	}
+	s, err := p.solverFor(missing)
+	if err == nil {
+		var r *reconcile.Result
+		r, err = s.Epoch(p.y, p.yhat, p.avail)
+		if err == nil {
+			p.fill(res, r, s, missing, snap)
+			return res
+		}
+	}
+	res.Outcome = OutcomeFailed
+	res.Reason = err.Error()
+	var ue *reconcile.UnidentifiableError
+	if errors.As(err, &ue) {
+		res.Reason = "unknown loads not identifiable with the gauges present: " + err.Error()
+	}
+	return res
+}
+
+// fill copies the fit into res and ranks causes when the fit is rejected.
+func (p *Processor) fill(res *Result, r *reconcile.Result, s *reconcile.Solver, missing []string, snap *sensors.Snapshot) {
+	lm := p.lm
+	res.ChiSquare, res.DOF, res.PValue, res.Rejected, res.Critical = r.T, r.DOF, r.PValue, r.Rejected, r.Critical
+	res.Outcome = OutcomeAccepted
+	if r.Rejected {
+		res.Outcome = OutcomeRejected
+	}
+	for g := range res.Members {
+		mr := &res.Members[g]
+		mr.AdjustedN = r.Adjusted[g]
+		mr.W = r.W[g]
+		mr.Redundancy = r.Redundancy[g]
+		mr.MDBN = r.MDB[g]
+		mr.Checkable = r.Checkable[g]
+		if mr.Available {
+			mr.FittedN = mr.MeasuredN - mr.AdjustedN
+			if mr.Redundancy > 0 {
+				mr.SigmaAdjustedN = p.sigma[g] * math.Sqrt(mr.Redundancy)
+			}
+		}
+	}
+	names := append(append([]string(nil), lm.unknown...), missing...)
+	for j, n := range names {
+		if j >= len(r.Theta) {
+			break
+		}
+		res.Loads = append(res.Loads, LoadEstimate{Pattern: n, Value: r.Theta[j], Std: r.ThetaStd[j], Estimable: r.Estimable[j]})
+	}
+	theta := r.Theta
+	if len(theta) > len(lm.unknown) {
+		theta = theta[:len(lm.unknown)]
+	}
+	// Cause ranking, every epoch so that the sliding window sums honest
+	// statistics: the fixed candidates plus the stiffness signatures at the
+	// current force state. The per-epoch list is reported for rejected
+	// fits only.
+	loads := snap.Loads
+	if len(missing) > 0 {
+		loads = make(map[string]float64, len(snap.Loads)+len(missing))
+		for k, v := range snap.Loads {
+			loads[k] = v
+		}
+		for j, n := range missing {
+			loads[n] = r.Theta[len(lm.unknown)+j]
+		}
+	}
+	state := lm.stateForces(loads, snap.Temperatures, theta)
+	stiff := lm.sig.Stiffness(state)
+	cands := append([]reconcile.Candidate(nil), p.fixed...)
+	members := lm.m.Structure().Members
+	for k := range members {
+		cands = append(cands, reconcile.Candidate{Kind: reconcile.StiffnessChange, Label: "E A of " + members[k].ID, Signature: column(stiff, k)})
+	}
+	causes, err := r.Causes(cands)
+	if err != nil {
+		res.Reason = "cause ranking: " + err.Error()
+		return
+	}
+	p.window.Add(causes)
+	if r.Rejected {
+		res.Causes = p.convert(causes)
+		res.Window = p.convert(p.window.Ranked())
+	}
+}
+
+// convert turns reconcile causes into Result causes, keeping the first
+// MaxCauses.
+func (p *Processor) convert(cs []reconcile.Cause) []Cause {
+	if len(cs) > p.opt.MaxCauses {
+		cs = cs[:p.opt.MaxCauses]
+	}
+	out := make([]Cause, 0, len(cs))
+	for _, c := range cs {
+		out = append(out, Cause{
+			Kind: c.Kind.String(), Subject: p.subjects[c.Label], Label: c.Label,
+			T: c.T, PValue: c.PValue, Size: c.DisplaySize, Unit: c.DisplayUnit,
+			Separable: c.Separable, Epochs: c.Epochs,
+		})
+	}
+	return out
+}
+
+// sortedKeys returns the keys of a map in order.
+func sortedKeys(m map[string]float64) []string {
+	out := make([]string, 0, len(m))
+	for k := range m {
+		out = append(out, k)
+	}
+	sort.Strings(out)
+	return out
+}
