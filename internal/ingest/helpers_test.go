@@ -127,7 +127,13 @@ func startOwnMosquitto(t testing.TB, dir string, port int) *mosquittoProc {
 	}
 	conf := filepath.Join(dir, "mosquitto.conf")
 	log := filepath.Join(dir, "mosquitto.log")
-	text := fmt.Sprintf(`per_listener_settings false
+	// Run as root, mosquitto switches to the "mosquitto" user, which cannot
+	// write to the test's private temp dir (no persistence, no log).
+	user := ""
+	if os.Geteuid() == 0 {
+		user = "user root\n"
+	}
+	text := user + fmt.Sprintf(`per_listener_settings false
 listener %d 127.0.0.1
 allow_anonymous true
 persistence true
@@ -340,16 +346,20 @@ func checkExactlyOnce(t testing.TB, st *store.Store, structure, channel string, 
 		t.Fatal(err)
 	}
 	missing, twice := 0, 0
-	for _, c := range seen {
+	var first []int
+	for i, c := range seen {
 		switch {
 		case c == 0:
 			missing++
+			if len(first) < 20 {
+				first = append(first, i)
+			}
 		case c > 1:
 			twice++
 		}
 	}
 	if missing > 0 || twice > 0 || extra > 0 {
-		t.Fatalf("channel %s: %d of %d readings missing, %d stored more than once, %d unexpected", channel, missing, n, twice, extra)
+		t.Fatalf("channel %s: %d of %d readings missing (first: %v), %d stored more than once, %d unexpected", channel, missing, n, first, twice, extra)
 	}
 }
 
