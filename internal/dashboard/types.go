@@ -102,7 +102,8 @@ type Member struct {
 type MemberState struct {
 	// ID is the member id.
 	ID string
-	// Measured is the measured axial force in N (tension positive).
+	// Measured is the measured axial force in N (tension positive); NaN
+	// when the gauge did not report in the epoch (written as null).
 	Measured float64
 	// Predicted is the model's force in N including the estimated unknown
 	// loads, so that Measured - Predicted is the residual e.
@@ -165,7 +166,9 @@ type Series struct {
 type SeriesPoint struct {
 	// Time is the epoch time.
 	Time time.Time
-	// Measured and Predicted forces in N; SigmaResidual in N.
+	// Measured and Predicted forces in N; SigmaResidual in N. Use NaN for
+	// a value the epoch lacks (a missing gauge): it is written as null and
+	// the chart leaves a gap.
 	Measured, Predicted, SigmaResidual float64
 	// W is the normalised residual.
 	W float64

@@ -461,3 +461,17 @@ func ExampleWrite() {
 	// time,chi_square,dof,p_value,rejected,D2_measured_n,D2_predicted_n,D2_sigma_residual_n,D2_w,D2_checkable
 	// 2026-06-14T09:00:00Z,0.01,1,0.92,false,-38400,-38460,598,0.1,true
 }
+
+// BenchmarkWriteHTMLDay measures the HTML page alone for a day at 1 Hz
+// (8 members, one unknown load).
+func BenchmarkWriteHTMLDay(b *testing.B) {
+	r := dayReport()
+	var buf bytes.Buffer
+	for b.Loop() {
+		buf.Reset()
+		if err := writeHTML(&buf, r); err != nil {
+			b.Fatal(err)
+		}
+	}
+	b.ReportMetric(float64(buf.Len()), "bytes/page")
+}
