@@ -1,0 +1,434 @@
+package alerts
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"sort"
+	"sync"
+	"time"
+)
+
+// Lookback is how far back an absent counter sample is looked for, as
+// Prometheus's default lookback delta (5 minutes): the counting signals
+// take the counter value Window ago as the latest sample in
+// [t - Window - Lookback, t - Window], and 0 when there is none, exactly
+// like the generated PromQL (`x - (x offset W or x * 0)`).
+const Lookback = 5 * time.Minute
+
+// Observation is what the evaluator sees of one structure at one epoch.
+// Members, channels and the fit not given keep their last values (the
+// metrics keep theirs too, so Prometheus sees the same).
+type Observation struct {
+	Time      time.Time // epoch time: the evaluator's clock
+	Structure string
+	Fit       *Fit      // nil when the epoch was not fitted
+	Members   []Member  // gauged members fitted in this epoch
+	Channels  []Channel // last reading time per channel
+	// SkewCount and RejectCount are cumulative counts since the service
+	// started (the values of the shm_clock_skew_readings_total and summed
+	// shm_ingest_rejections_total counters).
+	SkewCount   uint64
+	RejectCount uint64
+	// Causes are the epoch's top-ranked causes (most likely first).
+	Causes []Cause
+}
+
+// Fit is the global test of an epoch.
+type Fit struct {
+	ChiSquare float64
+	DOF       int
+	PValue    float64
+}
+
+// Member is one gauged member's test in an epoch.
+type Member struct {
+	Member        string
+	W             float64
+	Checkable     bool
+	EstimatedBias float64 // gauge-fault estimate e_i / r_i, newtons
+	Causes        []Cause // optional: causes ranked for this member
+}
+
+// Channel is a channel's freshness.
+type Channel struct {
+	Channel     string
+	LastReading time.Time // zero: never reported (no alarm, no series)
+}
+
+// Cause is evidence of one ranked cause.
+type Cause struct {
+	Label string  `json:"label"`
+	Kind  string  `json:"kind"`
+	T     float64 `json:"t"`
+	Size  float64 `json:"size"` // in Unit
+	Unit  string  `json:"unit"`
+}
+
+// Event kinds.
+const (
+	Raised  = "raised"
+	Cleared = "cleared"
+)
+
+// Event is an alarm being raised or cleared.
+type Event struct {
+	Structure string
+	Rule      string
+	Subject   string // member or channel; "" for the whole structure
+	Kind      string // Raised or Cleared
+	Time      time.Time
+	Evidence  Evidence
+}
+
+// Evidence is what was seen when the event happened.
+type Evidence struct {
+	Signal      string    `json:"signal"`
+	Value       float64   `json:"value"`     // the signal's value (0 when it has none)
+	Threshold   float64   `json:"threshold"` // Raise for raised, Clear for cleared
+	ActiveSince time.Time `json:"active_since"`
+	W           float64   `json:"w,omitempty"`
+	Bias        float64   `json:"estimated_bias_newtons,omitempty"`
+	PValue      float64   `json:"p_value,omitempty"`
+	ChiSquare   float64   `json:"chi_square,omitempty"`
+	DOF         int       `json:"dof,omitempty"`
+	Causes      []Cause   `json:"causes,omitempty"` // top three
+}
+
+// EventSink stores events (the store package, adapted by the caller).
+type EventSink interface {
+	PutEvent(ctx context.Context, e Event) error
+}
+
+// Alarm is a firing alarm.
+type Alarm struct {
+	Rule, Subject string
+	Since         time.Time // when its raise condition first held
+	FiredAt       time.Time
+}
+
+// Evaluator evaluates rules over observations. It is safe for concurrent
+// use; observations of one structure must come in time order.
+type Evaluator struct {
+	rules []Rule
+	keep  time.Duration
+	sink  EventSink
+	mu    sync.Mutex
+	st    map[string]*structState
+}
+
+type alarmState struct {
+	pending, firing bool
+	activeAt, fired time.Time
+}
+
+type sample struct {
+	t time.Time
+	v float64
+}
+
+type structState struct {
+	last        time.Time
+	seen        bool
+	members     map[string]Member
+	fit         *Fit
+	channels    map[string]time.Time
+	skew, rej   []sample
+	causes      []Cause
+	alarms      map[[2]string]*alarmState // rule name, subject
+	firingCount map[string]int
+	keep        time.Duration // counter history kept: longest window + Lookback
+}
+
+// NewEvaluator checks the rules and returns an evaluator that stores its
+// events in sink (nil: events are only returned).
+func NewEvaluator(rules []Rule, sink EventSink) (*Evaluator, error) {
+	seen := map[string]bool{}
+	for _, r := range rules {
+		if err := r.Validate(); err != nil {
+			return nil, err
+		}
+		if seen[r.Name] {
+			return nil, fmt.Errorf("alerts: rule %s defined twice", r.Name)
+		}
+		seen[r.Name] = true
+	}
+	keep := Lookback
+	for _, r := range rules {
+		keep = max(keep, r.Window+Lookback)
+	}
+	return &Evaluator{rules: append([]Rule(nil), rules...), keep: keep, sink: sink, st: map[string]*structState{}}, nil
+}
+
+// Observe evaluates every rule at o.Time and returns the events (raised
+// and cleared) in rule order, then subject order. Events are also stored
+// in the sink; a sink error is returned after all events were attempted,
+// and the alarm states advance regardless.
+func (e *Evaluator) Observe(ctx context.Context, o Observation) ([]Event, error) {
+	if o.Structure == "" {
+		return nil, errors.New("alerts: observation without a structure name")
+	}
+	if o.Time.IsZero() {
+		return nil, fmt.Errorf("alerts: observation of %s has no time; pass the epoch time", o.Structure)
+	}
+	e.mu.Lock()
+	s := e.st[o.Structure]
+	if s == nil {
+		s = &structState{members: map[string]Member{}, channels: map[string]time.Time{},
+			alarms: map[[2]string]*alarmState{}, firingCount: map[string]int{}, keep: e.keep}
+		e.st[o.Structure] = s
+	}
+	if s.seen && o.Time.Before(s.last) {
+		e.mu.Unlock()
+		return nil, fmt.Errorf("alerts: observation of %s at %s is before the previous one at %s; epochs must arrive in time order",
+			o.Structure, o.Time.Format(time.RFC3339Nano), s.last.Format(time.RFC3339Nano))
+	}
+	s.last, s.seen = o.Time, true
+	s.update(o)
+	var events []Event
+	for _, r := range e.rules {
+		events = s.evaluate(r, o, events)
+	}
+	e.mu.Unlock()
+	if e.sink == nil {
+		return events, nil
+	}
+	var errs []error
+	for _, ev := range events {
+		if err := e.sink.PutEvent(ctx, ev); err != nil {
+			errs = append(errs, fmt.Errorf("alerts: storing %s event of %s/%s %s: %w", ev.Kind, ev.Structure, ev.Rule, ev.Subject, err))
+		}
+	}
+	return events, errors.Join(errs...)
+}
+
+// Active returns the firing alarms of structure, ordered by rule and
+// subject.
+func (e *Evaluator) Active(structure string) []Alarm {
+	e.mu.Lock()
+	defer e.mu.Unlock()
+	s := e.st[structure]
+	if s == nil {
+		return nil
+	}
+	var out []Alarm
+	for k, a := range s.alarms {
+		if a.firing {
+			out = append(out, Alarm{Rule: k[0], Subject: k[1], Since: a.activeAt, FiredAt: a.fired})
+		}
+	}
+	sort.Slice(out, func(i, j int) bool {
+		if out[i].Rule != out[j].Rule {
+			return out[i].Rule < out[j].Rule
+		}
+		return out[i].Subject < out[j].Subject
+	})
+	return out
+}
+
+// FiringCount returns how many alarms of rule are firing for structure
+// (the value of shm_alarms_firing).
+func (e *Evaluator) FiringCount(structure, rule string) int {
+	e.mu.Lock()
+	defer e.mu.Unlock()
+	if s := e.st[structure]; s != nil {
+		return s.firingCount[rule]
+	}
+	return 0
+}
+
+// update folds the observation into the held values.
+func (s *structState) update(o Observation) {
+	for _, m := range o.Members {
+		s.members[m.Member] = m
+	}
+	if o.Fit != nil {
+		f := *o.Fit
+		s.fit = &f
+	}
+	for _, c := range o.Channels {
+		if !c.LastReading.IsZero() {
+			if prev, ok := s.channels[c.Channel]; !ok || c.LastReading.After(prev) {
+				s.channels[c.Channel] = c.LastReading
+			}
+		}
+	}
+	if o.Causes != nil {
+		s.causes = o.Causes
+	}
+	keep := s.keep
+	s.skew = appendSample(s.skew, sample{o.Time, float64(o.SkewCount)}, o.Time.Add(-keep))
+	s.rej = appendSample(s.rej, sample{o.Time, float64(o.RejectCount)}, o.Time.Add(-keep))
+}
+
+func appendSample(h []sample, x sample, oldest time.Time) []sample {
+	h = append(h, x)
+	drop := 0
+	for drop < len(h)-1 && h[drop].t.Before(oldest) {
+		drop++
+	}
+	if drop > 0 && drop > len(h)/2 {
+		h = append(h[:0], h[drop:]...)
+	}
+	return h
+}
+
+// increase returns counter(t) - counter(t - w), the old value being the
+// latest sample in [t - w - Lookback, t - w], or 0 without one.
+func increase(h []sample, t time.Time, w time.Duration) float64 {
+	cur := h[len(h)-1].v
+	ref := t.Add(-w)
+	lo := ref.Add(-Lookback)
+	base := 0.0
+	for i := len(h) - 1; i >= 0; i-- {
+		if h[i].t.After(ref) {
+			continue
+		}
+		if !h[i].t.Before(lo) {
+			base = h[i].v
+		}
+		break
+	}
+	return cur - base
+}
+
+// instance is one subject's signal value at this evaluation.
+type instance struct {
+	subject string
+	value   float64
+	ok      bool // the signal has a value
+}
+
+// instances lists the rule's subjects with their values: every subject
+// seen so far, plus those with an alarm state.
+func (s *structState) instances(r Rule, t time.Time) []instance {
+	var out []instance
+	switch r.Signal {
+	case SignalAbsW:
+		for name, m := range s.members {
+			w := m.W
+			if w < 0 {
+				w = -w
+			}
+			out = append(out, instance{name, w, m.Checkable})
+		}
+	case SignalSilence:
+		for name, last := range s.channels {
+			out = append(out, instance{name, t.Sub(last).Seconds(), true})
+		}
+	case SignalPValue:
+		if s.fit != nil {
+			out = append(out, instance{"", s.fit.PValue, true})
+		}
+	case SignalSkewIncrease:
+		out = append(out, instance{"", increase(s.skew, t, r.Window), true})
+	case SignalRejectIncrease:
+		out = append(out, instance{"", increase(s.rej, t, r.Window), true})
+	}
+	have := map[string]bool{}
+	for _, in := range out {
+		have[in.subject] = true
+	}
+	for k := range s.alarms {
+		if k[0] == r.Name && !have[k[1]] {
+			out = append(out, instance{subject: k[1]})
+		}
+	}
+	sort.Slice(out, func(i, j int) bool { return out[i].subject < out[j].subject })
+	return out
+}
+
+// evaluate advances the alarm states of rule r (the state machine of a
+// Prometheus alerting rule with the clearing expression of promql.go):
+//
+//	inactive -> pending   when raised(v)
+//	pending  -> inactive  when not raised(v)
+//	pending  -> firing    when raised(v) and t - activeAt >= For   (event "raised")
+//	firing   -> inactive  when neither raised(v) nor held(v)      (event "cleared")
+func (s *structState) evaluate(r Rule, o Observation, events []Event) []Event {
+	t := o.Time
+	for _, in := range s.instances(r, t) {
+		key := [2]string{r.Name, in.subject}
+		a := s.alarms[key]
+		raise := in.ok && r.raised(in.value)
+		hold := in.ok && r.held(in.value)
+		if a == nil {
+			if !raise {
+				continue
+			}
+			a = &alarmState{}
+			s.alarms[key] = a
+		}
+		switch {
+		case a.firing:
+			if !raise && !hold {
+				events = append(events, s.event(r, o, in, Cleared, a))
+				delete(s.alarms, key)
+				s.firingCount[r.Name]--
+			}
+		case a.pending:
+			if !raise {
+				delete(s.alarms, key)
+			}
+		default:
+			a.pending, a.activeAt = true, t
+		}
+		if a.pending && !a.firing && raise && t.Sub(a.activeAt) >= r.For {
+			a.firing, a.fired = true, t
+			s.firingCount[r.Name]++
+			events = append(events, s.event(r, o, in, Raised, a))
+		}
+	}
+	return events
+}
+
+func (s *structState) event(r Rule, o Observation, in instance, kind string, a *alarmState) Event {
+	ev := Event{Structure: o.Structure, Rule: r.Name, Subject: in.subject, Kind: kind, Time: o.Time}
+	ev.Evidence = Evidence{Signal: r.Signal.String(), ActiveSince: a.activeAt, Threshold: r.Raise}
+	if kind == Cleared {
+		ev.Evidence.Threshold = r.Clear
+	}
+	if in.ok {
+		ev.Evidence.Value = in.value
+	}
+	causes := s.causes
+	switch r.Signal {
+	case SignalAbsW:
+		m := s.members[in.subject]
+		ev.Evidence.W = m.W
+		ev.Evidence.Bias = m.EstimatedBias
+		if len(m.Causes) > 0 {
+			causes = m.Causes
+		}
+	case SignalPValue:
+		if s.fit != nil {
+			ev.Evidence.PValue = s.fit.PValue
+			ev.Evidence.ChiSquare = s.fit.ChiSquare
+			ev.Evidence.DOF = s.fit.DOF
+		}
+	default:
+		causes = nil
+	}
+	if len(causes) > 3 {
+		causes = causes[:3]
+	}
+	ev.Evidence.Causes = append([]Cause(nil), causes...)
+	return ev
+}
+
+// String returns the signal's name.
+func (s Signal) String() string {
+	switch s {
+	case SignalAbsW:
+		return "abs_w"
+	case SignalPValue:
+		return "fit_p_value"
+	case SignalSilence:
+		return "seconds_since_last_reading"
+	case SignalSkewIncrease:
+		return "skewed_readings_in_window"
+	case SignalRejectIncrease:
+		return "rejections_in_window"
+	}
+	return fmt.Sprintf("signal(%d)", int(s))
+}

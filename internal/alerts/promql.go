@@ -1,0 +1,152 @@
+package alerts
+
+import (
+	"bytes"
+	"fmt"
+	"strconv"
+	"time"
+
+	"go.yaml.in/yaml/v3"
+
+	"trussmonitor/internal/metrics"
+)
+
+// PrometheusRules writes DefaultRules as a Prometheus alerting-rules file
+// (one group per structure) over the metric names of internal/metrics.
+func PrometheusRules(structures []string) ([]byte, error) {
+	rules, err := DefaultRules()
+	if err != nil {
+		return nil, err
+	}
+	return PrometheusRulesFor(rules, structures)
+}
+
+// PrometheusRulesFor writes the given rules for the given structures.
+// Each rule carries the label structure (equal to its series' label) so
+// that the groups of different structures are not duplicates to promtool.
+//
+// Translation of a rule (signal S, thresholds Raise and Clear, for F):
+//
+//	expr: (S) > Raise
+//	      or ((S) > Clear and on(<labels>) ALERTS{alertname="<rule>", alertstate="firing", structure="<s>"})
+//	for:  F
+//
+// The second branch is the hysteresis: it only matches while the alert is
+// already firing (ALERTS of the previous evaluation), so a firing alert is
+// held while the signal stays beyond Clear and resolves at the first
+// evaluation where it does not, while a pending alert still needs the
+// raise condition at every evaluation. This is the in-process evaluator's
+// state machine. Prometheus 2.42 (Debian's) accepts keep_firing_for, but
+// that holds an alert for a time, not down to a threshold, so it is not
+// used. Counter increases are written as `x - (x offset W or x * 0)`: the
+// value W ago with the default 5 m lookback, 0 when the series is younger,
+// which the evaluator reproduces exactly (no rate extrapolation).
+func PrometheusRulesFor(rules []Rule, structures []string) ([]byte, error) {
+	if len(structures) == 0 {
+		return nil, fmt.Errorf("alerts: no structure names given; the rules file needs at least one")
+	}
+	type rule struct {
+		Alert       string            `yaml:"alert"`
+		Expr        string            `yaml:"expr"`
+		For         string            `yaml:"for,omitempty"`
+		Labels      map[string]string `yaml:"labels"`
+		Annotations map[string]string `yaml:"annotations"`
+	}
+	type group struct {
+		Name  string `yaml:"name"`
+		Rules []rule `yaml:"rules"`
+	}
+	var file struct {
+		Groups []group `yaml:"groups"`
+	}
+	seen := map[string]bool{}
+	for _, s := range structures {
+		if s == "" || seen[s] {
+			return nil, fmt.Errorf("alerts: structure name %q is empty or given twice", s)
+		}
+		seen[s] = true
+		g := group{Name: "trussmonitor-" + s}
+		for _, r := range rules {
+			if err := r.Validate(); err != nil {
+				return nil, err
+			}
+			pr := rule{Alert: r.Name, Expr: Expr(r, s), Labels: map[string]string{"severity": r.Severity, "structure": s},
+				Annotations: map[string]string{"summary": r.Summary, "description": r.Description}}
+			if r.For > 0 {
+				pr.For = promDuration(r.For)
+			}
+			g.Rules = append(g.Rules, pr)
+		}
+		file.Groups = append(file.Groups, g)
+	}
+	var buf bytes.Buffer
+	buf.WriteString("# Alerting rules of the truss reconciliation monitor, written by `monitor rules`.\n")
+	buf.WriteString("# Same rules, thresholds and for-durations as the in-process evaluator\n")
+	buf.WriteString("# (internal/alerts); do not edit by hand, regenerate instead.\n")
+	buf.WriteString("# This is a monitoring aid, not a safety verdict; decisions rest with a\n")
+	buf.WriteString("# licensed engineer under local codes.\n")
+	enc := yaml.NewEncoder(&buf)
+	enc.SetIndent(2)
+	if err := enc.Encode(file); err != nil {
+		return nil, fmt.Errorf("alerts: writing rules YAML: %w", err)
+	}
+	if err := enc.Close(); err != nil {
+		return nil, fmt.Errorf("alerts: writing rules YAML: %w", err)
+	}
+	return buf.Bytes(), nil
+}
+
+// Expr returns the PromQL expression of rule r for structure s.
+func Expr(r Rule, s string) string {
+	sel := "{structure=" + strconv.Quote(s) + "}"
+	var sig, on string
+	switch r.Signal {
+	case SignalAbsW:
+		sig = fmt.Sprintf("abs(%s%s) and on(structure, member) %s%s == 1", metrics.MemberW, sel, metrics.MemberCheckable, sel)
+		on = "structure, member"
+	case SignalPValue:
+		sig = metrics.FitPValue + sel
+		on = "structure"
+	case SignalSilence:
+		sig = "time() - " + metrics.ChannelLastReading + sel
+		on = "structure, channel"
+	case SignalSkewIncrease:
+		sig = increaseExpr(metrics.ClockSkewReadings+sel, r.Window)
+		on = "structure"
+	case SignalRejectIncrease:
+		sig = increaseExpr(metrics.IngestRejections+sel, r.Window)
+		on = "structure"
+	}
+	op := ">"
+	if r.Below {
+		op = "<"
+	}
+	raise := fmt.Sprintf("(%s) %s %s", sig, op, num(r.Raise))
+	if r.Clear == r.Raise {
+		return raise
+	}
+	firing := fmt.Sprintf("ALERTS{alertname=%s, alertstate=\"firing\", structure=%s}", strconv.Quote(r.Name), strconv.Quote(s))
+	return fmt.Sprintf("%s\nor\n((%s) %s %s and on(%s) %s)", raise, sig, op, num(r.Clear), on, firing)
+}
+
+// increaseExpr is the counter's increase over w, summed over its other
+// labels, with a missing old value taken as 0.
+func increaseExpr(sel string, w time.Duration) string {
+	cur := "sum by (structure) (" + sel + ")"
+	old := "sum by (structure) (" + sel + " offset " + promDuration(w) + ")"
+	return fmt.Sprintf("%s - (%s or %s * 0)", cur, old, cur)
+}
+
+func num(v float64) string { return strconv.FormatFloat(v, 'g', -1, 64) }
+
+// promDuration writes d in Prometheus duration syntax (whole seconds).
+func promDuration(d time.Duration) string {
+	s := int64(d / time.Second)
+	switch {
+	case s%3600 == 0:
+		return strconv.FormatInt(s/3600, 10) + "h"
+	case s%60 == 0:
+		return strconv.FormatInt(s/60, 10) + "m"
+	}
+	return strconv.FormatInt(s, 10) + "s"
+}
