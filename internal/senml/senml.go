@@ -26,6 +26,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"strconv"
 	"strings"
 	"time"
 )
@@ -123,15 +124,24 @@ func Decode(payload []byte, now time.Time) ([]Record, error) {
 	if trimmed[0] != '[' {
 		return nil, errf(ReasonMalformedJSON, -1, "", "payload is not a JSON array; a SenML pack is an array of records, e.g. [{\"v\":1.5}]")
 	}
-	var raws []json.RawMessage
-	if err := json.Unmarshal(trimmed, &raws); err != nil {
-		return nil, &Error{reason: ReasonMalformedJSON, Record: -1, Msg: "invalid JSON", Err: err}
+	// One scan into maps of raw fields; when an element is not an object,
+	// decode element by element to name the record.
+	var fieldsList []map[string]json.RawMessage
+	if err := json.Unmarshal(trimmed, &fieldsList); err != nil {
+		var ute *json.UnmarshalTypeError
+		if !errors.As(err, &ute) {
+			return nil, &Error{reason: ReasonMalformedJSON, Record: -1, Msg: "invalid JSON", Err: err}
+		}
+		return nil, locateBadRecord(trimmed)
 	}
-	out := make([]Record, 0, len(raws))
+	out := make([]Record, 0, len(fieldsList))
 	var base baseState
 	base.version = SupportedVersion
-	for i, raw := range raws {
-		r, err := decodeRecord(i, raw, &base, now)
+	for i, fields := range fieldsList {
+		if fields == nil {
+			return nil, errf(ReasonBadRecord, i, "", "record is null, not a JSON object")
+		}
+		r, err := decodeRecord(i, fields, &base, now)
 		if err != nil {
 			return nil, err
 		}
@@ -152,15 +162,22 @@ type baseState struct {
 	version int
 }
 
-func decodeRecord(i int, raw json.RawMessage, base *baseState, now time.Time) (Record, error) {
-	t := bytes.TrimSpace(raw)
-	if len(t) == 0 || t[0] != '{' {
-		return Record{}, errf(ReasonBadRecord, i, "", "record is %s, not a JSON object", jsonKind(t))
+// locateBadRecord finds the first element of a syntactically valid pack
+// that is not a JSON object.
+func locateBadRecord(pack []byte) error {
+	var raws []json.RawMessage
+	if err := json.Unmarshal(pack, &raws); err != nil {
+		return &Error{reason: ReasonMalformedJSON, Record: -1, Msg: "invalid JSON", Err: err}
 	}
-	var fields map[string]json.RawMessage
-	if err := json.Unmarshal(t, &fields); err != nil {
-		return Record{}, &Error{reason: ReasonMalformedJSON, Record: i, Msg: "invalid JSON object", Err: err}
+	for i, raw := range raws {
+		if t := bytes.TrimSpace(raw); len(t) == 0 || t[0] != '{' {
+			return errf(ReasonBadRecord, i, "", "record is %s, not a JSON object", jsonKind(t))
+		}
 	}
+	return errf(ReasonBadRecord, -1, "", "a record is not a JSON object")
+}
+
+func decodeRecord(i int, fields map[string]json.RawMessage, base *baseState, now time.Time) (Record, error) {
 	// Must-understand labels first (RFC 8428 section 4.4): a label ending
 	// in "_" that the receiver does not understand rejects the pack. This
 	// decoder understands none.
@@ -387,10 +404,16 @@ func clip(s string) string {
 
 func stringField(i int, field string, raw json.RawMessage) (string, error) {
 	var s string
-	if t := bytes.TrimSpace(raw); len(t) == 0 || t[0] != '"' {
+	t := bytes.TrimSpace(raw)
+	if len(t) == 0 || t[0] != '"' {
 		return "", errf(ReasonBadRecord, i, field, "string expected, got %s", jsonKind(t))
 	}
-	if err := json.Unmarshal(raw, &s); err != nil {
+	// The pack was validated as JSON: a string without escapes is its
+	// bytes between the quotes.
+	if len(t) >= 2 && bytes.IndexByte(t, '\\') < 0 {
+		return string(t[1 : len(t)-1]), nil
+	}
+	if err := json.Unmarshal(t, &s); err != nil {
 		return "", errf(ReasonBadRecord, i, field, "string expected, got %s", jsonKind(raw))
 	}
 	return s, nil
@@ -401,12 +424,12 @@ func numberField(i int, field string, raw json.RawMessage) (float64, error) {
 	if len(t) == 0 || !(t[0] == '-' || (t[0] >= '0' && t[0] <= '9')) {
 		return 0, errf(ReasonBadRecord, i, field, "number expected, got %s", jsonKind(t))
 	}
-	var v float64
-	if err := json.Unmarshal(t, &v); err != nil {
-		var ute *json.UnmarshalTypeError
-		if errors.As(err, &ute) {
-			// A syntactically valid JSON number that does not fit a
-			// float64 (e.g. 1e400).
+	// The pack was validated as JSON, so t is a JSON number, which
+	// strconv reads exactly; its only failure is a value beyond float64.
+	v, err := strconv.ParseFloat(string(t), 64)
+	if err != nil {
+		var ne *strconv.NumError
+		if errors.As(err, &ne) && ne.Err == strconv.ErrRange {
 			return 0, errf(ReasonNotFinite, i, field, "number %s is out of the float64 range", clip(string(t)))
 		}
 		return 0, &Error{reason: ReasonMalformedJSON, Record: i, Field: field, Msg: "invalid number", Err: err}

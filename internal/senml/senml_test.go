@@ -100,6 +100,12 @@ func TestRFCExamples(t *testing.T) {
 			want:    []Record{{Name: "a", Value: 1, Time: now}},
 		},
 		{name: "empty pack", payload: ` [] `, want: []Record{}},
+		{
+			// Escaped name and an underflowing value (reads as 0).
+			name:    "escapes and underflow",
+			payload: `[{"n":"B2\u005fa","v":1e-400}]`,
+			want:    []Record{{Name: "B2_a", Value: 0, Time: now}},
+		},
 	}
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {
@@ -130,6 +136,8 @@ func TestDecodeErrors(t *testing.T) {
 		{"object not array", `{"v":1}`, ReasonMalformedJSON, -1, ""},
 		{"truncated", `[{"v":1}`, ReasonMalformedJSON, -1, ""},
 		{"record not object", `[{"v":1}, 3]`, ReasonBadRecord, 1, ""},
+		{"null record", `[{"v":1}, {"v":2}, null]`, ReasonBadRecord, 2, ""},
+		{"array record", `[[{"v":1}]]`, ReasonBadRecord, 0, ""},
 		{"v string", `[{"v":"1.5"}]`, ReasonBadRecord, 0, "v"},
 		{"n number", `[{"n":5,"v":1}]`, ReasonBadRecord, 0, "n"},
 		{"bt bool", `[{"bt":true,"v":1}]`, ReasonBadRecord, 0, "bt"},
