@@ -1,12 +1,10 @@
 package sparse
 
 import (
-	"math"
 	"time"
 
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
-	"gonum.org/v1/gonum/lapack/lapack64"
 )
 
 // superFactor is the supernodal factor: for supernode s with nc columns and
@@ -39,7 +37,7 @@ func numericSupernodal(a *Sym, sy *symbolic, tol float64) (factor, error) {
 	lVal := make([]float64, sy.lPtr[ns])
 	diag := permutedDiagonal(a, sy.perm)
 	pos := make([]int, n)
-	var front, stack, save []float64
+	var front, stack []float64
 	// Update matrices on the stack, most recent last: their sizes.
 	var upd []int
 	nchild := make([]int, ns)
@@ -89,35 +87,10 @@ func numericSupernodal(a *Sym, sy *symbolic, tol float64) (factor, error) {
 			stack = stack[:len(stack)-u*u]
 		}
 		// Dense partial factorisation of the front.
-		if cap(save) < nc*nc {
-			save = make([]float64, nc*nc)
-		}
-		sv := save[:nc*nc]
-		for r := 0; r < nc; r++ {
-			copy(sv[r*nc:r*nc+r+1], F[r*m:r*m+r+1])
-		}
-		_, ok := lapack64.Potrf(blas64.Symmetric{Uplo: blas.Lower, N: nc, Data: F, Stride: m})
-		if ok {
-			for j := 0; j < nc; j++ {
-				d := F[j*m+j] * F[j*m+j]
-				if !pivotOK(d, diag[f+j], tol) {
-					return nil, pivotError(f+j, d, sy.perm, a, tol)
-				}
-			}
-		} else {
-			k, d := cholUnblocked(sv, nc, nc, diag[f:l], tol)
-			if k < 0 {
-				k, d = nc-1, math.NaN()
-			}
+		if k, d := factorFront(F, m, nc, diag[f:l], tol); k >= 0 {
 			return nil, pivotError(f+k, d, sy.perm, a, tol)
 		}
 		u := m - nc
-		if u > 0 {
-			L11 := blas64.Triangular{Uplo: blas.Lower, Diag: blas.NonUnit, N: nc, Data: F, Stride: m}
-			L21 := blas64.General{Rows: u, Cols: nc, Data: F[nc*m:], Stride: m}
-			blas64.Trsm(blas.Right, blas.Trans, 1, L11, L21)
-			syrkLower(u, nc, F[nc*m:], m, F[nc*m+nc:], m)
-		}
 		// Keep L's columns, push the update matrix.
 		L := lVal[sy.lPtr[s]:sy.lPtr[s+1]]
 		for r := 0; r < m; r++ {
@@ -146,12 +119,67 @@ func slices_grow(s []float64, k int) []float64 {
 	return s[:len(s)+k]
 }
 
-// syrkLower sets the lower triangle of the u×u block C (stride ldc) to
-// C - A Aᵀ, A being u×k (stride lda).
-func syrkLower(u, k int, A []float64, lda int, C []float64, ldc int) {
-	blas64.Syrk(blas.NoTrans, -1,
-		blas64.General{Rows: u, Cols: k, Data: A, Stride: lda}, 1,
-		blas64.Symmetric{Uplo: blas.Lower, N: u, Data: C, Stride: ldc})
+// triInverse writes the inverse of the w×w lower triangle l (stride ld)
+// into dst (row-major w×w, zeros above the diagonal) by column-oriented
+// forward substitution (Higham, 2nd ed., §14.2, method 1) and returns it.
+func triInverse(l []float64, w, ld int, dst []float64) []float64 {
+	clear(dst)
+	for j := 0; j < w; j++ {
+		dst[j*w+j] = 1 / l[j*ld+j]
+		for i := j + 1; i < w; i++ {
+			s := 0.0
+			for t := j; t < i; t++ {
+				s += l[i*ld+t] * dst[t*w+j]
+			}
+			dst[i*w+j] = -s / l[i*ld+i]
+		}
+	}
+	return dst
+}
+
+// frontBlock is the column block width of factorFront.
+const frontBlock = 48
+
+// factorFront factors the leading nc columns of the m×m row-major frontal
+// matrix F (lower triangle): F11 = L11 L11ᵀ, L21 = F21 L11⁻ᵀ, and replaces
+// F22 by its Schur complement F22 - L21 L21ᵀ. It is a left-looking blocked
+// Cholesky (Golub and Van Loan, 4th ed., §4.2.9) whose updates all go
+// through subABt. It returns the first failing pivot position, or -1.
+func factorFront(F []float64, m, nc int, diag []float64, tol float64) (int, float64) {
+	var inv [frontBlock * frontBlock]float64
+	tbuf := make([]float64, max(0, m-min(nc, frontBlock))*frontBlock)
+	for j0 := 0; j0 < nc; j0 += frontBlock {
+		j1 := min(nc, j0+frontBlock)
+		w := j1 - j0
+		// Columns j0..j1 of rows j0..m less the earlier columns' share.
+		subABt(m-j0, w, j0, F[j0*m:], m, F[j0*m:], m, F[j0*m+j0:], m, true)
+		if k, d := cholUnblocked(F[j0*m+j0:], w, m, diag[j0:j1], tol); k >= 0 {
+			return j0 + k, d
+		}
+		// Rows below the block: X = F[j1:m, J] L_JJ⁻ᵀ, as a product with
+		// the explicit inverse of the small triangle so that it runs
+		// through subABt as well.
+		if r := m - j1; r > 0 {
+			linv := triInverse(F[j0*m+j0:], w, m, inv[:w*w])
+			T := tbuf[:r*w]
+			for i := 0; i < r; i++ {
+				row := F[(j1+i)*m+j0 : (j1+i)*m+j1]
+				copy(T[i*w:(i+1)*w], row)
+				clear(row)
+			}
+			subABt(r, w, w, T, w, linv, w, F[j1*m+j0:], m, false)
+			for i := 0; i < r; i++ {
+				row := F[(j1+i)*m+j0 : (j1+i)*m+j1]
+				for j := range row {
+					row[j] = -row[j]
+				}
+			}
+		}
+	}
+	if u := m - nc; u > 0 {
+		subABt(u, u, nc, F[nc*m:], m, F[nc*m:], m, F[nc*m+nc:], m, true)
+	}
+	return -1, 0
 }
 
 func (sf *superFactor) solve(x []float64) {

@@ -1,0 +1,8 @@
+//go:build !amd64
+
+package sparse
+
+// dot2x4 sets out[4i+j] = Σ_{t<k} a[i*lda+t]·b[j*ldb+t] for i < 2, j < 4.
+func dot2x4(k int, a []float64, lda int, b []float64, ldb int, out *[8]float64) {
+	dot2x4Go(k, a, lda, b, ldb, out)
+}
