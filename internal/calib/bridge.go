@@ -83,6 +83,23 @@ func HalfBridgePoissonStrain(gf, nu, ratio float64) float64 {
 	return 4 * ratio / (gf * ((1 + nu) - 2*ratio*(1-nu)))
 }
 
+// PoissonBridgeNonlinearity is the relative shortfall of the exact output of
+// either Poisson arrangement (half or full bridge) below its linear
+// approximation factor * GF e / 4:
+//
+//	eta = GF e (1 - nu) / (2 + GF e (1 - nu))
+//
+// The half and full bridges share it, since both outputs are their linear
+// forms times 2 / (2 + GF e (1 - nu)). It is smaller than the quarter
+// bridge's GF e / (2 + GF e) by about the factor (1 - nu), because the
+// Poisson gauge's resistance falls while the axial gauge's rises. The
+// bending arrangements (HalfBridgeBendingOutput, FullBridgeBendingOutput)
+// are exactly linear.
+func PoissonBridgeNonlinearity(gf, nu, strain float64) float64 {
+	x := gf * strain * (1 - nu)
+	return x / (2 + x)
+}
+
 // HalfBridgePoissonFactor is the bridge factor 1 + nu of
 // HalfBridgePoissonOutput: the linear output is factor * GF e / 4.
 func HalfBridgePoissonFactor(nu float64) float64 { return 1 + nu }

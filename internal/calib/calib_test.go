@@ -91,6 +91,23 @@ func TestBridgeFactors(t *testing.T) {
 	}
 }
 
+func TestPoissonNonlinearity(t *testing.T) {
+	const gf, nu = 2, 0.3
+	for _, e := range []float64{-2000e-6, 500e-6, 1000e-6, 5000e-6} {
+		half := 1 - HalfBridgePoissonOutput(gf, nu, e)/(HalfBridgePoissonFactor(nu)*gf*e/4)
+		full := 1 - FullBridgePoissonOutput(gf, nu, e)/(FullBridgePoissonFactor(nu)*gf*e/4)
+		eta := PoissonBridgeNonlinearity(gf, nu, e)
+		if !near(half, eta, 1e-12) || !near(full, eta, 1e-12) {
+			t.Errorf("e=%g: half %g full %g formula %g", e, half, full, eta)
+		}
+	}
+	// GF 2, nu 0.3, 1000 microstrain: 0.0014 / 2.0014 = 0.06995 %, against
+	// the quarter bridge's 0.0999 % (closed form).
+	if eta := PoissonBridgeNonlinearity(2, 0.3, 1000e-6); !near(eta, 0.0014/2.0014, 1e-15) {
+		t.Errorf("eta %g", eta)
+	}
+}
+
 func TestInverseRoundTrip(t *testing.T) {
 	const gf, nu = 2.05, 0.29
 	pairs := []struct {
