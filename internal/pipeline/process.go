@@ -10,6 +10,7 @@ import (
 
 	"gonum.org/v1/gonum/mat"
 
+	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/model"
 	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/sensors"
@@ -92,6 +93,13 @@ type Result struct {
 	Window []Cause
 	// MissingChannels are the channels that did not report in the epoch.
 	MissingChannels []string
+	// Events are the alarm events this epoch raised or cleared, Active the
+	// alarms firing after it (set by the Pipeline).
+	Events []alerts.Event
+	Active []alerts.Alarm
+	// Took is the processing time of the epoch (not part of replayed
+	// output: it differs between runs).
+	Took time.Duration
 }
 
 // ProcessorOptions configure a Processor.

@@ -1,0 +1,303 @@
+// Package pipeline is the one path from raw readings to results, alarms and
+// their consumers, shared by live running and replay (DESIGN.md, Data flow):
+//
+//	raw reading -> calibrate (sensor map) -> epoch assembler
+//	  -> reconcile (Processor) -> alarm rules (alerts.Evaluator) -> sinks
+//
+// Live running feeds it from the ingest's commit callback and ticks it with
+// the wall clock; replay feeds it the stored readings in time order and has
+// no clock, so epochs close on the readings' own times and the alarm
+// evaluator's clock is the epoch time: the same readings give the same
+// results and the same alarm times.
+package pipeline
+
+import (
+	"context"
+	"fmt"
+	"log/slog"
+	"sync"
+	"time"
+
+	"trussmonitor/internal/alerts"
+	"trussmonitor/internal/epoch"
+	"trussmonitor/internal/model"
+	"trussmonitor/internal/sensors"
+)
+
+// Reading is one raw reading as the logger sent it (and as it is stored).
+type Reading struct {
+	Channel string
+	Time    time.Time
+	Value   float64
+}
+
+// Sink receives every epoch's result, with the alarm events it raised or
+// cleared, in time order. Sinks are called synchronously from the feeding
+// goroutine and must not block for long.
+type Sink interface {
+	Epoch(r *Result)
+}
+
+// Config configures a Pipeline.
+type Config struct {
+	// Window and MaxLateness configure the epoch assembler.
+	Window, MaxLateness time.Duration
+	// Clock is the receiver's clock for live running (idle flush, clock
+	// skew, channel silence between epochs); nil for replay.
+	Clock func() time.Time
+	// MaxFuture and MaxPast bound the clock skew accepted (live only).
+	MaxFuture, MaxPast time.Duration
+	// Processor configures reconciliation.
+	Processor ProcessorOptions
+	// Rules are the alarm rules; nil means alerts.DefaultRules.
+	Rules []alerts.Rule
+	// Events stores alarm events (nil: not stored).
+	Events alerts.EventSink
+	// RejectCount returns the cumulative count of rejected payloads of this
+	// structure (live ingest); nil means none.
+	RejectCount func() uint64
+	// Observer receives late-reading counts; may be nil.
+	Observer epoch.Observer
+	// Logger logs conversion problems at a bounded rate; nil discards.
+	Logger *slog.Logger
+}
+
+// Stats are a pipeline's running counts.
+type Stats struct {
+	Readings        int64 // raw readings fed
+	ConvertErrors   int64 // readings the sensor map could not convert
+	Epochs          int64
+	ByOutcome       map[string]int64
+	AlarmOutOfOrder int64 // epochs not evaluated by the alarm rules (older than the last evaluation)
+	Assembler       epoch.Stats
+}
+
+// Pipeline runs one structure's readings through calibration, epochs,
+// reconciliation and alarms. It is safe for concurrent use.
+type Pipeline struct {
+	mu        sync.Mutex
+	structure string
+	sm        *sensors.Map
+	proc      *Processor
+	asm       *epoch.Assembler
+	eval      *alerts.Evaluator
+	cfg       Config
+	sinks     []Sink
+	lastSeen  map[string]time.Time
+	channels  []string
+	lastEval  time.Time
+	lastEpoch time.Time
+	stats     Stats
+	logged    map[string]time.Time
+}
+
+// New builds the pipeline of model m with sensor map sm.
+func New(m *model.Model, sm *sensors.Map, cfg Config, sinks ...Sink) (*Pipeline, error) {
+	name := m.Structure().Name
+	if sm.StructureName() != name {
+		return nil, fmt.Errorf("sensor map %s is for structure %q, the model is %q; pair the files of one structure", sm.File(), sm.StructureName(), name)
+	}
+	proc, err := NewProcessor(m, sm, cfg.Processor)
+	if err != nil {
+		return nil, err
+	}
+	var expected []string
+	for _, ch := range sm.Channels() {
+		expected = append(expected, ch.ID)
+	}
+	asm, err := epoch.New(epoch.Config{
+		Structure: name, Window: cfg.Window, MaxLateness: cfg.MaxLateness, Expected: expected,
+		MaxFuture: cfg.MaxFuture, MaxPast: cfg.MaxPast,
+	}, cfg.Clock, cfg.Observer)
+	if err != nil {
+		return nil, err
+	}
+	rules := cfg.Rules
+	if rules == nil {
+		if rules, err = alerts.DefaultRules(); err != nil {
+			return nil, err
+		}
+	}
+	eval, err := alerts.NewEvaluator(rules, cfg.Events)
+	if err != nil {
+		return nil, err
+	}
+	if cfg.Logger == nil {
+		cfg.Logger = slog.New(slog.DiscardHandler)
+	}
+	return &Pipeline{
+		structure: name, sm: sm, proc: proc, asm: asm, eval: eval, cfg: cfg, sinks: sinks,
+		lastSeen: map[string]time.Time{}, channels: expected,
+		stats:  Stats{ByOutcome: map[string]int64{}},
+		logged: map[string]time.Time{},
+	}, nil
+}
+
+// Structure returns the structure's name.
+func (p *Pipeline) Structure() string { return p.structure }
+
+// Processor returns the reconciliation of this pipeline (read-only use).
+func (p *Pipeline) Processor() *Processor { return p.proc }
+
+// AddSink adds a consumer of results.
+func (p *Pipeline) AddSink(s Sink) {
+	p.mu.Lock()
+	p.sinks = append(p.sinks, s)
+	p.mu.Unlock()
+}
+
+// Feed calibrates raw readings, assembles them and processes every epoch
+// they close.
+func (p *Pipeline) Feed(ctx context.Context, rs []Reading) {
+	p.mu.Lock()
+	defer p.mu.Unlock()
+	for _, r := range rs {
+		p.stats.Readings++
+		v, err := p.sm.Convert(r.Channel, r.Value)
+		if err != nil {
+			p.stats.ConvertErrors++
+			p.logOnce("convert", "reading not converted", "structure", p.structure, "channel", r.Channel, "error", err)
+			continue
+		}
+		if r.Time.After(p.lastSeen[r.Channel]) {
+			p.lastSeen[r.Channel] = r.Time
+		}
+		for _, e := range p.asm.Add(epoch.Reading{Channel: r.Channel, Time: r.Time, Value: v}) {
+			p.process(ctx, e)
+		}
+	}
+}
+
+// Tick closes epochs whose idle time passed on the live clock and, when no
+// epoch closed for a while, evaluates the alarm rules at the clock time so
+// that a logger that fell silent raises its alarm.
+func (p *Pipeline) Tick(ctx context.Context) {
+	p.mu.Lock()
+	defer p.mu.Unlock()
+	for _, e := range p.asm.Tick() {
+		p.process(ctx, e)
+	}
+	if p.cfg.Clock == nil {
+		return
+	}
+	t := p.cfg.Clock().Add(-p.cfg.Window - p.cfg.MaxLateness).UTC()
+	if !t.After(p.lastEval) || t.Sub(p.lastEpoch) < 2*(p.cfg.Window+p.cfg.MaxLateness) {
+		return
+	}
+	obs := p.observation(t, nil)
+	evs, err := p.eval.Observe(ctx, obs)
+	if err != nil {
+		p.logOnce("alarm", "alarm evaluation", "structure", p.structure, "error", err)
+	}
+	p.lastEval = t
+	if len(evs) > 0 {
+		res := &Result{Structure: p.structure, Time: t, Outcome: OutcomeSkipped, Reason: "no epoch: every channel silent", Events: evs, Active: p.eval.Active(p.structure)}
+		for _, s := range p.sinks {
+			s.Epoch(res)
+		}
+	}
+}
+
+// Flush closes every open epoch (end of a replay, or shutdown).
+func (p *Pipeline) Flush(ctx context.Context) {
+	p.mu.Lock()
+	defer p.mu.Unlock()
+	for _, e := range p.asm.Flush() {
+		p.process(ctx, e)
+	}
+}
+
+// Stats returns the running counts.
+func (p *Pipeline) Stats() Stats {
+	p.mu.Lock()
+	defer p.mu.Unlock()
+	s := p.stats
+	s.ByOutcome = make(map[string]int64, len(p.stats.ByOutcome))
+	for k, v := range p.stats.ByOutcome {
+		s.ByOutcome[k] = v
+	}
+	s.Assembler = p.asm.Stats()
+	return s
+}
+
+// ActiveAlarms returns the firing alarms.
+func (p *Pipeline) ActiveAlarms() []alerts.Alarm { return p.eval.Active(p.structure) }
+
+// process reconciles one epoch, evaluates the alarms and hands the result
+// to the sinks. The epoch's time is its end: the instant by which all its
+// readings were taken.
+func (p *Pipeline) process(ctx context.Context, e epoch.Epoch) {
+	started := time.Now()
+	values := make(map[string]float64, len(e.Channels))
+	for _, c := range e.Channels {
+		values[c.Channel] = c.Mean
+	}
+	t := e.End.UTC()
+	res := p.proc.Process(t, p.sm.Evaluate(values), e.Missing)
+	p.stats.Epochs++
+	p.stats.ByOutcome[res.Outcome]++
+	p.lastEpoch = t
+	if t.Before(p.lastEval) {
+		p.stats.AlarmOutOfOrder++
+	} else {
+		evs, err := p.eval.Observe(ctx, p.observation(t, res))
+		if err != nil {
+			p.logOnce("alarm", "alarm evaluation", "structure", p.structure, "error", err)
+		}
+		p.lastEval = t
+		res.Events = evs
+	}
+	res.Active = p.eval.Active(p.structure)
+	res.Took = time.Since(started)
+	for _, s := range p.sinks {
+		s.Epoch(res)
+	}
+}
+
+// observation builds the alarm evaluator's input for an epoch (res may be
+// nil for a heartbeat between epochs).
+func (p *Pipeline) observation(t time.Time, res *Result) alerts.Observation {
+	st := p.asm.Stats()
+	o := alerts.Observation{Time: t, Structure: p.structure, SkewCount: uint64(st.Future + st.Past)}
+	if p.cfg.RejectCount != nil {
+		o.RejectCount = p.cfg.RejectCount()
+	}
+	for _, ch := range p.channels {
+		o.Channels = append(o.Channels, alerts.Channel{Channel: ch, LastReading: p.lastSeen[ch]})
+	}
+	if res == nil || (res.Outcome != OutcomeAccepted && res.Outcome != OutcomeRejected) {
+		return o
+	}
+	o.Fit = &alerts.Fit{ChiSquare: res.ChiSquare, DOF: res.DOF, PValue: res.PValue}
+	causes := res.Window
+	if len(causes) == 0 {
+		causes = res.Causes
+	}
+	for i, c := range causes {
+		if i == 3 {
+			break
+		}
+		o.Causes = append(o.Causes, alerts.Cause{Label: c.Label, Kind: c.Kind, T: c.T, Size: c.Size, Unit: c.Unit})
+	}
+	for _, m := range res.Members {
+		if !m.Available {
+			continue
+		}
+		bias := 0.0
+		if m.Redundancy > 0 {
+			bias = m.AdjustedN / m.Redundancy
+		}
+		o.Members = append(o.Members, alerts.Member{Member: m.Member, W: m.W, Checkable: m.Checkable, EstimatedBias: bias})
+	}
+	return o
+}
+
+// logOnce logs a problem at most once a minute per kind.
+func (p *Pipeline) logOnce(kind, msg string, args ...any) {
+	now := time.Now()
+	if last, ok := p.logged[kind]; ok && now.Sub(last) < time.Minute {
+		return
+	}
+	p.logged[kind] = now
+	p.cfg.Logger.Warn(msg, args...)
+}
