@@ -199,7 +199,9 @@ func importFile(ctx context.Context, db *store.Store, m *sensors.Map, path strin
 		if len(readings) == 0 && len(dead) == 0 {
 			return nil
 		}
-		res, err := db.Commit(ctx, store.Batch{
+		// Commit even when ctx is cancelled: readings already accepted
+		// must not be lost on an interrupt.
+		res, err := db.Commit(context.WithoutCancel(ctx), store.Batch{
 			Groups:      []store.Group{{Structure: m.StructureName(), Readings: readings}},
 			DeadLetters: dead,
 		})

@@ -5,6 +5,7 @@ import (
 	"context"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"testing"
 	"time"
@@ -96,5 +97,32 @@ func TestImportErrors(t *testing.T) {
 				t.Errorf("exit %d, stderr %q; want %d with %q", code, errb.String(), tc.code, tc.msg)
 			}
 		})
+	}
+}
+
+// TestImportInterrupted cancels the context before the import: the first
+// batch is still committed, and the command reports the interruption.
+func TestImportInterrupted(t *testing.T) {
+	dir := t.TempDir()
+	csvPath := filepath.Join(dir, "logger.csv")
+	var sb strings.Builder
+	sb.WriteString("time,temp_top\n")
+	for i := 0; i < 20; i++ {
+		sb.WriteString(strconv.Itoa(1796173200+i) + ",15\n")
+	}
+	os.WriteFile(csvPath, []byte(sb.String()), 0o600)
+	db := filepath.Join(dir, "m.db")
+	ctx, cancel := context.WithCancel(context.Background())
+	cancel()
+	var out, errb bytes.Buffer
+	code := runImport(ctx, []string{"--db", db,
+		"--structure", filepath.Join("..", "..", "testdata", "footbridge", "structure.yaml"),
+		"--sensors", filepath.Join("..", "..", "testdata", "footbridge", "sensors.yaml"),
+		"--batch", "5", csvPath}, &out, &errb)
+	if code != 1 || !strings.Contains(errb.String(), "interrupted") {
+		t.Fatalf("exit %d, stderr %q", code, errb.String())
+	}
+	if !strings.Contains(out.String(), "read 5, stored 5") {
+		t.Errorf("summary %q: the batch read before the interrupt must be stored", out.String())
 	}
 }
