@@ -142,7 +142,8 @@ type ZeroState struct {
 	Line         int
 }
 
-// Map is a validated sensor map.
+// Map is a validated sensor map. It is not changed after Parse, so its
+// methods are safe for concurrent use.
 type Map struct {
 	file       string
 	structure  string
