@@ -1,0 +1,377 @@
+package alerts
+
+import (
+	"bytes"
+	"context"
+	"fmt"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"sort"
+	"strings"
+	"testing"
+	"time"
+
+	"go.yaml.in/yaml/v3"
+)
+
+// promtool returns the path of Prometheus's promtool, skipping the test
+// when it is missing (failing when TRUSSMON_REQUIRE_TOOLS=1).
+func promtool(t *testing.T) string {
+	t.Helper()
+	p, err := exec.LookPath("promtool")
+	if err != nil {
+		if os.Getenv("TRUSSMON_REQUIRE_TOOLS") == "1" {
+			t.Fatalf("promtool not found (TRUSSMON_REQUIRE_TOOLS=1): install Debian's prometheus package (apt-get install prometheus)")
+		}
+		t.Skip("promtool not found; install Debian's prometheus package to run this test")
+	}
+	return p
+}
+
+// scenario is a 41-minute history of one structure, one sample a minute,
+// that drives every rule: the same numbers become Prometheus input series
+// and evaluator observations.
+type scenario struct {
+	minutes   int
+	w         map[string][]float64 // member -> w
+	checkable map[string][]bool
+	pvalue    []float64
+	lastRead  map[string][]float64 // channel -> last reading, seconds
+	skew      []float64            // cumulative
+	rejects   map[string][]float64 // reason -> cumulative; NaN = series absent
+}
+
+func buildScenario() scenario {
+	const n = 41
+	s := scenario{minutes: n, w: map[string][]float64{}, checkable: map[string][]bool{},
+		lastRead: map[string][]float64{}, rejects: map[string][]float64{}}
+	b4 := make([]float64, n)
+	d2 := make([]float64, n)
+	b4ok := make([]bool, n)
+	d2ok := make([]bool, n)
+	for k := 0; k < n; k++ {
+		b4ok[k] = true
+		switch {
+		case k >= 5 && k <= 9:
+			b4[k] = 3.5 // raised at 5, fires at 7
+		case k == 10:
+			b4[k] = -3.0 // below the raise value but above the clearing value: held
+		case k == 11:
+			b4[k] = 2.0 // clears
+		case k == 12 || k == 13:
+			b4[k] = 3.6 // pending...
+		case k == 14:
+			b4[k] = 1.0 // ...reset before the for-duration
+		case k >= 15 && k <= 20:
+			b4[k] = -4.0 // fires at 17
+		default:
+			b4[k] = 0.3
+		}
+		d2[k] = 5 // large, but not checkable except in 25..30
+		d2ok[k] = k >= 25 && k <= 30
+	}
+	s.w["B4"], s.w["D2"] = b4, d2
+	s.checkable["B4"], s.checkable["D2"] = b4ok, d2ok
+	s.pvalue = make([]float64, n)
+	for k := range s.pvalue {
+		switch {
+		case k >= 8 && k <= 14:
+			s.pvalue[k] = 0.0005 // fires at 10
+		case k == 15 || k == 16:
+			s.pvalue[k] = 0.005 // held
+		default:
+			s.pvalue[k] = 0.2 // clears at 17
+		}
+	}
+	a := make([]float64, n)
+	for k := range a {
+		switch {
+		case k <= 20 || k >= 30:
+			a[k] = float64(60 * k)
+		default:
+			a[k] = 1200 // stuck: silent from 23 (180 s > 120 s) to 29
+		}
+	}
+	s.lastRead["B4_a"] = a
+	s.skew = make([]float64, n)
+	for k := range s.skew {
+		if k >= 12 {
+			s.skew[k] = 3 // seen at 12: alarm 12..16
+		}
+	}
+	uc := make([]float64, n)
+	nf := make([]float64, n)
+	for k := range uc {
+		nf[k] = 1
+		switch {
+		case k < 20:
+			uc[k] = nan // series created at the first rejection of this reason
+		case k <= 26:
+			uc[k] = float64(5 * (k - 20))
+		default:
+			uc[k] = 30
+		}
+	}
+	s.rejects["unknown_channel"], s.rejects["not_finite"] = uc, nf
+	return s
+}
+
+var nan = func() float64 { var z float64; return z / z }()
+
+func isNaN(v float64) bool { return v != v }
+
+// expectedFiring are the alarms the scenario must fire, worked out by hand
+// from the rules (minute ranges, inclusive).
+var expectedFiring = map[string][][2]int{
+	"MemberDiverging/B4": {{7, 10}, {17, 20}},
+	"MemberDiverging/D2": {{27, 30}},
+	"FitRejected/":       {{10, 16}},
+	"ChannelSilent/B4_a": {{23, 29}},
+	"ClockSkew/":         {{12, 16}},
+	"IngestRejects/":     {{23, 30}},
+}
+
+func (s scenario) observation(k int) Observation {
+	o := Observation{Time: time.Unix(int64(60*k), 0).UTC(), Structure: "alder-creek",
+		Fit: &Fit{PValue: s.pvalue[k], ChiSquare: 30, DOF: 13}, SkewCount: uint64(s.skew[k])}
+	for _, m := range sortedKeys(s.w) {
+		o.Members = append(o.Members, Member{Member: m, W: s.w[m][k], Checkable: s.checkable[m][k], EstimatedBias: 1000 * s.w[m][k]})
+	}
+	for _, c := range sortedKeys(s.lastRead) {
+		o.Channels = append(o.Channels, Channel{Channel: c, LastReading: time.Unix(int64(s.lastRead[c][k]), 0)})
+	}
+	for _, r := range sortedKeys(s.rejects) {
+		if v := s.rejects[r][k]; !isNaN(v) {
+			o.RejectCount += uint64(v)
+		}
+	}
+	return o
+}
+
+func sortedKeys[T any](m map[string]T) []string {
+	var out []string
+	for k := range m {
+		out = append(out, k)
+	}
+	sort.Strings(out)
+	return out
+}
+
+func seriesValues(v []float64) string {
+	parts := make([]string, len(v))
+	for i, x := range v {
+		if isNaN(x) {
+			parts[i] = "_"
+		} else {
+			parts[i] = num(x)
+		}
+	}
+	return strings.Join(parts, " ")
+}
+
+func boolValues(v []bool) string {
+	parts := make([]string, len(v))
+	for i, x := range v {
+		parts[i] = "0"
+		if x {
+			parts[i] = "1"
+		}
+	}
+	return strings.Join(parts, " ")
+}
+
+// TestPromtoolAgreesWithEvaluator feeds the scenario to the in-process
+// evaluator, checks its firing minutes against the hand-worked ones, then
+// writes the same numbers as promtool input series with the evaluator's
+// firing alerts (every rule, every minute) as expected alerts, and lets
+// Prometheus's own rule engine (promtool test rules) verify them.
+func TestPromtoolAgreesWithEvaluator(t *testing.T) {
+	rules, err := DefaultRules()
+	if err != nil {
+		t.Fatal(err)
+	}
+	sc := buildScenario()
+	ev, err := NewEvaluator(rules, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	firing := make([][]Alarm, sc.minutes)
+	got := map[string][][2]int{}
+	for k := 0; k < sc.minutes; k++ {
+		events, err := ev.Observe(context.Background(), sc.observation(k))
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, e := range events {
+			key := e.Rule + "/" + e.Subject
+			if e.Kind == Raised {
+				got[key] = append(got[key], [2]int{k, -1})
+			} else {
+				r := got[key]
+				r[len(r)-1][1] = k - 1
+			}
+		}
+		firing[k] = ev.Active("alder-creek")
+	}
+	for key, want := range expectedFiring {
+		if fmt.Sprint(got[key]) != fmt.Sprint(want) {
+			t.Errorf("%s fired in minutes %v, want %v", key, got[key], want)
+		}
+	}
+	for key := range got {
+		if _, ok := expectedFiring[key]; !ok {
+			t.Errorf("unexpected alarm %s in minutes %v", key, got[key])
+		}
+	}
+
+	bin := promtool(t)
+	dir := t.TempDir()
+	rulesYAML, err := PrometheusRules([]string{"alder-creek"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile(filepath.Join(dir, "rules.yml"), rulesYAML, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	testYAML, nAlerts := promtoolTestFile(t, rules, sc, firing)
+	if err := os.WriteFile(filepath.Join(dir, "test.yml"), testYAML, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	t.Logf("promtool test file: %d checks, %d expected firing alerts", len(rules)*sc.minutes, nAlerts)
+	for _, args := range [][]string{{"check", "rules", "rules.yml"}, {"test", "rules", "test.yml"}} {
+		cmd := exec.Command(bin, args...)
+		cmd.Dir = dir
+		out, err := cmd.CombinedOutput()
+		if err != nil {
+			t.Fatalf("promtool %s: %v\n%s\ntest file:\n%s", strings.Join(args, " "), err, out, testYAML)
+		}
+		t.Logf("promtool %s: %s", strings.Join(args, " "), bytes.TrimSpace(out))
+	}
+	// Not vacuous: move one expected firing a minute early and promtool
+	// must fail.
+	broken := firing[6]
+	firing[6] = append(append([]Alarm(nil), firing[6]...), Alarm{Rule: "MemberDiverging", Subject: "B4"})
+	bad, _ := promtoolTestFile(t, rules, sc, firing)
+	firing[6] = broken
+	if err := os.WriteFile(filepath.Join(dir, "bad.yml"), bad, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	cmd := exec.Command(bin, "test", "rules", "bad.yml")
+	cmd.Dir = dir
+	if out, err := cmd.CombinedOutput(); err == nil {
+		t.Fatalf("promtool accepted an alert expected a minute early:\n%s", out)
+	}
+}
+
+// promtoolTestFile writes the promtool unit-test file: the scenario as
+// input series and, for every rule and minute, the alerts the evaluator
+// had firing then.
+func promtoolTestFile(t *testing.T, rules []Rule, sc scenario, firing [][]Alarm) ([]byte, int) {
+	t.Helper()
+	type series struct {
+		Series string `yaml:"series"`
+		Values string `yaml:"values"`
+	}
+	type alert struct {
+		ExpLabels      map[string]string `yaml:"exp_labels"`
+		ExpAnnotations map[string]string `yaml:"exp_annotations"`
+	}
+	type alertTest struct {
+		EvalTime  string  `yaml:"eval_time"`
+		Alertname string  `yaml:"alertname"`
+		ExpAlerts []alert `yaml:"exp_alerts"`
+	}
+	type test struct {
+		Interval   string      `yaml:"interval"`
+		Input      []series    `yaml:"input_series"`
+		AlertTests []alertTest `yaml:"alert_rule_test"`
+	}
+	var file struct {
+		RuleFiles          []string `yaml:"rule_files"`
+		EvaluationInterval string   `yaml:"evaluation_interval"`
+		Tests              []test   `yaml:"tests"`
+	}
+	file.RuleFiles = []string{"rules.yml"}
+	file.EvaluationInterval = "1m"
+	tc := test{Interval: "1m"}
+	const st = `structure="alder-creek"`
+	for _, m := range sortedKeys(sc.w) {
+		tc.Input = append(tc.Input,
+			series{fmt.Sprintf(`shm_member_w_statistic{%s, member=%q}`, st, m), seriesValues(sc.w[m])},
+			series{fmt.Sprintf(`shm_member_checkable{%s, member=%q}`, st, m), boolValues(sc.checkable[m])})
+	}
+	tc.Input = append(tc.Input, series{fmt.Sprintf(`shm_fit_p_value{%s}`, st), seriesValues(sc.pvalue)})
+	for _, c := range sortedKeys(sc.lastRead) {
+		tc.Input = append(tc.Input, series{fmt.Sprintf(`shm_channel_last_reading_timestamp_seconds{%s, channel=%q}`, st, c), seriesValues(sc.lastRead[c])})
+	}
+	tc.Input = append(tc.Input, series{fmt.Sprintf(`shm_clock_skew_readings_total{%s}`, st), seriesValues(sc.skew)})
+	for _, r := range sortedKeys(sc.rejects) {
+		tc.Input = append(tc.Input, series{fmt.Sprintf(`shm_ingest_rejections_total{%s, reason=%q}`, st, r), seriesValues(sc.rejects[r])})
+	}
+	n := 0
+	for k := 0; k < sc.minutes; k++ {
+		for _, r := range rules {
+			at := alertTest{EvalTime: fmt.Sprintf("%dm", k), Alertname: r.Name, ExpAlerts: []alert{}}
+			for _, a := range firing[k] {
+				if a.Rule != r.Name {
+					continue
+				}
+				labels := map[string]string{"severity": r.Severity, "structure": "alder-creek"}
+				switch r.Signal.Scope() {
+				case ScopeMember:
+					labels["member"] = a.Subject
+				case ScopeChannel:
+					labels["channel"] = a.Subject
+				}
+				at.ExpAlerts = append(at.ExpAlerts, alert{ExpLabels: labels, ExpAnnotations: map[string]string{
+					"summary": expand(r.Summary, labels), "description": expand(r.Description, labels)}})
+				n++
+			}
+			tc.AlertTests = append(tc.AlertTests, at)
+		}
+	}
+	file.Tests = []test{tc}
+	out, err := yaml.Marshal(file)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return out, n
+}
+
+// expand fills the {{ $labels.x }} placeholders as Prometheus's template
+// expansion does for these plain annotations.
+func expand(s string, labels map[string]string) string {
+	for k, v := range labels {
+		s = strings.ReplaceAll(s, "{{ $labels."+k+" }}", v)
+	}
+	return s
+}
+
+// TestDeployedRulesUpToDate checks that the committed rules file is what
+// `monitor rules` writes for the two example structures, and that promtool
+// accepts every rules file under deploy/prometheus/rules.
+func TestDeployedRulesUpToDate(t *testing.T) {
+	want, err := PrometheusRules([]string{"alder-creek", "harbour-hall"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	dir := filepath.Join("..", "..", "deploy", "prometheus", "rules")
+	got, err := os.ReadFile(filepath.Join(dir, "trussmonitor.rules.yml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !bytes.Equal(got, want) {
+		t.Errorf("deploy/prometheus/rules/trussmonitor.rules.yml is stale; regenerate with: monitor rules --out deploy/prometheus/rules/trussmonitor.rules.yml testdata/footbridge/structure.yaml testdata/roof/structure.yaml")
+	}
+	bin := promtool(t)
+	files, err := filepath.Glob(filepath.Join(dir, "*.yml"))
+	if err != nil || len(files) == 0 {
+		t.Fatalf("no rules files in %s (%v)", dir, err)
+	}
+	for _, f := range files {
+		if out, err := exec.Command(bin, "check", "rules", f).CombinedOutput(); err != nil {
+			t.Errorf("promtool check rules %s: %v\n%s", f, err, out)
+		}
+	}
+}
