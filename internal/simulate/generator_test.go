@@ -527,10 +527,17 @@ func TestRoof(t *testing.T) {
 	opt.Duration = 24 * time.Hour
 	opt.Rate = 5 * time.Minute
 	ft, _ := ParseFault("stiffness:TX3_0:12h:0.3")
-	opt.Faults = []Fault{ft}
+	fs, _ := ParseFault("settlement:T4_0:18h:5mm")
+	opt.Faults = []Fault{ft, fs}
 	g, err := New(st, sm, opt)
 	if err != nil {
 		t.Fatal(err)
+	}
+	// The roof has no settlement pattern: the generator adds one with a
+	// unit displacement along gravity at T4_0.
+	settle, ok := g.Structure().PatternIndex("sim_settle_T4_0")
+	if !ok {
+		t.Fatal("no settlement pattern added for T4_0")
 	}
 	snow, _ := st.PatternIndex("snow")
 	maint, _ := st.PatternIndex("maintenance")
@@ -552,6 +559,13 @@ func TestRoof(t *testing.T) {
 		}
 		if people > 0 {
 			crews++
+		}
+		wantSettle := 0.0
+		if s.Time.Hour() >= 18 {
+			wantSettle = 0.005
+		}
+		if s.Truth.Factors[settle] != wantSettle {
+			t.Fatalf("%s: settlement factor %g, want %g", s.Time, s.Truth.Factors[settle], wantSettle)
 		}
 		for _, n := range s.Truth.Forces {
 			if math.IsNaN(n) || math.IsInf(n, 0) {
