@@ -420,3 +420,23 @@ func BenchmarkEvaluate(b *testing.B) {
 		m.Evaluate(values)
 	}
 }
+
+// TestConcurrentUse runs Convert, Validate and Evaluate from several
+// goroutines; run with -race.
+func TestConcurrentUse(t *testing.T) {
+	m := parseSmall(t)
+	done := make(chan struct{})
+	for g := 0; g < 4; g++ {
+		go func() {
+			defer func() { done <- struct{}{} }()
+			for i := 0; i < 200; i++ {
+				v, _ := m.Convert("V1_a", float64(i)*1e-6)
+				_ = m.Validate("V1_a", "/", v)
+				m.Evaluate(map[string]float64{"V1_a": v, "t_top": 20})
+			}
+		}()
+	}
+	for g := 0; g < 4; g++ {
+		<-done
+	}
+}
