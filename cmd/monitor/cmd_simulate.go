@@ -10,6 +10,8 @@ import (
 	"strings"
 	"time"
 
+	"golang.org/x/term"
+
 	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/simulate"
 	"trussmonitor/internal/simulate/loggercsv"
@@ -128,10 +130,18 @@ func runSimulate(ctx context.Context, args []string, stdout, stderr io.Writer) i
 		fmt.Fprintf(stdout, "wrote %d steps of %d channels to %s\n", gen.Steps(), len(gen.Channels()), *csvPath)
 		return 0
 	}
-	stats, err := publish.Run(ctx, gen.All(), publish.Options{
+	popt := publish.Options{
 		Broker: *broker, Username: *username, Password: *password, ClientID: *clientID,
 		Structure: st.Name, PerChannel: *perChannel, Speed: *speed,
-	})
+	}
+	if f, ok := stderr.(*os.File); ok && term.IsTerminal(int(f.Fd())) {
+		total := gen.Steps()
+		popt.Progress = func(s publish.Stats, at time.Time) {
+			fmt.Fprintf(stderr, "\rmonitor simulate: %d of %d steps, at %s, %d readings", s.Steps, total, at.UTC().Format(time.RFC3339), s.Readings)
+		}
+		defer fmt.Fprintln(stderr)
+	}
+	stats, err := publish.Run(ctx, gen.All(), popt)
 	fmt.Fprintf(stdout, "published %d steps: %d readings, %d bad messages, %d messages acknowledged\n",
 		stats.Steps, stats.Readings, stats.Bad, stats.Messages)
 	if err != nil && !errors.Is(err, context.Canceled) {

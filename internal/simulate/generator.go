@@ -187,6 +187,11 @@ type Generator struct {
 	settleNode map[string]int
 	slow       map[int]SlowLoad
 	count      map[int]float64 // pattern index -> factor per person
+	// permanent holds the permanent load factors by pattern index.
+	permanent []float64
+	// loadChannels counts the load channels feeding each pattern; a
+	// pattern's factor is shared equally among them.
+	loadChannels map[int]int
 }
 
 // New prepares a scenario for structure st with sensor map sm: it analyses
@@ -206,6 +211,9 @@ func New(st *model.Structure, sm *sensors.Map, opt Options) (*Generator, error) 
 	}
 	if opt.Start.IsZero() {
 		return nil, errors.New("simulate: no start time")
+	}
+	if tr := opt.Traffic; tr.PeakRate > 0 && !(tr.MeanSpeed > 0 && tr.MeanMass > 0) {
+		return nil, fmt.Errorf("simulate: pedestrian traffic needs a positive mean speed and mass (got %g m/s, %g kg); start from DefaultOptions", tr.MeanSpeed, tr.MeanMass)
 	}
 	g := &Generator{sm: sm, opt: opt, settle: map[int]float64{}, settleNode: map[string]int{}, slow: map[int]SlowLoad{}, count: map[int]float64{}}
 	g.st = copyStructure(st)
@@ -492,7 +500,13 @@ func (g *Generator) preparePatterns() {
 		}
 	}
 	g.drivers = make([]patternDriver, len(g.st.Patterns))
+	g.permanent = make([]float64, len(g.st.Patterns))
+	g.loadChannels = map[int]int{}
+	for p, chs := range measured {
+		g.loadChannels[p] = len(chs)
+	}
 	for p, pat := range g.st.Patterns {
+		g.permanent[p] = perm[pat.Name]
 		switch {
 		case perm[pat.Name] != 0:
 			g.drivers[p] = drivePermanent

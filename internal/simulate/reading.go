@@ -72,10 +72,16 @@ type Truth struct {
 	// Forces are the true axial forces of all members (structure order),
 	// in N, tension positive, including the dead load.
 	Forces []float64
-	// Factors are the true load pattern factors (structure order),
-	// including the dead load's and the temperature patterns' (in K from
-	// the zero temperature).
+	// Factors are the true load pattern factors (structure order of
+	// Generator.Structure), including the permanent loads (dead load 1) and
+	// any settlement fault's factor. Temperatures act through the member
+	// groups the temperature channels feed (see Temperatures), so patterns
+	// that carry only temperature changes stay 0 here.
 	Factors []float64
+	// Temperatures are the true member-group temperatures in degC, for
+	// the groups fed by temperature channels; a group's thermal load is its
+	// temperature minus its zero-state temperature.
+	Temperatures map[string]float64
 	// Engineering holds the noise-free engineering value of every channel
 	// (sensor map order, same as Generator.Channels): strain for gauges
 	// (relative to the zero reading, including any drift fault), degC for

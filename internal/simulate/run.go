@@ -69,11 +69,10 @@ func (r *run) step(k int) (Step, error) {
 
 	// Loads and temperatures: the input factors f.
 	f := make([]float64, len(g.inputs))
-	perm := g.sm.PermanentLoads()
 	for p, d := range g.drivers {
 		switch d {
 		case drivePermanent:
-			f[p] = perm[g.st.Patterns[p].Name]
+			f[p] = g.permanent[p]
 		case driveSlow:
 			f[p] = math.Max(0, r.slow[p].x)
 		case driveCount:
@@ -112,8 +111,10 @@ func (r *run) step(k int) (Step, error) {
 		}
 		temps[i] = r.clim.temperature(t, c.exposure)
 	}
-	for kg := range g.groups {
+	st.Truth.Temperatures = make(map[string]float64, len(g.groups))
+	for kg, gr := range g.groups {
 		f[g.nPat+kg] = temps[g.groupCh[kg]] - g.groupRef[kg]
+		st.Truth.Temperatures[gr] = temps[g.groupCh[kg]]
 	}
 
 	// Member forces N = H f of the current state.
@@ -134,12 +135,6 @@ func (r *run) step(k int) (Step, error) {
 
 	// Channels.
 	eng := make([]float64, len(g.chans))
-	perPattern := map[int]int{}
-	for _, c := range g.chans {
-		if c.pattern >= 0 {
-			perPattern[c.pattern]++
-		}
-	}
 	intact := g.states[0]
 	for i, c := range g.chans {
 		var e float64
@@ -149,7 +144,7 @@ func (r *run) step(k int) (Step, error) {
 			axial := n/s.ea[c.member] - c.zeroN/intact.ea[c.member]
 			e = axial + c.bendSign*g.opt.BendingRatio*(n-c.zeroN)/intact.ea[c.member]
 		case c.pattern >= 0:
-			e = f[c.pattern] / float64(perPattern[c.pattern])
+			e = f[c.pattern] / float64(g.loadChannels[c.pattern])
 		case c.ch.Kind == sensors.KindTemperature:
 			e = temps[i]
 		}

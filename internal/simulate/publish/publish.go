@@ -35,6 +35,9 @@ type Options struct {
 	Window int
 	// Timeout bounds the connection and each acknowledgement; 0 means 30 s.
 	Timeout time.Duration
+	// Progress, when set, is called with the counts so far and the time
+	// stamp of the step just sent, at most once a second of wall time.
+	Progress func(Stats, time.Time)
 }
 
 // Stats counts what a publisher sent.
@@ -113,6 +116,8 @@ func (p *sender) run(ctx context.Context, steps iter.Seq2[simulate.Step, error])
 		simStart  time.Time
 		wallStart time.Time
 		first     = true
+		// lastProgress is when Progress was last called.
+		lastProgress = time.Now()
 	)
 	timer := time.NewTimer(time.Hour)
 	timer.Stop()
@@ -141,6 +146,10 @@ func (p *sender) run(ctx context.Context, steps iter.Seq2[simulate.Step, error])
 			return err
 		}
 		p.stats.Steps++
+		if p.opt.Progress != nil && time.Since(lastProgress) >= time.Second {
+			lastProgress = time.Now()
+			p.opt.Progress(p.stats, st.Time)
+		}
 	}
 	return nil
 }
