@@ -136,6 +136,9 @@ func New(m *model.Model, sm *sensors.Map, cfg Config, sinks ...Sink) (*Pipeline,
 // Structure returns the structure's name.
 func (p *Pipeline) Structure() string { return p.structure }
 
+// Sensors returns the sensor map.
+func (p *Pipeline) Sensors() *sensors.Map { return p.sm }
+
 // Processor returns the reconciliation of this pipeline (read-only use).
 func (p *Pipeline) Processor() *Processor { return p.proc }
 
@@ -248,6 +251,8 @@ func (p *Pipeline) process(ctx context.Context, e epoch.Epoch) {
 		res.Events = evs
 	}
 	res.Active = p.eval.Active(p.structure)
+	st := p.asm.Stats()
+	res.SkewedReadings = uint64(st.Future + st.Past)
 	res.Took = time.Since(started)
 	for _, s := range p.sinks {
 		s.Epoch(res)

@@ -97,6 +97,9 @@ type Result struct {
 	// alarms firing after it (set by the Pipeline).
 	Events []alerts.Event
 	Active []alerts.Alarm
+	// SkewedReadings is the cumulative count of readings with a skewed
+	// logger clock (live only; set by the Pipeline).
+	SkewedReadings uint64
 	// Took is the processing time of the epoch (not part of replayed
 	// output: it differs between runs).
 	Took time.Duration

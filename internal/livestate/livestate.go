@@ -1,0 +1,284 @@
+// Package livestate keeps the latest reconciliation results of the
+// monitored structures in memory, with a bounded history per gauged
+// member, and serves them to the dashboard (it implements
+// dashboard.Source). Older history and events come from the store when one
+// is given.
+package livestate
+
+import (
+	"context"
+	"encoding/json"
+	"fmt"
+	"math"
+	"sort"
+	"sync"
+	"time"
+
+	"trussmonitor/internal/alerts"
+	"trussmonitor/internal/dashboard"
+	"trussmonitor/internal/model"
+	"trussmonitor/internal/pipeline"
+	"trussmonitor/internal/store"
+)
+
+// EventStore reads stored alarm events (the store package).
+type EventStore interface {
+	Events(ctx context.Context, structure string, from, to time.Time) ([]store.Event, error)
+}
+
+// DefaultHistory is the number of epochs kept in memory per structure
+// (a day at one epoch per 2 s).
+const DefaultHistory = 43200
+
+// Live is the in-memory state of every registered structure.
+type Live struct {
+	mu      sync.RWMutex
+	order   []string
+	structs map[string]*entry
+	events  EventStore
+	history int
+}
+
+type point struct {
+	t    time.Time
+	vals []dashboard.SeriesPoint // per gauged member
+}
+
+type entry struct {
+	name, title, hash string
+	geometry          dashboard.Geometry
+	gauged            []string
+	gaugedIndex       map[string]int
+	unknown           []string
+	critical          float64
+	alpha             float64
+	latest            *pipeline.Result
+	ring              []point
+	head              int
+	full              bool
+	recent            []dashboard.Event
+}
+
+// New returns an empty state keeping history epochs per structure (0 means
+// DefaultHistory); events may be nil (then only events seen since start
+// are listed).
+func New(events EventStore, history int) *Live {
+	if history <= 0 {
+		history = DefaultHistory
+	}
+	return &Live{structs: map[string]*entry{}, events: events, history: history}
+}
+
+// Register adds a structure and returns the sink its pipeline feeds.
+func (l *Live) Register(s *model.Structure, proc *pipeline.Processor, alphaGlobal float64) pipeline.Sink {
+	e := &entry{name: s.Name, title: s.Title, hash: s.Hash, gauged: proc.Gauged(), unknown: proc.Unknown(),
+		critical: proc.Critical(), alpha: alphaGlobal, gaugedIndex: map[string]int{}}
+	for i, g := range e.gauged {
+		e.gaugedIndex[g] = i
+	}
+	e.geometry.Dimension = s.Dim
+	for _, n := range s.Nodes {
+		e.geometry.Nodes = append(e.geometry.Nodes, dashboard.Node{ID: n.ID, X: n.X[0], Y: n.X[1], Z: n.X[2]})
+	}
+	for _, m := range s.Members {
+		_, g := e.gaugedIndex[m.ID]
+		e.geometry.Members = append(e.geometry.Members, dashboard.Member{ID: m.ID, Start: s.Nodes[m.I].ID, End: s.Nodes[m.J].ID, Gauged: g})
+	}
+	l.mu.Lock()
+	defer l.mu.Unlock()
+	if _, dup := l.structs[s.Name]; !dup {
+		l.order = append(l.order, s.Name)
+	}
+	l.structs[s.Name] = e
+	return sink{l: l, name: s.Name}
+}
+
+type sink struct {
+	l    *Live
+	name string
+}
+
+// Epoch records one result.
+func (s sink) Epoch(r *pipeline.Result) { s.l.add(s.name, r) }
+
+func (l *Live) add(name string, r *pipeline.Result) {
+	l.mu.Lock()
+	defer l.mu.Unlock()
+	e := l.structs[name]
+	if e == nil {
+		return
+	}
+	for _, ev := range r.Events {
+		e.recent = append(e.recent, dashboardEvent(ev))
+	}
+	if len(e.recent) > 1000 {
+		e.recent = append([]dashboard.Event(nil), e.recent[len(e.recent)-1000:]...)
+	}
+	if r.Outcome != pipeline.OutcomeAccepted && r.Outcome != pipeline.OutcomeRejected {
+		// Not fitted: keep the last fitted state on screen, with the
+		// alarms as they are now.
+		if e.latest != nil {
+			cp := *e.latest
+			cp.Active = r.Active
+			e.latest = &cp
+		}
+		return
+	}
+	e.latest = r
+	alarm := alarmSet(r.Active)
+	p := point{t: r.Time, vals: make([]dashboard.SeriesPoint, len(e.gauged))}
+	for i, m := range r.Members {
+		p.vals[i] = seriesPoint(r.Time, m, alarm[m.Member])
+	}
+	if len(e.ring) < l.history {
+		e.ring = append(e.ring, p)
+	} else {
+		e.ring[e.head] = p
+		e.head = (e.head + 1) % l.history
+		e.full = true
+	}
+}
+
+func alarmSet(active []alerts.Alarm) map[string]bool {
+	out := map[string]bool{}
+	for _, a := range active {
+		if a.Rule == "MemberDiverging" {
+			out[a.Subject] = true
+		}
+	}
+	return out
+}
+
+func nan() float64 { return math.NaN() }
+
+func seriesPoint(t time.Time, m pipeline.MemberResult, alarm bool) dashboard.SeriesPoint {
+	sp := dashboard.SeriesPoint{Time: t, Measured: nan(), Predicted: nan(), SigmaResidual: nan(), W: nan(), Checkable: m.Checkable, Alarm: alarm}
+	if m.Available {
+		sp.Measured, sp.Predicted, sp.SigmaResidual, sp.W = m.MeasuredN, m.FittedN, m.SigmaAdjustedN, m.W
+	}
+	return sp
+}
+
+func dashboardEvent(ev alerts.Event) dashboard.Event {
+	d := dashboard.Event{Time: ev.Time, Rule: ev.Rule, Subject: ev.Subject, Kind: ev.Kind, W: ev.Evidence.W, Size: ev.Evidence.Bias}
+	if ev.Evidence.Bias != 0 {
+		d.SizeUnit = "N"
+	}
+	d.Message = fmt.Sprintf("%s %s %s: %s %.4g (threshold %.4g)", ev.Rule, ev.Subject, ev.Kind, ev.Evidence.Signal, ev.Evidence.Value, ev.Evidence.Threshold)
+	for _, c := range ev.Evidence.Causes {
+		d.Causes = append(d.Causes, dashboard.Cause{Kind: c.Kind, Subject: c.Label, T: c.T, Size: c.Size, Unit: c.Unit})
+	}
+	return d
+}
+
+// Structures lists the registered structures in registration order.
+func (l *Live) Structures() []string {
+	l.mu.RLock()
+	defer l.mu.RUnlock()
+	return append([]string(nil), l.order...)
+}
+
+func (l *Live) entry(name string) (*entry, error) {
+	e := l.structs[name]
+	if e == nil {
+		return nil, fmt.Errorf("structure %q: %w", name, dashboard.ErrNotFound)
+	}
+	return e, nil
+}
+
+// State returns the latest state of a structure.
+func (l *Live) State(name string) (dashboard.State, error) {
+	l.mu.RLock()
+	defer l.mu.RUnlock()
+	e, err := l.entry(name)
+	if err != nil {
+		return dashboard.State{}, err
+	}
+	st := dashboard.State{Structure: e.name, Title: e.title, ModelVersion: e.hash, Geometry: e.geometry, CriticalValue: e.critical}
+	st.Fit.Alpha = e.alpha
+	r := e.latest
+	if r == nil {
+		for _, g := range e.gauged {
+			st.Gauged = append(st.Gauged, dashboard.MemberState{ID: g, Measured: nan(), Predicted: nan(), SigmaResidual: nan(), W: nan(), Redundancy: nan(), MDB: nan()})
+		}
+		return st, nil
+	}
+	st.Epoch = r.Time
+	alarm := alarmSet(r.Active)
+	for _, m := range r.Members {
+		sp := seriesPoint(r.Time, m, alarm[m.Member])
+		st.Gauged = append(st.Gauged, dashboard.MemberState{ID: m.Member, Measured: sp.Measured, Predicted: sp.Predicted,
+			SigmaResidual: sp.SigmaResidual, W: sp.W, Redundancy: m.Redundancy, MDB: m.MDBN, Checkable: m.Checkable, Alarm: alarm[m.Member]})
+	}
+	st.Fit.ChiSquare, st.Fit.DOF, st.Fit.PValue, st.Fit.Rejected = r.ChiSquare, r.DOF, r.PValue, r.Rejected
+	for _, ld := range r.Loads {
+		st.Loads = append(st.Loads, dashboard.LoadEstimate{Pattern: ld.Pattern, Value: ld.Value, StdDev: ld.Std, Unit: "pattern factor"})
+	}
+	return st, nil
+}
+
+// Series returns a gauged member's history in [from, to).
+func (l *Live) Series(name, member string, from, to time.Time) (dashboard.Series, error) {
+	l.mu.RLock()
+	defer l.mu.RUnlock()
+	e, err := l.entry(name)
+	if err != nil {
+		return dashboard.Series{}, err
+	}
+	i, ok := e.gaugedIndex[member]
+	if !ok {
+		return dashboard.Series{}, fmt.Errorf("structure %q: member %q is not gauged: %w", name, member, dashboard.ErrNotFound)
+	}
+	s := dashboard.Series{Structure: name, Member: member, CriticalValue: e.critical}
+	n := len(e.ring)
+	for k := 0; k < n; k++ {
+		idx := k
+		if e.full {
+			idx = (e.head + k) % n
+		}
+		p := e.ring[idx]
+		if p.t.Before(from) || !p.t.Before(to) {
+			continue
+		}
+		s.Points = append(s.Points, p.vals[i])
+	}
+	return s, nil
+}
+
+// Events returns the alarm events in [from, to): from the store when one
+// is configured, else those seen since start.
+func (l *Live) Events(name string, from, to time.Time) ([]dashboard.Event, error) {
+	l.mu.RLock()
+	e, err := l.entry(name)
+	var recent []dashboard.Event
+	if err == nil {
+		recent = append(recent, e.recent...)
+	}
+	l.mu.RUnlock()
+	if err != nil {
+		return nil, err
+	}
+	if l.events != nil {
+		stored, err := l.events.Events(context.Background(), name, from, to)
+		if err != nil {
+			return nil, fmt.Errorf("structure %q: reading events: %w", name, err)
+		}
+		out := make([]dashboard.Event, 0, len(stored))
+		for _, se := range stored {
+			var ev alerts.Evidence
+			if err := json.Unmarshal(se.Evidence, &ev); err != nil {
+				return nil, fmt.Errorf("structure %q: event %s/%s at %s: evidence: %w", name, se.Rule, se.Subject, se.Time, err)
+			}
+			out = append(out, dashboardEvent(alerts.Event{Structure: se.Structure, Rule: se.Rule, Subject: se.Subject, Kind: se.Kind, Time: se.Time, Evidence: ev}))
+		}
+		return out, nil
+	}
+	var out []dashboard.Event
+	for _, ev := range recent {
+		if !ev.Time.Before(from) && ev.Time.Before(to) {
+			out = append(out, ev)
+		}
+	}
+	sort.SliceStable(out, func(i, j int) bool { return out[i].Time.Before(out[j].Time) })
+	return out, nil
+}

@@ -1,0 +1,128 @@
+package service
+
+import (
+	"context"
+	"encoding/json"
+	"log/slog"
+	"sync"
+
+	"trussmonitor/internal/alerts"
+	"trussmonitor/internal/metrics"
+	"trussmonitor/internal/pipeline"
+	"trussmonitor/internal/store"
+)
+
+// metricsSink sets the Prometheus metrics of one structure from each epoch.
+type metricsSink struct {
+	m     *metrics.Metrics
+	sm    *metrics.StructureMetrics
+	name  string
+	rules []alerts.Rule
+	last  map[string]int
+	skewN uint64
+}
+
+// Epoch updates the member, fit, load, epoch and alarm metrics.
+func (ms *metricsSink) Epoch(r *pipeline.Result) {
+	ms.m.Epoch(ms.name, r.Outcome, r.Took)
+	if r.SkewedReadings > ms.skewN {
+		ms.m.ClockSkew(ms.name, int(r.SkewedReadings-ms.skewN))
+		ms.skewN = r.SkewedReadings
+	}
+	if r.Outcome == pipeline.OutcomeAccepted || r.Outcome == pipeline.OutcomeRejected {
+		for i, mr := range r.Members {
+			if !mr.Available {
+				continue
+			}
+			_ = ms.sm.SetMember(i, metrics.MemberValues{Measured: mr.MeasuredN, Predicted: mr.FittedN, Residual: mr.AdjustedN,
+				W: mr.W, MDB: mr.MDBN, Redundancy: mr.Redundancy, Checkable: mr.Checkable})
+		}
+		ms.sm.SetFit(r.ChiSquare, r.DOF, r.PValue)
+		for j, ld := range r.Loads {
+			if j < len(r.Loads) && ld.Estimable {
+				_ = ms.sm.SetUnknownLoad(j, ld.Value, ld.Std)
+			}
+		}
+	}
+	count := map[string]int{}
+	for _, a := range r.Active {
+		count[a.Rule]++
+	}
+	for _, rule := range ms.rules {
+		if n := count[rule.Name]; n != ms.last[rule.Name] || len(ms.last) == 0 {
+			ms.m.AlarmsFiring(ms.name, rule.Name, n)
+			ms.last[rule.Name] = n
+		}
+	}
+}
+
+// storedResult is the compact JSON form of an epoch result kept in the
+// store (for history beyond memory and for audits).
+type storedResult struct {
+	Outcome   string                  `json:"outcome"`
+	Reason    string                  `json:"reason,omitempty"`
+	ChiSquare float64                 `json:"chi_square"`
+	DOF       int                     `json:"dof"`
+	PValue    float64                 `json:"p_value"`
+	Members   []storedMember          `json:"members,omitempty"`
+	Loads     []pipeline.LoadEstimate `json:"loads,omitempty"`
+	Causes    []pipeline.Cause        `json:"causes,omitempty"`
+}
+
+type storedMember struct {
+	Member    string  `json:"member"`
+	Measured  float64 `json:"measured_n"`
+	Fitted    float64 `json:"fitted_n"`
+	Sigma     float64 `json:"sigma_residual_n"`
+	W         float64 `json:"w"`
+	Checkable bool    `json:"checkable"`
+}
+
+// resultSink buffers results and stores them in batches.
+type resultSink struct {
+	mu    sync.Mutex
+	store *store.Store
+	log   *slog.Logger
+	buf   []store.Result
+}
+
+// Epoch buffers one result (fitted or not).
+func (rs *resultSink) Epoch(r *pipeline.Result) {
+	sr := storedResult{Outcome: r.Outcome, Reason: r.Reason, ChiSquare: r.ChiSquare, DOF: r.DOF, PValue: r.PValue, Loads: r.Loads}
+	if len(r.Causes) > 3 {
+		sr.Causes = r.Causes[:3]
+	} else {
+		sr.Causes = r.Causes
+	}
+	for _, m := range r.Members {
+		if m.Available {
+			sr.Members = append(sr.Members, storedMember{Member: m.Member, Measured: m.MeasuredN, Fitted: m.FittedN, Sigma: m.SigmaAdjustedN, W: m.W, Checkable: m.Checkable})
+		}
+	}
+	payload, err := json.Marshal(sr)
+	if err != nil {
+		rs.log.Warn("result not stored", "structure", r.Structure, "time", r.Time, "error", err)
+		return
+	}
+	rs.mu.Lock()
+	rs.buf = append(rs.buf, store.Result{Structure: r.Structure, Time: r.Time, Payload: payload})
+	full := len(rs.buf) >= 500
+	rs.mu.Unlock()
+	if full {
+		rs.flush()
+	}
+}
+
+// flush stores the buffered results.
+func (rs *resultSink) flush() {
+	rs.mu.Lock()
+	buf := rs.buf
+	rs.buf = nil
+	rs.mu.Unlock()
+	if len(buf) == 0 || rs.store == nil {
+		return
+	}
+	if err := rs.store.PutResults(context.Background(), buf); err != nil {
+		rs.log.Warn("results not stored", "n", len(buf), "error", err)
+	}
+}
