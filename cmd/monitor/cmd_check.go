@@ -2,12 +2,332 @@ package main
 
 import (
 	"context"
+	"errors"
+	"flag"
 	"fmt"
 	"io"
+	"math"
+	"strings"
+
+	"trussmonitor/internal/model"
+	"trussmonitor/internal/structfile"
 )
 
-// runCheck is not built yet; the owner of this command replaces this file.
+// runCheck implements "monitor check FILE": it reads the structure file,
+// analyses it and prints a summary (determinacy, stability, equilibrium,
+// extreme member forces per case, and the method-of-joints cross-check for
+// determinate plane trusses). It exits 1 when the file is invalid or the
+// truss is a mechanism.
 func runCheck(ctx context.Context, args []string, stdout, stderr io.Writer) int {
-	fmt.Fprintln(stderr, "monitor check: not built yet")
-	return 2
+	fs := flag.NewFlagSet("check", flag.ContinueOnError)
+	fs.SetOutput(stderr)
+	fs.Usage = func() {
+		fmt.Fprintln(stderr, "usage: monitor check STRUCTURE.yaml")
+		fmt.Fprintln(stderr, "Validates a structure file and prints stability, determinacy, equilibrium and extreme member forces per load case.")
+		fs.PrintDefaults()
+	}
+	pos, err := parseInterspersed(fs, args)
+	if err != nil {
+		if errors.Is(err, flag.ErrHelp) {
+			return 0
+		}
+		return 2
+	}
+	if len(pos) != 1 {
+		fs.Usage()
+		return 2
+	}
+	s, err := structfile.LoadFile(pos[0])
+	if err != nil {
+		fmt.Fprintf(stderr, "monitor check: %v\n", err)
+		return 1
+	}
+	rep, err := checkStructure(s)
+	if err != nil {
+		fmt.Fprintf(stderr, "monitor check: %v\n", err)
+		return 1
+	}
+	rep.Write(stdout)
+	if rep.Mechanism != nil {
+		fmt.Fprintf(stderr, "monitor check: %v\n", rep.Mechanism)
+		return 1
+	}
+	return 0
+}
+
+// parseInterspersed parses flags that may come before or after the
+// positional arguments and returns the positionals.
+func parseInterspersed(fs *flag.FlagSet, args []string) ([]string, error) {
+	var pos []string
+	for {
+		if err := fs.Parse(args); err != nil {
+			return nil, err
+		}
+		args = fs.Args()
+		if len(args) == 0 {
+			return pos, nil
+		}
+		pos = append(pos, args[0])
+		args = args[1:]
+	}
+}
+
+// checkReport is the content of "monitor check": each part is filled by
+// checkStructure and printed by Write. Further sections (for example
+// detectability per member from a sensor map) are appended to Extra.
+type checkReport struct {
+	Structure *model.Structure
+	// Model is nil when the truss is a mechanism.
+	Model       *model.Model
+	Mechanism   *model.MechanismError
+	Determinacy model.Determinacy
+	Cases       []caseSummary
+	// Joints is the method-of-joints cross-check; JointsNote says why it
+	// was not run when Joints is empty.
+	Joints     []jointsCheck
+	JointsNote string
+	// Extra sections are printed after the built-in ones.
+	Extra []func(w io.Writer)
+}
+
+// caseSummary holds the extreme member forces of one load case.
+type caseSummary struct {
+	Name                 string
+	Factors              []model.Factor
+	MaxTension           float64
+	MaxTensionMember     string
+	MaxCompression       float64
+	MaxCompressionMember string
+	Equilibrium          model.Equilibrium
+	Err                  error
+}
+
+// jointsCheck compares the stiffness solution of one case with the method
+// of joints.
+type jointsCheck struct {
+	Case      string
+	MaxDiffN  float64
+	Member    string
+	MaxForceN float64
+	ResidualN float64
+	Err       error
+}
+
+// checkStructure analyses s and gathers the report. It returns an error
+// only for a structure that cannot be analysed at all (invalid input);
+// a mechanism is part of the report.
+func checkStructure(s *model.Structure) (*checkReport, error) {
+	rep := &checkReport{Structure: s}
+	m, err := model.Analyze(s)
+	var me *model.MechanismError
+	switch {
+	case errors.As(err, &me):
+		rep.Mechanism = me
+		rep.Determinacy = me.Determinacy
+		return rep, nil
+	case err != nil:
+		return nil, err
+	}
+	rep.Model = m
+	rep.Determinacy = m.Determinacy()
+	cases := s.Cases
+	if len(cases) == 0 {
+		for _, p := range s.Patterns {
+			cases = append(cases, model.Case{Name: "pattern " + p.Name, Factors: []model.Factor{{Pattern: p.Name, Factor: 1}}})
+		}
+	}
+	springs := false
+	for _, sp := range s.Supports {
+		springs = springs || sp.Spring != [3]float64{}
+	}
+	runJoints := s.Dim == 2 && rep.Determinacy.ByRank == 0 && !springs
+	switch {
+	case s.Dim != 2:
+		rep.JointsNote = "not applicable: space truss (the method of joints here is for plane trusses)"
+	case springs:
+		rep.JointsNote = "not applicable: spring supports make the forces depend on stiffness"
+	case rep.Determinacy.ByRank != 0:
+		rep.JointsNote = fmt.Sprintf("not applicable: statically indeterminate (degree %d)", rep.Determinacy.ByRank)
+	}
+	for _, c := range cases {
+		cs := caseSummary{Name: c.Name, Factors: c.Factors}
+		r, err := m.SolveFactors(c.Factors)
+		if err != nil {
+			cs.Err = err
+			rep.Cases = append(rep.Cases, cs)
+			continue
+		}
+		cs.Equilibrium = r.Equilibrium
+		for e, n := range r.Forces {
+			if n > cs.MaxTension || cs.MaxTensionMember == "" {
+				cs.MaxTension, cs.MaxTensionMember = n, s.Members[e].ID
+			}
+			if n < cs.MaxCompression || cs.MaxCompressionMember == "" {
+				cs.MaxCompression, cs.MaxCompressionMember = n, s.Members[e].ID
+			}
+		}
+		rep.Cases = append(rep.Cases, cs)
+		if !runJoints {
+			continue
+		}
+		jc := jointsCheck{Case: c.Name}
+		j, err := model.SolveByJoints(s, c.Factors)
+		if err != nil {
+			jc.Err = err
+		} else {
+			jc.ResidualN = j.MaxResidualN
+			for e := range r.Forces {
+				jc.MaxForceN = math.Max(jc.MaxForceN, math.Abs(r.Forces[e]))
+				if d := math.Abs(r.Forces[e] - j.Forces[e]); d > jc.MaxDiffN || jc.Member == "" {
+					jc.MaxDiffN, jc.Member = d, s.Members[e].ID
+				}
+			}
+		}
+		rep.Joints = append(rep.Joints, jc)
+	}
+	return rep, nil
+}
+
+// equilibriumLimit is the relative imbalance above which a solution is
+// flagged.
+const equilibriumLimit = 1e-9
+
+// Write prints the report.
+func (r *checkReport) Write(w io.Writer) {
+	s := r.Structure
+	fmt.Fprintf(w, "structure   %s", s.Name)
+	if s.Title != "" {
+		fmt.Fprintf(w, " (%s)", s.Title)
+	}
+	fmt.Fprintln(w)
+	if s.File != "" {
+		fmt.Fprintf(w, "file        %s\n", s.File)
+	}
+	kind := "plane truss"
+	if s.Dim == 3 {
+		kind = "space truss"
+	}
+	fmt.Fprintf(w, "dimension   %d (%s)\n", s.Dim, kind)
+	fmt.Fprintf(w, "nodes       %d\n", len(s.Nodes))
+	fmt.Fprintf(w, "members     %d\n", len(s.Members))
+	fmt.Fprintf(w, "supports    %d (%s)\n", len(s.Supports), supportSummary(s))
+	fmt.Fprintf(w, "patterns    %d, cases %d\n", len(s.Patterns), len(s.Cases))
+	fmt.Fprintln(w)
+
+	d := r.Determinacy
+	fmt.Fprintln(w, "determinacy")
+	fmt.Fprintf(w, "  by counting  m + r - %d j = %d + %d - %d x %d = %d\n", s.Dim, d.Members, d.Reactions, s.Dim, d.Joints, d.ByCounting)
+	fmt.Fprintf(w, "  by rank      %d (mechanisms %d)\n", d.ByRank, d.Mechanisms)
+	agree := "yes"
+	if !d.Agree {
+		agree = "no"
+	}
+	fmt.Fprintf(w, "  agree        %s: %s\n", agree, d.Note)
+	fmt.Fprintln(w)
+
+	if r.Mechanism != nil {
+		fmt.Fprintln(w, "stability   UNSTABLE (mechanism)")
+		for i, fm := range r.Mechanism.Motions {
+			fmt.Fprintf(w, "  free motion %d: %s\n", i+1, fm.String())
+		}
+		if r.Mechanism.Partial {
+			fmt.Fprintln(w, "  (further free motions may exist; the model is too large to list them all)")
+		}
+		fmt.Fprintln(w, "  add members or restraints to stop the motion; no load case was solved")
+		r.writeExtra(w)
+		return
+	}
+	fmt.Fprintf(w, "stability   stable (%d free DOFs)\n", r.Model.FreeDOFs())
+	fmt.Fprintln(w)
+
+	worst := 0.0
+	for _, c := range r.Cases {
+		worst = math.Max(worst, c.Equilibrium.Relative)
+	}
+	verdict := "ok"
+	if worst > equilibriumLimit {
+		verdict = "FAILED"
+	}
+	fmt.Fprintf(w, "equilibrium largest relative imbalance over all cases %.1e (limit %.0e): %s\n", worst, equilibriumLimit, verdict)
+	fmt.Fprintln(w)
+
+	width := 4
+	for _, c := range r.Cases {
+		width = max(width, len(c.Name))
+	}
+	fmt.Fprintln(w, "load cases (member forces, tension positive)")
+	for _, c := range r.Cases {
+		if c.Err != nil {
+			fmt.Fprintf(w, "  %-*s ERROR %v\n", width, c.Name, c.Err)
+			continue
+		}
+		fmt.Fprintf(w, "  %-*s max tension %s in %s, max compression %s in %s, imbalance %.1e\n",
+			width, c.Name, kN(c.MaxTension), c.MaxTensionMember, kN(c.MaxCompression), c.MaxCompressionMember, c.Equilibrium.Relative)
+	}
+	fmt.Fprintln(w)
+
+	fmt.Fprintln(w, "method of joints cross-check")
+	if len(r.Joints) == 0 {
+		fmt.Fprintf(w, "  %s\n", r.JointsNote)
+	}
+	for _, j := range r.Joints {
+		if j.Err != nil {
+			fmt.Fprintf(w, "  %-*s ERROR %v\n", width, j.Case, j.Err)
+			continue
+		}
+		if j.MaxForceN < 1e-3 {
+			fmt.Fprintf(w, "  %-*s largest difference %.1e N in %s (all member forces are zero to rounding)\n", width, j.Case, j.MaxDiffN, j.Member)
+			continue
+		}
+		fmt.Fprintf(w, "  %-*s largest difference %.1e N (%.1e of the largest force) in %s\n", width, j.Case, j.MaxDiffN, j.MaxDiffN/j.MaxForceN, j.Member)
+	}
+	r.writeExtra(w)
+	fmt.Fprintln(w)
+	fmt.Fprintln(w, "This tool is a monitoring aid, not a safety verdict; decisions rest with a licensed engineer under local codes.")
+}
+
+func (r *checkReport) writeExtra(w io.Writer) {
+	for _, f := range r.Extra {
+		fmt.Fprintln(w)
+		f(w)
+	}
+}
+
+// supportSummary describes the supports, e.g. "L0 fixed x y; L8 fixed y, spring x".
+func supportSummary(s *model.Structure) string {
+	var parts []string
+	for _, sp := range s.Supports {
+		var fx, sx []string
+		for k := 0; k < s.Dim; k++ {
+			if sp.Fixed[k] {
+				fx = append(fx, "xyz"[k:k+1])
+			}
+			if sp.Spring[k] != 0 {
+				sx = append(sx, "xyz"[k:k+1])
+			}
+		}
+		var d []string
+		if len(fx) > 0 {
+			d = append(d, "fixed "+strings.Join(fx, " "))
+		}
+		if sp.Normal != nil {
+			d = append(d, "inclined roller")
+		}
+		if len(sx) > 0 {
+			d = append(d, "spring "+strings.Join(sx, " "))
+		}
+		parts = append(parts, s.Nodes[sp.Node].ID+" "+strings.Join(d, ", "))
+	}
+	if len(parts) > 8 {
+		return strings.Join(parts[:8], "; ") + fmt.Sprintf("; ... %d more", len(parts)-8)
+	}
+	return strings.Join(parts, "; ")
+}
+
+// kN formats a force in newtons as kilonewtons (rounding noise shows as 0).
+func kN(n float64) string {
+	if math.Abs(n) < 0.5 {
+		n = 0
+	}
+	return fmt.Sprintf("%.3f kN", n/1e3)
 }
