@@ -11,6 +11,7 @@ package metrics
 
 import (
 	"fmt"
+	"math"
 	"sync"
 	"time"
 
@@ -61,18 +62,18 @@ type Metrics struct {
 	alarms                                                   *prometheus.GaugeVec
 	dropped                                                  prometheus.Counter
 
-	mu       sync.RWMutex
-	counters map[childKey]prometheus.Counter
-	gauges   map[childKey]prometheus.Gauge
-	hists    map[childKey]prometheus.Observer
-	lastSeen map[childKey]float64 // latest time stamp per channel, under mu
+	cMessages, cReadings, cRejections, cEpochs, cSkew *children[prometheus.Counter]
+	cLatency                                         *children[prometheus.Observer]
+	cAlarms                                          *children[prometheus.Gauge]
+	cLast                                            *children[*lastReading]
 }
 
-// childKey identifies a cached child: the vector it belongs to and its
-// two label values.
-type childKey struct {
-	vec  any
-	a, b string
+// lastReading is a channel's freshness gauge with the latest time stamp
+// seen, so that a late reading does not move it back.
+type lastReading struct {
+	mu sync.Mutex
+	t  float64
+	g  prometheus.Gauge
 }
 
 // New creates the collectors and registers them on reg.
@@ -115,11 +116,17 @@ func New(reg prometheus.Registerer) (*Metrics, error) {
 		}, st),
 		alarms:   g(AlarmsFiring, "Number of alarms of the rule currently firing.", []string{"structure", "rule"}),
 		dropped:  prometheus.NewCounter(prometheus.CounterOpts{Name: BrokerDroppedMessage, Help: "Messages the embedded broker dropped (in-flight or queue limits)."}),
-		counters: map[childKey]prometheus.Counter{},
-		gauges:   map[childKey]prometheus.Gauge{},
-		hists:    map[childKey]prometheus.Observer{},
-		lastSeen: map[childKey]float64{},
 	}
+	two := func(v *prometheus.CounterVec) *children[prometheus.Counter] {
+		return newChildren(func(a, b string) prometheus.Counter { return v.WithLabelValues(a, b) })
+	}
+	m.cMessages, m.cReadings, m.cRejections, m.cEpochs = two(m.messages), two(m.readings), two(m.rejections), two(m.epochs)
+	m.cSkew = newChildren(func(a, _ string) prometheus.Counter { return m.skew.WithLabelValues(a) })
+	m.cLatency = newChildren(func(a, _ string) prometheus.Observer { return m.latency.WithLabelValues(a) })
+	m.cAlarms = newChildren(func(a, b string) prometheus.Gauge { return m.alarms.WithLabelValues(a, b) })
+	m.cLast = newChildren(func(a, b string) *lastReading {
+		return &lastReading{t: math.Inf(-1), g: m.lastReading.WithLabelValues(a, b)}
+	})
 	for _, col := range []prometheus.Collector{m.measured, m.predicted, m.residual, m.w, m.mdb, m.redund, m.checkable,
 		m.chi2, m.dof, m.pvalue, m.load, m.loadStd, m.epochs, m.messages, m.readings, m.rejections, m.skew,
 		m.lastReading, m.latency, m.alarms, m.dropped} {
@@ -130,74 +137,65 @@ func New(reg prometheus.Registerer) (*Metrics, error) {
 	return m, nil
 }
 
-func (m *Metrics) counter(vec *prometheus.CounterVec, a, b string) prometheus.Counter {
-	k := childKey{vec, a, b}
-	m.mu.RLock()
-	c, ok := m.counters[k]
-	m.mu.RUnlock()
-	if ok {
-		return c
-	}
-	m.mu.Lock()
-	defer m.mu.Unlock()
-	if c, ok = m.counters[k]; !ok {
-		if vec == m.skew { // the only counter labelled by structure alone
-			c = vec.WithLabelValues(a)
-		} else {
-			c = vec.WithLabelValues(a, b)
-		}
-		m.counters[k] = c
-	}
-	return c
+// children caches the children of one vector by their label values:
+// WithLabelValues hashes the labels on every call (~180 ns), a cached
+// child is a map lookup under a read lock.
+type children[T any] struct {
+	mu   sync.RWMutex
+	m    map[[2]string]T
+	make func(a, b string) T
 }
 
-func (m *Metrics) gauge(vec *prometheus.GaugeVec, a, b string) prometheus.Gauge {
-	k := childKey{vec, a, b}
-	m.mu.RLock()
-	g, ok := m.gauges[k]
-	m.mu.RUnlock()
+func newChildren[T any](make func(a, b string) T) *children[T] {
+	return &children[T]{m: map[[2]string]T{}, make: make}
+}
+
+func (c *children[T]) get(a, b string) T {
+	k := [2]string{a, b}
+	c.mu.RLock()
+	v, ok := c.m[k]
+	c.mu.RUnlock()
 	if ok {
-		return g
+		return v
 	}
-	m.mu.Lock()
-	defer m.mu.Unlock()
-	if g, ok = m.gauges[k]; !ok {
-		g = vec.WithLabelValues(a, b)
-		m.gauges[k] = g
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	if v, ok = c.m[k]; !ok {
+		v = c.make(a, b)
+		c.m[k] = v
 	}
-	return g
+	return v
 }
 
 // MessageHandled counts one MQTT message (ingest.Observer).
 func (m *Metrics) MessageHandled(structure, outcome string) {
-	m.counter(m.messages, structure, outcome).Inc()
+	m.cMessages.get(structure, outcome).Inc()
 }
 
 // ReadingsHandled counts n readings (ingest.Observer).
 func (m *Metrics) ReadingsHandled(structure, outcome string, n int) {
 	if n > 0 {
-		m.counter(m.readings, structure, outcome).Add(float64(n))
+		m.cReadings.get(structure, outcome).Add(float64(n))
 	}
 }
 
 // Rejected counts one dead letter (ingest.Observer).
 func (m *Metrics) Rejected(structure, reason string) {
-	m.counter(m.rejections, structure, reason).Inc()
+	m.cRejections.get(structure, reason).Inc()
 }
 
 // LastReading records the time stamp of a channel's latest reading
 // (ingest.Observer). An older time stamp than the one shown (a late
 // reading) does not move it back.
 func (m *Metrics) LastReading(structure, channel string, t time.Time) {
-	g := m.gauge(m.lastReading, structure, channel)
+	l := m.cLast.get(structure, channel)
 	v := float64(t.UnixNano()) / 1e9
-	m.mu.Lock()
-	k := childKey{m.lastReading, structure, channel}
-	if prev, ok := m.lastSeen[k]; !ok || v > prev {
-		m.lastSeen[k] = v
-		g.Set(v)
+	l.mu.Lock()
+	if v > l.t {
+		l.t = v
+		l.g.Set(v)
 	}
-	m.mu.Unlock()
+	l.mu.Unlock()
 }
 
 // BrokerDropped counts n messages dropped by the embedded broker
@@ -211,31 +209,19 @@ func (m *Metrics) BrokerDropped(n int) {
 // ClockSkew counts n readings with a skewed logger clock.
 func (m *Metrics) ClockSkew(structure string, n int) {
 	if n > 0 {
-		m.counter(m.skew, structure, "").Add(float64(n))
+		m.cSkew.get(structure, "").Add(float64(n))
 	}
 }
 
 // Epoch counts one epoch by outcome and records its processing time.
 func (m *Metrics) Epoch(structure, outcome string, took time.Duration) {
-	m.counter(m.epochs, structure, outcome).Inc()
-	k := childKey{m.latency, structure, ""}
-	m.mu.RLock()
-	h, ok := m.hists[k]
-	m.mu.RUnlock()
-	if !ok {
-		m.mu.Lock()
-		if h, ok = m.hists[k]; !ok {
-			h = m.latency.WithLabelValues(structure)
-			m.hists[k] = h
-		}
-		m.mu.Unlock()
-	}
-	h.Observe(took.Seconds())
+	m.cEpochs.get(structure, outcome).Inc()
+	m.cLatency.get(structure, "").Observe(took.Seconds())
 }
 
 // AlarmsFiring sets the number of firing alarms of rule.
 func (m *Metrics) AlarmsFiring(structure, rule string, n int) {
-	m.gauge(m.alarms, structure, rule).Set(float64(n))
+	m.cAlarms.get(structure, rule).Set(float64(n))
 }
 
 // Structure returns the per-epoch gauges of one structure with its gauged
