@@ -57,7 +57,7 @@ func TestMemberAlarmEvidenceAndHold(t *testing.T) {
 		{0, 4.5, true, ""},
 		{1, 4.5, true, ""},
 		{2, 4.5, true, "raised"},
-		{3, 0, false, ""}, // member absent: last value (4.5) holds
+		{3, 0, false, ""},  // member absent: last value (4.5) holds
 		{4, 2.9, true, ""}, // between clear and raise: held
 		{5, 2.0, true, "cleared"},
 	}

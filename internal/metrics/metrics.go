@@ -63,9 +63,9 @@ type Metrics struct {
 	dropped                                                  prometheus.Counter
 
 	cMessages, cReadings, cRejections, cEpochs, cSkew *children[prometheus.Counter]
-	cLatency                                         *children[prometheus.Observer]
-	cAlarms                                          *children[prometheus.Gauge]
-	cLast                                            *children[*lastReading]
+	cLatency                                          *children[prometheus.Observer]
+	cAlarms                                           *children[prometheus.Gauge]
+	cLast                                             *children[*lastReading]
 }
 
 // lastReading is a channel's freshness gauge with the latest time stamp
@@ -114,8 +114,8 @@ func New(reg prometheus.Registerer) (*Metrics, error) {
 			Help:    "Time to process one epoch (prediction, fit, tests, alarms), seconds.",
 			Buckets: prometheus.ExponentialBuckets(10e-6, 4, 9), // 10 us .. 0.66 s
 		}, st),
-		alarms:   g(AlarmsFiring, "Number of alarms of the rule currently firing.", []string{"structure", "rule"}),
-		dropped:  prometheus.NewCounter(prometheus.CounterOpts{Name: BrokerDroppedMessage, Help: "Messages the embedded broker dropped (in-flight or queue limits)."}),
+		alarms:  g(AlarmsFiring, "Number of alarms of the rule currently firing.", []string{"structure", "rule"}),
+		dropped: prometheus.NewCounter(prometheus.CounterOpts{Name: BrokerDroppedMessage, Help: "Messages the embedded broker dropped (in-flight or queue limits)."}),
 	}
 	two := func(v *prometheus.CounterVec) *children[prometheus.Counter] {
 		return newChildren(func(a, b string) prometheus.Counter { return v.WithLabelValues(a, b) })
