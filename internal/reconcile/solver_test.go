@@ -2,6 +2,7 @@ package reconcile
 
 import (
 	"errors"
+	"fmt"
 	"math"
 	"math/rand/v2"
 	"testing"
@@ -444,5 +445,58 @@ func TestBadInput(t *testing.T) {
 	}
 	if _, err := s.Epoch([]float64{1, 1, 1}, []float64{0, 0, 0}, []bool{false, false, false}); err == nil {
 		t.Error("empty mask accepted")
+	}
+}
+
+// TestConcurrentEpochs runs epochs with changing masks from several
+// goroutines (run with -race); results must equal a serial run.
+func TestConcurrentEpochs(t *testing.T) {
+	const g, p = 15, 2
+	rng := rand.New(rand.NewPCG(4, 4))
+	A, sigma := randomDesign(rng, g, p)
+	s, err := NewSolver(A, sigma, Options{CacheSize: 2})
+	if err != nil {
+		t.Fatal(err)
+	}
+	y := make([]float64, g)
+	for i := range y {
+		y[i] = 1e4 * rng.NormFloat64()
+	}
+	yhat := make([]float64, g)
+	masks := make([][]bool, 4)
+	want := make([]float64, len(masks))
+	for m := range masks {
+		masks[m] = make([]bool, g)
+		for i := range masks[m] {
+			masks[m][i] = i != m
+		}
+		res, err := s.Epoch(y, yhat, masks[m])
+		if err != nil {
+			t.Fatal(err)
+		}
+		want[m] = res.T
+	}
+	done := make(chan error, 4)
+	for w := 0; w < 4; w++ {
+		go func(w int) {
+			var res Result
+			for k := 0; k < 200; k++ {
+				m := (w + k) % len(masks)
+				if err := s.EpochInto(&res, y, yhat, masks[m]); err != nil {
+					done <- err
+					return
+				}
+				if res.T != want[m] {
+					done <- fmt.Errorf("mask %d: T = %v, want %v", m, res.T, want[m])
+					return
+				}
+			}
+			done <- nil
+		}(w)
+	}
+	for w := 0; w < 4; w++ {
+		if err := <-done; err != nil {
+			t.Error(err)
+		}
 	}
 }
