@@ -27,7 +27,7 @@ func threeBar() *model.Structure {
 			{Node: 2, Fixed: [3]bool{true, true}},
 			{Node: 3, Fixed: [3]bool{true, true}},
 		},
-		Groups: map[string][]int{"middle": {1}},
+		Groups:   map[string][]int{"middle": {1}},
 		Patterns: []model.Pattern{{Name: "load", Forces: []model.NodalForce{{Node: 0, F: [3]float64{0, -100e3}}}}},
 		Cases:    []model.Case{{Name: "service", Factors: []model.Factor{{Pattern: "load", Factor: 1}}}},
 	}

@@ -12,9 +12,10 @@ import (
 
 // denseNullLimit is the largest number of free DOFs for which the null space
 // of the stiffness matrix is computed by a dense symmetric eigen
-// decomposition; beyond it the free motions are the DOFs where the sparse
-// Cholesky pivot failed.
-const denseNullLimit = 1500
+// decomposition (pure Go: about 30 s at 1400 DOF, so kept small); beyond it
+// the free motions come from restraining the DOFs where the sparse Cholesky
+// pivot failed.
+const denseNullLimit = 300
 
 // nullRatio is the eigenvalue ratio (to the largest) below which a motion is
 // counted as free.
@@ -78,56 +79,82 @@ func (m *Model) denseNullSpace() []FreeMotion {
 	return out
 }
 
-// pivotMotions finds the free motions of a large model by refactoring with a
-// stiff restraint at each DOF where the Cholesky pivot failed (each such
-// restraint removes exactly one null direction), up to 8 times. When the
-// factorisation succeeded but the probe solve failed, three steps of inverse
-// iteration give the weakest motion.
+// pivotMotions finds the free motions by refactoring with a restraint of
+// stiffness kappa (the largest diagonal entry) at each DOF where the
+// Cholesky pivot failed: each such restraint removes exactly one null
+// direction. Once the restrained matrix K' = K + kappa sum e_p e_p^T
+// factors, the solutions of K' x_p = e_p lie exactly in the null space of K
+// (K' v / kappa = e_p for a null vector v with v_p = 1), so they are a basis
+// of the free motions. At most maxRounds refactorisations are made; beyond
+// that the list is partial. When the factorisation succeeded but the probe
+// solve failed (near-singular), inverse iteration gives the weakest motion.
 func (m *Model) pivotMotions(pivot int) ([]FreeMotion, bool) {
 	if pivot < 0 {
 		return []FreeMotion{m.inverseIteration()}, false
 	}
 	nf := len(m.lo.free)
-	var kmax float64
-	diag := make([]float64, nf)
+	maxRounds := 100
+	if nf > 20000 {
+		maxRounds = 8
+	}
+	var kappa float64
 	m.lo.eachEntry(func(p, q int, v float64) {
 		if p == q {
-			diag[p] += v
+			kappa = math.Max(kappa, v)
 		}
 	})
-	for _, v := range diag {
-		kmax = math.Max(kmax, v)
+	if kappa == 0 {
+		kappa = 1
 	}
-	var out []FreeMotion
+	var pins []int
 	pinned := map[int]bool{}
-	for round := 0; round < 8; round++ {
-		if pivot < 0 || pivot >= nf || pinned[pivot] {
-			return out, true
+	partial := false
+	var ch *sparse.Cholesky
+	for round := 0; ; round++ {
+		if pivot < 0 || pivot >= nf || pinned[pivot] || round == maxRounds {
+			partial = true
+			break
 		}
 		pinned[pivot] = true
-		w := m.lo.free[pivot]
-		u := m.lo.toGlobal(w/m.lo.dim, unitAxis(w%m.lo.dim))
-		out = append(out, FreeMotion{
-			Nodes:    []NodeMotion{{Node: w / m.lo.dim, ID: m.s.Nodes[w/m.lo.dim].ID, Dir: u}},
-			Moving:   1,
-			PivotDOF: m.lo.dofLabel(m.s, w),
-		})
+		pins = append(pins, pivot)
 		b := sparse.NewBuilder(nf)
 		m.lo.eachEntry(func(p, q int, v float64) { b.Add(p, q, v) })
-		for p := range pinned {
-			b.Add(p, p, kmax*1e3+1)
+		for _, p := range pins {
+			b.Add(p, p, kappa)
 		}
-		_, err := sparse.Factorize(b.Matrix(), sparse.Options{})
-		var npd *sparse.NotPositiveDefiniteError
+		var err error
+		ch, err = sparse.Factorize(b.Matrix(), sparse.Options{})
 		if err == nil {
-			return out, false
+			break
 		}
+		var npd *sparse.NotPositiveDefiniteError
 		if !errors.As(err, &npd) {
-			return out, true
+			partial = true
+			break
 		}
 		pivot = npd.Index
 	}
-	return out, true
+	out := make([]FreeMotion, 0, len(pins))
+	e := make([]float64, nf)
+	x := make([]float64, nf)
+	for _, p := range pins {
+		var fm FreeMotion
+		if ch != nil && !partial {
+			clear(e)
+			e[p] = 1
+			ch.Solve(x, e)
+			fm = m.describe(x)
+		}
+		if len(fm.Nodes) == 0 {
+			// No factor to solve with: report the failed DOF itself.
+			w := m.lo.free[p]
+			n := w / m.lo.dim
+			fm = FreeMotion{Nodes: []NodeMotion{{Node: n, ID: m.s.Nodes[n].ID, Dir: m.lo.toGlobal(n, unitAxis(w%m.lo.dim))}}, Moving: 1}
+		}
+		fm.PivotDOF = m.lo.dofLabel(m.s, m.lo.free[p])
+		out = append(out, fm)
+	}
+	return out, partial
 }
 
 // inverseIteration returns the weakest motion of the factored K_ff by three
