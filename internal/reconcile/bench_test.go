@@ -56,3 +56,42 @@ func BenchmarkEpoch(b *testing.B) {
 		})
 	}
 }
+
+// BenchmarkCauses ranks 200 gauge faults plus 200 dense (stiffness-like)
+// signatures for 200 gauges and 5 unknowns: the cost of one ranking after
+// a rejection.
+func BenchmarkCauses(b *testing.B) {
+	const g = 200
+	rng := rand.New(rand.NewPCG(8, 8))
+	A, sigma := randomDesign(rng, g, 5)
+	s, err := NewSolver(A, sigma, Options{})
+	if err != nil {
+		b.Fatal(err)
+	}
+	y := make([]float64, g)
+	for i := range y {
+		y[i] = sigma[i] * rng.NormFloat64()
+	}
+	res, err := s.Epoch(y, make([]float64, g), nil)
+	if err != nil {
+		b.Fatal(err)
+	}
+	names := make([]string, g)
+	for i := range names {
+		names[i] = fmt.Sprint(i)
+	}
+	cands := GaugeFaults(names)
+	for k := 0; k < 200; k++ {
+		sig := make([]float64, g)
+		for i := range sig {
+			sig[i] = rng.NormFloat64()
+		}
+		cands = append(cands, Candidate{Kind: StiffnessChange, Label: fmt.Sprint("S", k), Signature: sig})
+	}
+	b.ReportAllocs()
+	for b.Loop() {
+		if _, err := res.Causes(cands); err != nil {
+			b.Fatal(err)
+		}
+	}
+}

@@ -3,9 +3,8 @@ package reconcile
 import (
 	"errors"
 	"fmt"
+	"math"
 	"sort"
-
-	"gonum.org/v1/gonum/stat/distuv"
 )
 
 // Kind is the kind of a candidate cause; it fixes the unit of its size.
@@ -94,7 +93,9 @@ type Cause struct {
 // (c^T W c), for the candidate to be separable.
 const SeparableTol = 1e-6
 
-var chi1 = distuv.ChiSquared{K: 1}
+// chi1Survival is P(chi-square(1) > t) = erfc(sqrt(t/2)), the closed form
+// for one degree of freedom (checked against distuv.ChiSquared in tests).
+func chi1Survival(t float64) float64 { return math.Erfc(math.Sqrt(t / 2)) }
 
 // Causes tests every candidate against this epoch's adjusted residuals and
 // returns them ranked (largest T_c first; non-separable ones last, in
@@ -162,7 +163,7 @@ func finishCause(kind Kind, label string, num, den, sig2 float64, epochs int) Ca
 		c.T = num * num / den
 		c.Size = num / den
 		c.DisplaySize = c.Size * scale
-		c.PValue = chi1.Survival(c.T)
+		c.PValue = chi1Survival(c.T)
 	}
 	return c
 }

@@ -7,6 +7,7 @@ import (
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
+	"gonum.org/v1/gonum/stat/distuv"
 )
 
 // TestPlantedGaugeBiasRanksFirst: a bias of 8 sigma planted on one gauge
@@ -149,6 +150,14 @@ func TestWindowRankerPersistentCause(t *testing.T) {
 	}
 	if _, err := NewWindowRanker(0); err == nil {
 		t.Error("window of 0 accepted")
+	}
+}
+
+func TestChi1Survival(t *testing.T) {
+	for _, x := range []float64{0, 0.5, 3.84, 10.83, 50} {
+		if got, want := chi1Survival(x), (distuv.ChiSquared{K: 1}).Survival(x); math.Abs(got-want) > 1e-12*math.Max(want, 1e-300)+1e-15 {
+			t.Errorf("P(chi2_1 > %v) = %v, gonum %v", x, got, want)
+		}
 	}
 }
 
