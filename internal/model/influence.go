@@ -248,21 +248,52 @@ func (sg *Signatures) Settlement() ([]string, *mat.Dense) {
 	if nr == 0 {
 		return nil, &mat.Dense{}
 	}
-	nd := m.lo.dim * m.lo.nn
-	e := make([]float64, nd)
-	ke := make([]float64, nd)
+	// Column r of K_full: only the members at the node and its spring.
+	d := m.lo.dim
+	incident := make([][]int, m.lo.nn)
+	for e := range m.lo.mem {
+		incident[m.lo.mem[e].i] = append(incident[m.lo.mem[e].i], e)
+		incident[m.lo.mem[e].j] = append(incident[m.lo.mem[e].j], e)
+	}
+	type entry struct {
+		w int
+		v float64
+	}
+	var col []entry // in a fixed order, so sums are reproducible
 	for r, dof := range m.lo.rest {
 		labels[r] = m.lo.dofLabel(m.s, dof)
-		clear(e)
-		clear(ke)
-		e[dof] = 1
-		m.lo.applyK(e, ke)
+		n, a := dof/d, dof%d
+		col = col[:0]
+		for _, e := range incident[n] {
+			mg := &m.lo.mem[e]
+			// b_e at this DOF: -bi[a] at end i, +bj[a] at end j.
+			bd := mg.bj[a]
+			if mg.i == n {
+				bd = -mg.bi[a]
+			}
+			for k := 0; k < d; k++ {
+				col = append(col, entry{mg.i*d + k, -mg.k * bd * mg.bi[k]}, entry{mg.j*d + k, mg.k * bd * mg.bj[k]})
+			}
+		}
+		if sw := m.lo.spring[n]; sw != nil {
+			for k := 0; k < d; k++ {
+				col = append(col, entry{n*d + k, sw[k][a]})
+			}
+		}
 		for g, mi := range sg.members {
-			v := m.lo.mem[mi].k * m.lo.elongation(mi, e)
+			mg := &m.lo.mem[mi]
+			var v float64
+			// (E A / L)_g b_g[r]
+			if mg.i == n {
+				v -= mg.k * mg.bi[a]
+			}
+			if mg.j == n {
+				v += mg.k * mg.bj[a]
+			}
 			if sg.z != nil {
-				for i, fd := range m.lo.free {
-					if ke[fd] != 0 {
-						v -= sg.z.At(i, g) * ke[fd]
+				for _, c := range col {
+					if m.lo.kind[c.w] == dofFree && c.v != 0 {
+						v -= sg.z.At(m.lo.index[c.w], g) * c.v
 					}
 				}
 			}

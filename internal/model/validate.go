@@ -3,6 +3,7 @@ package model
 import (
 	"fmt"
 	"math"
+	"sort"
 	"strings"
 )
 
@@ -176,8 +177,13 @@ func Validate(s *Structure) error {
 			}
 		}
 	}
-	for gname, ms := range s.Groups {
-		for _, mi := range ms {
+	gnames := make([]string, 0, len(s.Groups))
+	for g := range s.Groups {
+		gnames = append(gnames, g)
+	}
+	sort.Strings(gnames)
+	for _, gname := range gnames {
+		for _, mi := range s.Groups[gname] {
 			if mi < 0 || mi >= len(s.Members) {
 				add(0, "groups."+gname, "member index %d out of range (%d members)", mi, len(s.Members))
 			}
