@@ -132,9 +132,13 @@ func (f *bandFactor) solveMany(x []float64, nrhs int) {
 		for i := 0; i < n; i++ {
 			j0 := max(0, i-k)
 			r := f.l[i*ld : (i+1)*ld]
-			xi := x[i*nrhs+c0 : i*nrhs+c1]
+			xi := x[i*nrhs+c0 : i*nrhs+c0+w]
 			for j := j0; j < i; j++ {
-				axpy(-r[j-i+k], x[j*nrhs+c0:j*nrhs+c0+w], xi)
+				l := r[j-i+k]
+				xj := x[j*nrhs+c0 : j*nrhs+c0+w]
+				for c := range xi {
+					xi[c] -= l * xj[c]
+				}
 			}
 			inv := 1 / r[k]
 			for c := range xi {
@@ -144,13 +148,17 @@ func (f *bandFactor) solveMany(x []float64, nrhs int) {
 		for i := n - 1; i >= 0; i-- {
 			j0 := max(0, i-k)
 			r := f.l[i*ld : (i+1)*ld]
-			xi := x[i*nrhs+c0 : i*nrhs+c1]
+			xi := x[i*nrhs+c0 : i*nrhs+c0+w]
 			inv := 1 / r[k]
 			for c := range xi {
 				xi[c] *= inv
 			}
 			for j := j0; j < i; j++ {
-				axpy(-r[j-i+k], xi, x[j*nrhs+c0:j*nrhs+c0+w])
+				l := r[j-i+k]
+				xj := x[j*nrhs+c0 : j*nrhs+c0+w]
+				for c := range xj {
+					xj[c] -= l * xi[c]
+				}
 			}
 		}
 	}

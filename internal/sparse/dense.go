@@ -5,7 +5,6 @@ import (
 
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
-	"gonum.org/v1/gonum/lapack/lapack64"
 )
 
 // denseFactor is a full lower-triangular factor, row-major n×n.
@@ -26,7 +25,8 @@ func permutedDiagonal(a *Sym, perm []int) []float64 {
 	return pd
 }
 
-// factorDense factors P A Pᵀ with LAPACK's blocked Potrf (gonum).
+// factorDense factors P A Pᵀ as a full matrix with the blocked kernel of
+// the supernodal fronts (one front holding every column).
 func factorDense(a *Sym, perm []int, tol float64, st *Stats) (factor, error) {
 	n := a.n
 	data := make([]float64, n*n)
@@ -35,27 +35,10 @@ func factorDense(a *Sym, perm []int, tol float64, st *Stats) (factor, error) {
 	st.NNZL = n * (n + 1) / 2
 	st.HalfBandwidth = halfBandwidth(a, perm)
 	st.Flops = float64(n) * float64(n) * float64(n) / 3
-	sym := blas64.Symmetric{Uplo: blas.Lower, N: n, Data: data, Stride: max(1, n)}
-	t, ok := lapack64.Potrf(sym)
-	if ok {
-		// L_jj² is the pivot d_j; the first unacceptable one is the
-		// failure (later ones may be polluted by it).
-		for j := 0; j < n; j++ {
-			d := data[j*n+j] * data[j*n+j]
-			if !pivotOK(d, diag[j], tol) {
-				return nil, pivotError(j, d, perm, a, tol)
-			}
-		}
-		return &denseFactor{l: t}, nil
+	if k, d := factorFront(data, n, n, diag, tol); k >= 0 {
+		return nil, pivotError(k, d, perm, a, tol)
 	}
-	// Potrf stopped at a non-positive pivot without telling where: redo
-	// the unblocked factorisation to find the row.
-	fillDense(a, perm, data)
-	k, d := cholUnblocked(data, n, n, diag, tol)
-	if k < 0 {
-		k, d = n-1, math.NaN()
-	}
-	return nil, pivotError(k, d, perm, a, tol)
+	return &denseFactor{l: blas64.Triangular{Uplo: blas.Lower, Diag: blas.NonUnit, N: n, Data: data, Stride: max(1, n)}}, nil
 }
 
 // fillDense writes the lower triangle of P A Pᵀ into data (row-major n×n).

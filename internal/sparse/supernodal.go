@@ -259,10 +259,78 @@ func (sf *superFactor) solveMany(x []float64, k int) {
 	}
 }
 
+// Auto selection thresholds, from the crossovers measured with
+// BenchmarkFactorSolve and BenchmarkSmall on the development machine (2
+// cores, AVX2): see factorizeAuto.
+const (
+	// DenseMaxN is the largest order for which Auto takes the dense
+	// method: below it the ordering and symbolic work of the sparse
+	// methods costs more than the few flops they save.
+	DenseMaxN = 40
+	// bandCheapWork is the band work n·k² under which Auto takes the band
+	// method without computing a minimum degree ordering at all (about
+	// 10 ms of factorisation).
+	bandCheapWork = 4e7
+	// bandWorkRatio: Auto takes the band method when its work n·k² is at
+	// most this multiple of the supernodal factor's Σ c_j² (c_j the
+	// length of column j of L). The two kernels ran at about the same rate
+	// per unit of that work in the benchmarks (grid-10k: band 6.0e8 units
+	// in 155 ms, supernodal 1.6e8 in 35 ms plus 16 ms of ordering), so the
+	// ratio is one.
+	bandWorkRatio = 1.0
+)
+
+// factorizeAuto chooses the method (and, where asked for Auto, the
+// ordering):
+//
+//  1. n <= DenseMaxN: Dense, natural order.
+//  2. Otherwise the RCM half-bandwidth k gives the band work n·k²; if it is
+//     below bandCheapWork: Band after RCM (narrow structures: bridges).
+//  3. Otherwise minimum degree and the symbolic factorisation give the
+//     supernodal work Σ c_j²; Band if n·k² <= bandWorkRatio·Σ c_j², else
+//     Supernodal (wide structures: roof grids).
+//
+// An explicit ordering other than AutoOrdering is used for every candidate.
 func factorizeAuto(a *Sym, ord Ordering, tol float64) (*Cholesky, error) {
-	m := Band
-	if a.n <= 200 {
-		m = Dense
+	n := a.n
+	if n <= DenseMaxN {
+		o := ord
+		if o == AutoOrdering {
+			o = Natural
+		}
+		t0 := time.Now()
+		perm := computeOrdering(a, o)
+		return factorizeWith(a, Dense, o, perm, time.Since(t0), tol)
 	}
-	return Factorize(a, Options{Method: m, Ordering: ord, PivotTol: tol})
+	t0 := time.Now()
+	bandOrd := ord
+	if bandOrd == AutoOrdering {
+		bandOrd = RCMOrdering
+	}
+	bandPerm := computeOrdering(a, bandOrd)
+	kd := halfBandwidth(a, bandPerm)
+	bandWork := float64(n) * float64(kd) * float64(kd)
+	if bandWork <= bandCheapWork {
+		return factorizeWith(a, Band, bandOrd, bandPerm, time.Since(t0), tol)
+	}
+	superOrd := ord
+	if superOrd == AutoOrdering {
+		superOrd = MinimumDegree
+	}
+	sy := analyze(a, computeOrdering(a, superOrd))
+	orderTime := time.Since(t0)
+	if bandWork <= bandWorkRatio*sy.flops {
+		return factorizeWith(a, Band, bandOrd, bandPerm, orderTime, tol)
+	}
+	c := &Cholesky{n: n, perm: sy.perm}
+	c.stats = Stats{Method: Supernodal, Ordering: superOrd, N: n, NNZA: a.NNZLower(), OrderTime: orderTime,
+		HalfBandwidth: kd, NNZL: sy.nnzL, Supernodes: len(sy.super) - 1, Flops: sy.flops}
+	t1 := time.Now()
+	f, err := numericSupernodal(a, sy, tol)
+	c.stats.FactorTime = time.Since(t1)
+	if err != nil {
+		return nil, err
+	}
+	c.f = f
+	return c, nil
 }
