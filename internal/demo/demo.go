@@ -67,6 +67,17 @@ type Demo struct {
 	wg        sync.WaitGroup
 	pubErr    error
 	faults    []simulate.Fault
+	mons      []*service.Monitored
+}
+
+// Structure returns a monitored example structure by name (nil if none).
+func (d *Demo) Structure(name string) *model.Structure {
+	for _, m := range d.mons {
+		if m.Structure.Name == name {
+			return m.Structure
+		}
+	}
+	return nil
 }
 
 // example reads one of the embedded example files.
@@ -168,6 +179,7 @@ func Start(ctx context.Context, opt Options) (*Demo, error) {
 		return nil, err
 	}
 	d.svc = svc
+	d.mons = mons
 	for i, mon := range mons {
 		sopt := simulate.DefaultOptions()
 		sopt.Seed = opt.Seed + uint64(i)

@@ -410,7 +410,11 @@ func (p *Processor) fill(res *Result, r *reconcile.Result, s *reconcile.Solver, 
 	cands := append([]reconcile.Candidate(nil), p.fixed...)
 	members := lm.m.Structure().Members
 	for k := range members {
-		cands = append(cands, reconcile.Candidate{Kind: reconcile.StiffnessChange, Label: "E A of " + members[k].ID, Signature: column(stiff, k)})
+		sig := column(stiff, k)
+		if !detectable(sig, p.sigma) {
+			continue
+		}
+		cands = append(cands, reconcile.Candidate{Kind: reconcile.StiffnessChange, Label: "E A of " + members[k].ID, Signature: sig})
 	}
 	causes, err := r.Causes(cands)
 	if err != nil {
@@ -422,6 +426,26 @@ func (p *Processor) fill(res *Result, r *reconcile.Result, s *reconcile.Solver, 
 		res.Causes = p.convert(causes)
 		res.Window = p.convert(p.window.Ranked())
 	}
+}
+
+// minStiffnessEffect is the least effect, in standard deviations of the
+// most affected gauge, that a total loss of a member's stiffness (s = -1)
+// must have for the member to be a candidate cause. Members carrying
+// (almost) no force at the current state, such as the zero-force members of
+// a truss, have signatures of rounding noise whose direction is arbitrary;
+// ranking them would report absurd sizes (common practice: a hypothesis
+// whose effect is far below the noise is not testable).
+const minStiffnessEffect = 1e-3
+
+// detectable reports whether a stiffness signature moves some gauge by at
+// least minStiffnessEffect standard deviations per unit relative change.
+func detectable(sig, sigma []float64) bool {
+	for g, v := range sig {
+		if math.Abs(v) >= minStiffnessEffect*sigma[g] {
+			return true
+		}
+	}
+	return false
 }
 
 // convert turns reconcile causes into Result causes, keeping the first
