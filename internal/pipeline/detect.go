@@ -1,0 +1,161 @@
+package pipeline
+
+import (
+	"fmt"
+	"io"
+	"math"
+	"sort"
+
+	"trussmonitor/internal/model"
+	"trussmonitor/internal/reconcile"
+	"trussmonitor/internal/sensors"
+)
+
+// MemberDetectability is what the gauge layout can check of one gauged
+// member when every gauge reports.
+type MemberDetectability struct {
+	Member     string
+	SigmaN     float64 // measurement standard deviation of the member force
+	Redundancy float64 // r_i
+	MDBN       float64 // minimal detectable bias (Baarda), newtons
+	Checkable  bool
+}
+
+// GaugeSuggestion is one ungauged member where an additional gauge pair
+// would raise the weakest member's redundancy.
+type GaugeSuggestion struct {
+	Member        string
+	WeakestBefore float64
+	WeakestAfter  float64
+}
+
+// DetectReport is the detectability report of a structure with its sensor
+// map (for `monitor check --sensors`).
+type DetectReport struct {
+	Structure string
+	Members   []MemberDetectability
+	Unknown   []string
+	DOF       int
+	Delta0    float64
+	// Weakest is the index in Members of the smallest redundancy.
+	Weakest int
+	// Suggestions are the best additional gauge locations, best first.
+	Suggestions []GaugeSuggestion
+}
+
+// Detectability computes the internal reliability of the gauge layout:
+// redundancy numbers r_i and minimal detectable biases MDB_i = sigma_i
+// delta0 / sqrt(r_i) of every gauged member (DESIGN.md, Reconciliation),
+// the members that cannot be checked, and, for the weakest member, the
+// ungauged members where one more gauge pair (with the layout's median
+// gauge noise) would raise its redundancy most.
+func Detectability(m *model.Model, sm *sensors.Map, opt reconcile.Options) (*DetectReport, error) {
+	lm, err := newLinearModel(m, sm)
+	if err != nil {
+		return nil, err
+	}
+	sigma, err := fullSetSigma(sm, lm.names)
+	if err != nil {
+		return nil, err
+	}
+	a := lm.hu
+	d, err := reconcile.Detect(a, sigma, opt)
+	if err != nil {
+		return nil, err
+	}
+	rep := &DetectReport{Structure: m.Structure().Name, Unknown: lm.unknown, DOF: d.DOF, Delta0: d.Delta0, Weakest: d.Weakest}
+	for i, n := range lm.names {
+		rep.Members = append(rep.Members, MemberDetectability{Member: n, SigmaN: sigma[i], Redundancy: d.Redundancy[i], MDBN: d.MDB[i], Checkable: d.Checkable[i]})
+	}
+	// Candidate gauges: every ungauged member, a pair of gauges with the
+	// median strain noise of the layout's gauges.
+	noise := medianStrainNoise(sm, m.Structure(), lm.names, sigma)
+	gauged := map[int]bool{}
+	for _, g := range lm.gauged {
+		gauged[g] = true
+	}
+	var options []reconcile.GaugeOption
+	members := m.Structure().Members
+	p := len(lm.unknown)
+	for k, mb := range members {
+		if gauged[k] || p == 0 {
+			continue
+		}
+		row := make([]float64, p)
+		for j := 0; j < p; j++ {
+			row[j] = lm.allU.At(k, j)
+		}
+		options = append(options, reconcile.GaugeOption{Label: mb.ID, Row: row, Sigma: mb.E * mb.A * noise / math.Sqrt2})
+	}
+	if len(options) > 0 {
+		pl, err := reconcile.SuggestGauge(a, sigma, options, opt)
+		if err != nil {
+			return nil, err
+		}
+		for i, s := range pl {
+			if i == 5 {
+				break
+			}
+			rep.Suggestions = append(rep.Suggestions, GaugeSuggestion{Member: s.Label, WeakestBefore: s.WeakestBefore, WeakestAfter: s.WeakestAfter})
+		}
+	}
+	return rep, nil
+}
+
+// medianStrainNoise is the median over gauged members of the single-gauge
+// strain noise implied by their force standard deviation.
+func medianStrainNoise(sm *sensors.Map, st *model.Structure, names []string, sigma []float64) float64 {
+	counts := map[string]int{}
+	for _, ch := range sm.Channels() {
+		if ch.Kind.IsGauge() {
+			counts[ch.Member]++
+		}
+	}
+	var v []float64
+	for i, n := range names {
+		k, ok := st.MemberIndex(n)
+		if !ok {
+			continue
+		}
+		mb := st.Members[k]
+		// sigma_N = E A sigma_eps / sqrt(n) for n equal gauges.
+		v = append(v, sigma[i]*math.Sqrt(float64(max(counts[n], 1)))/(mb.E*mb.A))
+	}
+	sort.Float64s(v)
+	if len(v) == 0 {
+		return 2e-6
+	}
+	return v[len(v)/2]
+}
+
+// Write prints the report as a readable table.
+func (r *DetectReport) Write(w io.Writer) {
+	fmt.Fprintf(w, "detectability (all gauges reporting; unknown loads estimated: %v; degrees of freedom %d; delta0 %.4f):\n", r.Unknown, r.DOF, r.Delta0)
+	fmt.Fprintf(w, "  %-10s %12s %11s %12s  %s\n", "member", "sigma [kN]", "redundancy", "MDB [kN]", "checkable")
+	var unchecked []string
+	for _, m := range r.Members {
+		check := "yes"
+		mdb := fmt.Sprintf("%12.2f", m.MDBN/1e3)
+		if !m.Checkable {
+			check = "no: redundancy near zero, never alarms"
+			mdb = fmt.Sprintf("%12s", "-")
+			unchecked = append(unchecked, m.Member)
+		}
+		fmt.Fprintf(w, "  %-10s %12.2f %11.3f %s  %s\n", m.Member, m.SigmaN/1e3, m.Redundancy, mdb, check)
+	}
+	if len(unchecked) == 0 {
+		fmt.Fprintln(w, "  every gauged member can be checked")
+	} else {
+		fmt.Fprintf(w, "  cannot be checked: %v\n", unchecked)
+	}
+	if len(r.Members) > 0 {
+		weak := r.Members[r.Weakest]
+		fmt.Fprintf(w, "  weakest member: %s (redundancy %.3f)\n", weak.Member, weak.Redundancy)
+	}
+	if len(r.Suggestions) > 0 {
+		fmt.Fprintln(w, "  one additional gauge pair that raises the weakest redundancy most:")
+		for _, s := range r.Suggestions {
+			fmt.Fprintf(w, "    on %-10s weakest redundancy %.3f -> %.3f\n", s.Member, s.WeakestBefore, s.WeakestAfter)
+		}
+	}
+}
