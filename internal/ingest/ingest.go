@@ -218,6 +218,8 @@ type Ingester struct {
 	limit *reasonLog
 
 	client paho.Client
+	connMu sync.Mutex // serialises the overflow reconnect with the final disconnect
+	closed bool
 
 	qmu      sync.RWMutex // guards stopping and the send on queue
 	stopping bool
@@ -383,7 +385,7 @@ func (in *Ingester) onMessage(_ paho.Client, m paho.Message) {
 func (in *Ingester) Run(ctx context.Context) error {
 	in.queue = make(chan received, in.cfg.QueueSize)
 	decoded := make(chan decodedMsg, in.cfg.BatchSize)
-	acks := make(chan []paho.Message, 64)
+	acks := make(chan ackItem, 64)
 	in.client = paho.NewClient(in.clientOptions())
 	in.client.Connect() // retries in the background (SetConnectRetry)
 
@@ -406,7 +408,10 @@ func (in *Ingester) Run(ctx context.Context) error {
 	in.qmu.Unlock()
 	wg.Wait()
 	close(pollDone)
+	in.connMu.Lock()
+	in.closed = true
 	in.client.Disconnect(1000)
+	in.connMu.Unlock()
 	return commitErr
 }
 
@@ -437,7 +442,7 @@ func (in *Ingester) decodeLoop(q <-chan received, out chan<- decodedMsg) {
 }
 
 // commitLoop commits batches and passes the messages on for acknowledgement.
-func (in *Ingester) commitLoop(in2 <-chan decodedMsg, acks chan<- []paho.Message) error {
+func (in *Ingester) commitLoop(in2 <-chan decodedMsg, acks chan<- ackItem) error {
 	defer close(acks)
 	batch := make([]decodedMsg, 0, in.cfg.BatchSize)
 	for {
@@ -466,18 +471,25 @@ func (in *Ingester) commitLoop(in2 <-chan decodedMsg, acks chan<- []paho.Message
 		}
 		if in.overflow.Load() && len(in.queue) == 0 && len(in2) == 0 {
 			in.overflow.Store(false)
-			go in.reconnect()
+			// After the acknowledgements queued so far are sent.
+			acks <- ackItem{reconnect: true}
 		}
 	}
+}
+
+// ackItem is a group of committed messages to acknowledge in order, or a
+// request to reconnect once the acknowledgements before it are sent.
+type ackItem struct {
+	msgs      []paho.Message
+	reconnect bool
 }
 
 // reconnect makes the broker redeliver messages that were left
 // unacknowledged when the queue overflowed.
 func (in *Ingester) reconnect() {
-	in.qmu.RLock()
-	stopping := in.stopping
-	in.qmu.RUnlock()
-	if stopping {
+	in.connMu.Lock()
+	defer in.connMu.Unlock()
+	if in.closed {
 		return
 	}
 	in.log.Warn("reconnecting to have the broker redeliver messages left unacknowledged on queue overflow")
@@ -485,17 +497,20 @@ func (in *Ingester) reconnect() {
 	in.client.Connect()
 }
 
-func (in *Ingester) ackLoop(acks <-chan []paho.Message) {
-	for ms := range acks {
-		for _, m := range ms {
+func (in *Ingester) ackLoop(acks <-chan ackItem) {
+	for it := range acks {
+		for _, m := range it.msgs {
 			m.Ack()
+		}
+		if it.reconnect {
+			in.reconnect()
 		}
 	}
 }
 
 // commitBatch writes one batch, retrying while the store fails, then
 // queues the acknowledgements and runs the callbacks.
-func (in *Ingester) commitBatch(batch []decodedMsg, acks chan<- []paho.Message) error {
+func (in *Ingester) commitBatch(batch []decodedMsg, acks chan<- ackItem) error {
 	var b store.Batch
 	for _, m := range batch {
 		if len(m.readings) > 0 {
@@ -531,7 +546,7 @@ func (in *Ingester) commitBatch(batch []decodedMsg, acks chan<- []paho.Message) 
 	for i, m := range batch {
 		ms[i] = m.raw
 	}
-	acks <- ms
+	acks <- ackItem{msgs: ms}
 
 	// Counting and callbacks after the commit.
 	var stored, dups int64

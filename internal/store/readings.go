@@ -448,15 +448,18 @@ func (s *Store) ReadReadings(ctx context.Context, structure string, from, to tim
 	}
 	var buf []row
 	cur := lo
+	seek := true // find the next stored time before the first chunk and after an empty one
 	for cur < hi {
-		next, ok, err := s.nextTime(ctx, ids, cur, hi)
-		if err != nil {
-			return fmt.Errorf("store: reading %q: %w", structure, err)
+		if seek {
+			next, ok, err := s.nextTime(ctx, ids, cur, hi)
+			if err != nil {
+				return fmt.Errorf("store: reading %q: %w", structure, err)
+			}
+			if !ok {
+				return nil
+			}
+			cur = next
 		}
-		if !ok {
-			return nil
-		}
-		cur = next
 		end := hi
 		if hi-cur > chunk {
 			end = cur + chunk
@@ -492,6 +495,7 @@ func (s *Store) ReadReadings(ctx context.Context, structure string, from, to tim
 				return err
 			}
 		}
+		seek = len(buf) == 0
 		switch {
 		case len(buf) > highRows && chunk > 1:
 			chunk /= 2
