@@ -10,6 +10,9 @@ import (
 	"strings"
 
 	"trussmonitor/internal/model"
+	"trussmonitor/internal/pipeline"
+	"trussmonitor/internal/reconcile"
+	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/structfile"
 )
 
@@ -21,8 +24,9 @@ import (
 func runCheck(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	fs := flag.NewFlagSet("check", flag.ContinueOnError)
 	fs.SetOutput(stderr)
+	sensorsPath := fs.String("sensors", "", "sensor map of the structure: adds the detectability of every gauged member (redundancy, MDB, best additional gauge)")
 	fs.Usage = func() {
-		fmt.Fprintln(stderr, "usage: monitor check STRUCTURE.yaml")
+		fmt.Fprintln(stderr, "usage: monitor check STRUCTURE.yaml [--sensors SENSORS.yaml]")
 		fmt.Fprintln(stderr, "Validates a structure file and prints stability, determinacy, equilibrium and extreme member forces per load case.")
 		fs.PrintDefaults()
 	}
@@ -46,6 +50,19 @@ func runCheck(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 	if err != nil {
 		fmt.Fprintf(stderr, "monitor check: %v\n", err)
 		return 1
+	}
+	if *sensorsPath != "" && rep.Model != nil {
+		sm, err := sensors.LoadFile(*sensorsPath, s)
+		if err != nil {
+			fmt.Fprintf(stderr, "monitor check: %v\n", err)
+			return 1
+		}
+		det, err := pipeline.Detectability(rep.Model, sm, reconcile.Options{})
+		if err != nil {
+			fmt.Fprintf(stderr, "monitor check: %s: %v\n", *sensorsPath, err)
+			return 1
+		}
+		rep.Extra = append(rep.Extra, func(w io.Writer) { fmt.Fprintln(w); det.Write(w) })
 	}
 	rep.Write(stdout)
 	if rep.Mechanism != nil {
@@ -158,14 +175,7 @@ func checkStructure(s *model.Structure) (*checkReport, error) {
 			continue
 		}
 		cs.Equilibrium = r.Equilibrium
-		for e, n := range r.Forces {
-			if n > cs.MaxTension || cs.MaxTensionMember == "" {
-				cs.MaxTension, cs.MaxTensionMember = n, s.Members[e].ID
-			}
-			if n < cs.MaxCompression || cs.MaxCompressionMember == "" {
-				cs.MaxCompression, cs.MaxCompressionMember = n, s.Members[e].ID
-			}
-		}
+		cs.MaxTension, cs.MaxTensionMember, cs.MaxCompression, cs.MaxCompressionMember = extremes(s, r.Forces)
 		rep.Cases = append(rep.Cases, cs)
 		if !runJoints {
 			continue
@@ -186,6 +196,25 @@ func checkStructure(s *model.Structure) (*checkReport, error) {
 		rep.Joints = append(rep.Joints, jc)
 	}
 	return rep, nil
+}
+
+// extremes returns the largest tension and compression and their members.
+// Of members equal to rounding (symmetric trusses) the first in file order
+// is named, so the output does not depend on the solver's rounding.
+func extremes(s *model.Structure, forces []float64) (maxT float64, idT string, maxC float64, idC string) {
+	for _, n := range forces {
+		maxT, maxC = math.Max(maxT, n), math.Min(maxC, n)
+	}
+	tol := 1e-9 * math.Max(maxT, -maxC)
+	for e, n := range forces {
+		if idT == "" && n >= maxT-tol {
+			idT = s.Members[e].ID
+		}
+		if idC == "" && n <= maxC+tol {
+			idC = s.Members[e].ID
+		}
+	}
+	return maxT, idT, maxC, idC
 }
 
 // equilibriumLimit is the relative imbalance above which a solution is
