@@ -1,0 +1,30 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"strings"
+	"testing"
+)
+
+// TestCheckWithSensors: monitor check --sensors adds the detectability
+// section: one row per gauged member of the footbridge's sensor map, the
+// weakest member and the suggested additional gauges.
+func TestCheckWithSensors(t *testing.T) {
+	var out, errb bytes.Buffer
+	code := dispatch(context.Background(), []string{"check", "../../testdata/footbridge/structure.yaml", "--sensors", "../../testdata/footbridge/sensors.yaml"}, &out, &errb)
+	if code != 0 {
+		t.Fatalf("exit %d: %s", code, errb.String())
+	}
+	s := out.String()
+	for _, want := range []string{"detectability", "B4 ", "C5 ", "weakest member:", "additional gauge pair", "not a safety verdict"} {
+		if !strings.Contains(s, want) {
+			t.Errorf("output lacks %q", want)
+		}
+	}
+	// A sensor map that names a missing member is an error naming the file.
+	code = dispatch(context.Background(), []string{"check", "../../testdata/reference/two-bar.yaml", "--sensors", "../../testdata/footbridge/sensors.yaml"}, &out, &errb)
+	if code == 0 || !strings.Contains(errb.String(), "sensors.yaml") {
+		t.Errorf("mismatched sensor map: exit %d, stderr %q", code, errb.String())
+	}
+}
