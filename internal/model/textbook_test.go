@@ -302,6 +302,33 @@ func TestClosedForms(t *testing.T) {
 		checkNear(t, "joints N", j.Forces[0], p, 1e-12, 0)
 	})
 
+	t.Run("inclined roller with a spring", func(t *testing.T) {
+		// As above, plus a spring k in global x at B. B moves along the
+		// tangent by s, u = s (-1, 1)/sqrt2; the bar stretches by u_x and the
+		// spring by u_x. Minimum potential energy,
+		// (k_b + k) u_x^2 / 2 - P u_x with u_y = -u_x, gives
+		// u_x = P / (k_b + k), N = k_b u_x, spring force -k u_x.
+		const p, L, k = 50e3, 4.0, 30e6
+		tr := newTruss("inclined-roller-spring", 2)
+		a := tr.node("A", 0, 0)
+		bn := tr.node("B", L, 0)
+		tr.member("AB", a, bn, enE, 1e-3, enAlpha)
+		tr.fix(a, 0, 1)
+		n := [3]float64{1, 1, 0}
+		tr.s.Supports = append(tr.s.Supports, Support{Node: bn, Normal: &n, Spring: [3]float64{k, 0, 0}})
+		tr.load("P", bn, 0, -p)
+		r := solve(t, analyze(t, tr.s), Factor{"P", 1})
+		ux := p / (ea/L + k)
+		checkNear(t, "u_x", r.Displacements[bn][0], ux, 1e-12, 0)
+		checkNear(t, "u_y", r.Displacements[bn][1], -ux, 1e-12, 0)
+		checkNear(t, "N", r.Forces[0], ea/L*ux, 1e-12, 0)
+		// Reaction at B = roller reaction R n + spring force (-k u_x, 0);
+		// equilibrium of B: N (-1, 0) + R n - (k u_x, 0) + (0, -P) = 0.
+		R := p * math.Sqrt2
+		checkNear(t, "R_x", r.Reactions[1].Force[0], R/math.Sqrt2-k*ux, 1e-12, 1)
+		checkNear(t, "R_y", r.Reactions[1].Force[1], R/math.Sqrt2, 1e-12, 0)
+	})
+
 	t.Run("spring support", func(t *testing.T) {
 		// Bar AB along x, A pinned, B on a spring k in x (fixed in y); force
 		// P along x at B. The bar and the spring act in parallel at B, so
