@@ -1,0 +1,152 @@
+#!/usr/bin/python3
+"""Side-by-side timing of scipy's sparse solvers against trussmonitor's Go solver.
+
+Run by the Go test TestCompareWithScipy in internal/sparse (see README.md
+beside this file). The Go test writes, into one directory, every benchmark
+matrix as a MatrixMarket file (lower triangle, symmetric), its right-hand
+side and the Go solution as plain text, and a results.json with the Go
+timings. This script factors and solves the same systems with
+
+  * scipy.sparse.linalg.splu (SuperLU, default column ordering COLAMD), and
+  * scipy.linalg.cholesky_banded (LAPACK dpbtrf) after
+    scipy.sparse.csgraph.reverse_cuthill_mckee,
+
+checks that all solutions agree, and prints a Markdown table with ratios.
+Set OPENBLAS_NUM_THREADS=1 before starting it (the Go test does) so the
+BLAS runs on one thread.
+"""
+import argparse
+import json
+import os
+import sys
+import time
+
+import numpy as np
+import scipy
+import scipy.io
+import scipy.linalg
+import scipy.sparse
+import scipy.sparse.linalg
+from scipy.sparse.csgraph import reverse_cuthill_mckee
+
+
+def blas_description():
+    try:
+        from threadpoolctl import threadpool_info
+    except ImportError:
+        return "BLAS: unknown (python3-threadpoolctl not installed)"
+    parts = []
+    for info in threadpool_info():
+        if info.get("user_api") == "blas":
+            parts.append("%s %s, kernel %s, %s thread(s)" % (
+                info.get("internal_api"), info.get("version"),
+                info.get("architecture"), info.get("num_threads")))
+    return "BLAS: " + ("; ".join(parts) if parts else "none found")
+
+
+def best_of(repeat, fn):
+    """Run fn() repeat times; return the result of the fastest run and its time."""
+    best = None
+    for _ in range(repeat):
+        t0 = time.perf_counter()
+        out = fn()
+        dt = time.perf_counter() - t0
+        if best is None or dt < best[1]:
+            best = (out, dt)
+    return best
+
+
+def run_splu(A, b, repeat):
+    Acsc = A.tocsc()
+    lu, t_factor = best_of(repeat, lambda: scipy.sparse.linalg.splu(Acsc))
+    x, t_solve = best_of(repeat, lambda: lu.solve(b))
+    return {"factor_s": t_factor, "solve_s": t_solve, "x": x,
+            "nnz_lu": int(lu.L.nnz + lu.U.nnz)}
+
+
+def band_lower(Ap):
+    """LAPACK lower band storage ab[i-j, j] = A[i, j] of a permuted matrix."""
+    low = scipy.sparse.tril(Ap).tocoo()
+    k = int((low.row - low.col).max()) if low.nnz else 0
+    ab = np.zeros((k + 1, Ap.shape[0]))
+    ab[low.row - low.col, low.col] = low.data
+    return ab, k
+
+
+def run_banded(A, b, repeat):
+    Acsr = A.tocsr()
+    perm, t_rcm = best_of(repeat, lambda: reverse_cuthill_mckee(Acsr, symmetric_mode=True))
+    (ab, k), t_build = best_of(1, lambda: band_lower(Acsr[perm][:, perm]))
+    cb, t_factor = best_of(repeat, lambda: scipy.linalg.cholesky_banded(ab, lower=True, check_finite=False))
+    y, t_solve = best_of(repeat, lambda: scipy.linalg.cho_solve_banded((cb, True), b[perm], check_finite=False))
+    x = np.empty_like(y)
+    x[perm] = y
+    return {"order_s": t_rcm + t_build, "factor_s": t_factor, "solve_s": t_solve,
+            "x": x, "halfband": k}
+
+
+def reldiff(x, ref):
+    return float(np.linalg.norm(x - ref) / np.linalg.norm(ref))
+
+
+def main():
+    ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
+    ap.add_argument("results", help="results.json written by the Go test")
+    ap.add_argument("--repeat", type=int, default=2, help="runs per timing, the fastest is kept")
+    ap.add_argument("--check", type=float, default=1e-9,
+                    help="fail (exit 1) when a solution differs from the Go one by more than this, relative")
+    ap.add_argument("--no-banded", action="store_true", help="skip the banded LAPACK solver")
+    args = ap.parse_args()
+    with open(args.results) as f:
+        cases = json.load(f)
+    base = os.path.dirname(os.path.abspath(args.results))
+    print("scipy %s, numpy %s, python %s" % (scipy.__version__, np.__version__, sys.version.split()[0]))
+    print(blas_description() + "; OPENBLAS_NUM_THREADS=%s" % os.environ.get("OPENBLAS_NUM_THREADS", "unset"))
+    print()
+    print("| matrix | DOF | Go method | Go order s | Go factor s | Go total s | Go solve ms "
+          "| splu factor s | splu solve ms | banded RCM+build s | banded factor s | banded total s | banded solve ms "
+          "| Go/splu | Go/banded | Go/best scipy |")
+    print("|---|---|---|---|---|---|---|---|---|---|---|---|---|---|---|---|")
+    worst = 0.0
+    failed = False
+    for c in cases:
+        A = scipy.io.mmread(os.path.join(base, c["matrix"]))
+        b = np.loadtxt(os.path.join(base, c["rhs"]))
+        xgo = np.loadtxt(os.path.join(base, c["solution"]))
+        r_go = np.linalg.norm(A @ xgo - b) / np.linalg.norm(b)
+        lu = run_splu(A, b, args.repeat)
+        diffs = [reldiff(xgo, lu["x"])]
+        band = None
+        if not args.no_banded:
+            band = run_banded(A, b, args.repeat)
+            diffs.append(reldiff(xgo, band["x"]))
+        worst = max([worst] + diffs)
+        if max(diffs) > args.check or r_go > args.check:
+            failed = True
+            print("MISMATCH %s: relative difference %s, Go residual %.3g" % (c["name"], diffs, r_go), file=sys.stderr)
+        go_total = c["order_s"] + c["factor_s"]
+        best = lu["factor_s"]
+        row = [c["name"], str(c["dof"]), "%s/%s" % (c["method"], c["ordering"]),
+               "%.3f" % c["order_s"], "%.3f" % c["factor_s"], "%.3f" % go_total, "%.1f" % (1e3 * c["solve_s"]),
+               "%.3f" % lu["factor_s"], "%.1f" % (1e3 * lu["solve_s"])]
+        if band:
+            band_total = band["order_s"] + band["factor_s"]
+            best = min(best, band_total)
+            row += ["%.3f" % band["order_s"], "%.3f" % band["factor_s"], "%.3f" % band_total,
+                    "%.1f" % (1e3 * band["solve_s"])]
+        else:
+            row += ["-"] * 4
+        row += ["%.2f" % (go_total / lu["factor_s"]),
+                "%.2f" % (go_total / band_total) if band else "-",
+                "%.2f" % (go_total / best)]
+        print("| " + " | ".join(row) + " |")
+        sys.stdout.flush()
+    print()
+    print("Totals include the ordering (Go: ordering and symbolic analysis; banded: RCM and band storage; "
+          "splu orders inside its factor time). Ratios below 1 mean the Go solver was faster.")
+    print("Largest relative difference between the Go and scipy solutions: %.2g" % worst)
+    return 1 if failed else 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
