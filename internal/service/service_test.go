@@ -1,0 +1,143 @@
+package service
+
+import (
+	"context"
+	"encoding/json"
+	"io"
+	"log/slog"
+	"net/http"
+	"strings"
+	"testing"
+	"time"
+
+	"trussmonitor/internal/config"
+	"trussmonitor/internal/simulate"
+	"trussmonitor/internal/simulate/publish"
+)
+
+// TestServiceEndToEnd runs the service on the embedded broker with the
+// footbridge, publishes ten simulated minutes of readings through MQTT
+// (QoS 1), and checks that every reading is stored once, epochs are
+// reconciled and exported as metrics, the dashboard API answers, and the
+// service shuts down cleanly when its context ends.
+func TestServiceEndToEnd(t *testing.T) {
+	dir := t.TempDir()
+	cfg := config.Defaults()
+	cfg.File = "(test)"
+	cfg.Database = dir + "/monitor.db"
+	cfg.HTTP.Listen = "127.0.0.1:0"
+	cfg.Broker.Embedded = true
+	cfg.Broker.Listen = "127.0.0.1:0"
+	cfg.Broker.ClientID = "service-test"
+	cfg.Structures = []config.Structure{{Structure: "../../testdata/footbridge/structure.yaml", Sensors: "../../testdata/footbridge/sensors.yaml"}}
+	if err := cfg.Validate(); err != nil {
+		t.Fatal(err)
+	}
+	mon, err := LoadStructure(cfg.Structures[0].Structure, cfg.Structures[0].Sensors)
+	if err != nil {
+		t.Fatal(err)
+	}
+	log := slog.New(slog.NewTextHandler(io.Discard, nil))
+	svc, err := New(&cfg, Options{Logger: log})
+	if err != nil {
+		t.Fatal(err)
+	}
+	ctx, cancel := context.WithCancel(context.Background())
+	defer cancel()
+	if err := svc.Start(ctx); err != nil {
+		t.Fatal(err)
+	}
+	done := make(chan error, 1)
+	go func() { done <- svc.Run(ctx) }()
+
+	sopt := simulate.DefaultOptions()
+	sopt.Seed = 3
+	sopt.Start = time.Now().UTC().Add(-20 * time.Minute).Truncate(time.Second)
+	sopt.Duration = 10 * time.Minute
+	sopt.Rate = time.Second
+	sopt.BadRate = 0
+	gen, err := simulate.New(mon.Structure, mon.Sensors, sopt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	stats, err := publish.Run(ctx, gen.All(), publish.Options{Broker: "tcp://" + svc.BrokerAddr(), Structure: mon.Structure.Name, ClientID: "service-test-logger"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := int64(stats.Readings)
+	var stored int64
+	deadline := time.Now().Add(30 * time.Second)
+	for time.Now().Before(deadline) {
+		stored, err = svc.Store().CountReadings(ctx, mon.Structure.Name, sopt.Start, sopt.Start.Add(sopt.Duration))
+		if err != nil {
+			t.Fatal(err)
+		}
+		if stored >= want {
+			break
+		}
+		time.Sleep(100 * time.Millisecond)
+	}
+	if stored != want {
+		t.Fatalf("stored %d readings, published %d", stored, want)
+	}
+	base := "http://" + svc.HTTPAddr()
+	get := func(path string) string {
+		t.Helper()
+		resp, err := http.Get(base + path)
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer resp.Body.Close()
+		b, _ := io.ReadAll(resp.Body)
+		if resp.StatusCode != http.StatusOK {
+			t.Fatalf("GET %s: %s: %s", path, resp.Status, b)
+		}
+		return string(b)
+	}
+	var st struct {
+		Epoch  time.Time `json:"epoch"`
+		Gauged []struct {
+			ID string `json:"id"`
+		} `json:"gauged"`
+	}
+	// The last epochs close on the idle flush (one window plus the
+	// maximum lateness after the last reading).
+	for time.Now().Before(deadline) {
+		if err := json.Unmarshal([]byte(get("/api/structures/alder-creek/state")), &st); err != nil {
+			t.Fatal(err)
+		}
+		if !st.Epoch.Before(sopt.Start.Add(sopt.Duration - time.Second)) {
+			break
+		}
+		time.Sleep(200 * time.Millisecond)
+	}
+	if st.Epoch.Before(sopt.Start.Add(sopt.Duration - time.Second)) {
+		t.Errorf("latest epoch %s, want the last simulated second %s", st.Epoch, sopt.Start.Add(sopt.Duration-time.Second))
+	}
+	if len(st.Gauged) != 18 {
+		t.Errorf("%d gauged members in the state, want 18", len(st.Gauged))
+	}
+	m := get("/metrics")
+	for _, w := range []string{`shm_epochs_total{outcome="accepted",structure="alder-creek"}`, `shm_member_w_statistic{member="B4",structure="alder-creek"}`, `shm_ingest_readings_total`} {
+		if !strings.Contains(m, w) {
+			t.Errorf("/metrics lacks %s", w)
+		}
+	}
+	if s := get("/readyz"); !strings.Contains(s, "ready") {
+		t.Errorf("/readyz: %q", s)
+	}
+	ps := svc.Pipeline("alder-creek").Stats()
+	if ps.Epochs != 600 {
+		t.Errorf("%d epochs for 600 simulated seconds (by outcome %v)", ps.Epochs, ps.ByOutcome)
+	}
+	t.Logf("published %d readings in %d messages; stored %d; epochs %v", stats.Readings, stats.Messages, stored, ps.ByOutcome)
+	cancel()
+	select {
+	case err := <-done:
+		if err != nil {
+			t.Errorf("shutdown: %v", err)
+		}
+	case <-time.After(30 * time.Second):
+		t.Fatal("service did not shut down within 30 s")
+	}
+}
