@@ -104,10 +104,11 @@ type NodeMotion struct {
 
 // Error describes the mechanism and what to do.
 func (e *MechanismError) Error() string {
-	msg := fmt.Sprintf("structure %q is a mechanism: %d independent free motion(s)", e.Structure, len(e.Motions))
+	count := fmt.Sprint(len(e.Motions))
 	if e.Partial {
-		msg += " at least"
+		count = "at least " + count
 	}
+	msg := fmt.Sprintf("structure %q is a mechanism: %s independent free motion(s)", e.Structure, count)
 	for i, fm := range e.Motions {
 		if i == 3 {
 			msg += fmt.Sprintf("; and %d more", len(e.Motions)-3)

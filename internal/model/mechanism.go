@@ -29,7 +29,8 @@ func (m *Model) mechanism(pivot int) error {
 	e := &MechanismError{Structure: m.s.Name}
 	if nf <= denseNullLimit {
 		e.Motions = m.denseNullSpace()
-	} else {
+	}
+	if len(e.Motions) == 0 {
 		e.Motions, e.Partial = m.pivotMotions(pivot)
 	}
 	m.det.finish(len(e.Motions), e.Partial)
@@ -40,7 +41,8 @@ func (m *Model) mechanism(pivot int) error {
 // denseNullSpace returns a basis of the null space of K_ff from its
 // symmetric eigen decomposition: eigenvectors whose eigenvalue is below
 // nullRatio times the largest; if none is (a near-singular but not singular
-// matrix), the weakest eigenvector.
+// matrix), the weakest eigenvector. It returns nil if the decomposition
+// fails.
 func (m *Model) denseNullSpace() []FreeMotion {
 	nf := len(m.lo.free)
 	k := mat.NewSymDense(nf, nil)
@@ -52,7 +54,7 @@ func (m *Model) denseNullSpace() []FreeMotion {
 	})
 	var eig mat.EigenSym
 	if !eig.Factorize(k, true) {
-		return []FreeMotion{{Nodes: nil, PivotDOF: "eigen decomposition did not converge"}}
+		return nil // the caller falls back to the sparse path
 	}
 	vals := eig.Values(nil)
 	var vecs mat.Dense
