@@ -152,17 +152,16 @@ func pivotOK(d, diag, tol float64) bool {
 	return d > tol*diag && d > 0 && !math.IsInf(d, 0)
 }
 
-// Factorize computes the Cholesky factor of a. With Method Auto it chooses:
+// Factorize computes the Cholesky factor P A Pᵀ = L Lᵀ of a. With Method
+// Auto the method is chosen as described at DenseMaxN and factorizeAuto:
+// Dense for n <= DenseMaxN; Band after RCM when the band work n·k² is
+// small or no larger than the supernodal work Σ c_j² after minimum degree;
+// Supernodal otherwise. With Ordering AutoOrdering each method takes its
+// own ordering (Dense: natural, Band: RCM, Supernodal: minimum degree).
 //
-//   - Dense when n <= DenseMaxN;
-//   - otherwise Band after RCM when the estimated band work n·k² (k the RCM
-//     half-bandwidth) is at most BandWorkFactor times the supernodal
-//     factorisation's flop count after minimum degree ordering, else
-//     Supernodal.
-//
-// The constants come from the crossovers measured by the package's
-// benchmarks on the development machine (see the README of the package's
-// benchmarks in DEVELOPERS.md).
+// A pivot d_j <= PivotTol·A_jj (see DefaultPivotTol) stops the
+// factorisation with a *NotPositiveDefiniteError naming the row in a's
+// numbering.
 func Factorize(a *Sym, opt Options) (*Cholesky, error) {
 	if a == nil {
 		return nil, errors.New("sparse: Factorize of a nil matrix")

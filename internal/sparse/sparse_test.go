@@ -113,10 +113,10 @@ func TestSolveMatchesGonumDense(t *testing.T) {
 					got := make([]float64, n)
 					f.Solve(got, b)
 					// Both solutions carry a backward-stable error of about
-					// cond·ε (Higham, 2nd ed., theorem 10.4); the truss
-					// matrices have cond up to ~1e5, so 1e-10 is the bound
-					// asked for, loosened only if cond demands it.
-					tol := math.Max(1e-10, cond*1e-15)
+					// cond·ε (Higham, 2nd ed., theorem 10.4); cond reaches
+					// 7e7 for the 90-panel bridge, yet the two factorisations
+					// agree far closer, and 1e-10 is the bound asked for.
+					const tol = 1e-10
 					if e := relErr(got, want.RawVector().Data); e > tol {
 						t.Errorf("relative difference from gonum %.3g > %.1g (cond %.3g)", e, tol, cond)
 					}
