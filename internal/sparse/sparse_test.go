@@ -471,3 +471,47 @@ func FuzzFactorize(f *testing.F) {
 		}
 	})
 }
+
+// TestNearMechanismPivotTolerance adds a transverse spring at B of the
+// mechanism truss. A spring of 1e-12 of the member stiffness leaves a
+// pivot below DefaultPivotTol of its diagonal and is reported as a
+// mechanism; one of 1e-6 is a (soft) structure and solves.
+func TestNearMechanismPivotTolerance(t *testing.T) {
+	mt := mechanismTruss()
+	base, _ := mt.stiffness()
+	kMember := 210e9 * 1e-3 / 2 // EA/L of one member (L = 2 m)
+	c, s := math.Cos(math.Pi/6), math.Sin(math.Pi/6)
+	withSpring := func(rel float64) *Sym {
+		// Spring along the normal (-s, c) of the line: k n nᵀ.
+		k := rel * kMember
+		b := NewBuilder(2)
+		for i := 0; i < 2; i++ {
+			for j := 0; j <= i; j++ {
+				b.Add(i, j, base.At(i, j))
+			}
+		}
+		n := [2]float64{-s, c}
+		b.Add(0, 0, k*n[0]*n[0])
+		b.Add(1, 1, k*n[1]*n[1])
+		b.Add(1, 0, k*n[0]*n[1])
+		return b.Matrix()
+	}
+	for _, m := range allMethods {
+		_, err := Factorize(withSpring(1e-12), Options{Method: m, Ordering: Natural})
+		var npd *NotPositiveDefiniteError
+		if !errors.As(err, &npd) || npd.Index != 1 {
+			t.Errorf("%v: spring 1e-12: err = %v, want a mechanism at row 1", m, err)
+		}
+		f, err := Factorize(withSpring(1e-6), Options{Method: m, Ordering: Natural})
+		if err != nil {
+			t.Fatalf("%v: spring 1e-6: %v", m, err)
+		}
+		// Unit force along the normal moves B by 1/k along it.
+		u := make([]float64, 2)
+		f.Solve(u, []float64{-s, c})
+		want := 1 / (1e-6 * kMember)
+		if got := -s*u[0] + c*u[1]; math.Abs(got-want) > 1e-6*want {
+			t.Errorf("%v: normal displacement %g, want %g", m, got, want)
+		}
+	}
+}

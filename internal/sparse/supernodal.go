@@ -98,7 +98,7 @@ func numericSupernodal(a *Sym, sy *symbolic, tol float64) (factor, error) {
 		}
 		if u > 0 && sy.sparen[s] >= 0 {
 			base := len(stack)
-			stack = slices_grow(stack, u*u)
+			stack = growFloats(stack, u*u)
 			U := stack[base:]
 			for r := 0; r < u; r++ {
 				copy(U[r*u:r*u+r+1], F[(nc+r)*m+nc:(nc+r)*m+nc+r+1])
@@ -109,8 +109,8 @@ func numericSupernodal(a *Sym, sy *symbolic, tol float64) (factor, error) {
 	return &superFactor{sy: sy, lVal: lVal}, nil
 }
 
-// slices_grow extends s by k elements.
-func slices_grow(s []float64, k int) []float64 {
+// growFloats extends s by k elements.
+func growFloats(s []float64, k int) []float64 {
 	if cap(s)-len(s) < k {
 		ns := make([]float64, len(s), 2*(len(s)+k))
 		copy(ns, s)
