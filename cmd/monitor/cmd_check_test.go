@@ -16,19 +16,19 @@ import (
 
 var updateModelGolden = flag.Bool("update-model-golden", false, "rewrite the check/solve golden files in cmd/monitor/testdata")
 
-// sciFigure matches the printed equilibrium figures (rounding noise that
+// goldenSciFigure matches the printed equilibrium figures (rounding noise that
 // depends on the factorisation's ordering), masked in golden comparisons.
-var sciFigure = regexp.MustCompile(`[0-9]\.[0-9]+e[-+][0-9]+`)
+var goldenSciFigure = regexp.MustCompile(`[0-9]\.[0-9]+e[-+][0-9]+`)
 
-// imbalanceJoint matches the joint named with the largest imbalance, which
+// goldenImbalanceJoint matches the joint named with the largest imbalance, which
 // is also rounding noise.
-var imbalanceJoint = regexp.MustCompile(` N at [^,]+,`)
+var goldenImbalanceJoint = regexp.MustCompile(` N at [^,]+,`)
 
-func golden(t *testing.T, name string, got []byte) {
+func checkGolden(t *testing.T, name string, got []byte) {
 	t.Helper()
 	path := filepath.Join("testdata", name)
-	masked := sciFigure.ReplaceAll(got, []byte("#e#"))
-	masked = imbalanceJoint.ReplaceAll(masked, []byte(" N at #,"))
+	masked := goldenSciFigure.ReplaceAll(got, []byte("#e#"))
+	masked = goldenImbalanceJoint.ReplaceAll(masked, []byte(" N at #,"))
 	if *updateModelGolden {
 		if err := os.WriteFile(path, masked, 0o644); err != nil {
 			t.Fatal(err)
@@ -43,23 +43,23 @@ func golden(t *testing.T, name string, got []byte) {
 	}
 }
 
-type cmdFunc func(context.Context, []string, io.Writer, io.Writer) int
+type modelCmdFunc func(context.Context, []string, io.Writer, io.Writer) int
 
-func runCmd(t *testing.T, f cmdFunc, args ...string) (int, string, string) {
+func runModelCmd(t *testing.T, f modelCmdFunc, args ...string) (int, string, string) {
 	t.Helper()
 	var out, errb bytes.Buffer
 	code := f(context.Background(), args, &out, &errb)
 	return code, out.String(), errb.String()
 }
 
-const footbridge = "../../testdata/footbridge/structure.yaml"
+const footbridgeFile = "../../testdata/footbridge/structure.yaml"
 
 func TestCheckFootbridgeGolden(t *testing.T) {
-	code, out, errs := runCmd(t, runCheck, footbridge)
+	code, out, errs := runModelCmd(t, runCheck, footbridgeFile)
 	if code != 0 {
 		t.Fatalf("exit %d: %s", code, errs)
 	}
-	golden(t, "check_footbridge.golden", []byte(out))
+	checkGolden(t, "check_footbridge.golden", []byte(out))
 	for _, want := range []string{"by counting  m + r - 2 j = 35 + 4 - 2 x 18 = 3", "by rank      3", "stable", ": ok"} {
 		if !strings.Contains(out, want) {
 			t.Errorf("summary lacks %q", want)
@@ -78,7 +78,7 @@ func TestCheckReferenceFiles(t *testing.T) {
 		{"logan-3-5.yaml", []string{"not applicable: statically indeterminate (degree 1)"}},
 	} {
 		t.Run(c.file, func(t *testing.T) {
-			code, out, errs := runCmd(t, runCheck, filepath.Join("../../testdata/reference", c.file))
+			code, out, errs := runModelCmd(t, runCheck, filepath.Join("../../testdata/reference", c.file))
 			if code != 0 {
 				t.Fatalf("exit %d: %s", code, errs)
 			}
@@ -118,21 +118,21 @@ supports:
 `), 0o644); err != nil {
 		t.Fatal(err)
 	}
-	code, out, errs := runCmd(t, runCheck, mech)
+	code, out, errs := runModelCmd(t, runCheck, mech)
 	if code != 1 || !strings.Contains(out, "UNSTABLE") || !strings.Contains(out, "free motion 1") || !strings.Contains(errs, "mechanism") {
 		t.Errorf("mechanism: exit %d\n%s\n%s", code, out, errs)
 	}
-	code, _, errs = runCmd(t, runCheck, filepath.Join(dir, "does-not-exist.yaml"))
+	code, _, errs = runModelCmd(t, runCheck, filepath.Join(dir, "does-not-exist.yaml"))
 	if code != 1 || errs == "" {
 		t.Errorf("missing file: exit %d, %q", code, errs)
 	}
-	if code, _, _ = runCmd(t, runCheck); code != 2 {
+	if code, _, _ = runModelCmd(t, runCheck); code != 2 {
 		t.Errorf("no file: exit %d, want 2", code)
 	}
 	// Every invalid example file is rejected with a message naming it.
 	files, _ := filepath.Glob("../../testdata/invalid/*.yaml")
 	for _, f := range files {
-		code, _, errs := runCmd(t, runCheck, f)
+		code, _, errs := runModelCmd(t, runCheck, f)
 		if code != 1 || !strings.Contains(errs, filepath.Base(f)) {
 			t.Errorf("%s: exit %d, stderr %q", f, code, errs)
 		}
@@ -140,13 +140,13 @@ supports:
 }
 
 func TestSolveFootbridge(t *testing.T) {
-	code, out, errs := runCmd(t, runSolve, footbridge, "--case", "service")
+	code, out, errs := runModelCmd(t, runSolve, footbridgeFile, "--case", "service")
 	if code != 0 {
 		t.Fatalf("exit %d: %s", code, errs)
 	}
-	golden(t, "solve_footbridge_service.golden", []byte(out))
+	checkGolden(t, "solve_footbridge_service.golden", []byte(out))
 
-	code, out, errs = runCmd(t, runSolve, "--json", "--case", "service", footbridge)
+	code, out, errs = runModelCmd(t, runSolve, "--json", "--case", "service", footbridgeFile)
 	if code != 0 {
 		t.Fatalf("exit %d: %s", code, errs)
 	}
@@ -192,10 +192,10 @@ func TestSolveFootbridge(t *testing.T) {
 			t.Errorf("B5: %+v", m)
 		}
 	}
-	if code, _, errs := runCmd(t, runSolve, footbridge, "--case", "nope"); code != 1 || !strings.Contains(errs, "unknown load case") {
+	if code, _, errs := runModelCmd(t, runSolve, footbridgeFile, "--case", "nope"); code != 1 || !strings.Contains(errs, "unknown load case") {
 		t.Errorf("unknown case: exit %d %q", code, errs)
 	}
-	if code, _, errs := runCmd(t, runSolve, footbridge); code != 2 || !strings.Contains(errs, "--case") {
+	if code, _, errs := runModelCmd(t, runSolve, footbridgeFile); code != 2 || !strings.Contains(errs, "--case") {
 		t.Errorf("no case: exit %d %q", code, errs)
 	}
 }
