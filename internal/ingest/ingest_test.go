@@ -87,24 +87,44 @@ func TestEndToEnd(t *testing.T) {
 			defer cleanSession(addr, id)
 			obs := newCountingObserver()
 			var cbMu sync.Mutex
-			cbCount := 0
+			cbCount, cbCalls := 0, 0
 			_, stop := startIngest(t, Config{Broker: "tcp://" + addr, ClientID: id, BatchSize: 500}, Deps{
 				Store: st, Registries: alderRegistry(), Observer: obs,
 				OnCommitted: func(s string, rs []store.Reading) {
 					cbMu.Lock()
 					cbCount += len(rs)
+					cbCalls++
 					cbMu.Unlock()
 				},
 			})
 			time.Sleep(300 * time.Millisecond) // let it subscribe
 			pub := newPublisher(t, addr, id+"-pub")
 			const n, packs = 3000, 200
+			// Closed loop: at most 500 messages published and not yet
+			// stored. The machine's Mosquitto runs with its default limits
+			// (20 in flight, 1000 queued per client), which drop QoS 1
+			// messages once a busy subscriber falls 1000 behind; the
+			// production config in deploy/mosquitto raises them.
+			throttle := func(sent int) {
+				deadline := time.Now().Add(60 * time.Second)
+				for {
+					cbMu.Lock()
+					behind := sent - cbCalls
+					cbMu.Unlock()
+					if behind < 500 || time.Now().After(deadline) {
+						return
+					}
+					time.Sleep(time.Millisecond)
+				}
+			}
 			for i := range n {
+				throttle(i)
 				if err := pub.publish("shm/alder-creek/g00", singlePayload(i)); err != nil {
 					t.Fatal(err)
 				}
 			}
 			for i := range packs {
+				throttle(n + i)
 				// Packs at other times than the single readings.
 				if err := pub.publish("shm/alder-creek", packPayload(n+i, 10)); err != nil {
 					t.Fatal(err)
