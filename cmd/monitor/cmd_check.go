@@ -175,7 +175,7 @@ func checkStructure(s *model.Structure) (*checkReport, error) {
 			continue
 		}
 		cs.Equilibrium = r.Equilibrium
-		cs.MaxTension, cs.MaxTensionMember, cs.MaxCompression, cs.MaxCompressionMember = extremes(s, r.Forces)
+		cs.MaxTension, cs.MaxTensionMember, cs.MaxCompression, cs.MaxCompressionMember = memberForceExtremes(s, r.Forces)
 		rep.Cases = append(rep.Cases, cs)
 		if !runJoints {
 			continue
@@ -198,10 +198,10 @@ func checkStructure(s *model.Structure) (*checkReport, error) {
 	return rep, nil
 }
 
-// extremes returns the largest tension and compression and their members.
+// memberForceExtremes returns the largest tension and compression and their members.
 // Of members equal to rounding (symmetric trusses) the first in file order
 // is named, so the output does not depend on the solver's rounding.
-func extremes(s *model.Structure, forces []float64) (maxT float64, idT string, maxC float64, idC string) {
+func memberForceExtremes(s *model.Structure, forces []float64) (maxT float64, idT string, maxC float64, idC string) {
 	for _, n := range forces {
 		maxT, maxC = math.Max(maxT, n), math.Min(maxC, n)
 	}
@@ -291,7 +291,7 @@ func (r *checkReport) Write(w io.Writer) {
 			continue
 		}
 		fmt.Fprintf(w, "  %-*s max tension %s in %s, max compression %s in %s, imbalance %.1e\n",
-			width, c.Name, kN(c.MaxTension), c.MaxTensionMember, kN(c.MaxCompression), c.MaxCompressionMember, c.Equilibrium.Relative)
+			width, c.Name, formatKN(c.MaxTension), c.MaxTensionMember, formatKN(c.MaxCompression), c.MaxCompressionMember, c.Equilibrium.Relative)
 	}
 	fmt.Fprintln(w)
 
@@ -353,8 +353,8 @@ func supportSummary(s *model.Structure) string {
 	return strings.Join(parts, "; ")
 }
 
-// kN formats a force in newtons as kilonewtons (rounding noise shows as 0).
-func kN(n float64) string {
+// formatKN formats a force in newtons as kilonewtons (rounding noise shows as 0).
+func formatKN(n float64) string {
 	if math.Abs(n) < 0.5 {
 		n = 0
 	}

@@ -44,7 +44,7 @@ func runSolve(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 	name := *caseName
 	if name == "" {
 		if len(s.Cases) != 1 {
-			fmt.Fprintf(stderr, "monitor solve: %s has %d load cases; choose one with --case (%s)\n", pos[0], len(s.Cases), caseNames(s))
+			fmt.Fprintf(stderr, "monitor solve: %s has %d load cases; choose one with --case (%s)\n", pos[0], len(s.Cases), structureCaseNames(s))
 			return 2
 		}
 		name = s.Cases[0].Name
@@ -72,7 +72,7 @@ func runSolve(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 	return 0
 }
 
-func caseNames(s *model.Structure) string {
+func structureCaseNames(s *model.Structure) string {
 	out := ""
 	for i, c := range s.Cases {
 		if i > 0 {
