@@ -89,12 +89,26 @@ def reldiff(x, ref):
     return float(np.linalg.norm(x - ref) / np.linalg.norm(ref))
 
 
+def backward_error(A, x, b):
+    """Normwise backward error ||Ax-b|| / (||A|| ||x|| + ||b||), infinity norms
+    (Rigal and Gaches 1967; Higham, Accuracy and Stability of Numerical
+    Algorithms, 2nd ed., theorem 7.1). A backward-stable Cholesky gives a few
+    units of 1e-16 however ill-conditioned A is; the solutions themselves may
+    then differ by up to cond(A) times that."""
+    r = A @ x - b
+    normA = abs(A).sum(axis=1).max()
+    return float(np.abs(r).max() / (normA * np.abs(x).max() + np.abs(b).max()))
+
+
 def main():
     ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     ap.add_argument("results", help="results.json written by the Go test")
     ap.add_argument("--repeat", type=int, default=2, help="runs per timing, the fastest is kept")
-    ap.add_argument("--check", type=float, default=1e-9,
-                    help="fail (exit 1) when a solution differs from the Go one by more than this, relative")
+    ap.add_argument("--max-backward", type=float, default=1e-12,
+                    help="fail (exit 1) when the backward error of the Go solution exceeds this")
+    ap.add_argument("--max-diff", type=float, default=float("inf"),
+                    help="fail (exit 1) when a scipy solution differs from the Go one by more than this, relative "
+                         "(use only for well-conditioned systems)")
     ap.add_argument("--no-banded", action="store_true", help="skip the banded LAPACK solver")
     args = ap.parse_args()
     with open(args.results) as f:
@@ -105,15 +119,15 @@ def main():
     print()
     print("| matrix | DOF | Go method | Go order s | Go factor s | Go total s | Go solve ms "
           "| splu factor s | splu solve ms | banded RCM+build s | banded factor s | banded total s | banded solve ms "
-          "| Go/splu | Go/banded | Go/best scipy |")
-    print("|---|---|---|---|---|---|---|---|---|---|---|---|---|---|---|---|")
+          "| Go/splu | Go/banded | Go/best scipy | Go backward error | max rel. diff |")
+    print("|---|---|---|---|---|---|---|---|---|---|---|---|---|---|---|---|---|---|")
     worst = 0.0
     failed = False
     for c in cases:
         A = scipy.io.mmread(os.path.join(base, c["matrix"]))
         b = np.loadtxt(os.path.join(base, c["rhs"]))
         xgo = np.loadtxt(os.path.join(base, c["solution"]))
-        r_go = np.linalg.norm(A @ xgo - b) / np.linalg.norm(b)
+        eta_go = backward_error(A, xgo, b)
         lu = run_splu(A, b, args.repeat)
         diffs = [reldiff(xgo, lu["x"])]
         band = None
@@ -121,9 +135,10 @@ def main():
             band = run_banded(A, b, args.repeat)
             diffs.append(reldiff(xgo, band["x"]))
         worst = max([worst] + diffs)
-        if max(diffs) > args.check or r_go > args.check:
+        if max(diffs) > args.max_diff or not eta_go <= args.max_backward:
             failed = True
-            print("MISMATCH %s: relative difference %s, Go residual %.3g" % (c["name"], diffs, r_go), file=sys.stderr)
+            print("MISMATCH %s: relative differences from scipy %s, Go backward error %.3g" % (c["name"], diffs, eta_go),
+                  file=sys.stderr)
         go_total = c["order_s"] + c["factor_s"]
         best = lu["factor_s"]
         row = [c["name"], str(c["dof"]), "%s/%s" % (c["method"], c["ordering"]),
@@ -138,13 +153,14 @@ def main():
             row += ["-"] * 4
         row += ["%.2f" % (go_total / lu["factor_s"]),
                 "%.2f" % (go_total / band_total) if band else "-",
-                "%.2f" % (go_total / best)]
+                "%.2f" % (go_total / best), "%.1e" % eta_go, "%.1e" % max(diffs)]
         print("| " + " | ".join(row) + " |")
         sys.stdout.flush()
     print()
     print("Totals include the ordering (Go: ordering and symbolic analysis; banded: RCM and band storage; "
           "splu orders inside its factor time). Ratios below 1 mean the Go solver was faster.")
-    print("Largest relative difference between the Go and scipy solutions: %.2g" % worst)
+    print("Largest relative difference between the Go and scipy solutions: %.2g "
+          "(bounded by about cond(A) times the backward error; the long bridges are very ill-conditioned)" % worst)
     return 1 if failed else 0
 
 
