@@ -90,12 +90,6 @@ func runReplay(ctx context.Context, args []string, stdout, stderr io.Writer) int
 		fs.Usage()
 		return 2
 	}
-	if _, err := os.Stat(*dbPath); err != nil {
-		// store.Open would create an empty file; a replay only reads.
-		fmt.Fprintf(stderr, "monitor replay: reading store: %v; give the --db file the service or \"monitor import\" wrote\n", err)
-		return 1
-	}
-
 	opt := replay.Options{
 		DB: *dbPath, From: from, To: to, SensorsFile: *sensorPath, StructureFile: *structPath,
 		ModelFile: *modelPath, OutDir: *outDir, Window: *window, MaxLateness: *lateness,

@@ -155,6 +155,11 @@ func Run(ctx context.Context, opt Options) (*Summary, error) {
 	if err != nil {
 		return nil, fmt.Errorf("sensor map: %w", err)
 	}
+	// store.Open creates a missing file; a replay only reads, so a
+	// missing file is an error here.
+	if _, err := os.Stat(opt.DB); err != nil {
+		return nil, fmt.Errorf("reading store: %w; give the store file the service or \"monitor import\" wrote", err)
+	}
 	db, err := store.Open(opt.DB, store.Options{})
 	if err != nil {
 		return nil, err

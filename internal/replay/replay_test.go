@@ -484,6 +484,7 @@ func TestOptionErrors(t *testing.T) {
 		{"no period", replay.Options{DB: "x.db", SensorsFile: sensorsFile}, "period"},
 		{"reversed", replay.Options{DB: "x.db", From: dayEnd, To: dayStart, SensorsFile: sensorsFile}, "before or when it starts"},
 		{"negative window", replay.Options{DB: "x.db", From: dayStart, To: dayEnd, SensorsFile: sensorsFile, Window: -time.Second}, "negative"},
+		{"missing store", replay.Options{DB: "none.db", From: dayStart, To: dayEnd, SensorsFile: sensorsFile}, "none.db"},
 		{"missing sensor file", replay.Options{DB: "x.db", From: dayStart, To: dayEnd, SensorsFile: "nope.yaml"}, "nope.yaml"},
 	}
 	for _, c := range cases {
@@ -501,4 +502,34 @@ func abs(x float64) float64 {
 		return -x
 	}
 	return x
+}
+
+// cancelAfter is a sink that cancels the replay's context after n epochs.
+type cancelAfter struct {
+	n      int
+	cancel context.CancelFunc
+}
+
+func (c *cancelAfter) Epoch(*pipeline.Result) {
+	if c.n--; c.n == 0 {
+		c.cancel()
+	}
+}
+
+// TestInterrupted cancels a replay part-way: it stops with an error that
+// says how far it got and wraps context.Canceled, and writes no report.
+func TestInterrupted(t *testing.T) {
+	path := importDay(t, true)
+	ctx, cancel := context.WithCancel(context.Background())
+	defer cancel()
+	out := filepath.Join(t.TempDir(), "report")
+	_, err := replay.Run(ctx, replay.Options{DB: path, From: dayStart, To: dayEnd, SensorsFile: sensorsFile, OutDir: out,
+		Window: time.Minute, Batch: 460, Sinks: []pipeline.Sink{&cancelAfter{n: 100, cancel: cancel}}})
+	if !errors.Is(err, context.Canceled) || !strings.Contains(err.Error(), "interrupted after") {
+		t.Fatalf("error %v; want an interruption wrapping context.Canceled", err)
+	}
+	t.Log(err)
+	if _, err := os.Stat(out); !os.IsNotExist(err) {
+		t.Errorf("report folder written after an interruption: %v", err)
+	}
 }
