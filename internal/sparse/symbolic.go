@@ -21,15 +21,16 @@ type symbolic struct {
 // etree returns the elimination tree of the permuted matrix (Liu, "The
 // role of elimination trees in sparse factorization", SIAM J. Matrix Anal.
 // Appl. 11(1), 1990, algorithm with path compression): parent[k], -1 for a
-// root. rows(k, fn) must call fn for every column j < k of row k of P A Pᵀ.
-func etree(n int, rows func(k int, fn func(j int))) []int {
+// root. Row k of the strict lower triangle of P A Pᵀ is
+// lri[lrp[k]:lrp[k+1]].
+func etree(n int, lrp []int, lri []int32) []int {
 	parent := make([]int, n)
 	anc := make([]int, n)
 	for k := 0; k < n; k++ {
 		parent[k] = -1
 		anc[k] = -1
-		rows(k, func(j int) {
-			for i := j; i != -1 && i < k; {
+		for _, j := range lri[lrp[k]:lrp[k+1]] {
+			for i := int(j); i != -1 && i < k; {
 				next := anc[i]
 				anc[i] = k
 				if next == -1 {
@@ -37,9 +38,26 @@ func etree(n int, rows func(k int, fn func(j int))) []int {
 				}
 				i = next
 			}
-		})
+		}
 	}
 	return parent
+}
+
+// lowerRows returns the strict lower triangle of P A Pᵀ by rows.
+func lowerRows(a *Sym, perm, ip []int) ([]int, []int32) {
+	n := a.n
+	lrp := make([]int, n+1)
+	lri := make([]int32, 0, (a.p[n]-n)/2+1)
+	for k := 0; k < n; k++ {
+		o := perm[k]
+		for _, c := range a.i[a.p[o]:a.p[o+1]] {
+			if j := ip[c]; j < k {
+				lri = append(lri, int32(j))
+			}
+		}
+		lrp[k+1] = len(lri)
+	}
+	return lrp, lri
 }
 
 // postorder returns a depth-first postorder of the forest parent.
@@ -90,17 +108,8 @@ func analyze(a *Sym, perm []int) *symbolic {
 		}
 	}
 	ip := inversePerm(perm)
-	rowsOf := func(perm, ip []int) func(k int, fn func(j int)) {
-		return func(k int, fn func(j int)) {
-			o := perm[k]
-			for _, c := range a.i[a.p[o]:a.p[o+1]] {
-				if j := ip[c]; j < k {
-					fn(j)
-				}
-			}
-		}
-	}
-	parent := etree(n, rowsOf(perm, ip))
+	lrp, lri := lowerRows(a, perm, ip)
+	parent := etree(n, lrp, lri)
 	post := postorder(parent)
 	p2 := make([]int, n)
 	for k, j := range post {
@@ -108,8 +117,8 @@ func analyze(a *Sym, perm []int) *symbolic {
 	}
 	perm = p2
 	ip = inversePerm(perm)
-	rows := rowsOf(perm, ip)
-	parent = etree(n, rows)
+	lrp, lri = lowerRows(a, perm, ip)
+	parent = etree(n, lrp, lri)
 
 	// Column counts of L by row subtrees (Davis 2006, section 4.3): row k
 	// of L is the set of nodes on the tree paths from every j in row k of
@@ -122,12 +131,12 @@ func analyze(a *Sym, perm []int) *symbolic {
 	for k := 0; k < n; k++ {
 		mark[k] = k
 		cc[k]++
-		rows(k, func(j int) {
-			for i := j; mark[i] != k; i = parent[i] {
+		for _, j := range lri[lrp[k]:lrp[k+1]] {
+			for i := int(j); mark[i] != k; i = parent[i] {
 				mark[i] = k
 				cc[i]++
 			}
-		})
+		}
 	}
 	// Fundamental supernodes: j continues the supernode of j-1 when j is
 	// the only child of ... more precisely when parent(j-1) = j, j has one
