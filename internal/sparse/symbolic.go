@@ -47,7 +47,7 @@ func etree(n int, lrp []int, lri []int32) []int {
 func lowerRows(a *Sym, perm, ip []int) ([]int, []int32) {
 	n := a.n
 	lrp := make([]int, n+1)
-	lri := make([]int32, 0, (a.p[n]-n)/2+1)
+	lri := make([]int32, 0, max(0, a.p[n]-n)/2+1)
 	for k := 0; k < n; k++ {
 		o := perm[k]
 		for _, c := range a.i[a.p[o]:a.p[o+1]] {
