@@ -32,6 +32,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"reflect"
 	"strings"
 	"testing"
 	"time"
@@ -44,23 +45,23 @@ import (
 	"trussmonitor/internal/structfile"
 )
 
-// fixture is an example structure with its sensor map.
-type fixture struct {
+// scnFixture is an example structure with its sensor map.
+type scnFixture struct {
 	name string
 	st   *model.Structure
 	m    *model.Model
 	sm   *sensors.Map
 }
 
-// loadFixture reads testdata/<name>/structure.yaml and sensors.yaml.
-func loadFixture(tb testing.TB, name string) *fixture {
+// loadScnFixture reads testdata/<name>/structure.yaml and sensors.yaml.
+func loadScnFixture(tb testing.TB, name string) *scnFixture {
 	tb.Helper()
-	return loadFixtureWith(tb, name, nil)
+	return loadScnFixtureWith(tb, name, nil)
 }
 
-// loadFixtureWith is loadFixture with the sensor map's text passed through
+// loadScnFixtureWith is loadScnFixture with the sensor map's text passed through
 // edit (nil: unchanged) and read from a temporary copy.
-func loadFixtureWith(tb testing.TB, name string, edit func(string) string) *fixture {
+func loadScnFixtureWith(tb testing.TB, name string, edit func(string) string) *scnFixture {
 	tb.Helper()
 	dir := "../../testdata/" + name + "/"
 	st, err := structfile.LoadFile(dir + "structure.yaml")
@@ -86,7 +87,7 @@ func loadFixtureWith(tb testing.TB, name string, edit func(string) string) *fixt
 	if err != nil {
 		tb.Fatal(err)
 	}
-	return &fixture{name: name, st: st, m: m, sm: sm}
+	return &scnFixture{name: name, st: st, m: m, sm: sm}
 }
 
 // exactInputs sets the noise figure of the roof's load and temperature
@@ -106,7 +107,7 @@ func exactInputs(tb testing.TB) func(string) string {
 	}
 }
 
-func (f *fixture) processor(tb testing.TB, opt ProcessorOptions) *Processor {
+func (f *scnFixture) processor(tb testing.TB, opt ProcessorOptions) *Processor {
 	tb.Helper()
 	p, err := NewProcessor(f.m, f.sm, opt)
 	if err != nil {
@@ -115,10 +116,11 @@ func (f *fixture) processor(tb testing.TB, opt ProcessorOptions) *Processor {
 	return p
 }
 
-// scenario returns simulator options: the default day with the given seed,
+// scnOptions returns simulator options: the default day with the given seed,
 // length and rate, no bad messages (they only remove readings; test 6
 // removes channels deliberately).
-func scenario(seed uint64, d, rate time.Duration, faults ...string) simulate.Options {
+func scnOptions(tb testing.TB, seed uint64, d, rate time.Duration, faults ...string) simulate.Options {
+	tb.Helper()
 	opt := simulate.DefaultOptions()
 	opt.Seed = seed
 	opt.Duration = d
@@ -127,7 +129,7 @@ func scenario(seed uint64, d, rate time.Duration, faults ...string) simulate.Opt
 	for _, s := range faults {
 		ft, err := simulate.ParseFault(s)
 		if err != nil {
-			panic(err) // test programming error
+			tb.Fatal(err)
 		}
 		opt.Faults = append(opt.Faults, ft)
 	}
@@ -137,7 +139,7 @@ func scenario(seed uint64, d, rate time.Duration, faults ...string) simulate.Opt
 // run simulates opt and calls fn with every step, the converted channel
 // values (Convert's engineering values, keyed by channel) and the
 // generator. fn may modify values before it evaluates them.
-func (f *fixture) run(tb testing.TB, opt simulate.Options, fn func(g *simulate.Generator, s simulate.Step, values map[string]float64)) {
+func (f *scnFixture) run(tb testing.TB, opt simulate.Options, fn func(g *simulate.Generator, s simulate.Step, values map[string]float64)) {
 	tb.Helper()
 	g, err := simulate.New(f.st, f.sm, opt)
 	if err != nil {
@@ -161,7 +163,7 @@ func (f *fixture) run(tb testing.TB, opt simulate.Options, fn func(g *simulate.G
 }
 
 // gaugeChannels returns the gauge channels of a member.
-func (f *fixture) gaugeChannels(member string) []string {
+func (f *scnFixture) gaugeChannels(member string) []string {
 	var out []string
 	for _, ch := range f.sm.Channels() {
 		if ch.Kind.IsGauge() && ch.Member == member {
@@ -183,7 +185,7 @@ func binomialQuantile(n int, p, q float64) int {
 	return n
 }
 
-func memberIndex(p *Processor, name string) int {
+func scnMemberIndex(p *Processor, name string) int {
 	for i, n := range p.Gauged() {
 		if n == name {
 			return i
@@ -192,11 +194,11 @@ func memberIndex(p *Processor, name string) int {
 	return -1
 }
 
-func fitted(r *Result) bool {
+func scnFitted(r *Result) bool {
 	return r.Outcome == OutcomeAccepted || r.Outcome == OutcomeRejected
 }
 
-func topCauses(cs []Cause, n int) string {
+func scnTop(cs []Cause, n int) string {
 	s := ""
 	for i, c := range cs {
 		if i == n {
@@ -234,13 +236,13 @@ func TestScenarioCleanMonth(t *testing.T) {
 			if tc.defect != "" {
 				t.Skip(tc.defect)
 			}
-			f := loadFixture(t, tc.structure)
+			f := loadScnFixture(t, tc.structure)
 			if tc.exact {
-				f = loadFixtureWith(t, tc.structure, exactInputs(t))
+				f = loadScnFixtureWith(t, tc.structure, exactInputs(t))
 			}
 			p := f.processor(t, ProcessorOptions{})
 			k := p.Critical()
-			opt := scenario(tc.seed, 30*24*time.Hour, 10*time.Minute)
+			opt := scnOptions(t, tc.seed, 30*24*time.Hour, 10*time.Minute)
 			names := p.Gauged()
 			exceed := make([]int, len(names))
 			checked := make([]int, len(names))
@@ -252,7 +254,7 @@ func TestScenarioCleanMonth(t *testing.T) {
 			}
 			f.run(t, opt, func(g *simulate.Generator, s simulate.Step, values map[string]float64) {
 				res := p.Process(s.Time, f.sm.Evaluate(values), nil)
-				if !fitted(res) {
+				if !scnFitted(res) {
 					t.Fatalf("%s: %s: outcome %s (%s) on complete clean data", tc.structure, s.Time, res.Outcome, res.Reason)
 				}
 				n++
@@ -319,7 +321,7 @@ func TestScenarioCleanMonth(t *testing.T) {
 				t.Errorf("%s: %s estimate is biased: mean z %.3f over %d epochs (bound %.3f)", tc.structure, tc.unknown, mean, n, 4/math.Sqrt(float64(n)))
 			}
 			if d := 4*math.Sqrt(2/float64(n)) + 0.1; math.Abs(ms-1) > d {
-				t.Errorf("%s: %s estimate scatter: mean square z %.3f, want 1 +- %.3f (its std %.3g is wrong)", tc.structure, tc.unknown, ms, d, 0.0)
+				t.Errorf("%s: %s estimate scatter: mean square z %.3f, want 1 +- %.3f (the reported standard deviation does not match the error)", tc.structure, tc.unknown, ms, d)
 			}
 			if zMax > 5 || zTail > binomialQuantile(n, 0.001, 0.9999) {
 				t.Errorf("%s: %s estimate: max |z| %.2f, %d epochs beyond %.2f", tc.structure, tc.unknown, zMax, zTail, k)
@@ -368,10 +370,10 @@ func TestScenarioGaugeBias(t *testing.T) {
 	for _, tc := range cases {
 		t.Run(tc.structure+"/"+tc.member, func(t *testing.T) {
 			t.Parallel()
-			f := loadFixture(t, tc.structure)
+			f := loadScnFixture(t, tc.structure)
 			p := f.processor(t, ProcessorOptions{})
 			probe := f.processor(t, ProcessorOptions{})
-			gi := memberIndex(p, tc.member)
+			gi := scnMemberIndex(p, tc.member)
 			e, a, _, ok := f.st.MemberProperties(tc.member)
 			if gi < 0 || !ok {
 				t.Fatalf("%s: %s is not a gauged member", tc.structure, tc.member)
@@ -382,7 +384,7 @@ func TestScenarioGaugeBias(t *testing.T) {
 			var bias, delta float64
 			var n, flagged, largest, ranked, windowChecks int
 			var lastWindow []Cause
-			f.run(t, scenario(tc.seed, 24*time.Hour, 10*time.Minute), func(g *simulate.Generator, s simulate.Step, values map[string]float64) {
+			f.run(t, scnOptions(t, tc.seed, 24*time.Hour, 10*time.Minute), func(g *simulate.Generator, s simulate.Step, values map[string]float64) {
 				if bias == 0 {
 					// MDB_i depends only on which gauges report: take it
 					// from a clean epoch with all of them.
@@ -399,7 +401,7 @@ func TestScenarioGaugeBias(t *testing.T) {
 					values[c] += bias / (e * a)
 				}
 				res := p.Process(s.Time, f.sm.Evaluate(values), nil)
-				if !fitted(res) {
+				if !scnFitted(res) {
 					t.Fatalf("%s: outcome %s: %s", s.Time, res.Outcome, res.Reason)
 				}
 				n++
@@ -421,7 +423,7 @@ func TestScenarioGaugeBias(t *testing.T) {
 					if firstIsGauge(res.Window, tc.member, tc.paired) {
 						ranked++
 					} else if ranked == windowChecks-1 {
-						t.Logf("%s: window ranking%s", s.Time.Format(time.TimeOnly), topCauses(res.Window, 4))
+						t.Logf("%s: window ranking%s", s.Time.Format(time.TimeOnly), scnTop(res.Window, 4))
 					}
 					lastWindow = res.Window
 				}
@@ -429,7 +431,7 @@ func TestScenarioGaugeBias(t *testing.T) {
 			power := distuv.UnitNormal.CDF(delta-k) + distuv.UnitNormal.CDF(-delta-k)
 			lo := binomialQuantile(n, power, 1e-4)
 			t.Logf("%s %s (paired %v): |w| > %.2f in %d of %d epochs (power %.7f, 0.0001 bound %d); largest |w| in %d; window ranks the gauge first in %d of %d rejected full-window epochs; last window:%s",
-				tc.structure, tc.member, tc.paired, k, flagged, n, power, lo, largest, ranked, windowChecks, topCauses(lastWindow, 3))
+				tc.structure, tc.member, tc.paired, k, flagged, n, power, lo, largest, ranked, windowChecks, scnTop(lastWindow, 3))
 			if flagged < lo {
 				t.Errorf("%s %s: bias of 2 MDB flagged in %d of %d epochs; fewer than the 0.0001 quantile %d of Binomial(n, %.7f)", tc.structure, tc.member, flagged, n, lo, power)
 			}
@@ -538,31 +540,31 @@ func TestScenarioStiffnessLoss(t *testing.T) {
 	faultAt := 12 // epoch index of 2 h at 10-minute epochs
 	t.Run("D2", func(t *testing.T) {
 		t.Parallel()
-		f := loadFixture(t, "footbridge")
+		f := loadScnFixture(t, "footbridge")
 		p := f.processor(t, ProcessorOptions{})
 		gamma := ownShare(t, f.st, "D2")
 		want := 100 * linearisedLoss(loss, gamma)
 		window := 60
 		var n, rejectedAfter, checks, named int
 		var last []Cause
-		f.run(t, scenario(31, 24*time.Hour, 10*time.Minute, "stiffness:D2:2h:0.3"), func(g *simulate.Generator, s simulate.Step, values map[string]float64) {
+		f.run(t, scnOptions(t, 31, 24*time.Hour, 10*time.Minute, "stiffness:D2:2h:0.3"), func(g *simulate.Generator, s simulate.Step, values map[string]float64) {
 			res := p.Process(s.Time, f.sm.Evaluate(values), nil)
 			if n >= faultAt && res.Rejected {
 				rejectedAfter++
 			}
 			if n >= faultAt+window-1 && res.Rejected {
 				checks++
-				if len(res.Window) > 1 && setOf(res.Window[0].Label, res.Window[1].Label) == setOf("E A of D2", "gauge D2") {
+				if len(res.Window) > 1 && scnSetOf(res.Window[0].Label, res.Window[1].Label) == scnSetOf("E A of D2", "gauge D2") {
 					named++
 				} else if checks-1 == named {
-					t.Logf("%s: window%s", s.Time.Format(time.TimeOnly), topCauses(res.Window, 4))
+					t.Logf("%s: window%s", s.Time.Format(time.TimeOnly), scnTop(res.Window, 4))
 				}
 				last = res.Window
 			}
 			n++
 		})
 		after := n - faultAt
-		t.Logf("D2: gamma = %.4f, expected linearised size %.2f %%; rejected %d of %d faulted epochs; window names D2 first two in %d of %d; last window:%s", gamma, want, rejectedAfter, after, named, checks, topCauses(last, 4))
+		t.Logf("D2: gamma = %.4f, expected linearised size %.2f %%; rejected %d of %d faulted epochs; window names D2 first two in %d of %d; last window:%s", gamma, want, rejectedAfter, after, named, checks, scnTop(last, 4))
 		// Per epoch the non-centrality is about T_window / 60 = 450: a miss
 		// of the global test has probability far below 1e-50.
 		if rejectedAfter != after {
@@ -592,7 +594,7 @@ func TestScenarioStiffnessLoss(t *testing.T) {
 	})
 	t.Run("D4-window-only", func(t *testing.T) {
 		t.Parallel()
-		f := loadFixture(t, "footbridge")
+		f := loadScnFixture(t, "footbridge")
 		p := f.processor(t, ProcessorOptions{})
 		gamma := ownShare(t, f.st, "D4")
 		sl := linearisedLoss(loss, gamma)
@@ -613,7 +615,7 @@ func TestScenarioStiffnessLoss(t *testing.T) {
 		sigma := p.Sigma()
 		var n, rejected int
 		var lambdas []float64
-		f.run(t, scenario(32, 24*time.Hour, 10*time.Minute, "stiffness:D4:2h:0.3"), func(g *simulate.Generator, s simulate.Step, values map[string]float64) {
+		f.run(t, scnOptions(t, 32, 24*time.Hour, 10*time.Minute, "stiffness:D4:2h:0.3"), func(g *simulate.Generator, s simulate.Step, values map[string]float64) {
 			res := p.Process(s.Time, f.sm.Evaluate(values), nil)
 			if res.Rejected {
 				rejected++
@@ -655,7 +657,7 @@ func TestScenarioStiffnessLoss(t *testing.T) {
 		// window is read directly here (same package) to show what it holds.
 		win := p.convert(p.window.Ranked())
 		t.Logf("D4: gamma = %.4f, linearised size %.1f %%; non-centrality per epoch at most %.2f, over the last 60 epochs %.1f; global test rejected %d of %d epochs (false-alarm bound %d); processor's window:%s",
-			gamma, 100*sl, maxEpoch, lastWindow, rejected, n, bound, topCauses(win, 4))
+			gamma, 100*sl, maxEpoch, lastWindow, rejected, n, bound, scnTop(win, 4))
 		// Per epoch the fault is invisible: lambda <= 4 gives the global
 		// chi-square(17) test at 0.001 a power of a few per cent at most,
 		// and it rejects no more often than on clean data.
@@ -674,7 +676,7 @@ func TestScenarioStiffnessLoss(t *testing.T) {
 			t.Errorf("D4: window non-centrality %.1f below lambda0 = 17.07; the premise (visible over the window) no longer holds", lastWindow)
 		}
 		if len(win) < 2 || !(win[0].Label == "E A of D4" || win[0].Label == "E A of V3") {
-			t.Fatalf("D4: processor's window ranking:%s; want E A of D4 (or the parallel E A of V3) first", topCauses(win, 4))
+			t.Fatalf("D4: processor's window ranking:%s; want E A of D4 (or the parallel E A of V3) first", scnTop(win, 4))
 		}
 		var d4 *Cause
 		for i := range win {
@@ -694,9 +696,310 @@ func TestScenarioStiffnessLoss(t *testing.T) {
 	})
 }
 
-func setOf(a, b string) [2]string {
+func scnSetOf(a, b string) [2]string {
 	if a > b {
 		a, b = b, a
 	}
 	return [2]string{a, b}
+}
+
+// TestScenarioSettlement: support settlements through the simulator's
+// settlement fault (positive = downwards, along gravity), two hours into a
+// day of 10-minute epochs.
+func TestScenarioSettlement(t *testing.T) {
+	t.Parallel()
+	faultAt, window := 12, 60
+	// Roof: a column under the middle of the south edge settles 5 mm. The
+	// grid stands on 28 columns, so the settlement forces every member near
+	// it; the settlement signature (per metre along +z, so the expected
+	// size is -5 mm) is linear in the size, and the window estimate must be
+	// within 4 standard deviations (|size| / sqrt(T)) of it, widened by the
+	// factor 2.6 by which the roof's thermometer noise inflates the scatter
+	// (mean square z 6.9 in TestScenarioCleanMonth/roof, a known defect).
+	//
+	// Known ranking weakness (reported to the lead): at most roof supports
+	// a stiffness change of an edge member that carries almost no force
+	// has a signature nearly parallel to the settlement (T within 0.1 %),
+	// with a linearised size such as -8000 % of E A, which no member can
+	// have. At T2_6 it outranks the settlement in 4 of 73 windows, at T8_3
+	// and T0_1 it is second by 0.1 %. The case T2_6 therefore looks for the
+	// settlement as the first cause whose size is physically possible
+	// (stiffness changes between -100 % and +100 %), and logs how often the
+	// raw ranking had it first; T4_0 requires it first outright.
+	for _, tc := range []struct {
+		name, node, subject string
+		seed                uint64
+		plausibleOnly       bool
+	}{
+		{"roof/T4_0", "T4_0", "T4_0 z", 41, false},
+		{"roof/T2_6", "T2_6", "T2_6 z", 42, true},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			t.Parallel()
+			f := loadScnFixture(t, "roof")
+			p := f.processor(t, ProcessorOptions{})
+			var n, rejectedAfter, checks, first, rawFirst int
+			var last []Cause
+			f.run(t, scnOptions(t, tc.seed, 24*time.Hour, 10*time.Minute, "settlement:"+tc.node+":2h:5mm"), func(g *simulate.Generator, s simulate.Step, values map[string]float64) {
+				res := p.Process(s.Time, f.sm.Evaluate(values), nil)
+				if n >= faultAt && res.Rejected {
+					rejectedAfter++
+				}
+				if n >= faultAt+window-1 && res.Rejected {
+					checks++
+					isIt := func(c Cause) bool { return c.Kind == "support_settlement" && c.Subject == tc.subject }
+					w := res.Window
+					if len(w) > 0 && isIt(w[0]) {
+						rawFirst++
+					}
+					if tc.plausibleOnly {
+						w = plausible(w)
+					}
+					if len(w) > 0 && isIt(w[0]) {
+						first++
+					} else if checks-1 == first {
+						t.Logf("%s: window%s", s.Time.Format(time.TimeOnly), scnTop(res.Window, 4))
+					}
+					last = w
+				}
+				n++
+			})
+			t.Logf("%s: rejected %d of %d epochs after the settlement; window ranks settlement %s first in %d of %d full-window epochs (raw ranking: %d); last window:%s",
+				tc.name, rejectedAfter, n-faultAt, tc.subject, first, checks, rawFirst, scnTop(last, 4))
+			if rejectedAfter != n-faultAt {
+				t.Errorf("%s: global test rejected %d of %d epochs after a 5 mm settlement", tc.name, rejectedAfter, n-faultAt)
+			}
+			if checks != n-faultAt-window+1 || first != checks {
+				t.Errorf("%s: window ranked settlement %s first in %d of %d full-window epochs (of %d)", tc.name, tc.subject, first, checks, n-faultAt-window+1)
+			}
+			if len(last) == 0 {
+				t.Fatal("no window ranking")
+			}
+			top := last[0]
+			tol := 2.6 * 4 * math.Abs(top.Size) / math.Sqrt(top.T)
+			if top.Unit != "mm" || math.Abs(top.Size-(-5)) > tol {
+				t.Errorf("%s: estimated settlement %.3f %s, want -5 mm +- %.3f", tc.name, top.Size, top.Unit, tol)
+			}
+		})
+	}
+
+	// Footbridge: a 10 mm settlement of the L8 bearing is invisible to any
+	// gauge. L0 and L8 lie on one horizontal line (y = 0), so lowering L8
+	// turns the truss rigidly about L0 by 10 mm / 24 m; to first order the
+	// turn moves L8 vertically only, the horizontal spring at L8 is not
+	// stretched and no member strains (small-displacement theory, a
+	// closed-form kinematic argument). The settlement signature must be
+	// zero to rounding and the global test must reject no more often than
+	// on clean data.
+	t.Run("footbridge/L8", func(t *testing.T) {
+		t.Parallel()
+		f := loadScnFixture(t, "footbridge")
+		p := f.processor(t, ProcessorOptions{})
+		var gauged []int
+		for _, name := range p.Gauged() {
+			i, _ := f.st.MemberIndex(name)
+			gauged = append(gauged, i)
+		}
+		sig, err := f.m.Signatures(gauged)
+		if err != nil {
+			t.Fatal(err)
+		}
+		labels, s := sig.Settlement()
+		norms := map[string]float64{}
+		for j, l := range labels {
+			v := 0.0
+			for gi := range gauged {
+				v += math.Pow(s.At(gi, j), 2)
+			}
+			norms[l] = math.Sqrt(v)
+		}
+		t.Logf("settlement signature norms (N/m): %v", norms)
+		// Reference: a horizontal movement of L0 pushes the truss against
+		// the L8 spring, which strains the bottom chord.
+		if !(norms["L0 x"] > 0) || norms["L8 y"] > 1e-9*norms["L0 x"] {
+			t.Errorf("settlement signature of L8 y has norm %g N/m against %g for L0 x; want zero to rounding (rigid rotation)", norms["L8 y"], norms["L0 x"])
+		}
+		var n, rejected int
+		f.run(t, scnOptions(t, 43, 24*time.Hour, 10*time.Minute, "settlement:L8:2h:10mm"), func(g *simulate.Generator, s simulate.Step, values map[string]float64) {
+			if p.Process(s.Time, f.sm.Evaluate(values), nil).Rejected {
+				rejected++
+			}
+			n++
+		})
+		bound := binomialQuantile(n, 0.001, 0.9999)
+		t.Logf("footbridge L8 10 mm: global test rejected %d of %d epochs (false-alarm bound %d)", rejected, n, bound)
+		if rejected > bound {
+			t.Errorf("footbridge L8: rejected %d of %d epochs, more than the false-alarm bound %d, for a settlement that strains no member", rejected, n, bound)
+		}
+	})
+}
+
+// TestScenarioChangingChannels drives one long-lived Processor through a day
+// in which the set of reporting channels changes from epoch to epoch (a
+// face gauge, two gauges of different members, a weigh pad, a thermometer),
+// with a gauge bias on D6 so that many epochs are rejected and ranked. Each
+// epoch's result must equal that of a fresh Processor given the same
+// snapshot (the per-mask and per-missing-pattern caches change nothing but
+// speed), apart from the sliding window, which by design holds history. A
+// member with a gauge missing is not available and cannot alarm.
+func TestScenarioChangingChannels(t *testing.T) {
+	t.Parallel()
+	f := loadScnFixture(t, "footbridge")
+	opt := ProcessorOptions{EstimateMissingLoads: true}
+	p := f.processor(t, opt)
+	strict := f.processor(t, ProcessorOptions{}) // missing load: skip the epoch
+	drops := [][]string{
+		nil,
+		{"B4_a"},
+		{"D2_b", "T4_a"},
+		{"pad_3"},
+		{"B4_a", "pad_3"},
+		nil,
+		{"temp_top"},
+	}
+	e, a, _, _ := f.st.MemberProperties("D6")
+	const bias = 10500 // N, about 2 MDB of D6 (TestScenarioGaugeBias)
+	var n, rejected, compared, skipped int
+	f.run(t, scnOptions(t, 61, 24*time.Hour, 10*time.Minute), func(g *simulate.Generator, s simulate.Step, values map[string]float64) {
+		for _, c := range f.gaugeChannels("D6") {
+			values[c] += bias / (e * a)
+		}
+		drop := drops[n%len(drops)]
+		for _, c := range drop {
+			if _, ok := values[c]; !ok {
+				t.Fatalf("no channel %s", c)
+			}
+			delete(values, c)
+		}
+		n++
+		got := p.Process(s.Time, f.sm.Evaluate(values), drop)
+		fresh := f.processor(t, opt).Process(s.Time, f.sm.Evaluate(values), drop)
+		if got.Rejected {
+			rejected++
+		}
+		if msg := sameEpoch(got, fresh); msg != "" {
+			t.Errorf("%s (missing %v): cached and fresh Processor differ: %s", s.Time.Format(time.TimeOnly), drop, msg)
+		}
+		compared++
+		missingMember := map[string]bool{}
+		for _, c := range drop {
+			if ch, ok := f.sm.Channel(c); ok && ch.Kind.IsGauge() {
+				missingMember[ch.Member] = true
+			}
+		}
+		if scnContains(drop, "temp_top") {
+			// The top chord's temperature drives its gauges' compensation
+			// and the thermal load: no fit.
+			if got.Outcome != OutcomeSkipped {
+				t.Errorf("%s: thermometer missing: outcome %s, want skipped", s.Time.Format(time.TimeOnly), got.Outcome)
+			}
+			skipped++
+			return
+		}
+		if !scnFitted(got) {
+			t.Fatalf("%s (missing %v): outcome %s: %s", s.Time.Format(time.TimeOnly), drop, got.Outcome, got.Reason)
+		}
+		avail := 0
+		for _, mr := range got.Members {
+			if missingMember[mr.Member] {
+				if mr.Available || mr.Checkable || mr.W != 0 || mr.MDBN != 0 {
+					t.Errorf("%s: member %s with a missing gauge: available %v, checkable %v, w %g, MDB %g; want unavailable", s.Time.Format(time.TimeOnly), mr.Member, mr.Available, mr.Checkable, mr.W, mr.MDBN)
+				}
+				continue
+			}
+			if !mr.Available {
+				t.Errorf("%s: member %s reported all gauges but is not available", s.Time.Format(time.TimeOnly), mr.Member)
+			}
+			avail++
+		}
+		est := 0
+		for _, l := range got.Loads {
+			if l.Estimable {
+				est++
+			}
+		}
+		wantLoads := 1 // crowd
+		if scnContains(drop, "pad_3") {
+			wantLoads = 2 // crowd and panel_3
+			if len(got.Loads) != 2 || got.Loads[1].Pattern != "panel_3" {
+				t.Errorf("%s: pad_3 missing: loads %+v; want crowd and panel_3 estimated", s.Time.Format(time.TimeOnly), got.Loads)
+			}
+			if r := strict.Process(s.Time, f.sm.Evaluate(values), drop); r.Outcome != OutcomeSkipped {
+				t.Errorf("%s: pad_3 missing without EstimateMissingLoads: outcome %s, want skipped", s.Time.Format(time.TimeOnly), r.Outcome)
+			}
+		}
+		if est != wantLoads || got.DOF != avail-est {
+			t.Errorf("%s (missing %v): %d loads estimated, DOF %d with %d members available; want %d loads, DOF %d", s.Time.Format(time.TimeOnly), drop, est, got.DOF, avail, wantLoads, avail-wantLoads)
+		}
+	})
+	t.Logf("%d epochs compared (%d rejected with per-epoch causes, %d skipped for a missing thermometer)", compared, rejected, skipped)
+	if rejected < compared/2 {
+		t.Errorf("only %d of %d epochs rejected: the D6 bias should make most epochs rank causes", rejected, compared)
+	}
+}
+
+// sameEpoch compares two results of the same epoch except the sliding
+// window; it returns what differs.
+func sameEpoch(a, b *Result) string {
+	switch {
+	case a.Outcome != b.Outcome || a.Reason != b.Reason:
+		return fmt.Sprintf("outcome %s (%s) vs %s (%s)", a.Outcome, a.Reason, b.Outcome, b.Reason)
+	case a.ChiSquare != b.ChiSquare || a.DOF != b.DOF || a.PValue != b.PValue || a.Rejected != b.Rejected || a.Critical != b.Critical:
+		return fmt.Sprintf("global test %g/%d/%g/%v vs %g/%d/%g/%v", a.ChiSquare, a.DOF, a.PValue, a.Rejected, b.ChiSquare, b.DOF, b.PValue, b.Rejected)
+	case !reflect.DeepEqual(a.Members, b.Members):
+		for i := range a.Members {
+			if !reflect.DeepEqual(a.Members[i], b.Members[i]) {
+				return fmt.Sprintf("member %+v vs %+v", a.Members[i], b.Members[i])
+			}
+		}
+		return "members differ"
+	case !reflect.DeepEqual(a.Loads, b.Loads):
+		return fmt.Sprintf("loads %+v vs %+v", a.Loads, b.Loads)
+	case !reflect.DeepEqual(a.Causes, b.Causes):
+		return fmt.Sprintf("causes%s vs%s", scnTop(a.Causes, 3), scnTop(b.Causes, 3))
+	}
+	return ""
+}
+
+func scnContains(list []string, s string) bool { return indexOf(list, s) >= 0 }
+
+// BenchmarkProcess measures the cost of one epoch (ns/op = ns per epoch)
+// with an unchanged set of channels: snapshots of 64 simulated minutes are
+// prepared first and processed in turn, so the per-mask caches are warm as
+// in steady running.
+func BenchmarkProcess(b *testing.B) {
+	for _, name := range []string{"footbridge", "roof"} {
+		b.Run(name, func(b *testing.B) {
+			f := loadScnFixture(b, name)
+			p := f.processor(b, ProcessorOptions{})
+			type epoch struct {
+				t    time.Time
+				snap *sensors.Snapshot
+			}
+			var epochs []epoch
+			f.run(b, scnOptions(b, 71, 64*time.Minute, time.Minute), func(g *simulate.Generator, s simulate.Step, values map[string]float64) {
+				epochs = append(epochs, epoch{s.Time, f.sm.Evaluate(values)})
+			})
+			b.ReportAllocs()
+			b.ResetTimer()
+			for i := 0; i < b.N; i++ {
+				e := epochs[i%len(epochs)]
+				p.Process(e.t, e.snap, nil)
+			}
+		})
+	}
+}
+
+// plausible drops the stiffness-change causes whose estimated size is
+// outside -100 % .. +100 % of E A (no member loses more than all of its
+// stiffness; a doubling is not a plausible change either).
+func plausible(cs []Cause) []Cause {
+	var out []Cause
+	for _, c := range cs {
+		if c.Kind == "stiffness_change" && math.Abs(c.Size) > 100 {
+			continue
+		}
+		out = append(out, c)
+	}
+	return out
 }
