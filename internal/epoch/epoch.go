@@ -280,7 +280,21 @@ func (a *Assembler) Tick() []Epoch {
 		return nil
 	}
 	limit := a.clock().Add(-a.cfg.IdleFlush).UnixNano()
-	return a.closeThrough(floorDiv(limit, a.window)-1, ClosedIdle)
+	k := floorDiv(limit, a.window) - 1
+	// Close only the epochs that are open. The closed mark moves to the last
+	// epoch closed, not to the clock: readings older than the clock but newer
+	// than every closed epoch (a logger's backlog delivered after an outage)
+	// still form epochs instead of counting as late.
+	var out []Epoch
+	for len(a.open) > 0 && a.open[0].index <= k {
+		e := a.open[0]
+		out = append(out, a.emit(e, ClosedIdle))
+		a.open = a.open[1:]
+		if e.index > a.closedUpTo {
+			a.closedUpTo = e.index
+		}
+	}
+	return out
 }
 
 // Flush closes every open epoch (end of a replay, or shutdown).

@@ -87,6 +87,7 @@ type Pipeline struct {
 	channels  []string
 	lastEval  time.Time
 	lastEpoch time.Time
+	lastFeed  time.Time // receiver clock at the last Feed (live only)
 	stats     Stats
 	logged    map[string]time.Time
 }
@@ -154,6 +155,9 @@ func (p *Pipeline) AddSink(s Sink) {
 func (p *Pipeline) Feed(ctx context.Context, rs []Reading) {
 	p.mu.Lock()
 	defer p.mu.Unlock()
+	if p.cfg.Clock != nil && len(rs) > 0 {
+		p.lastFeed = p.cfg.Clock()
+	}
 	for _, r := range rs {
 		p.stats.Readings++
 		v, err := p.sm.Convert(r.Channel, r.Value)
@@ -183,8 +187,13 @@ func (p *Pipeline) Tick(ctx context.Context) {
 	if p.cfg.Clock == nil {
 		return
 	}
-	t := p.cfg.Clock().Add(-p.cfg.Window - p.cfg.MaxLateness).UTC()
-	if !t.After(p.lastEval) || t.Sub(p.lastEpoch) < 2*(p.cfg.Window+p.cfg.MaxLateness) {
+	// A heartbeat only when nothing arrived for a while on the receiver's
+	// clock: while readings flow (including a backlog after an outage) the
+	// epochs themselves drive the rules.
+	now := p.cfg.Clock()
+	quiet := 2 * (p.cfg.Window + p.cfg.MaxLateness)
+	t := now.Add(-p.cfg.Window - p.cfg.MaxLateness).UTC()
+	if !t.After(p.lastEval) || now.Sub(p.lastFeed) < quiet || t.Sub(p.lastEpoch) < quiet || p.asm.Open() > 0 {
 		return
 	}
 	obs := p.observation(t, nil)

@@ -10,6 +10,8 @@ import (
 	"testing"
 	"time"
 
+	mqtt "github.com/eclipse/paho.mqtt.golang"
+
 	"trussmonitor/internal/config"
 	"trussmonitor/internal/simulate"
 	"trussmonitor/internal/simulate/publish"
@@ -49,6 +51,8 @@ func TestServiceEndToEnd(t *testing.T) {
 	}
 	done := make(chan error, 1)
 	go func() { done <- svc.Run(ctx) }()
+
+	waitSubscribed(t, ctx, svc)
 
 	sopt := simulate.DefaultOptions()
 	sopt.Seed = 3
@@ -140,4 +144,30 @@ func TestServiceEndToEnd(t *testing.T) {
 	case <-time.After(30 * time.Second):
 		t.Fatal("service did not shut down within 30 s")
 	}
+}
+
+// waitSubscribed publishes a malformed probe message until the service
+// dead-letters one: then its subscription stands, and readings published
+// from now on reach it (messages for a subscription that does not exist yet
+// are not kept by any broker).
+func waitSubscribed(t *testing.T, ctx context.Context, svc *Service) {
+	t.Helper()
+	c := mqtt.NewClient(mqtt.NewClientOptions().AddBroker("tcp://" + svc.BrokerAddr()).SetClientID("service-test-probe"))
+	if tok := c.Connect(); !tok.WaitTimeout(10*time.Second) || tok.Error() != nil {
+		t.Fatalf("probe connect: %v", tok.Error())
+	}
+	defer c.Disconnect(100)
+	deadline := time.Now().Add(30 * time.Second)
+	for time.Now().Before(deadline) {
+		c.Publish("shm/alder-creek", 1, false, []byte("probe, not JSON")).WaitTimeout(5 * time.Second)
+		time.Sleep(100 * time.Millisecond)
+		n, err := svc.Store().CountDeadLetters(ctx)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if n["malformed_json"] > 0 {
+			return
+		}
+	}
+	t.Fatal("the service did not subscribe within 30 s")
 }
