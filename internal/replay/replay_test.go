@@ -533,3 +533,50 @@ func TestInterrupted(t *testing.T) {
 		t.Errorf("report folder written after an interruption: %v", err)
 	}
 }
+
+// TestModelVersions checks which stored model version a replay uses and
+// the notes it gives: the version in force at From, a note when the model
+// changed within the period, and a note when --structure differs from the
+// stored version.
+func TestModelVersions(t *testing.T) {
+	path := importDay(t, true)
+	ctx := context.Background()
+	v2 := reducedD2(t)
+	content2, err := os.ReadFile(v2)
+	if err != nil {
+		t.Fatal(err)
+	}
+	db, err := store.Open(path, store.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := db.PutModel(ctx, "alder-creek", content2, faultTime.Add(2*time.Hour)); err != nil {
+		t.Fatal(err)
+	}
+	db.Close()
+	content1, _ := os.ReadFile(structureFile)
+
+	// A period across the change: the version at From, with a note.
+	sum, err := replay.Run(ctx, replay.Options{DB: path, From: faultTime, To: faultTime.Add(3 * time.Hour), SensorsFile: sensorsFile})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if sum.ModelVersion != store.ModelHash(content1) {
+		t.Errorf("model %s; want the version in force at From, %s", sum.ModelVersion, store.ModelHash(content1))
+	}
+	if len(sum.Warnings) != 1 || !strings.Contains(sum.Warnings[0], "changed within the period") {
+		t.Errorf("warnings %q; want one about the model change", sum.Warnings)
+	}
+	// After the change: the second version; --structure (the first) differs.
+	sum, err = replay.Run(ctx, replay.Options{DB: path, From: faultTime.Add(3 * time.Hour), To: faultTime.Add(4 * time.Hour),
+		SensorsFile: sensorsFile, StructureFile: structureFile})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if sum.ModelVersion != store.ModelHash(content2) {
+		t.Errorf("model %s; want the second version %s", sum.ModelVersion, store.ModelHash(content2))
+	}
+	if len(sum.Warnings) != 1 || !strings.Contains(sum.Warnings[0], "differs from the stored model version") {
+		t.Errorf("warnings %q; want one about --structure differing from the stored version", sum.Warnings)
+	}
+}
