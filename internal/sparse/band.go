@@ -136,6 +136,7 @@ func (f *bandFactor) solveMany(x []float64, nrhs int) {
 			for j := j0; j < i; j++ {
 				l := r[j-i+k]
 				xj := x[j*nrhs+c0 : j*nrhs+c0+w]
+				xj = xj[:len(xi)]
 				for c := range xi {
 					xi[c] -= l * xj[c]
 				}
@@ -156,7 +157,8 @@ func (f *bandFactor) solveMany(x []float64, nrhs int) {
 			for j := j0; j < i; j++ {
 				l := r[j-i+k]
 				xj := x[j*nrhs+c0 : j*nrhs+c0+w]
-				for c := range xj {
+				xj = xj[:len(xi)]
+				for c := range xi {
 					xj[c] -= l * xi[c]
 				}
 			}
