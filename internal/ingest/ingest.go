@@ -121,6 +121,17 @@ type Config struct {
 	// BatchSize is the most messages committed in one transaction.
 	// Default 2000.
 	BatchSize int `yaml:"batch_size"`
+	// BatchReadings ends a batch once it holds this many readings (large
+	// transactions outgrow SQLite's page cache). Default 10000.
+	BatchReadings int `yaml:"batch_readings"`
+	// CommitDelay is the longest the committer waits for more messages
+	// to join a transaction (group commit); nothing is acknowledged
+	// before its commit, so this only adds latency. Default 2 ms; a
+	// negative value commits whatever is queued at once.
+	CommitDelay time.Duration `yaml:"commit_delay"`
+	// CommitGap ends that wait early when no message arrives for this
+	// long. Default 300 µs.
+	CommitGap time.Duration `yaml:"commit_gap"`
 	// MaxAbsValue rejects readings whose magnitude exceeds it as absurd
 	// (before the registry's own range check). Default 1e12.
 	MaxAbsValue float64 `yaml:"max_abs_value"`
@@ -154,6 +165,15 @@ func (c *Config) setDefaults() {
 	}
 	if c.BatchSize <= 0 {
 		c.BatchSize = 2000
+	}
+	if c.BatchReadings <= 0 {
+		c.BatchReadings = 10000
+	}
+	if c.CommitDelay == 0 {
+		c.CommitDelay = 2 * time.Millisecond
+	}
+	if c.CommitGap <= 0 {
+		c.CommitGap = 300 * time.Microsecond
 	}
 	if c.MaxAbsValue <= 0 {
 		c.MaxAbsValue = 1e12
@@ -205,6 +225,7 @@ type Stats struct {
 	QueueOverflows int64 // messages left unacknowledged for redelivery
 	Commits        int64 // transactions
 	Connects       int64 // successful (re)connections
+	Subscribed     int64 // subscriptions confirmed by the broker (one per connection)
 }
 
 // Ingester is the MQTT-to-store ingestion. Create with New, start with Run.
@@ -356,6 +377,9 @@ func (in *Ingester) onConnect(c paho.Client) {
 			in.log.Error("MQTT subscribe failed; reconnecting", "broker", in.cfg.Broker, "filters", p+"/+ and "+p+"/+/+", "err", tok.Error())
 			return
 		}
+		in.stats.Lock()
+		in.stats.Subscribed++
+		in.stats.Unlock()
 		in.log.Info("MQTT connected and subscribed", "broker", in.cfg.Broker, "client_id", in.cfg.ClientID)
 	}()
 }
@@ -445,21 +469,49 @@ func (in *Ingester) decodeLoop(q <-chan received, out chan<- decodedMsg) {
 func (in *Ingester) commitLoop(in2 <-chan decodedMsg, acks chan<- ackItem) error {
 	defer close(acks)
 	batch := make([]decodedMsg, 0, in.cfg.BatchSize)
+	timer := time.NewTimer(time.Hour)
+	timer.Stop()
 	for {
 		m, ok := <-in2
 		if !ok {
 			return nil
 		}
 		batch = append(batch[:0], m)
+		rows := len(m.readings)
+		first := time.Now()
 	fill:
-		for len(batch) < in.cfg.BatchSize {
+		for len(batch) < in.cfg.BatchSize && rows < in.cfg.BatchReadings {
 			select {
 			case m, ok := <-in2:
 				if !ok {
 					break fill
 				}
 				batch = append(batch, m)
+				rows += len(m.readings)
+				continue
 			default:
+			}
+			// Group commit: a transaction costs about as much as a few
+			// hundred rows, so wait a little for more messages, but not
+			// past CommitDelay, and stop as soon as the stream pauses for
+			// CommitGap (a broker's in-flight window may be full, waiting
+			// for exactly these acknowledgements).
+			left := in.cfg.CommitDelay - time.Since(first)
+			if left <= 0 {
+				break
+			}
+			timer.Reset(min(left, in.cfg.CommitGap))
+			select {
+			case m, ok := <-in2:
+				if !timer.Stop() {
+					<-timer.C
+				}
+				if !ok {
+					break fill
+				}
+				batch = append(batch, m)
+				rows += len(m.readings)
+			case <-timer.C:
 				break fill
 			}
 		}

@@ -78,6 +78,20 @@ func (s *Store) InsertReadings(ctx context.Context, structure string, rs []Readi
 	return res.Inserted[0], nil
 }
 
+// chunkSize is the rows of the next statement when n are left: full
+// statements, then powers of two, so that a handful of prepared statement
+// sizes serve every batch size.
+func chunkSize(n int) int {
+	if n >= rowsPerStatement {
+		return rowsPerStatement
+	}
+	c := 1
+	for c*2 <= n {
+		c *= 2
+	}
+	return c
+}
+
 type rowKey struct {
 	ch int64
 	ts int64
@@ -160,11 +174,12 @@ func (s *Store) Commit(ctx context.Context, b Batch) (CommitResult, error) {
 		sortedKeys[i], sortedVals[i] = flat[j], vals[j]
 	}
 	flat, vals = sortedKeys, sortedVals
-	for start := 0; start < len(flat); start += rowsPerStatement {
-		end := min(start+rowsPerStatement, len(flat))
+	for start := 0; start < len(flat); {
+		end := start + chunkSize(len(flat)-start)
 		if err := s.insertChunk(ctx, tx, flat[start:end], vals[start:end], first, &res); err != nil {
 			return CommitResult{}, err
 		}
+		start = end
 	}
 	for _, d := range b.DeadLetters {
 		if err := insertDeadLetter(ctx, tx, d); err != nil {
