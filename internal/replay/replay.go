@@ -19,6 +19,7 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"strings"
 	"time"
 
 	"trussmonitor/internal/alerts"
@@ -258,7 +259,7 @@ func (opt *Options) check() error {
 		missing = append(missing, "the period (From and To)")
 	}
 	if len(missing) > 0 {
-		return fmt.Errorf("replay: missing %v", missing)
+		return fmt.Errorf("replay: missing %s", strings.Join(missing, ", "))
 	}
 	if !opt.To.After(opt.From) {
 		return fmt.Errorf("replay: the period ends (%s) before or when it starts (%s); give a To after From",
