@@ -6,6 +6,8 @@ import (
 	"math"
 	"sort"
 
+	"gonum.org/v1/gonum/mat"
+
 	"trussmonitor/internal/model"
 	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/sensors"
@@ -39,6 +41,10 @@ type DetectReport struct {
 	Delta0    float64
 	// Weakest is the index in Members of the smallest redundancy.
 	Weakest int
+	// InputRedundancy is the redundancy taken by the pseudo-observations
+	// of the noisy inputs (temperatures, loads): the members' numbers sum
+	// to DOF minus it.
+	InputRedundancy float64
 	// Suggestions are the best additional gauge locations, best first.
 	Suggestions []GaugeSuggestion
 }
@@ -58,14 +64,30 @@ func Detectability(m *model.Model, sm *sensors.Map, opt reconcile.Options) (*Det
 	if err != nil {
 		return nil, err
 	}
-	a := lm.hu
-	d, err := reconcile.Detect(a, sigma, opt)
+	// The same design as the per-epoch fit: gauge rows, then one
+	// pseudo-observation per noisy input (linearModel.design).
+	a, _, err := lm.design(nil)
 	if err != nil {
 		return nil, err
 	}
-	rep := &DetectReport{Structure: m.Structure().Name, Unknown: lm.unknown, DOF: d.DOF, Delta0: d.Delta0, Weakest: d.Weakest}
+	rowSigma := append([]float64(nil), sigma...)
+	for _, in := range lm.inputs {
+		rowSigma = append(rowSigma, in.Sigma)
+	}
+	d, err := reconcile.Detect(a, rowSigma, opt)
+	if err != nil {
+		return nil, err
+	}
+	g := len(lm.names)
+	rep := &DetectReport{Structure: m.Structure().Name, Unknown: lm.unknown, DOF: d.DOF, Delta0: d.Delta0}
 	for i, n := range lm.names {
 		rep.Members = append(rep.Members, MemberDetectability{Member: n, SigmaN: sigma[i], Redundancy: d.Redundancy[i], MDBN: d.MDB[i], Checkable: d.Checkable[i]})
+		if d.Redundancy[i] < d.Redundancy[rep.Weakest] {
+			rep.Weakest = i
+		}
+	}
+	for j := range lm.inputs {
+		rep.InputRedundancy += d.Redundancy[g+j]
 	}
 	// Candidate gauges: every ungauged member, a pair of gauges with the
 	// median strain noise of the layout's gauges.
@@ -76,28 +98,44 @@ func Detectability(m *model.Model, sm *sensors.Map, opt reconcile.Options) (*Det
 	}
 	var options []reconcile.GaugeOption
 	members := m.Structure().Members
+	_, cols := a.Dims()
 	p := len(lm.unknown)
 	for k, mb := range members {
-		if gauged[k] || p == 0 {
+		if gauged[k] || cols == 0 {
 			continue
 		}
-		row := make([]float64, p)
+		row := make([]float64, cols)
 		for j := 0; j < p; j++ {
 			row[j] = lm.allU.At(k, j)
 		}
+		for j, in := range lm.inputs {
+			row[p+j] = in.All[k]
+		}
 		options = append(options, reconcile.GaugeOption{Label: mb.ID, Row: row, Sigma: mb.E * mb.A * noise / math.Sqrt2})
 	}
-	if len(options) > 0 {
-		pl, err := reconcile.SuggestGauge(a, sigma, options, opt)
+	// Each option as one more row of the design; the weakest redundancy is
+	// taken over the existing gauge rows (not the inputs' pseudo-rows).
+	rows, _ := a.Dims()
+	before := rep.Members[rep.Weakest].Redundancy
+	ext := mat.NewDense(rows+1, cols, nil)
+	ext.Slice(0, rows, 0, cols).(*mat.Dense).Copy(a)
+	extSigma := append(append([]float64(nil), rowSigma...), 0)
+	for _, o := range options {
+		ext.SetRow(rows, o.Row)
+		extSigma[rows] = o.Sigma
+		dd, err := reconcile.Detect(ext, extSigma, opt)
 		if err != nil {
-			return nil, err
+			return nil, fmt.Errorf("detectability with a gauge on %s: %w", o.Label, err)
 		}
-		for i, s := range pl {
-			if i == 5 {
-				break
-			}
-			rep.Suggestions = append(rep.Suggestions, GaugeSuggestion{Member: s.Label, WeakestBefore: s.WeakestBefore, WeakestAfter: s.WeakestAfter})
+		after := math.Inf(1)
+		for i := 0; i < g; i++ {
+			after = math.Min(after, dd.Redundancy[i])
 		}
+		rep.Suggestions = append(rep.Suggestions, GaugeSuggestion{Member: o.Label, WeakestBefore: before, WeakestAfter: after})
+	}
+	sort.SliceStable(rep.Suggestions, func(i, j int) bool { return rep.Suggestions[i].WeakestAfter > rep.Suggestions[j].WeakestAfter })
+	if len(rep.Suggestions) > 5 {
+		rep.Suggestions = rep.Suggestions[:5]
 	}
 	return rep, nil
 }

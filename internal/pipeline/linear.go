@@ -41,6 +41,29 @@ type linearModel struct {
 	allMembers           []int
 	permanent            map[string]float64
 	referenceTemperature map[string]float64 // group -> degC taken as stress-free for the force state
+	// inputs are the noisy measured inputs (temperature and load channels)
+	// whose errors propagate into the prediction; see inputNoise.
+	inputs []inputNoise
+}
+
+// inputNoise is one measured input of the prediction with its noise: a
+// temperature channel (per kelvin of error, the change of the gauged
+// forces through the groups it feeds) or a load channel (per unit of pattern
+// factor). Its error enters the fit as an extra unknown delta with a
+// pseudo-observation delta = 0 of standard deviation Sigma, which is the
+// weighted least-squares form of the full covariance
+//
+//	Sigma_y = Sigma_gauges + C Sigma_inputs C^T
+//
+// (Teunissen, Adjustment Theory, 2000, on observation equations with
+// stochastic parameters; from memory): the global test, its degrees of
+// freedom and the estimates are those of the full-covariance model, and the
+// w-test of a gauge row tests that gauge against everything else.
+type inputNoise struct {
+	Label  string
+	Column []float64 // G entries, newtons per unit error
+	All    []float64 // the same for every member of the structure
+	Sigma  float64
 }
 
 // newLinearModel builds the influence matrices of a structure for its sensor
@@ -119,7 +142,60 @@ func newLinearModel(m *model.Model, sm *sensors.Map) (*linearModel, error) {
 	}
 	lm.settleLabels, lm.settle = lm.sig.Settlement()
 	lm.loadLabels, lm.nodal = lm.sig.NodalLoad()
+	lm.inputs = lm.inputNoises(sm)
 	return lm, nil
+}
+
+// inputNoises lists the temperature and load channels with a positive
+// noise figure and the effect of their errors on the gauged members.
+func (lm *linearModel) inputNoises(sm *sensors.Map) []inputNoise {
+	feeds := map[string]int{} // group -> temperature channels feeding it
+	chans := sm.Channels()
+	for _, ch := range chans {
+		if ch.Kind == sensors.KindTemperature {
+			for _, g := range ch.Groups {
+				feeds[g]++
+			}
+		}
+	}
+	g := len(lm.gauged)
+	var out []inputNoise
+	for _, ch := range chans {
+		if !(ch.Noise > 0) {
+			continue
+		}
+		nm := len(lm.allMembers)
+		all := make([]float64, nm)
+		switch ch.Kind {
+		case sensors.KindTemperature:
+			// A group's temperature is the mean of its channels.
+			for _, grp := range ch.Groups {
+				t := indexOf(lm.groups, grp)
+				if t < 0 || feeds[grp] == 0 {
+					continue
+				}
+				for k := 0; k < nm; k++ {
+					all[k] += lm.allT.At(k, t) / float64(feeds[grp])
+				}
+			}
+		case sensors.KindLoad:
+			q := indexOf(lm.known, ch.Pattern)
+			if q < 0 {
+				continue
+			}
+			for k := 0; k < nm; k++ {
+				all[k] = lm.allQ.At(k, q)
+			}
+		default:
+			continue
+		}
+		col := make([]float64, g)
+		for i, k := range lm.gauged {
+			col[i] = all[k]
+		}
+		out = append(out, inputNoise{Label: "input " + ch.ID, Column: col, All: all, Sigma: ch.Noise})
+	}
+	return out
 }
 
 // influence returns the gauged-member and all-member influence matrices for
@@ -188,4 +264,47 @@ func (lm *linearModel) stateForces(loads, temps map[string]float64, theta []floa
 		}
 	}
 	return out
+}
+
+// design returns the reconciliation design matrix and the names of its
+// columns: rows are the G gauged members followed by one pseudo-observation
+// per noisy input; columns are the unknown load patterns, the measured
+// patterns whose channel is missing this epoch (missing), and one error
+// per noisy input (see inputNoise):
+//
+//	[ H_u  H_missing  C ]   gauged members
+//	[ 0    0          I ]   inputs (delta = 0 +- sigma)
+func (lm *linearModel) design(missing []string) (*mat.Dense, []string, error) {
+	g := len(lm.gauged)
+	nin := len(lm.inputs)
+	nu := len(lm.unknown)
+	cols := nu + len(missing) + nin
+	names := append(append([]string(nil), lm.unknown...), missing...)
+	for _, in := range lm.inputs {
+		names = append(names, in.Label)
+	}
+	if cols == 0 {
+		// No unknowns at all: a zero column, dropped as not estimable.
+		return mat.NewDense(g, 1, nil), []string{"(none)"}, nil
+	}
+	a := mat.NewDense(g+nin, cols, nil)
+	for i := 0; i < g; i++ {
+		for j := 0; j < nu; j++ {
+			a.Set(i, j, lm.hu.At(i, j))
+		}
+		for j, name := range missing {
+			k := indexOf(lm.known, name)
+			if k < 0 {
+				return nil, nil, fmt.Errorf("pattern %q is not a measured pattern", name)
+			}
+			a.Set(i, nu+j, lm.hq.At(i, k))
+		}
+		for j, in := range lm.inputs {
+			a.Set(i, nu+len(missing)+j, in.Column[i])
+		}
+	}
+	for j := range lm.inputs {
+		a.Set(g+j, nu+len(missing)+j, 1)
+	}
+	return a, names, nil
 }

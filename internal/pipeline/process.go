@@ -136,6 +136,8 @@ type Processor struct {
 	kinds     map[string]string
 	y, yhat   []float64
 	avail     []bool
+	rowSigma  []float64 // gauge sigmas, then the input noises
+	rowNames  []string
 }
 
 // NewProcessor builds the reconciliation of model m with sensor map sm.
@@ -159,9 +161,14 @@ func NewProcessor(m *model.Model, sm *sensors.Map, opt ProcessorOptions) (*Proce
 		subjects:  map[string]string{},
 		kinds:     map[string]string{},
 	}
-	p.opt.Reconcile.MemberNames = lm.names
 	if p.sigma, err = fullSetSigma(sm, lm.names); err != nil {
 		return nil, err
+	}
+	p.rowSigma = append([]float64(nil), p.sigma...)
+	p.rowNames = append([]string(nil), lm.names...)
+	for _, in := range lm.inputs {
+		p.rowSigma = append(p.rowSigma, in.Sigma)
+		p.rowNames = append(p.rowNames, in.Label)
 	}
 	if _, err := p.solverFor(nil); err != nil {
 		return nil, err
@@ -169,25 +176,29 @@ func NewProcessor(m *model.Model, sm *sensors.Map, opt ProcessorOptions) (*Proce
 	if p.window, err = reconcile.NewWindowRanker(opt.CauseWindow); err != nil {
 		return nil, err
 	}
+	rows := len(p.rowSigma)
 	for i, c := range reconcile.GaugeFaults(lm.names) {
+		c.Signature = pad(c.Signature, rows)
 		p.fixed = append(p.fixed, c)
 		p.subjects[c.Label] = lm.names[i]
 	}
 	for j, l := range lm.settleLabels {
-		c := reconcile.Candidate{Kind: reconcile.SupportSettlement, Label: "settlement " + l, Signature: column(lm.settle, j)}
+		c := reconcile.Candidate{Kind: reconcile.SupportSettlement, Label: "settlement " + l, Signature: pad(column(lm.settle, j), rows)}
 		p.fixed = append(p.fixed, c)
 		p.subjects[c.Label] = l
 	}
 	for j, l := range lm.loadLabels {
-		c := reconcile.Candidate{Kind: reconcile.NodalLoad, Label: "load at " + l, Signature: column(lm.nodal, j)}
+		c := reconcile.Candidate{Kind: reconcile.NodalLoad, Label: "load at " + l, Signature: pad(column(lm.nodal, j), rows)}
 		p.fixed = append(p.fixed, c)
 		p.subjects[c.Label] = l
 	}
 	for _, mb := range m.Structure().Members {
 		p.subjects["E A of "+mb.ID] = mb.ID
 	}
-	n := len(lm.gauged)
-	p.y, p.yhat, p.avail = make([]float64, n), make([]float64, n), make([]bool, n)
+	p.y, p.yhat, p.avail = make([]float64, rows), make([]float64, rows), make([]bool, rows)
+	for i := len(lm.gauged); i < rows; i++ {
+		p.avail[i] = true // pseudo-observations of the inputs: always there, value 0
+	}
 	return p, nil
 }
 
@@ -216,6 +227,15 @@ func fullSetSigma(sm *sensors.Map, names []string) ([]float64, error) {
 		out[i] = s
 	}
 	return out, nil
+}
+
+// pad extends a signature over the gauged members with zeros for the
+// input pseudo-observation rows.
+func pad(v []float64, n int) []float64 {
+	if len(v) >= n {
+		return v
+	}
+	return append(append(make([]float64, 0, n), v...), make([]float64, n-len(v))...)
 }
 
 func column(a *mat.Dense, j int) []float64 {
@@ -250,33 +270,18 @@ func (p *Processor) solverFor(missing []string) (*reconcile.Solver, error) {
 		return s, nil
 	}
 	lm := p.lm
-	g := len(lm.gauged)
-	cols := len(lm.unknown) + len(missing)
-	names := append(append([]string(nil), lm.unknown...), missing...)
-	var a *mat.Dense
-	if cols > 0 {
-		a = mat.NewDense(g, cols, nil)
-		for i := 0; i < g; i++ {
-			for j := range lm.unknown {
-				a.Set(i, j, lm.hu.At(i, j))
-			}
-			for j, name := range missing {
-				k := indexOf(lm.known, name)
-				if k < 0 {
-					return nil, fmt.Errorf("pattern %q is not a measured pattern", name)
-				}
-				a.Set(i, len(lm.unknown)+j, lm.hq.At(i, k))
-			}
-		}
-	} else {
-		a = mat.NewDense(g, 1, nil) // no unknowns: a zero column is not estimable
+	a, names, err := lm.design(missing)
+	if err != nil {
+		return nil, err
 	}
+	cols := len(lm.unknown) + len(missing)
 	opt := p.opt.Reconcile
 	opt.UnknownNames = names
-	if cols == 0 {
+	opt.MemberNames = p.rowNames
+	if cols+len(lm.inputs) == 0 {
 		opt.DropUnidentifiable = true
 	}
-	s, err := reconcile.NewSolver(a, p.sigma, opt)
+	s, err := reconcile.NewSolver(a, p.rowSigma, opt)
 	if err != nil {
 		return nil, fmt.Errorf("structure %s: reconciliation: %w", p.structure, err)
 	}
@@ -414,7 +419,7 @@ func (p *Processor) fill(res *Result, r *reconcile.Result, s *reconcile.Solver, 
 		if !detectable(sig, p.sigma) {
 			continue
 		}
-		cands = append(cands, reconcile.Candidate{Kind: reconcile.StiffnessChange, Label: "E A of " + members[k].ID, Signature: sig})
+		cands = append(cands, reconcile.Candidate{Kind: reconcile.StiffnessChange, Label: "E A of " + members[k].ID, Signature: pad(sig, len(p.rowSigma))})
 	}
 	causes, err := r.Causes(cands)
 	if err != nil {
@@ -448,9 +453,32 @@ func detectable(sig, sigma []float64) bool {
 	return false
 }
 
+// plausibleFirst moves causes whose estimated size no structure can have
+// behind the others, keeping the order within each part: a stiffness change
+// below -100 % (negative E A) or above +100 % (a doubled member). Such sizes
+// come from members carrying almost no force, whose linearised signature can
+// be nearly parallel to a real cause's (common practice: physically
+// impossible hypotheses are not ranked as causes).
+func plausibleFirst(cs []reconcile.Cause) []reconcile.Cause {
+	implausible := func(c reconcile.Cause) bool {
+		return c.Kind == reconcile.StiffnessChange && (c.Size < -1 || c.Size > 1)
+	}
+	out := make([]reconcile.Cause, 0, len(cs))
+	var late []reconcile.Cause
+	for _, c := range cs {
+		if implausible(c) {
+			late = append(late, c)
+			continue
+		}
+		out = append(out, c)
+	}
+	return append(out, late...)
+}
+
 // convert turns reconcile causes into Result causes, keeping the first
 // MaxCauses.
 func (p *Processor) convert(cs []reconcile.Cause) []Cause {
+	cs = plausibleFirst(cs)
 	if len(cs) > p.opt.MaxCauses {
 		cs = cs[:p.opt.MaxCauses]
 	}

@@ -224,11 +224,12 @@ func TestScenarioCleanMonth(t *testing.T) {
 	}{
 		{"footbridge", "footbridge", 11, "crowd", false, ""},
 		{"roof-exact-inputs", "roof", 12, "snow_drift_east", true, ""},
-		{"roof", "roof", 12, "snow_drift_east", false,
-			"known defect (process.go fullSetSigma, reconcile diagonal weights): the weights carry only the gauges' noise; the roof's thermometers " +
-				"(0.2 K) and snow-depth channel (0.01 m) give member-force errors of 100-460 N and up to 780 N against gauge sigmas of 510-900 N, " +
-				"common to all members. Measured on this month: global test rejected 298 of 4320 clean epochs (bound 14), w exceedances up to 76 " +
-				"per member (bound 14), snow_drift_east estimate mean square z 6.9. Fix: W = inverse of Sigma_gauges + H_t Sigma_T H_t^T + H_q Sigma_q H_q^T"},
+		// The roof's thermometers (0.2 K) and snow-depth channel (0.01 m)
+		// give member-force errors of 100-780 N against gauge sigmas of
+		// 510-900 N; they enter the fit as pseudo-observations (linear.go,
+		// inputNoise). Without them this month rejected 298 of 4320 clean
+		// epochs.
+		{"roof", "roof", 12, "snow_drift_east", false, ""},
 	}
 	for _, tc := range cases {
 		t.Run(tc.name, func(t *testing.T) {
