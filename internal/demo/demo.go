@@ -68,6 +68,7 @@ type Demo struct {
 	pubErr    error
 	faults    []simulate.Fault
 	mons      []*service.Monitored
+	runErr    chan error
 }
 
 // Structure returns a monitored example structure by name (nil if none).
@@ -180,6 +181,14 @@ func Start(ctx context.Context, opt Options) (*Demo, error) {
 	}
 	d.svc = svc
 	d.mons = mons
+	d.runErr = make(chan error, 1)
+	go func() { d.runErr <- svc.Run(ctx) }()
+	readyCtx, cancelReady := context.WithTimeout(ctx, 30*time.Second)
+	err = svc.WaitReady(readyCtx)
+	cancelReady()
+	if err != nil {
+		return nil, fmt.Errorf("demo: %w", err)
+	}
 	for i, mon := range mons {
 		sopt := simulate.DefaultOptions()
 		sopt.Seed = opt.Seed + uint64(i)
@@ -233,9 +242,11 @@ func (d *Demo) FaultTime() time.Time {
 	return d.faults[0].Time(d.start)
 }
 
-// Wait runs the service until ctx is cancelled, then shuts everything down.
+// Wait waits until ctx (the one given to Start) is cancelled, then for the
+// service's graceful shutdown and the simulators.
 func (d *Demo) Wait(ctx context.Context) error {
-	err := d.svc.Run(ctx)
+	<-ctx.Done()
+	err := <-d.runErr
 	d.wg.Wait()
 	d.cleanup()
 	return err

@@ -297,8 +297,26 @@ func (s *Service) ready() error {
 	}
 	if st := s.ingester.Stats(); st.Connects == 0 {
 		return errors.New("not connected to the broker yet")
+	} else if st.Subscribed == 0 {
+		return errors.New("connected, not yet subscribed")
 	}
 	return nil
+}
+
+// WaitReady waits until the ingest is connected and subscribed (Run must be
+// running), or ctx ends.
+func (s *Service) WaitReady(ctx context.Context) error {
+	for {
+		err := s.ready()
+		if err == nil {
+			return nil
+		}
+		select {
+		case <-ctx.Done():
+			return fmt.Errorf("service not ready: %v: %w", err, ctx.Err())
+		case <-time.After(20 * time.Millisecond):
+		}
+	}
 }
 
 // Run runs ingest until ctx is cancelled, ticking the pipelines every
