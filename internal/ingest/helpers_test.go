@@ -3,6 +3,7 @@ package ingest
 import (
 	"bufio"
 	"context"
+	"crypto/tls"
 	"errors"
 	"fmt"
 	"math"
@@ -257,6 +258,20 @@ func newPublisher(t testing.TB, addr, id string) *publisher {
 	tok := c.Connect()
 	if !tok.WaitTimeout(10*time.Second) || tok.Error() != nil {
 		t.Fatalf("publisher connect to %s: %v", addr, tok.Error())
+	}
+	t.Cleanup(func() { c.Disconnect(200) })
+	return &publisher{c: c}
+}
+
+// newTLSPublisher is newPublisher over TLS with a user name and password.
+func newTLSPublisher(t testing.TB, url, id, user, pass string, tc *tls.Config) *publisher {
+	t.Helper()
+	o := paho.NewClientOptions().AddBroker(url).SetClientID(id).SetUsername(user).SetPassword(pass).
+		SetTLSConfig(tc).SetCleanSession(false).SetAutoReconnect(true).SetWriteTimeout(5 * time.Second)
+	c := paho.NewClient(o)
+	tok := c.Connect()
+	if !tok.WaitTimeout(10*time.Second) || tok.Error() != nil {
+		t.Fatalf("publisher connect to %s: %v", url, tok.Error())
 	}
 	t.Cleanup(func() { c.Disconnect(200) })
 	return &publisher{c: c}
