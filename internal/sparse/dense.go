@@ -35,7 +35,8 @@ func factorDense(a *Sym, perm []int, tol float64, st *Stats) (factor, error) {
 	st.NNZL = n * (n + 1) / 2
 	st.HalfBandwidth = halfBandwidth(a, perm)
 	st.Flops = float64(n) * float64(n) * float64(n) / 3
-	if k, d := factorFront(data, n, n, diag, tol); k >= 0 {
+	var work []float64
+	if k, d := factorFront(data, nil, n, n, diag, tol, &work); k >= 0 {
 		return nil, pivotError(k, d, perm, a, tol)
 	}
 	return &denseFactor{l: blas64.Triangular{Uplo: blas.Lower, Diag: blas.NonUnit, N: n, Data: data, Stride: max(1, n)}}, nil

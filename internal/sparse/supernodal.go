@@ -37,8 +37,8 @@ func numericSupernodal(a *Sym, sy *symbolic, tol float64) (factor, error) {
 	lVal := make([]float64, sy.lPtr[ns])
 	diag := permutedDiagonal(a, sy.perm)
 	pos := make([]int, n)
-	var front, stack []float64
-	// Update matrices on the stack, most recent last: their sizes.
+	var stack, work []float64
+	// Update matrices on the stack, most recent last: (supernode, size).
 	var upd []int
 	nchild := make([]int, ns)
 	for _, p := range sy.sparen {
@@ -50,60 +50,71 @@ func numericSupernodal(a *Sym, sy *symbolic, tol float64) (factor, error) {
 		f, l := sy.super[s], sy.super[s+1]
 		rows := sy.rowIdx[sy.rowPtr[s]:sy.rowPtr[s+1]]
 		nc, m := l-f, len(rows)
+		u := m - nc
 		for t, r := range rows {
 			pos[r] = t
 		}
-		if cap(front) < m*m {
-			front = make([]float64, m*m)
-		}
-		F := front[:m*m]
-		clear(F)
-		// Entries of A in the supernode's columns (lower triangle).
+		// The front is split in two: its first nc columns are assembled
+		// and factored in place in L's storage (P, m×nc, zero from make),
+		// its trailing u×u block (U) on top of the update stack, above the
+		// children's update matrices.
+		P := lVal[sy.lPtr[s]:sy.lPtr[s+1]]
+		base := len(stack)
+		stack = growFloats(stack, u*u)
+		U := stack[base:]
+		clear(U)
 		for j := f; j < l; j++ {
 			o := sy.perm[j]
 			cj := j - f
 			for q := a.p[o]; q < a.p[o+1]; q++ {
 				if i := sy.iperm[a.i[q]]; i >= j {
-					F[pos[i]*m+cj] += a.v[q]
+					P[pos[i]*nc+cj] += a.v[q]
 				}
 			}
 		}
-		// Extend-add the children's update matrices, on top of the stack
-		// in reverse order of the children.
+		// Extend-add the children's update matrices, which lie below U in
+		// reverse order of the children.
+		top := base
 		for c := 0; c < nchild[s]; c++ {
-			u := upd[len(upd)-1]
+			uc := upd[len(upd)-1]
 			child := upd[len(upd)-2]
 			upd = upd[:len(upd)-2]
 			crows := sy.rowIdx[sy.rowPtr[child]:sy.rowPtr[child+1]]
-			crows = crows[len(crows)-u:]
-			U := stack[len(stack)-u*u:]
+			crows = crows[len(crows)-uc:]
+			Uc := stack[top-uc*uc : top]
+			top -= uc * uc
 			for x, rx := range crows {
-				px := pos[rx] * m
-				ux := U[x*u : x*u+x+1]
+				px := pos[rx]
+				ux := Uc[x*uc : x*uc+x+1]
+				if px < nc {
+					row := P[px*nc:]
+					for y, v := range ux {
+						row[pos[crows[y]]] += v
+					}
+					continue
+				}
+				prow := P[px*nc:]
+				urow := U[(px-nc)*u:]
 				for y, v := range ux {
-					F[px+pos[crows[y]]] += v
+					if py := pos[crows[y]]; py < nc {
+						prow[py] += v
+					} else {
+						urow[py-nc] += v
+					}
 				}
 			}
-			stack = stack[:len(stack)-u*u]
 		}
-		// Dense partial factorisation of the front.
-		if k, d := factorFront(F, m, nc, diag[f:l], tol); k >= 0 {
+		if k, d := factorFront(P, U, m, nc, diag[f:l], tol, &work); k >= 0 {
 			return nil, pivotError(f+k, d, sy.perm, a, tol)
 		}
-		u := m - nc
-		// Keep L's columns, push the update matrix.
-		L := lVal[sy.lPtr[s]:sy.lPtr[s+1]]
-		for r := 0; r < m; r++ {
-			copy(L[r*nc:(r+1)*nc], F[r*m:r*m+nc])
-		}
+		// Move U down over the consumed children and keep it for the
+		// parent.
 		if u > 0 && sy.sparen[s] >= 0 {
-			base := len(stack)
-			stack = growFloats(stack, u*u)
-			U := stack[base:]
-			for r := 0; r < u; r++ {
-				copy(U[r*u:r*u+r+1], F[(nc+r)*m+nc:(nc+r)*m+nc+r+1])
-			}
+			copy(stack[top:top+u*u], U)
+			stack = stack[:top+u*u]
 			upd = append(upd, s, u)
+		} else {
+			stack = stack[:top]
 		}
 	}
 	return &superFactor{sy: sy, lVal: lVal}, nil
@@ -140,36 +151,40 @@ func triInverse(l []float64, w, ld int, dst []float64) []float64 {
 // frontBlock is the column block width of factorFront.
 const frontBlock = 48
 
-// factorFront factors the leading nc columns of the m×m row-major frontal
-// matrix F (lower triangle): F11 = L11 L11ᵀ, L21 = F21 L11⁻ᵀ, and replaces
-// F22 by its Schur complement F22 - L21 L21ᵀ. It is a left-looking blocked
-// Cholesky (Golub and Van Loan, 4th ed., §4.2.9) whose updates all go
-// through subABt. It returns the first failing pivot position, or -1.
-func factorFront(F []float64, m, nc int, diag []float64, tol float64) (int, float64) {
+// factorFront factors the leading nc columns of an m×m frontal matrix held
+// as the panel P (rows 0..m, columns 0..nc, row-major with stride nc) and
+// the trailing block U (u×u, u = m-nc, stride u), lower triangles only:
+// P11 = L11 L11ᵀ, L21 = P21 L11⁻ᵀ, U = U - L21 L21ᵀ (the Schur complement).
+// It is a left-looking blocked Cholesky (Golub and Van Loan, 4th ed.,
+// §4.2.9) whose updates all go through subABt. work is reusable scratch.
+// It returns the first failing pivot position, or -1.
+func factorFront(P, U []float64, m, nc int, diag []float64, tol float64, work *[]float64) (int, float64) {
 	var inv [frontBlock * frontBlock]float64
-	tbuf := make([]float64, max(0, m-min(nc, frontBlock))*frontBlock)
+	if need := max(0, m-min(nc, frontBlock)) * frontBlock; cap(*work) < need {
+		*work = make([]float64, need)
+	}
 	for j0 := 0; j0 < nc; j0 += frontBlock {
 		j1 := min(nc, j0+frontBlock)
 		w := j1 - j0
 		// Columns j0..j1 of rows j0..m less the earlier columns' share.
-		subABt(m-j0, w, j0, F[j0*m:], m, F[j0*m:], m, F[j0*m+j0:], m, true)
-		if k, d := cholUnblocked(F[j0*m+j0:], w, m, diag[j0:j1], tol); k >= 0 {
+		subABt(m-j0, w, j0, P[j0*nc:], nc, P[j0*nc:], nc, P[j0*nc+j0:], nc, true)
+		if k, d := cholUnblocked(P[j0*nc+j0:], w, nc, diag[j0:j1], tol); k >= 0 {
 			return j0 + k, d
 		}
-		// Rows below the block: X = F[j1:m, J] L_JJ⁻ᵀ, as a product with
+		// Rows below the block: X = P[j1:m, J] L_JJ⁻ᵀ, as a product with
 		// the explicit inverse of the small triangle so that it runs
 		// through subABt as well.
 		if r := m - j1; r > 0 {
-			linv := triInverse(F[j0*m+j0:], w, m, inv[:w*w])
-			T := tbuf[:r*w]
+			linv := triInverse(P[j0*nc+j0:], w, nc, inv[:w*w])
+			T := (*work)[:r*w]
 			for i := 0; i < r; i++ {
-				row := F[(j1+i)*m+j0 : (j1+i)*m+j1]
+				row := P[(j1+i)*nc+j0 : (j1+i)*nc+j1]
 				copy(T[i*w:(i+1)*w], row)
 				clear(row)
 			}
-			subABt(r, w, w, T, w, linv, w, F[j1*m+j0:], m, false)
+			subABt(r, w, w, T, w, linv, w, P[j1*nc+j0:], nc, false)
 			for i := 0; i < r; i++ {
-				row := F[(j1+i)*m+j0 : (j1+i)*m+j1]
+				row := P[(j1+i)*nc+j0 : (j1+i)*nc+j1]
 				for j := range row {
 					row[j] = -row[j]
 				}
@@ -177,7 +192,7 @@ func factorFront(F []float64, m, nc int, diag []float64, tol float64) (int, floa
 		}
 	}
 	if u := m - nc; u > 0 {
-		subABt(u, u, nc, F[nc*m:], m, F[nc*m:], m, F[nc*m+nc:], m, true)
+		subABt(u, u, nc, P[nc*nc:], nc, P[nc*nc:], nc, U, u, true)
 	}
 	return -1, 0
 }

@@ -91,9 +91,9 @@ func postorder(parent []int) []int {
 // at most 80% of the merged block are explicit zeros, up to relaxLarge
 // while at most 10%, and any size while at most 5%.
 const (
-	relaxSmall = 4
-	relaxMid   = 16
-	relaxLarge = 48
+	relaxSmall = 8
+	relaxMid   = 32
+	relaxLarge = 64
 )
 
 // analyze computes the symbolic factorisation of P A Pᵀ for the ordering
@@ -122,21 +122,53 @@ func analyze(a *Sym, perm []int) *symbolic {
 
 	// Column counts of L by row subtrees (Davis 2006, section 4.3): row k
 	// of L is the set of nodes on the tree paths from every j in row k of
-	// A up to k.
+	// A up to k. Consecutive rows b..b+g-1 whose rows of A are the same
+	// apart from each other (the DOF of one truss node) have the row
+	// structures struct(b) ∪ {b..k}, so the paths are walked once for the
+	// group: every node met gains g, and b+t gains g-t.
 	cc := make([]int, n)
 	mark := make([]int, n)
 	for k := range mark {
 		mark[k] = -1
 	}
-	for k := 0; k < n; k++ {
-		mark[k] = k
-		cc[k]++
-		for _, j := range lri[lrp[k]:lrp[k+1]] {
-			for i := int(j); mark[i] != k; i = parent[i] {
-				mark[i] = k
-				cc[i]++
+	for b := 0; b < n; {
+		rowB := lri[lrp[b]:lrp[b+1]]
+		for _, j := range rowB {
+			mark[j] = -2 - b // stamp of row b's pattern
+		}
+		g := 1
+		for k := b + 1; k < n; k++ {
+			rowK := lri[lrp[k]:lrp[k+1]]
+			if len(rowK) != len(rowB)+(k-b) {
+				break
+			}
+			same := true
+			for _, j := range rowK {
+				if int(j) < b && mark[j] != -2-b {
+					same = false
+					break
+				}
+			}
+			if !same {
+				break
+			}
+			g++
+		}
+		for _, j := range rowB {
+			mark[j] = -1
+		}
+		mark[b] = b
+		for _, j := range rowB {
+			for i := int(j); mark[i] != b; i = parent[i] {
+				mark[i] = b
+				cc[i] += g
 			}
 		}
+		for t := 0; t < g; t++ {
+			cc[b+t] += g - t
+			mark[b+t] = b
+		}
+		b += g
 	}
 	// Fundamental supernodes: j continues the supernode of j-1 when j is
 	// the only child of ... more precisely when parent(j-1) = j, j has one
