@@ -38,6 +38,7 @@ func numericSupernodal(a *Sym, sy *symbolic, tol float64) (factor, error) {
 	diag := permutedDiagonal(a, sy.perm)
 	pos := make([]int, n)
 	var stack, work []float64
+	var rel []int
 	// Update matrices on the stack, most recent last: (supernode, size).
 	var upd []int
 	nchild := make([]int, ns)
@@ -83,24 +84,34 @@ func numericSupernodal(a *Sym, sy *symbolic, tol float64) (factor, error) {
 			crows = crows[len(crows)-uc:]
 			Uc := stack[top-uc*uc : top]
 			top -= uc * uc
-			for x, rx := range crows {
-				px := pos[rx]
+			// Relative indices of the child's rows in this front; they
+			// increase, so the first ysplit of them fall in P's columns.
+			rel = rel[:0]
+			ysplit := 0
+			for _, r := range crows {
+				p := pos[r]
+				rel = append(rel, p)
+				if p < nc {
+					ysplit++
+				}
+			}
+			for x, px := range rel {
 				ux := Uc[x*uc : x*uc+x+1]
 				if px < nc {
 					row := P[px*nc:]
 					for y, v := range ux {
-						row[pos[crows[y]]] += v
+						row[rel[y]] += v
 					}
 					continue
 				}
 				prow := P[px*nc:]
+				for y, v := range ux[:ysplit] {
+					prow[rel[y]] += v
+				}
 				urow := U[(px-nc)*u:]
-				for y, v := range ux {
-					if py := pos[crows[y]]; py < nc {
-						prow[py] += v
-					} else {
-						urow[py-nc] += v
-					}
+				relU := rel[ysplit : x+1]
+				for y, v := range ux[ysplit:] {
+					urow[relU[y]-nc] += v
 				}
 			}
 		}
