@@ -134,12 +134,7 @@ func (f *bandFactor) solveMany(x []float64, nrhs int) {
 			r := f.l[i*ld : (i+1)*ld]
 			xi := x[i*nrhs+c0 : i*nrhs+c0+w]
 			for j := j0; j < i; j++ {
-				l := r[j-i+k]
-				xj := x[j*nrhs+c0 : j*nrhs+c0+w]
-				xj = xj[:len(xi)]
-				for c := range xi {
-					xi[c] -= l * xj[c]
-				}
+				axpyFast(-r[j-i+k], x[j*nrhs+c0:j*nrhs+c0+w], xi)
 			}
 			inv := 1 / r[k]
 			for c := range xi {
@@ -155,12 +150,7 @@ func (f *bandFactor) solveMany(x []float64, nrhs int) {
 				xi[c] *= inv
 			}
 			for j := j0; j < i; j++ {
-				l := r[j-i+k]
-				xj := x[j*nrhs+c0 : j*nrhs+c0+w]
-				xj = xj[:len(xi)]
-				for c := range xi {
-					xj[c] -= l * xi[c]
-				}
+				axpyFast(-r[j-i+k], xi, x[j*nrhs+c0:j*nrhs+c0+w])
 			}
 		}
 	}

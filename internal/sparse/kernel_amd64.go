@@ -28,3 +28,21 @@ func dot2x4(k int, a []float64, lda int, b []float64, ldb int, out *[8]float64) 
 		}
 	}
 }
+
+//go:noescape
+func axpyavx(n int, alpha float64, x *float64, y *float64)
+
+// axpyFast sets y += alpha·x (len(y) >= len(x)).
+func axpyFast(alpha float64, x, y []float64) {
+	n := len(x)
+	if !haveAVX2FMA || n < 8 {
+		axpy(alpha, x, y)
+		return
+	}
+	y = y[:n]
+	n4 := n &^ 3
+	axpyavx(n4, alpha, &x[0], &y[0])
+	for i := n4; i < n; i++ {
+		y[i] += alpha * x[i]
+	}
+}

@@ -69,3 +69,27 @@ reduce:
 	VMOVUPD X10, 48(DX)
 	VZEROUPPER
 	RET
+
+// func axpyavx(n int, alpha float64, x *float64, y *float64)
+//
+// y[i] += alpha·x[i] for i < n, n a multiple of 4 (the caller does the tail).
+TEXT ·axpyavx(SB), NOSPLIT, $0-32
+	MOVQ n+0(FP), CX
+	VBROADCASTSD alpha+8(FP), Y0
+	MOVQ x+16(FP), SI
+	MOVQ y+24(FP), DI
+	XORQ AX, AX
+	SHRQ $2, CX
+	JZ   axdone
+
+axloop:
+	VMOVUPD (DI)(AX*1), Y1
+	VFMADD231PD (SI)(AX*1), Y0, Y1
+	VMOVUPD Y1, (DI)(AX*1)
+	ADDQ $32, AX
+	DECQ CX
+	JNZ  axloop
+
+axdone:
+	VZEROUPPER
+	RET

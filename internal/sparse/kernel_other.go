@@ -6,3 +6,6 @@ package sparse
 func dot2x4(k int, a []float64, lda int, b []float64, ldb int, out *[8]float64) {
 	dot2x4Go(k, a, lda, b, ldb, out)
 }
+
+// axpyFast sets y += alpha·x (len(y) >= len(x)).
+func axpyFast(alpha float64, x, y []float64) { axpy(alpha, x, y) }
