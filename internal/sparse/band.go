@@ -20,11 +20,18 @@ type bandFactor struct {
 // quadratic in n.
 func factorBand(a *Sym, perm []int, tol float64, st *Stats) (factor, error) {
 	n := a.n
-	k := halfBandwidth(a, perm)
+	var ip []int
+	if perm != nil {
+		ip = inversePerm(perm)
+	}
+	k := halfBandwidthIP(a, ip)
 	ld := k + 1
 	data := make([]float64, n*ld)
-	fillBand(a, perm, k, data)
-	diag := permutedDiagonal(a, perm)
+	fillBand(a, ip, k, data)
+	diag := make([]float64, n)
+	for j := range diag {
+		diag[j] = data[j*ld+k]
+	}
 	st.NNZL = n * ld
 	st.HalfBandwidth = k
 	st.Flops = float64(n) * float64(k) * float64(k+3)
@@ -42,7 +49,8 @@ func factorBand(a *Sym, perm []int, tol float64, st *Stats) (factor, error) {
 		}
 		return &bandFactor{n: n, k: k, l: data}, nil
 	}
-	fillBand(a, perm, k, data)
+	clear(data)
+	fillBand(a, ip, k, data)
 	j, d := bandCholUnblocked(data, n, k, diag, tol)
 	if j < 0 {
 		j, d = n-1, math.NaN()
@@ -50,14 +58,10 @@ func factorBand(a *Sym, perm []int, tol float64, st *Stats) (factor, error) {
 	return nil, pivotError(j, d, perm, a, tol)
 }
 
-// fillBand writes the lower band of P A Pᵀ into row-major band storage.
-func fillBand(a *Sym, perm []int, k int, data []float64) {
-	clear(data)
+// fillBand writes the lower band of P A Pᵀ into zeroed row-major band
+// storage; ip is the inverse permutation (nil for the natural order).
+func fillBand(a *Sym, ip []int, k int, data []float64) {
 	ld := k + 1
-	var ip []int
-	if perm != nil {
-		ip = inversePerm(perm)
-	}
 	for r := 0; r < a.n; r++ {
 		pr := r
 		if ip != nil {

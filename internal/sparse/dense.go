@@ -130,6 +130,11 @@ func halfBandwidth(a *Sym, perm []int) int {
 	if perm != nil {
 		ip = inversePerm(perm)
 	}
+	return halfBandwidthIP(a, ip)
+}
+
+// halfBandwidthIP is halfBandwidth for the inverse permutation ip.
+func halfBandwidthIP(a *Sym, ip []int) int {
 	kd := 0
 	for r := 0; r < a.n; r++ {
 		pr := r

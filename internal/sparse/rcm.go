@@ -1,7 +1,5 @@
 package sparse
 
-import "sort"
-
 // RCM returns the reverse Cuthill-McKee ordering of the graph adj (adj[v]
 // lists the neighbours of vertex v; self-loops and duplicates are ignored).
 // The result is a permutation: perm[k] is the vertex placed at position k.
@@ -32,11 +30,7 @@ func RCM(adj [][]int) []int {
 	var nbuf []int
 	// Components are started in order of their lowest-degree vertex so
 	// that the result is deterministic.
-	order := make([]int, n)
-	for v := range order {
-		order[v] = v
-	}
-	sort.SliceStable(order, func(a, b int) bool { return deg[order[a]] < deg[order[b]] })
+	order := byDegree(deg)
 	for _, seed := range order {
 		if visited[seed] {
 			continue
@@ -55,12 +49,7 @@ func RCM(adj [][]int) []int {
 					nbuf = append(nbuf, w)
 				}
 			}
-			sort.Slice(nbuf, func(a, b int) bool {
-				if deg[nbuf[a]] != deg[nbuf[b]] {
-					return deg[nbuf[a]] < deg[nbuf[b]]
-				}
-				return nbuf[a] < nbuf[b]
-			})
+			sortByDegree(nbuf, deg)
 			perm = append(perm, nbuf...)
 		}
 	}
@@ -124,4 +113,40 @@ func bfsLevels(adj [][]int, root int, level []int, queue *[]int) (int, []int) {
 	}
 	*queue = q
 	return depth, last
+}
+
+// byDegree returns the vertices sorted by increasing degree, ties by index
+// (a stable counting sort).
+func byDegree(deg []int) []int {
+	maxd := 0
+	for _, d := range deg {
+		maxd = max(maxd, d)
+	}
+	start := make([]int, maxd+2)
+	for _, d := range deg {
+		start[d+1]++
+	}
+	for d := 0; d <= maxd; d++ {
+		start[d+1] += start[d]
+	}
+	order := make([]int, len(deg))
+	for v, d := range deg {
+		order[start[d]] = v
+		start[d]++
+	}
+	return order
+}
+
+// sortByDegree sorts the few neighbours of one vertex by (degree, index),
+// by insertion.
+func sortByDegree(vs []int, deg []int) {
+	for i := 1; i < len(vs); i++ {
+		v := vs[i]
+		j := i
+		for j > 0 && (deg[vs[j-1]] > deg[v] || deg[vs[j-1]] == deg[v] && vs[j-1] > v) {
+			vs[j] = vs[j-1]
+			j--
+		}
+		vs[j] = v
+	}
 }
