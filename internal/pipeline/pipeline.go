@@ -258,6 +258,12 @@ func (p *Pipeline) process(ctx context.Context, e epoch.Epoch) {
 		}
 		p.lastEval = t
 		res.Events = evs
+		for _, ev := range evs {
+			if ev.Kind == alerts.Raised {
+				res.Window = p.proc.WindowCauses()
+				break
+			}
+		}
 	}
 	res.Active = p.eval.Active(p.structure)
 	st := p.asm.Stats()
@@ -283,10 +289,10 @@ func (p *Pipeline) observation(t time.Time, res *Result) alerts.Observation {
 		return o
 	}
 	o.Fit = &alerts.Fit{ChiSquare: res.ChiSquare, DOF: res.DOF, PValue: res.PValue}
-	causes := res.Window
-	if len(causes) == 0 {
-		causes = res.Causes
-	}
+	// The evidence carries this epoch's ranking: its sizes are those of the
+	// fault as it is now, where a window that only began to fill would
+	// dilute them.
+	causes := res.Causes
 	for i, c := range causes {
 		if i == 3 {
 			break

@@ -88,7 +88,8 @@ type Result struct {
 	Critical  float64
 	Loads     []LoadEstimate
 	// Causes are this epoch's ranked causes (rejected fits only), Window
-	// the sliding-window ranking.
+	// the sliding-window ranking (set by the Pipeline on epochs that raise
+	// an alarm, and available from Processor.WindowCauses).
 	Causes []Cause
 	Window []Cause
 	// MissingChannels are the channels that did not report in the epoch.
@@ -246,6 +247,10 @@ func column(a *mat.Dense, j int) []float64 {
 	}
 	return out
 }
+
+// WindowCauses returns the sliding-window ranking of the causes over the
+// last CauseWindow epochs (computed on demand: it costs more than an epoch).
+func (p *Processor) WindowCauses() []Cause { return p.convert(p.window.Ranked()) }
 
 // Gauged returns the gauged member ids in row order.
 func (p *Processor) Gauged() []string { return append([]string(nil), p.lm.names...) }
@@ -429,7 +434,6 @@ func (p *Processor) fill(res *Result, r *reconcile.Result, s *reconcile.Solver, 
 	p.window.Add(causes)
 	if r.Rejected {
 		res.Causes = p.convert(causes)
-		res.Window = p.convert(p.window.Ranked())
 	}
 }
 

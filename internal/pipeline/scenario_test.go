@@ -421,12 +421,12 @@ func TestScenarioGaugeBias(t *testing.T) {
 				}
 				if n >= window && res.Rejected {
 					windowChecks++
-					if firstIsGauge(res.Window, tc.member, tc.paired) {
+					if firstIsGauge(p.WindowCauses(), tc.member, tc.paired) {
 						ranked++
 					} else if ranked == windowChecks-1 {
-						t.Logf("%s: window ranking%s", s.Time.Format(time.TimeOnly), scnTop(res.Window, 4))
+						t.Logf("%s: window ranking%s", s.Time.Format(time.TimeOnly), scnTop(p.WindowCauses(), 4))
 					}
-					lastWindow = res.Window
+					lastWindow = p.WindowCauses()
 				}
 			})
 			power := distuv.UnitNormal.CDF(delta-k) + distuv.UnitNormal.CDF(-delta-k)
@@ -555,12 +555,12 @@ func TestScenarioStiffnessLoss(t *testing.T) {
 			}
 			if n >= faultAt+window-1 && res.Rejected {
 				checks++
-				if len(res.Window) > 1 && scnSetOf(res.Window[0].Label, res.Window[1].Label) == scnSetOf("E A of D2", "gauge D2") {
+				if len(p.WindowCauses()) > 1 && scnSetOf(p.WindowCauses()[0].Label, p.WindowCauses()[1].Label) == scnSetOf("E A of D2", "gauge D2") {
 					named++
 				} else if checks-1 == named {
-					t.Logf("%s: window%s", s.Time.Format(time.TimeOnly), scnTop(res.Window, 4))
+					t.Logf("%s: window%s", s.Time.Format(time.TimeOnly), scnTop(p.WindowCauses(), 4))
 				}
-				last = res.Window
+				last = p.WindowCauses()
 			}
 			n++
 		})
@@ -654,7 +654,7 @@ func TestScenarioStiffnessLoss(t *testing.T) {
 			}
 		}
 		bound := binomialQuantile(n, 0.001, 0.9999)
-		// Result.Window is filled on rejected epochs only; the processor's
+		// The window ranking is computed on demand; the processor's
 		// window is read directly here (same package) to show what it holds.
 		win := p.convert(p.window.Ranked())
 		t.Logf("D4: gamma = %.4f, linearised size %.1f %%; non-centrality per epoch at most %.2f, over the last 60 epochs %.1f; global test rejected %d of %d epochs (false-alarm bound %d); processor's window:%s",
@@ -749,7 +749,7 @@ func TestScenarioSettlement(t *testing.T) {
 				if n >= faultAt+window-1 && res.Rejected {
 					checks++
 					isIt := func(c Cause) bool { return c.Kind == "support_settlement" && c.Subject == tc.subject }
-					w := res.Window
+					w := p.WindowCauses()
 					if len(w) > 0 && isIt(w[0]) {
 						rawFirst++
 					}
@@ -759,7 +759,7 @@ func TestScenarioSettlement(t *testing.T) {
 					if len(w) > 0 && isIt(w[0]) {
 						first++
 					} else if checks-1 == first {
-						t.Logf("%s: window%s", s.Time.Format(time.TimeOnly), scnTop(res.Window, 4))
+						t.Logf("%s: window%s", s.Time.Format(time.TimeOnly), scnTop(p.WindowCauses(), 4))
 					}
 					last = w
 				}
