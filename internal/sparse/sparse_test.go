@@ -540,3 +540,44 @@ func TestNearMechanismPivotTolerance(t *testing.T) {
 		}
 	}
 }
+
+// TestConcurrentSolve: one factor serves several goroutines at once (run
+// with -race).
+func TestConcurrentSolve(t *testing.T) {
+	a, _ := doubleLayerGrid(6, 5).stiffness()
+	n := a.N()
+	for _, m := range allMethods {
+		f, err := Factorize(a, Options{Method: m})
+		if err != nil {
+			t.Fatal(err)
+		}
+		b := make([]float64, n)
+		for i := range b {
+			b[i] = float64(i%7) - 3
+		}
+		want := make([]float64, n)
+		f.Solve(want, b)
+		errs := make(chan error, 4)
+		for g := 0; g < 4; g++ {
+			go func() {
+				x := make([]float64, n)
+				for r := 0; r < 20; r++ {
+					f.Solve(x, b)
+					if !slices.Equal(x, want) {
+						errs <- fmt.Errorf("%v: concurrent Solve differs", m)
+						return
+					}
+					B := mat.NewDense(n, 3, nil)
+					B.SetCol(0, b)
+					f.SolveMany(B, B)
+				}
+				errs <- nil
+			}()
+		}
+		for g := 0; g < 4; g++ {
+			if err := <-errs; err != nil {
+				t.Error(err)
+			}
+		}
+	}
+}
