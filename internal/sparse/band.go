@@ -26,6 +26,9 @@ func factorBand(a *Sym, perm []int, tol float64, st *Stats) (factor, error) {
 	}
 	k := halfBandwidthIP(a, ip)
 	ld := k + 1
+	if e := float64(n) * float64(ld); e > maxFactorEntries {
+		return nil, tooLarge(Band, st.Ordering, n, e)
+	}
 	data := make([]float64, n*ld)
 	fillBand(a, ip, k, data)
 	diag := make([]float64, n)

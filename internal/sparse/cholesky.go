@@ -119,6 +119,18 @@ type Stats struct {
 	FactorTime    time.Duration // numeric factorisation
 }
 
+// maxFactorEntries bounds the storage of one factor (2^29 float64, 4 GiB):
+// beyond it Factorize returns an error instead of exhausting memory, e.g.
+// for the dense method on a large model or the band method after a
+// fill-reducing ordering.
+const maxFactorEntries = 1 << 29
+
+// tooLarge is the error for a factor that would exceed maxFactorEntries.
+func tooLarge(m Method, ord Ordering, n int, entries float64) error {
+	return fmt.Errorf("sparse: the %v factor of the %d×%d matrix after %v ordering would hold %.3g entries (%.1f GiB), over the limit of %d; use Method Auto, or Band with RCM or Supernodal with minimum degree",
+		m, n, n, ord, entries, entries*8/(1<<30), maxFactorEntries)
+}
+
 // factor is the numeric factor of the permuted matrix P A Pᵀ = L Lᵀ.
 type factor interface {
 	// solve overwrites x with (L Lᵀ)⁻¹ x, in permuted numbering.

@@ -29,6 +29,9 @@ func permutedDiagonal(a *Sym, perm []int) []float64 {
 // the supernodal fronts (one front holding every column).
 func factorDense(a *Sym, perm []int, tol float64, st *Stats) (factor, error) {
 	n := a.n
+	if e := float64(n) * float64(n); e > maxFactorEntries {
+		return nil, tooLarge(Dense, st.Ordering, n, e)
+	}
 	data := make([]float64, n*n)
 	fillDense(a, perm, data)
 	diag := permutedDiagonal(a, perm)

@@ -581,3 +581,15 @@ func TestConcurrentSolve(t *testing.T) {
 		}
 	}
 }
+
+// TestFactorTooLarge: a dense factor over the storage limit is refused with
+// an error, not an out-of-memory crash, while Auto solves the same model.
+func TestFactorTooLarge(t *testing.T) {
+	a, _ := boxBridge(2000, 1).stiffness() // 24k DOF: dense needs 4.6 GB
+	if _, err := Factorize(a, Options{Method: Dense}); err == nil {
+		t.Error("dense factor of 24k DOF accepted")
+	}
+	if _, err := Factorize(a, Options{Method: Auto}); err != nil {
+		t.Errorf("Auto: %v", err)
+	}
+}

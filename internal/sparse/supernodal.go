@@ -34,6 +34,9 @@ func factorSupernodal(a *Sym, perm []int, tol float64, st *Stats) (factor, error
 func numericSupernodal(a *Sym, sy *symbolic, tol float64) (factor, error) {
 	n := sy.n
 	ns := len(sy.super) - 1
+	if e := sy.lPtr[ns]; e > maxFactorEntries {
+		return nil, tooLarge(Supernodal, AutoOrdering, n, float64(e))
+	}
 	lVal := make([]float64, sy.lPtr[ns])
 	diag := permutedDiagonal(a, sy.perm)
 	pos := make([]int, n)
