@@ -12,6 +12,10 @@ import "math"
 // absorption and a dense-row threshold of max(16, 10·√n), following the
 // presentation in T. A. Davis, "Direct Methods for Sparse Linear Systems",
 // SIAM 2006, section 7.1. The elimination is postordered.
+//
+// Provenance: this is a Go translation of the cs_amd routine printed in that
+// book (CSparse, GNU LGPL 2.1 or later), keeping its structure and variable
+// names; treeDFS likewise follows cs_tdfs.
 func AMD(a *Sym) []int {
 	n := a.n
 	if n == 0 {
