@@ -5,12 +5,12 @@ import (
 	"compress/gzip"
 	"context"
 	"io"
-	"math"
 	"os"
 	"path/filepath"
-	"strconv"
 	"strings"
 	"testing"
+
+	"trussmonitor/internal/simulate/loggercsv"
 )
 
 func gunzip(t *testing.T, path string) []byte {
@@ -45,7 +45,7 @@ func TestSimulateReplayCommand(t *testing.T) {
 	if code := runSimulate(context.Background(), args, &stdout, &stderr); code != 0 {
 		t.Fatalf("exit %d: %s", code, stderr.String())
 	}
-	if line, ok := sameCSVWithin(gunzip(t, out), gunzip(t, "../../testdata/replay/footbridge-day.csv.gz")); !ok {
+	if line, ok := loggercsv.SameWithin(gunzip(t, out), gunzip(t, "../../testdata/replay/footbridge-day.csv.gz"), 1e-6); !ok {
 		t.Fatalf("line %d: "+"the README command no longer reproduces testdata/replay/footbridge-day.csv.gz; regenerate with go test ./internal/simulate/ -run TestReplayDay -update and update the README", line)
 	}
 	if !strings.Contains(stdout.String(), "1440 steps of 46 channels") {
@@ -71,36 +71,4 @@ func TestSimulateFlagErrors(t *testing.T) {
 			t.Errorf("%v: exit %d, stderr %q; want exit %d mentioning %q", tc.args, code, stderr.String(), tc.code, tc.want)
 		}
 	}
-}
-
-// sameCSVWithin reports where two logger CSV texts differ by more than
-// rounding: cells must be equal, or numbers within a relative 1e-6 (the
-// recorded day is printed to 8 significant digits, and a change in the
-// solver's ordering moves the last digit).
-func sameCSVWithin(got, want []byte) (int, bool) {
-	gl := strings.Split(string(got), "\n")
-	wl := strings.Split(string(want), "\n")
-	if len(gl) != len(wl) {
-		return min(len(gl), len(wl)) + 1, false
-	}
-	for i := range gl {
-		if gl[i] == wl[i] {
-			continue
-		}
-		gc, wc := strings.Split(gl[i], ","), strings.Split(wl[i], ",")
-		if len(gc) != len(wc) {
-			return i + 1, false
-		}
-		for j := range gc {
-			if gc[j] == wc[j] {
-				continue
-			}
-			a, err1 := strconv.ParseFloat(gc[j], 64)
-			b, err2 := strconv.ParseFloat(wc[j], 64)
-			if err1 != nil || err2 != nil || math.Abs(a-b) > 1e-6*math.Max(math.Abs(a), math.Abs(b))+1e-15 {
-				return i + 1, false
-			}
-		}
-	}
-	return 0, true
 }

@@ -8,8 +8,6 @@ import (
 	"io"
 	"math"
 	"os"
-	"strconv"
-	"strings"
 	"testing"
 	"time"
 
@@ -98,7 +96,7 @@ func TestReplayDay(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if line, ok := sameCSVWithin(got, want.Bytes()); !ok {
+	if line, ok := loggercsv.SameWithin(got, want.Bytes(), 1e-6); !ok {
 		t.Fatalf("%s differs from the generator beyond rounding at line %d; regenerate with -update if the change is intended", replayFile, line)
 	}
 
@@ -150,36 +148,4 @@ func TestReplayDay(t *testing.T) {
 		t.Fatalf("D2 measured force %.0f N before 14:00 and %.0f N after: jump %.0f N, want about 27.5 kN", before, after, jump)
 	}
 	t.Logf("D2 measured force (mean over an hour) %.0f N before 14:00, %.0f N after; file %d bytes", before, after, info.Size())
-}
-
-// sameCSVWithin reports where two logger CSV texts differ by more than
-// rounding: cells must be equal, or numbers within a relative 1e-6 (the
-// recorded day is printed to 8 significant digits, and a change in the
-// solver's ordering moves the last digit).
-func sameCSVWithin(got, want []byte) (int, bool) {
-	gl := strings.Split(string(got), "\n")
-	wl := strings.Split(string(want), "\n")
-	if len(gl) != len(wl) {
-		return min(len(gl), len(wl)) + 1, false
-	}
-	for i := range gl {
-		if gl[i] == wl[i] {
-			continue
-		}
-		gc, wc := strings.Split(gl[i], ","), strings.Split(wl[i], ",")
-		if len(gc) != len(wc) {
-			return i + 1, false
-		}
-		for j := range gc {
-			if gc[j] == wc[j] {
-				continue
-			}
-			a, err1 := strconv.ParseFloat(gc[j], 64)
-			b, err2 := strconv.ParseFloat(wc[j], 64)
-			if err1 != nil || err2 != nil || math.Abs(a-b) > 1e-6*math.Max(math.Abs(a), math.Abs(b))+1e-15 {
-				return i + 1, false
-			}
-		}
-	}
-	return 0, true
 }
