@@ -60,12 +60,12 @@ func lowerRows(a *Sym, perm, ip []int) ([]int, []int32) {
 	return lrp, lri
 }
 
-// postorder returns a depth-first postorder of the forest parent.
+// postorder returns a depth-first postorder of the forest parent: every
+// node comes after all of its descendants, children in increasing order.
 func postorder(parent []int) []int {
 	n := len(parent)
-	head := make([]int, n)
-	next := make([]int, n)
-	stack := make([]int, n)
+	head := make([]int, n) // first child not yet visited
+	next := make([]int, n) // next sibling
 	for j := range head {
 		head[j] = -1
 	}
@@ -75,11 +75,22 @@ func postorder(parent []int) []int {
 			head[p] = j
 		}
 	}
-	post := make([]int, n)
-	k := 0
-	for j := 0; j < n; j++ {
-		if parent[j] == -1 {
-			k = treeDFS(j, k, head, next, post, stack)
+	post := make([]int, 0, n)
+	stack := make([]int, 0, 64)
+	for r := 0; r < n; r++ {
+		if parent[r] != -1 {
+			continue
+		}
+		stack = append(stack, r)
+		for len(stack) > 0 {
+			v := stack[len(stack)-1]
+			if c := head[v]; c != -1 {
+				head[v] = next[c]
+				stack = append(stack, c)
+				continue
+			}
+			stack = stack[:len(stack)-1]
+			post = append(post, v)
 		}
 	}
 	return post
