@@ -1,5 +1,7 @@
 package sparse
 
+import "math"
+
 // AMD returns a fill-reducing minimum degree ordering of the graph of a, as
 // a permutation: perm[k] is the row placed at position k.
 //
@@ -26,6 +28,10 @@ package sparse
 //     of the sizes of its element lists outside the new element.
 //   - Supervariables wait in bucket lists indexed by degree; a pivot of
 //     least degree is taken from the lowest non-empty bucket.
+//   - A dense row, one with more than max(64, 10·√n) off-diagonal entries
+//     (far more than any joint of a truss mesh), is left out of the graph
+//     and ordered last, as is common practice: kept in, it would be in
+//     nearly every new element and make the elimination quadratic.
 //
 // Multiple elimination (Liu, ACM TOMS 11, 1985) is not used: one pivot is
 // taken at a time, which the approximate degrees make cheap. The order
@@ -49,6 +55,7 @@ const (
 	stMerged                // variable merged into a supervariable or eliminated with a pivot
 	stElem                  // live element: an eliminated supervariable
 	stAbsorbed              // element absorbed into a later element
+	stDense                 // dense row, ordered last
 )
 
 // quotientGraph is the state of the minimum degree elimination.
@@ -95,6 +102,7 @@ type quotientGraph struct {
 	touched  []int
 
 	scratchE, scratchA []int32
+	dense              []int // dense rows, ordered last
 }
 
 func newQuotientGraph(a *Sym) *quotientGraph {
@@ -131,6 +139,7 @@ func newQuotientGraph(a *Sym) *quotientGraph {
 	for d := range g.bhead {
 		g.bhead[d] = -1
 	}
+	g.deferDense(a)
 	g.compressOriginal(a)
 	// Variable lists of the principal variables: their principal
 	// neighbours. A neighbour merged into r leaves r in the list, since
@@ -154,6 +163,27 @@ func newQuotientGraph(a *Sym) *quotientGraph {
 		g.bucketInsert(i)
 	}
 	return g
+}
+
+// denseDegree returns the number of off-diagonal entries above which a row
+// of an n×n matrix is ordered last.
+func denseDegree(n int) int {
+	return max(64, int(10*math.Sqrt(float64(n))))
+}
+
+// deferDense marks the dense rows; they take no part in the elimination.
+func (g *quotientGraph) deferDense(a *Sym) {
+	limit := denseDegree(g.n)
+	for i := 0; i < g.n; i++ {
+		d := a.p[i+1] - a.p[i]
+		if a.hasEntry(i, i) {
+			d--
+		}
+		if d > limit {
+			g.state[i] = stDense
+			g.dense = append(g.dense, i)
+		}
+	}
 }
 
 // compressOriginal merges nodes of the original graph that have the same
@@ -259,7 +289,7 @@ func (g *quotientGraph) popMin() int {
 func (g *quotientGraph) order() []int {
 	n := g.n
 	perm := make([]int, 0, n)
-	eliminated := 0
+	eliminated := len(g.dense)
 	for eliminated < n {
 		p := g.popMin()
 		g.stamp++
@@ -274,7 +304,7 @@ func (g *quotientGraph) order() []int {
 		g.finishDegrees(n - eliminated)
 		g.storeElement(p)
 	}
-	return perm
+	return append(perm, g.dense...)
 }
 
 // buildElement turns pivot p into an element: Lp is the union of p's

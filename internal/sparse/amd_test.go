@@ -260,3 +260,77 @@ func TestAMDCloseToExactMinimumDegree(t *testing.T) {
 	}
 	t.Logf("total fill: approximate %d, exact %d", totalAMD, totalRef)
 }
+
+// hubGrid is a k×k 2D grid graph plus one node joined to every grid node
+// (a dense row), numbered so that the hub is node 0.
+func hubGrid(k int) *Sym {
+	n := k*k + 1
+	id := func(x, y int) int { return 1 + x*k + y }
+	var e [][2]int
+	for x := 0; x < k; x++ {
+		for y := 0; y < k; y++ {
+			e = append(e, [2]int{0, id(x, y)})
+			if x+1 < k {
+				e = append(e, [2]int{id(x, y), id(x+1, y)})
+			}
+			if y+1 < k {
+				e = append(e, [2]int{id(x, y), id(x, y+1)})
+			}
+		}
+	}
+	return graphMatrix(n, e)
+}
+
+// TestAMDDenseRowOrderedLast checks that a row with more entries than
+// denseDegree is ordered last, and that a row at the limit is not set
+// aside.
+func TestAMDDenseRowOrderedLast(t *testing.T) {
+	a := hubGrid(60)
+	n := a.N()
+	p := AMD(a)
+	if err := isPermutation(p, n); err != nil {
+		t.Fatal(err)
+	}
+	if p[n-1] != 0 {
+		t.Errorf("dense hub at position %d, want last (%d)", inversePerm(p)[0], n-1)
+	}
+	if g := newQuotientGraph(a); len(g.dense) != 1 || g.dense[0] != 0 {
+		t.Errorf("dense rows %v, want [0]", g.dense)
+	}
+	// A star in a graph of 121 nodes: denseDegree(121) = 110. With 110
+	// leaves (the rest isolated) the centre is at the limit and stays in
+	// the elimination, its leaves first and no fill; with 111 it is set
+	// aside.
+	const m = 121
+	if denseDegree(m) != 110 {
+		t.Fatalf("denseDegree(%d) = %d, test assumes 110", m, denseDegree(m))
+	}
+	for _, leaves := range []int{110, 111} {
+		var star [][2]int
+		for i := 1; i <= leaves; i++ {
+			star = append(star, [2]int{0, i})
+		}
+		s := graphMatrix(m, star)
+		g := newQuotientGraph(s)
+		if wantDense := leaves > 110; (len(g.dense) == 1) != wantDense || len(g.dense) > 1 {
+			t.Errorf("%d leaves: dense rows %v, want dense=%v", leaves, g.dense, wantDense)
+		}
+		q := AMD(s)
+		if err := isPermutation(q, m); err != nil {
+			t.Fatal(err)
+		}
+		if f := eliminationFill(s, q); f != 0 {
+			t.Errorf("%d leaves: %d fill edges, want 0", leaves, f)
+		}
+	}
+}
+
+// BenchmarkAMDDenseRow times the ordering of a 200×200 grid with a hub
+// joined to every node; without setting the dense row aside the time
+// grows quadratically.
+func BenchmarkAMDDenseRow(b *testing.B) {
+	a := hubGrid(200)
+	for b.Loop() {
+		AMD(a)
+	}
+}
