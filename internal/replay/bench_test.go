@@ -32,9 +32,11 @@ type benchStore struct {
 // benchStores are the benchmark's stores (with and without the fault) and
 // the folder holding them, removed by TestMain.
 var benchStores struct {
-	dir           string
-	fault, intact benchStore
+	dir                  string
+	fault, intact, dense benchStore
 }
+
+const denseSensorsFile = "../../testdata/footbridge/sensors-100.yaml"
 
 func TestMain(m *testing.M) {
 	flag.Parse()
@@ -48,12 +50,12 @@ func TestMain(m *testing.M) {
 // generateDay stores hours of the footbridge at one reading per channel
 // per second (46 channels; with fault, a 30 % stiffness loss of D2
 // half-way), with the structure file as the model in force.
-func generateDay(hours int, fault bool) (string, int64, error) {
+func generateDay(hours int, fault bool, sensorsPath string) (string, int64, error) {
 	st, err := structfile.LoadFile(structureFile)
 	if err != nil {
 		return "", 0, err
 	}
-	sm, err := sensors.LoadFile(sensorsFile, st)
+	sm, err := sensors.LoadFile(sensorsPath, st)
 	if err != nil {
 		return "", 0, err
 	}
@@ -132,14 +134,17 @@ func generateDay(hours int, fault bool) (string, int64, error) {
 // Target (issue): 8.64 million readings (100 channels for a day at 1 Hz) in
 // under a minute on two cores, >= 144,000 readings/s.
 func BenchmarkReplayDay(b *testing.B) {
-	b.Run("d2-loss", func(b *testing.B) { benchReplay(b, &benchStores.fault, true) })
-	b.Run("intact", func(b *testing.B) { benchReplay(b, &benchStores.intact, false) })
+	b.Run("d2-loss", func(b *testing.B) { benchReplay(b, &benchStores.fault, true, sensorsFile) })
+	b.Run("intact", func(b *testing.B) { benchReplay(b, &benchStores.intact, false, sensorsFile) })
+	// The issue's case: 100 channels (every member gauged, ten with four
+	// gauges; testdata/footbridge/sensors-100.yaml), with the fault.
+	b.Run("100ch-d2-loss", func(b *testing.B) { benchReplay(b, &benchStores.dense, true, denseSensorsFile) })
 }
 
-func benchReplay(b *testing.B, bs *benchStore, fault bool) {
+func benchReplay(b *testing.B, bs *benchStore, fault bool, sensorsPath string) {
 	bs.once.Do(func() {
 		start := time.Now()
-		bs.path, bs.readings, bs.err = generateDay(*benchHours, fault)
+		bs.path, bs.readings, bs.err = generateDay(*benchHours, fault, sensorsPath)
 		bs.setup = time.Since(start)
 	})
 	if bs.err != nil {
@@ -149,7 +154,7 @@ func benchReplay(b *testing.B, bs *benchStore, fault bool) {
 	from := simulate.DefaultOptions().Start
 	opt := replay.Options{
 		DB: bs.path, From: from, To: from.Add(time.Duration(*benchHours) * time.Hour),
-		SensorsFile: sensorsFile, OutDir: b.TempDir(),
+		SensorsFile: sensorsPath, OutDir: b.TempDir(),
 	}
 	cpu0 := cpuTime()
 	b.ResetTimer()
