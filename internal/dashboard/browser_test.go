@@ -13,27 +13,6 @@ import (
 	"trussmonitor/internal/dashboard/browsertest"
 )
 
-// waitJS polls a JavaScript predicate in the page until it is true.
-func waitJS(t *testing.T, ctx context.Context, what, expr string) {
-	t.Helper()
-	c, cancel := context.WithTimeout(ctx, 20*time.Second)
-	defer cancel()
-	if _, err := chromedp.Run(c, chromedp.Poll[bool](expr, chromedp.WithPollingInterval(100*time.Millisecond))); err != nil {
-		t.Fatalf("waiting for %s (%s): %v", what, expr, err)
-	}
-}
-
-func evalJS[T any](t *testing.T, ctx context.Context, expr string) T {
-	t.Helper()
-	c, cancel := context.WithTimeout(ctx, 10*time.Second)
-	defer cancel()
-	v, err := chromedp.Run(c, chromedp.Evaluate[T](expr))
-	if err != nil {
-		t.Fatalf("evaluating %s: %v", expr, err)
-	}
-	return v
-}
-
 // TestBrowserFootbridge drives the page in headless Chromium over the
 // footbridge: every member drawn, a member turning to alarm between polls,
 // clicking it shows its series, and a screenshot is saved.
@@ -54,7 +33,7 @@ func TestBrowserFootbridge(t *testing.T) {
 		t.Fatalf("opening %s: %v", srv.URL, err)
 	}
 	geom := footbridgeGeometry()
-	waitJS(t, ctx, "members drawn", fmt.Sprintf(`document.querySelectorAll('#truss line[data-member]').length === %d`, len(geom.Members)))
+	browsertest.WaitJS(t, ctx, 20*time.Second, "members drawn", fmt.Sprintf(`document.querySelectorAll('#truss line[data-member]').length === %d`, len(geom.Members)))
 
 	// Every member is drawn once, in the state its data gives.
 	for _, m := range geom.Members {
@@ -65,18 +44,18 @@ func TestBrowserFootbridge(t *testing.T) {
 		case m.ID == "V3":
 			want = "unchecked"
 		}
-		got := evalJS[string](t, ctx, fmt.Sprintf(`(function(){const l=document.querySelectorAll('#truss line[data-member=%q]'); return l.length+':'+(l[0]?l[0].getAttribute('data-state'):'')})()`, m.ID))
+		got := browsertest.EvalJS[string](t, ctx, fmt.Sprintf(`(function(){const l=document.querySelectorAll('#truss line[data-member=%q]'); return l.length+':'+(l[0]?l[0].getAttribute('data-state'):'')})()`, m.ID))
 		if got != "1:"+want {
 			t.Errorf("member %s: count:state %q, want %q", m.ID, got, "1:"+want)
 		}
 	}
-	if dash := evalJS[string](t, ctx, `document.querySelector('#truss line[data-member="V3"]').getAttribute('stroke-dasharray') || ''`); dash == "" {
+	if dash := browsertest.EvalJS[string](t, ctx, `document.querySelector('#truss line[data-member="V3"]').getAttribute('stroke-dasharray') || ''`); dash == "" {
 		t.Errorf("the unchecked member V3 is not dashed")
 	}
-	if s := evalJS[string](t, ctx, `document.getElementById('caution').textContent`); !strings.Contains(s, "not a safety verdict") {
+	if s := browsertest.EvalJS[string](t, ctx, `document.getElementById('caution').textContent`); !strings.Contains(s, "not a safety verdict") {
 		t.Errorf("caution on the page: %q", s)
 	}
-	if fit := evalJS[string](t, ctx, `document.getElementById('fit-status').dataset.rejected`); fit != "false" {
+	if fit := browsertest.EvalJS[string](t, ctx, `document.getElementById('fit-status').dataset.rejected`); fit != "false" {
 		t.Errorf("fit status before the fault: rejected=%s", fit)
 	}
 
@@ -93,16 +72,16 @@ func TestBrowserFootbridge(t *testing.T) {
 			{Kind: "node_load", Subject: "L2", T: 8.8, Size: 5100, Unit: "N"},
 		},
 	})
-	waitJS(t, ctx, "D2 in alarm", `document.querySelector('#truss line[data-member="D2"]').getAttribute('data-state') === 'alarm'`)
-	if c := evalJS[string](t, ctx, `document.querySelector('#truss line[data-member="D2"]').getAttribute('stroke')`); c != "rgb(196, 22, 28)" {
+	browsertest.WaitJS(t, ctx, 20*time.Second, "D2 in alarm", `document.querySelector('#truss line[data-member="D2"]').getAttribute('data-state') === 'alarm'`)
+	if c := browsertest.EvalJS[string](t, ctx, `document.querySelector('#truss line[data-member="D2"]').getAttribute('stroke')`); c != "rgb(196, 22, 28)" {
 		t.Errorf("D2 colour in alarm %q, want the saturated alarm red rgb(196, 22, 28)", c)
 	}
-	if s := evalJS[string](t, ctx, `document.querySelector('#truss line[data-member="B3"]').getAttribute('data-state')`); s != "ok" {
+	if s := browsertest.EvalJS[string](t, ctx, `document.querySelector('#truss line[data-member="B3"]').getAttribute('data-state')`); s != "ok" {
 		t.Errorf("B3 state %q after the fault on D2, want ok", s)
 	}
-	waitJS(t, ctx, "fit rejected", `document.getElementById('fit-status').dataset.rejected === 'true'`)
-	waitJS(t, ctx, "event row", `!!document.querySelector('#events tr[data-kind="raised"][data-subject="D2"] li')`)
-	if s := evalJS[string](t, ctx, `document.querySelector('#events tr[data-subject="D2"]').textContent`); !strings.Contains(s, "gauge fault D2-a") || !strings.Contains(s, "stiffness change D2") {
+	browsertest.WaitJS(t, ctx, 20*time.Second, "fit rejected", `document.getElementById('fit-status').dataset.rejected === 'true'`)
+	browsertest.WaitJS(t, ctx, 20*time.Second, "event row", `!!document.querySelector('#events tr[data-kind="raised"][data-subject="D2"] li')`)
+	if s := browsertest.EvalJS[string](t, ctx, `document.querySelector('#events tr[data-subject="D2"]').textContent`); !strings.Contains(s, "gauge fault D2-a") || !strings.Contains(s, "stiffness change D2") {
 		t.Errorf("event row lacks the ranked causes: %q", s)
 	}
 
@@ -112,16 +91,16 @@ func TestBrowserFootbridge(t *testing.T) {
 	if err := chromedp.Do(click, chromedp.Click(chromedp.CSS(`#truss line[data-member="D2"]`))); err != nil {
 		t.Fatalf("clicking D2: %v", err)
 	}
-	waitJS(t, ctx, "series of D2", `document.getElementById('series-chart').getAttribute('data-member') === 'D2' && Number(document.getElementById('series-chart').getAttribute('data-points')) === 50`)
+	browsertest.WaitJS(t, ctx, 20*time.Second, "series of D2", `document.getElementById('series-chart').getAttribute('data-member') === 'D2' && Number(document.getElementById('series-chart').getAttribute('data-points')) === 50`)
 	for _, id := range []string{"series-measured", "series-predicted", "series-band"} {
-		if ok := evalJS[bool](t, ctx, fmt.Sprintf(`(function(){const e=document.getElementById(%q); return !!e && (e.getAttribute('d')||e.getAttribute('points')||'').length > 20})()`, id)); !ok {
+		if ok := browsertest.EvalJS[bool](t, ctx, fmt.Sprintf(`(function(){const e=document.getElementById(%q); return !!e && (e.getAttribute('d')||e.getAttribute('points')||'').length > 20})()`, id)); !ok {
 			t.Errorf("series chart has no drawn #%s", id)
 		}
 	}
-	if n := evalJS[int](t, ctx, `document.querySelectorAll('#series-alarms rect').length`); n != 10 {
+	if n := browsertest.EvalJS[int](t, ctx, `document.querySelectorAll('#series-alarms rect').length`); n != 10 {
 		t.Errorf("alarm strip has %d marks, want 10 (epochs 40..49)", n)
 	}
-	if s := evalJS[string](t, ctx, `document.getElementById('member-detail').textContent`); !strings.Contains(s, "alarm") {
+	if s := browsertest.EvalJS[string](t, ctx, `document.getElementById('member-detail').textContent`); !strings.Contains(s, "alarm") {
 		t.Errorf("member detail does not show the alarm: %q", s)
 	}
 	browsertest.SaveScreenshot(ctx, t, "dashboard-footbridge.png")
@@ -144,16 +123,16 @@ func TestBrowserSpaceGrid(t *testing.T) {
 	if err := chromedp.Do(nav, chromedp.Navigate(srv.URL+"/?poll=300")); err != nil {
 		t.Fatalf("opening %s: %v", srv.URL, err)
 	}
-	waitJS(t, ctx, "members drawn", fmt.Sprintf(`document.querySelectorAll('#truss line[data-member]').length === %d`, len(src.geom.Members)))
-	if vis := evalJS[bool](t, ctx, `!document.getElementById('view-controls').hidden`); !vis {
+	browsertest.WaitJS(t, ctx, 20*time.Second, "members drawn", fmt.Sprintf(`document.querySelectorAll('#truss line[data-member]').length === %d`, len(src.geom.Members)))
+	if vis := browsertest.EvalJS[bool](t, ctx, `!document.getElementById('view-controls').hidden`); !vis {
 		t.Errorf("view controls hidden for a space truss")
 	}
-	before := evalJS[string](t, ctx, `document.querySelector('#truss line[data-member="M1"]').getAttribute('x2')`)
+	before := browsertest.EvalJS[string](t, ctx, `document.querySelector('#truss line[data-member="M1"]').getAttribute('x2')`)
 	click, cancelClick := context.WithTimeout(ctx, 10*time.Second)
 	defer cancelClick()
 	if err := chromedp.Do(click, chromedp.Click(chromedp.CSS(`#rot-right`))); err != nil {
 		t.Fatalf("clicking turn right: %v", err)
 	}
-	waitJS(t, ctx, "view turned", fmt.Sprintf(`document.querySelector('#truss line[data-member="M1"]').getAttribute('x2') !== %q`, before))
+	browsertest.WaitJS(t, ctx, 20*time.Second, "view turned", fmt.Sprintf(`document.querySelector('#truss line[data-member="M1"]').getAttribute('x2') !== %q`, before))
 	browsertest.SaveScreenshot(ctx, t, "dashboard-space-grid.png")
 }

@@ -61,18 +61,18 @@ func TestDemoDashboardInBrowser(t *testing.T) {
 		t.Fatalf("opening %s: %v", d.URL(), err)
 	}
 	members := len(d.Structure("alder-creek").Members)
-	waitJS(t, ctx, 30*time.Second, "every footbridge member drawn", fmt.Sprintf(`document.querySelectorAll('#truss line[data-member]').length === %d`, members))
-	if s := evalJS[string](t, ctx, `document.getElementById('caution').textContent`); !strings.Contains(s, "not a safety verdict") {
+	browsertest.WaitJS(t, ctx, 30*time.Second, "every footbridge member drawn", fmt.Sprintf(`document.querySelectorAll('#truss line[data-member]').length === %d`, members))
+	if s := browsertest.EvalJS[string](t, ctx, `document.getElementById('caution').textContent`); !strings.Contains(s, "not a safety verdict") {
 		t.Errorf("caution on the page: %q", s)
 	}
 	// Before the fault (simulated minute 1 = 3 s of wall time) D2 is not in
 	// alarm.
-	if s := evalJS[string](t, ctx, `document.querySelector('#truss line[data-member="D2"]').getAttribute('data-state')`); s == "alarm" {
+	if s := browsertest.EvalJS[string](t, ctx, `document.querySelector('#truss line[data-member="D2"]').getAttribute('data-state')`); s == "alarm" {
 		t.Errorf("D2 in alarm before the fault")
 	}
 	// The alarm needs |w| over the critical value for the rule's 2 minute
 	// for-duration: about 10 s of wall time after the fault at speed 20.
-	waitJS(t, ctx, 60*time.Second, "D2 in alarm", `(document.querySelector('#truss line[data-member="D2"]')||{getAttribute:()=>''}).getAttribute('data-state') === 'alarm'`)
+	browsertest.WaitJS(t, ctx, 60*time.Second, "D2 in alarm", `(document.querySelector('#truss line[data-member="D2"]')||{getAttribute:()=>''}).getAttribute('data-state') === 'alarm'`)
 	if d.Now().Before(d.FaultTime()) {
 		t.Errorf("alarm before the fault time %s (clock %s)", d.FaultTime(), d.Now())
 	}
@@ -81,27 +81,7 @@ func TestDemoDashboardInBrowser(t *testing.T) {
 	if err := chromedp.Do(click, chromedp.Click(chromedp.CSS(`#truss line[data-member="D2"]`))); err != nil {
 		t.Fatalf("clicking D2: %v", err)
 	}
-	waitJS(t, ctx, 20*time.Second, "series of D2", `document.getElementById('series-chart').getAttribute('data-member') === 'D2' && Number(document.getElementById('series-chart').getAttribute('data-points')) > 10`)
-	waitJS(t, ctx, 20*time.Second, "event row for D2", `!!document.querySelector('#events tr[data-kind="raised"][data-subject="D2"]')`)
+	browsertest.WaitJS(t, ctx, 20*time.Second, "series of D2", `document.getElementById('series-chart').getAttribute('data-member') === 'D2' && Number(document.getElementById('series-chart').getAttribute('data-points')) > 10`)
+	browsertest.WaitJS(t, ctx, 20*time.Second, "event row for D2", `!!document.querySelector('#events tr[data-kind="raised"][data-subject="D2"]')`)
 	browsertest.SaveScreenshot(ctx, t, "demo-dashboard.png")
-}
-
-func waitJS(t *testing.T, ctx context.Context, limit time.Duration, what, expr string) {
-	t.Helper()
-	c, cancel := context.WithTimeout(ctx, limit)
-	defer cancel()
-	if _, err := chromedp.Run(c, chromedp.Poll[bool](expr, chromedp.WithPollingInterval(200*time.Millisecond))); err != nil {
-		t.Fatalf("waiting for %s (%s): %v", what, expr, err)
-	}
-}
-
-func evalJS[T any](t *testing.T, ctx context.Context, expr string) T {
-	t.Helper()
-	c, cancel := context.WithTimeout(ctx, 10*time.Second)
-	defer cancel()
-	v, err := chromedp.Run(c, chromedp.Evaluate[T](expr))
-	if err != nil {
-		t.Fatalf("evaluating %s: %v", expr, err)
-	}
-	return v
 }

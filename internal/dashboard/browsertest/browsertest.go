@@ -122,3 +122,27 @@ func SaveScreenshot(ctx context.Context, t testing.TB, name string) string {
 	t.Logf("screenshot saved to %s", p)
 	return p
 }
+
+// WaitJS polls a JavaScript predicate in the page until it is true, failing
+// the test with what it waited for after limit.
+func WaitJS(t testing.TB, ctx context.Context, limit time.Duration, what, expr string) {
+	t.Helper()
+	c, cancel := context.WithTimeout(ctx, limit)
+	defer cancel()
+	if _, err := chromedp.Run(c, chromedp.Poll[bool](expr, chromedp.WithPollingInterval(100*time.Millisecond))); err != nil {
+		t.Fatalf("waiting for %s (%s): %v", what, expr, err)
+	}
+}
+
+// EvalJS evaluates a JavaScript expression in the page and returns its
+// value.
+func EvalJS[T any](t testing.TB, ctx context.Context, expr string) T {
+	t.Helper()
+	c, cancel := context.WithTimeout(ctx, 10*time.Second)
+	defer cancel()
+	v, err := chromedp.Run(c, chromedp.Evaluate[T](expr))
+	if err != nil {
+		t.Fatalf("evaluating %s: %v", expr, err)
+	}
+	return v
+}
