@@ -2,9 +2,7 @@ package main
 
 import (
 	"bytes"
-	"compress/gzip"
 	"context"
-	"io"
 	"os"
 	"path/filepath"
 	"strings"
@@ -22,19 +20,7 @@ func replayCmd(args ...string) (int, string, string) {
 // import" into a new store and returns its path.
 func importedDay(t *testing.T) string {
 	t.Helper()
-	f, err := os.Open("../../testdata/replay/footbridge-day.csv.gz")
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer f.Close()
-	zr, err := gzip.NewReader(f)
-	if err != nil {
-		t.Fatal(err)
-	}
-	data, err := io.ReadAll(zr)
-	if err != nil {
-		t.Fatal(err)
-	}
+	data := gunzip(t, "../../testdata/replay/footbridge-day.csv.gz")
 	dir := t.TempDir()
 	csvPath := filepath.Join(dir, "day.csv")
 	if err := os.WriteFile(csvPath, data, 0o644); err != nil {
