@@ -176,7 +176,7 @@ func toStateJSON(s State) stateJSON {
 		out.Geometry.Nodes = append(out.Geometry.Nodes, nodeJSON{ID: nd.ID, X: n(nd.X), Y: n(nd.Y), Z: n(nd.Z)})
 	}
 	for _, m := range s.Geometry.Members {
-		out.Geometry.Members = append(out.Geometry.Members, memberJSON{ID: m.ID, Start: m.Start, End: m.End, Gauged: m.Gauged})
+		out.Geometry.Members = append(out.Geometry.Members, memberJSON(m))
 	}
 	for _, m := range s.Gauged {
 		lo, hi := band(m.Predicted, m.SigmaResidual, s.CriticalValue)

@@ -673,12 +673,6 @@ type decodedMsg struct {
 	rejectedReadings int
 }
 
-// rejection is a reason with its message.
-type rejection struct {
-	reason string
-	detail string
-}
-
 func reasonOf(err error, fallback string) string {
 	var r interface{ Reason() string }
 	if errors.As(err, &r) && r.Reason() != "" {

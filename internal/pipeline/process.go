@@ -4,7 +4,6 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"sort"
 	"strings"
 	"time"
 
@@ -494,15 +493,5 @@ func (p *Processor) convert(cs []reconcile.Cause) []Cause {
 			Separable: c.Separable, Epochs: c.Epochs,
 		})
 	}
-	return out
-}
-
-// sortedKeys returns the keys of a map in order.
-func sortedKeys(m map[string]float64) []string {
-	out := make([]string, 0, len(m))
-	for k := range m {
-		out = append(out, k)
-	}
-	sort.Strings(out)
 	return out
 }

@@ -48,16 +48,6 @@ func sizeText(v float64, unit string) string {
 	return strconv.FormatFloat(v, 'g', 3, 64) + " " + unit
 }
 
-func pText(p float64) string {
-	if math.IsNaN(p) {
-		return "–"
-	}
-	if p < 1e-3 {
-		return strconv.FormatFloat(p, 'e', 2, 64)
-	}
-	return strconv.FormatFloat(p, 'f', 3, 64)
-}
-
 const css = `body{font:14px/1.4 system-ui,sans-serif;color:#1d2a35;margin:0 auto;max-width:960px;padding:0 16px 40px}
 h1{font-size:1.5em;margin:.8em 0 .2em}h2{font-size:1.15em;margin:1.4em 0 .4em;border-bottom:1px solid #d5dbe0}
 h3{font-size:1em;margin:1em 0 .2em}

@@ -393,13 +393,6 @@ func stiffnessCase(t *testing.T, member string, redistribute bool) {
 	t.Logf("%s: largest force change %.3g N (in %s); dead-load force %.0f N, measured-force jump %.0f N", member, maxChange, maxMember, zero.Forces[mb], jump)
 }
 
-func b2f(b bool) float64 {
-	if b {
-		return 1
-	}
-	return 0
-}
-
 func TestSettlement(t *testing.T) {
 	opt := DefaultOptions()
 	opt.Duration = time.Hour

@@ -254,15 +254,3 @@ func (a *Sym) Diagonal() []float64 {
 	}
 	return d
 }
-
-// maxDiagonal returns the largest diagonal entry, the scale of the relative
-// pivot tolerance.
-func (a *Sym) maxDiagonal() float64 {
-	m := 0.0
-	for r := 0; r < a.n; r++ {
-		if v := a.At(r, r); v > m {
-			m = v
-		}
-	}
-	return m
-}

@@ -109,7 +109,7 @@ func parseYAML(data []byte) (root *yaml.Node, err error) {
 	var doc yaml.Node
 	if err := dec.Decode(&doc); err != nil {
 		if errors.Is(err, io.EOF) {
-			return nil, errors.New("file is empty; a structure file starts with name:, dimension: and nodes:")
+			return nil, errors.New("file is empty; a structure file declares at least name, dimension and nodes (see docs/structure-file.md)")
 		}
 		return nil, err
 	}
