@@ -11,6 +11,7 @@ import (
 	"fmt"
 	"math"
 	"sort"
+	"strings"
 	"sync"
 	"time"
 
@@ -161,14 +162,33 @@ func seriesPoint(t time.Time, m pipeline.MemberResult, alarm bool) dashboard.Ser
 
 func dashboardEvent(ev alerts.Event) dashboard.Event {
 	d := dashboard.Event{Time: ev.Time, Rule: ev.Rule, Subject: ev.Subject, Kind: ev.Kind, W: ev.Evidence.W, Size: ev.Evidence.Bias}
+	// Only a member's event has a w and an estimated gauge bias; the others
+	// show none (NaN is written as null).
+	if ev.Evidence.W == 0 {
+		d.W = nan()
+	}
 	if ev.Evidence.Bias != 0 {
 		d.SizeUnit = "N"
+	} else {
+		d.Size = nan()
 	}
 	d.Message = fmt.Sprintf("%s %s %s: %s %.4g (threshold %.4g)", ev.Rule, ev.Subject, ev.Kind, ev.Evidence.Signal, ev.Evidence.Value, ev.Evidence.Threshold)
 	for _, c := range ev.Evidence.Causes {
-		d.Causes = append(d.Causes, dashboard.Cause{Kind: c.Kind, Subject: c.Label, T: c.T, Size: c.Size, Unit: c.Unit})
+		d.Causes = append(d.Causes, dashboard.Cause{Kind: c.Kind, Subject: causeSubject(c.Label), T: c.T, Size: c.Size, Unit: c.Unit})
 	}
 	return d
+}
+
+// causeSubject returns what a cause label is about: "gauge D2" -> "D2",
+// "E A of D2" -> "D2", "settlement L8 y" -> "L8 y", "load at U2 y" -> "U2 y"
+// (the labels the pipeline gives its candidates).
+func causeSubject(label string) string {
+	for _, p := range []string{"gauge ", "E A of ", "settlement ", "load at "} {
+		if rest, ok := strings.CutPrefix(label, p); ok {
+			return rest
+		}
+	}
+	return label
 }
 
 // Structures lists the registered structures in registration order.

@@ -84,8 +84,11 @@ func TestLiveState(t *testing.T) {
 		t.Errorf("series: %+v", ser.Points)
 	}
 	evs, err := l.Events("alder-creek", t0, t0.Add(time.Minute))
-	if err != nil || len(evs) != 1 || evs[0].Subject != "B2" || len(evs[0].Causes) != 1 {
+	if err != nil || len(evs) != 1 || evs[0].Subject != "B2" || len(evs[0].Causes) != 1 || evs[0].Causes[0].Subject != "B2" || evs[0].Causes[0].Kind != "gauge_fault" {
 		t.Errorf("events: %+v, %v", evs, err)
+	}
+	if !math.IsNaN(evs[0].Size) {
+		t.Errorf("event without an estimated bias shows size %g, want none (NaN, null on the wire)", evs[0].Size)
 	}
 	if _, err := l.State("nowhere"); !errors.Is(err, dashboard.ErrNotFound) {
 		t.Errorf("unknown structure: %v, want ErrNotFound", err)
