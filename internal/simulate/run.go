@@ -171,6 +171,11 @@ func (r *run) step(k int) (Step, error) {
 		if err != nil {
 			return st, fmt.Errorf("simulate: step %s: %w", t.Format(time.RFC3339), err)
 		}
+		if c.ch.Unit == "count" {
+			// A counter reports whole, non-negative numbers: its noise is
+			// miscounting, not a Gaussian offset below zero.
+			raw = math.Max(0, math.Round(raw))
+		}
 		if !c.stuckAt.IsZero() && !t.Before(c.stuckAt) {
 			if !r.stuckSet[i] {
 				r.stuckRaw[i], r.stuckSet[i] = raw, true
