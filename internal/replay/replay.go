@@ -476,7 +476,29 @@ func resolveModel(ctx context.Context, db *store.Store, opt Options, sensorData 
 		return r, nil
 	}
 
-	stored, err := db.ModelAt(ctx, name, opt.From)
+	// The model in force when the period's first reading was taken (a
+	// period may begin before the service first ran).
+	at := opt.From
+	if t, err := firstReading(ctx, db, name, opt.From); err == nil && t.After(at) && t.Before(opt.To) {
+		at = t
+	}
+	stored, err := db.ModelAt(ctx, name, at)
+	if errors.Is(err, store.ErrNotFound) {
+		// No version yet when the first reading was taken (readings buffered
+		// by the logger before the service first ran): the first version
+		// recorded within the period is the one that was in force for it.
+		if all, merr := db.Models(ctx, name); merr == nil {
+			for _, mv := range all {
+				if mv.FirstSeen.Before(opt.To) {
+					stored, err = mv, nil
+					r.warnings = append(r.warnings, fmt.Sprintf("no model version was recorded before the period's first reading at %s; using the first version, recorded at %s",
+						at.UTC().Format(time.RFC3339Nano), mv.FirstSeen.UTC().Format(time.RFC3339Nano)))
+					at = mv.FirstSeen
+					break
+				}
+			}
+		}
+	}
 	switch {
 	case err == nil:
 		st, perr := structfile.Parse(fmt.Sprintf("stored model %s of %s", short(stored.Hash), name), stored.Content)
@@ -485,7 +507,7 @@ func resolveModel(ctx context.Context, db *store.Store, opt Options, sensorData 
 				short(stored.Hash), name, opt.From.UTC().Format(time.RFC3339), perr)
 		}
 		r.st, r.hash = st, stored.Hash
-		r.source = "stored version in force at " + opt.From.UTC().Format(time.RFC3339)
+		r.source = "stored version in force at " + at.UTC().Format(time.RFC3339)
 		if structData != nil && store.ModelHash(structData) != stored.Hash {
 			r.warnings = append(r.warnings, fmt.Sprintf("structure file %s differs from the stored model version %s in force at %s; the replay uses the stored version (pass --model %s to replay against the file)",
 				opt.StructureFile, short(stored.Hash), opt.From.UTC().Format(time.RFC3339), opt.StructureFile))
