@@ -580,3 +580,38 @@ func TestModelVersions(t *testing.T) {
 		t.Errorf("warnings %q; want one about --structure differing from the stored version", sum.Warnings)
 	}
 }
+
+// TestModelRecordedAfterFirstReading: readings that predate the first
+// stored model version (a logger's backlog, or the demo) replay against
+// that first version, with a note, instead of failing.
+func TestModelRecordedAfterFirstReading(t *testing.T) {
+	path := importDay(t, false)
+	ctx := context.Background()
+	content, err := os.ReadFile(structureFile)
+	if err != nil {
+		t.Fatal(err)
+	}
+	db, err := store.Open(path, store.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := db.PutModel(ctx, "alder-creek", content, dayStart.Add(30*time.Minute)); err != nil {
+		t.Fatal(err)
+	}
+	db.Close()
+	sum, err := replay.Run(ctx, replay.Options{DB: path, From: dayStart, To: dayStart.Add(2 * time.Hour), SensorsFile: sensorsFile, OutDir: t.TempDir()})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if sum.ModelVersion != store.ModelHash(content) {
+		t.Errorf("model %s, want the stored version %s", sum.ModelVersion, store.ModelHash(content))
+	}
+	if len(sum.Warnings) != 1 || !strings.Contains(sum.Warnings[0], "no model version was recorded before the period's first reading") {
+		t.Errorf("warnings %q; want one about the first version", sum.Warnings)
+	}
+	// A version recorded only after the period is not used.
+	_, err = replay.Run(ctx, replay.Options{DB: path, From: dayStart, To: dayStart.Add(20 * time.Minute), SensorsFile: sensorsFile, OutDir: t.TempDir()})
+	if err == nil || !strings.Contains(err.Error(), "no model version") {
+		t.Errorf("period before any model version: err %v, want one saying no model version", err)
+	}
+}
