@@ -222,25 +222,17 @@ func (r *reader) nodes(s *state, n *yaml.Node) {
 		r.errorf(n, "nodes", "no nodes declared")
 	}
 	for i, it := range items {
-		f := item("nodes", i, "")
-		m, ok := r.fields(it, f, "id", "at")
+		m, id, f, ok := r.entry(it, "nodes", "node", "id", i, func(id string) (int, bool) {
+			prev, dup := s.nodes[id]
+			if !dup {
+				return 0, false
+			}
+			return s.st.Nodes[prev].Line, true
+		}, "id", "at")
 		if !ok {
 			continue
 		}
-		var node model.Node
-		node.Line = it.Line
-		idn, ok := r.need(m, it, f, "id")
-		if ok {
-			node.ID, ok = r.id(idn, f+".id")
-		}
-		if !ok {
-			continue
-		}
-		f = item("nodes", i, node.ID)
-		if prev, dup := s.nodes[node.ID]; dup {
-			r.errorf(idn, f+".id", "duplicate node id %q (first declared on line %d)", node.ID, s.st.Nodes[prev].Line)
-			continue
-		}
+		node := model.Node{ID: id, Line: it.Line}
 		at, ok := r.need(m, it, f, "at")
 		if ok {
 			node.X, ok = r.coords(s, at, f+".at")
@@ -283,28 +275,45 @@ func (r *reader) coords(s *state, n *yaml.Node, field string) ([3]float64, bool)
 	return x, good
 }
 
+// entry reads the fields of item i of the list kind (for example
+// "materials"), checks its identifying field key ("id" or "name") and
+// rejects a repeated value: firstLine gives the line of an earlier
+// declaration of the same one. It returns the fields, the identifier and
+// the item's field path naming it.
+func (r *reader) entry(it *yaml.Node, kind, noun, key string, i int, firstLine func(id string) (int, bool), allowed ...string) (m map[string]*yaml.Node, id, f string, ok bool) {
+	f = item(kind, i, "")
+	if m, ok = r.fields(it, f, allowed...); !ok {
+		return nil, "", f, false
+	}
+	idn, ok := r.need(m, it, f, key)
+	if !ok {
+		return nil, "", f, false
+	}
+	if id, ok = r.id(idn, f+"."+key); !ok {
+		return nil, "", f, false
+	}
+	f = item(kind, i, id)
+	if line, dup := firstLine(id); dup {
+		r.errorf(idn, f+"."+key, "duplicate %s %s %q (first declared on line %d)", noun, key, id, line)
+		return nil, "", f, false
+	}
+	return m, id, f, true
+}
+
 func (r *reader) materials(s *state, n *yaml.Node) {
 	items, ok := r.seq(n, "materials")
 	if !ok {
 		return
 	}
 	for i, it := range items {
-		f := item("materials", i, "")
-		m, ok := r.fields(it, f, "id", "modulus", "thermal_coefficient", "density", "description")
+		m, id, f, ok := r.entry(it, "materials", "material", "id", i, func(id string) (int, bool) {
+			prev, dup := s.materials[id]
+			if !dup {
+				return 0, false
+			}
+			return prev.line, true
+		}, "id", "modulus", "thermal_coefficient", "density", "description")
 		if !ok {
-			continue
-		}
-		idn, ok := r.need(m, it, f, "id")
-		if !ok {
-			continue
-		}
-		id, ok := r.id(idn, f+".id")
-		if !ok {
-			continue
-		}
-		f = item("materials", i, id)
-		if prev, dup := s.materials[id]; dup {
-			r.errorf(idn, f+".id", "duplicate material id %q (first declared on line %d)", id, prev.line)
 			continue
 		}
 		mat := &material{id: id, line: it.Line}
@@ -342,22 +351,14 @@ func (r *reader) sections(s *state, n *yaml.Node) {
 		return
 	}
 	for i, it := range items {
-		f := item("sections", i, "")
-		m, ok := r.fields(it, f, "id", "area", "material", "description")
+		m, id, f, ok := r.entry(it, "sections", "section", "id", i, func(id string) (int, bool) {
+			prev, dup := s.sections[id]
+			if !dup {
+				return 0, false
+			}
+			return prev.line, true
+		}, "id", "area", "material", "description")
 		if !ok {
-			continue
-		}
-		idn, ok := r.need(m, it, f, "id")
-		if !ok {
-			continue
-		}
-		id, ok := r.id(idn, f+".id")
-		if !ok {
-			continue
-		}
-		f = item("sections", i, id)
-		if prev, dup := s.sections[id]; dup {
-			r.errorf(idn, f+".id", "duplicate section id %q (first declared on line %d)", id, prev.line)
 			continue
 		}
 		sec := &section{id: id, line: it.Line}
@@ -494,22 +495,14 @@ func (r *reader) members(s *state, n *yaml.Node) {
 		r.errorf(n, "members", "no members declared")
 	}
 	for i, it := range items {
-		f := item("members", i, "")
-		m, ok := r.fields(it, f, "id", "from", "to", "section", "groups")
+		m, id, f, ok := r.entry(it, "members", "member", "id", i, func(id string) (int, bool) {
+			prev, dup := s.members[id]
+			if !dup {
+				return 0, false
+			}
+			return s.st.Members[prev].Line, true
+		}, "id", "from", "to", "section", "groups")
 		if !ok {
-			continue
-		}
-		idn, ok := r.need(m, it, f, "id")
-		if !ok {
-			continue
-		}
-		id, ok := r.id(idn, f+".id")
-		if !ok {
-			continue
-		}
-		f = item("members", i, id)
-		if prev, dup := s.members[id]; dup {
-			r.errorf(idn, f+".id", "duplicate member id %q (first declared on line %d)", id, s.st.Members[prev].Line)
 			continue
 		}
 		mem := model.Member{ID: id, I: -1, J: -1, Line: it.Line}
@@ -689,22 +682,11 @@ func (r *reader) patterns(s *state, n *yaml.Node) {
 	}
 	seen := map[string]int{}
 	for i, it := range items {
-		f := item("patterns", i, "")
-		m, ok := r.fields(it, f, "name", "description", "self_weight", "forces", "temperatures", "settlements", "unknown")
+		m, name, f, ok := r.entry(it, "patterns", "pattern", "name", i, func(id string) (int, bool) {
+			l, dup := seen[id]
+			return l, dup
+		}, "name", "description", "self_weight", "forces", "temperatures", "settlements", "unknown")
 		if !ok {
-			continue
-		}
-		nn, ok := r.need(m, it, f, "name")
-		if !ok {
-			continue
-		}
-		name, ok := r.id(nn, f+".name")
-		if !ok {
-			continue
-		}
-		f = item("patterns", i, name)
-		if l, dup := seen[name]; dup {
-			r.errorf(nn, f+".name", "duplicate pattern name %q (first declared on line %d)", name, l)
 			continue
 		}
 		seen[name] = it.Line
@@ -953,22 +935,11 @@ func (r *reader) cases(s *state, n *yaml.Node) {
 	}
 	seen := map[string]int{}
 	for i, it := range items {
-		f := item("cases", i, "")
-		m, ok := r.fields(it, f, "name", "description", "combine")
+		m, name, f, ok := r.entry(it, "cases", "case", "name", i, func(id string) (int, bool) {
+			l, dup := seen[id]
+			return l, dup
+		}, "name", "description", "combine")
 		if !ok {
-			continue
-		}
-		nn, ok := r.need(m, it, f, "name")
-		if !ok {
-			continue
-		}
-		name, ok := r.id(nn, f+".name")
-		if !ok {
-			continue
-		}
-		f = item("cases", i, name)
-		if l, dup := seen[name]; dup {
-			r.errorf(nn, f+".name", "duplicate case name %q (first declared on line %d)", name, l)
 			continue
 		}
 		seen[name] = it.Line
