@@ -13,9 +13,11 @@ import (
 
 	"golang.org/x/term"
 
+	"trussmonitor/internal/config"
 	"trussmonitor/internal/replay"
 	"trussmonitor/internal/report"
 	"trussmonitor/internal/sensors"
+	"trussmonitor/internal/settings"
 	"trussmonitor/internal/structfile"
 )
 
@@ -34,11 +36,17 @@ func runReplay(ctx context.Context, args []string, stdout, stderr io.Writer) int
 	structPath := fs.String("structure", "", "structure file: names the structure, and is the model when the store holds no model version for the period")
 	modelPath := fs.String("model", "", "structure file to replay against instead of the stored model version (what-if)")
 	outDir := fs.String("out", "", "report folder (default replay-<structure>-<from>)")
-	window := fs.Duration("window", replay.DefaultWindow, "epoch window")
-	lateness := fs.Duration("max-lateness", replay.DefaultMaxLateness, "how far behind the newest reading a reading may arrive and still join its epoch")
-	missingLoad := fs.String("missing-load", "skip", "an epoch with a load channel missing: skip it, or estimate the pattern")
+	cfgPath := fs.String("config", "", "service configuration (`FILE`) whose epoch, statistics and alarm settings the replay applies, as `monitor run --config` does")
+	def, err := settings.Defaults()
+	if err != nil {
+		fmt.Fprintf(stderr, "monitor replay: %v\n", err)
+		return 1
+	}
+	window := fs.Duration("window", def.Window, "epoch window (not with --config)")
+	lateness := fs.Duration("max-lateness", def.MaxLateness, "how far behind the newest reading a reading may arrive and still join its epoch (not with --config)")
+	missingLoad := fs.String("missing-load", "skip", "an epoch with a load channel missing: skip it, or estimate the pattern (not with --config)")
 	fs.Usage = func() {
-		fmt.Fprintln(stderr, "usage: monitor replay --db FILE --from TIME --to TIME --sensors FILE [--structure FILE] [--model FILE] [--out DIR]")
+		fmt.Fprintln(stderr, "usage: monitor replay --db FILE --from TIME --to TIME --sensors FILE [--config FILE] [--structure FILE] [--model FILE] [--out DIR]")
 		fmt.Fprintln(stderr, "Replays the stored readings of a period through the monitoring pipeline and writes a report")
 		fmt.Fprintln(stderr, "folder (index.html, epochs.csv, events.csv). Times are RFC 3339, e.g. 2026-06-01T14:00:00Z.")
 		fs.PrintDefaults()
@@ -83,6 +91,21 @@ func runReplay(ctx context.Context, args []string, stdout, stderr io.Writer) int
 	if *missingLoad != "skip" && *missingLoad != "estimate" {
 		problems = append(problems, fmt.Sprintf("--missing-load %q: want skip or estimate", *missingLoad))
 	}
+	set := def
+	set.Window, set.MaxLateness, set.EstimateMissingLoads = *window, *lateness, *missingLoad == "estimate"
+	if *cfgPath != "" {
+		fs.Visit(func(f *flag.Flag) {
+			switch f.Name {
+			case "window", "max-lateness", "missing-load":
+				problems = append(problems, fmt.Sprintf("--%s and --config both set the epoch settings; give one (the configuration's epochs section, or the flag)", f.Name))
+			}
+		})
+		if cfg, err := config.Load(*cfgPath); err != nil {
+			problems = append(problems, err.Error())
+		} else if set, err = settings.FromConfig(cfg); err != nil {
+			problems = append(problems, err.Error())
+		}
+	}
 	if len(problems) > 0 {
 		for _, p := range problems {
 			fmt.Fprintf(stderr, "monitor replay: %s\n", p)
@@ -92,8 +115,8 @@ func runReplay(ctx context.Context, args []string, stdout, stderr io.Writer) int
 	}
 	opt := replay.Options{
 		DB: *dbPath, From: from, To: to, SensorsFile: *sensorPath, StructureFile: *structPath,
-		ModelFile: *modelPath, OutDir: *outDir, Window: *window, MaxLateness: *lateness,
-		EstimateMissingLoads: *missingLoad == "estimate",
+		ModelFile: *modelPath, OutDir: *outDir, Window: set.Window, MaxLateness: set.MaxLateness,
+		EstimateMissingLoads: set.EstimateMissingLoads, Rules: set.Rules,
 	}
 	if f, ok := stderr.(*os.File); ok && term.IsTerminal(int(f.Fd())) {
 		opt.Progress = stderr

@@ -9,19 +9,26 @@ import (
 	"path/filepath"
 
 	"trussmonitor/internal/alerts"
+	"trussmonitor/internal/config"
+	"trussmonitor/internal/settings"
 	"trussmonitor/internal/structfile"
 )
 
 // runRules writes the alarm rules of the named structures as a Prometheus
-// alerting-rules file: monitor rules [--out FILE] STRUCTURE-FILE...
+// alerting-rules file: monitor rules [--config FILE] [--out FILE]
+// [STRUCTURE-FILE...]. With --config the structures and the thresholds are
+// the configuration's (the same settings.FromConfig as `monitor run`);
+// without it, the thresholds are those of the default configuration.
 func runRules(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	fs := flag.NewFlagSet("monitor rules", flag.ContinueOnError)
 	fs.SetOutput(stderr)
 	out := fs.String("out", "", "write the rules to `FILE` (default: standard output)")
+	cfgPath := fs.String("config", "", "service configuration (`FILE`): its structures and its alarm limits")
 	fs.Usage = func() {
-		fmt.Fprintln(stderr, "usage: monitor rules [--out FILE] STRUCTURE-FILE...")
-		fmt.Fprintln(stderr, "Writes the monitor's alarm rules (same thresholds and for-durations as the service's")
-		fmt.Fprintln(stderr, "in-process alarms) as a Prometheus alerting-rules file, one group per structure.")
+		fmt.Fprintln(stderr, "usage: monitor rules [--config FILE] [--out FILE] [STRUCTURE-FILE...]")
+		fmt.Fprintln(stderr, "Writes the monitor's alarm rules as a Prometheus alerting-rules file, one group per structure,")
+		fmt.Fprintln(stderr, "with the thresholds and for-durations that `monitor run --config FILE` applies in-process")
+		fmt.Fprintln(stderr, "(without --config: those of a configuration that leaves the alarms section out).")
 		fs.PrintDefaults()
 	}
 	if err := fs.Parse(args); err != nil {
@@ -30,13 +37,28 @@ func runRules(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 		}
 		return 2
 	}
-	if fs.NArg() == 0 {
-		fmt.Fprintln(stderr, "monitor rules: no structure file given; name at least one (for example testdata/footbridge/structure.yaml)")
+	files := fs.Args()
+	set, err := settings.Defaults()
+	if *cfgPath != "" {
+		var cfg *config.Config
+		if cfg, err = config.Load(*cfgPath); err == nil {
+			set, err = settings.FromConfig(cfg)
+			for _, s := range cfg.Structures {
+				files = append(files, s.Structure)
+			}
+		}
+	}
+	if err != nil {
+		fmt.Fprintf(stderr, "monitor rules: %v\n", err)
+		return 1
+	}
+	if len(files) == 0 {
+		fmt.Fprintln(stderr, "monitor rules: no structure file given; name at least one (for example testdata/footbridge/structure.yaml) or give --config")
 		fs.Usage()
 		return 2
 	}
 	var names []string
-	for _, path := range fs.Args() {
+	for _, path := range files {
 		s, err := structfile.LoadFile(path)
 		if err != nil {
 			fmt.Fprintf(stderr, "monitor rules: %v\n", err)
@@ -44,7 +66,7 @@ func runRules(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 		}
 		names = append(names, s.Name)
 	}
-	data, err := alerts.PrometheusRules(names)
+	data, err := alerts.PrometheusRulesFor(set.Rules, names)
 	if err != nil {
 		fmt.Fprintf(stderr, "monitor rules: %v\n", err)
 		return 1
@@ -60,7 +82,11 @@ func runRules(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 		fmt.Fprintf(stderr, "monitor rules: %v\n", err)
 		return 1
 	}
-	fmt.Fprintf(stderr, "monitor rules: wrote %s (%d structures)\n", *out, len(names))
+	unit := "structures"
+	if len(names) == 1 {
+		unit = "structure"
+	}
+	fmt.Fprintf(stderr, "monitor rules: wrote %s (%d %s)\n", *out, len(names), unit)
 	return 0
 }
 

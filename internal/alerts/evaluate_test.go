@@ -134,7 +134,7 @@ func TestEvaluatorErrors(t *testing.T) {
 	if _, err := NewEvaluator([]Rule{rules[0], rules[0]}, nil); err == nil {
 		t.Error("duplicate rule accepted")
 	}
-	if _, err := PrometheusRules(nil); err == nil {
+	if _, err := PrometheusRulesFor(rules, nil); err == nil {
 		t.Error("rules file without structures accepted")
 	}
 }

@@ -11,16 +11,6 @@ import (
 	"trussmonitor/internal/metrics"
 )
 
-// PrometheusRules writes DefaultRules as a Prometheus alerting-rules file
-// (one group per structure) over the metric names of internal/metrics.
-func PrometheusRules(structures []string) ([]byte, error) {
-	rules, err := DefaultRules()
-	if err != nil {
-		return nil, err
-	}
-	return PrometheusRulesFor(rules, structures)
-}
-
 // PrometheusRulesFor writes the given rules for the given structures.
 // Each rule carries the label structure (equal to its series' label) so
 // that the groups of different structures are not duplicates to promtool.

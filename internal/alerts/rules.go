@@ -64,9 +64,20 @@ func (s Signal) Scope() Scope {
 	return ScopeStructure
 }
 
+// The monitor's rule names (the Prometheus alert names and the rule of a
+// stored event). Code outside this package names a rule by these constants,
+// never by a string literal.
+const (
+	RuleMemberDiverging = "MemberDiverging"
+	RuleFitRejected     = "FitRejected"
+	RuleChannelSilent   = "ChannelSilent"
+	RuleClockSkew       = "ClockSkew"
+	RuleIngestRejects   = "IngestRejects"
+)
+
 // Rule is one alarm rule.
 type Rule struct {
-	Name     string // alert name, e.g. "MemberDiverging"
+	Name     string // alert name, one of the Rule... constants
 	Signal   Signal
 	Severity string // "critical", "warning" or "info"
 	// Below selects the direction: the alarm is raised when the signal is
@@ -167,31 +178,31 @@ func DefaultRules() ([]Rule, error) {
 	caution := " This is a monitoring aid, not a safety verdict; decisions rest with a licensed engineer under local codes."
 	rules := []Rule{
 		{
-			Name: "MemberDiverging", Signal: SignalAbsW, Severity: "critical",
+			Name: RuleMemberDiverging, Signal: SignalAbsW, Severity: "critical",
 			Raise: kRaise, Clear: kClear, For: DivergingFor,
 			Summary:     "Member {{ $labels.member }} of {{ $labels.structure }} strays from the model prediction",
 			Description: "Baarda's w statistic of the member's adjusted residual exceeds the critical value; a gauge fault, a stiffness change or an unmodelled load near the member. See the ranked causes in the event log." + caution,
 		},
 		{
-			Name: "FitRejected", Signal: SignalPValue, Severity: "warning", Below: true,
+			Name: RuleFitRejected, Signal: SignalPValue, Severity: "warning", Below: true,
 			Raise: reconcile.DefaultAlphaGlobal, Clear: 0.01, For: RejectedFor,
 			Summary:     "Measured member forces of {{ $labels.structure }} do not fit the model",
 			Description: "The global chi-square test of the weighted least-squares fit rejects; see the ranked causes in the event log." + caution,
 		},
 		{
-			Name: "ChannelSilent", Signal: SignalSilence, Severity: "warning",
+			Name: RuleChannelSilent, Signal: SignalSilence, Severity: "warning",
 			Raise: SilentAfter.Seconds(), Clear: SilentAfter.Seconds(),
 			Summary:     "Channel {{ $labels.channel }} of {{ $labels.structure }} has not reported",
 			Description: "No reading from the channel for more than the silence limit; check the logger, the sensor cable and the broker connection.",
 		},
 		{
-			Name: "ClockSkew", Signal: SignalSkewIncrease, Severity: "warning",
+			Name: RuleClockSkew, Signal: SignalSkewIncrease, Severity: "warning",
 			Raise: 0, Clear: 0, Window: CountWindow,
 			Summary:     "Logger clock of {{ $labels.structure }} is skewed",
 			Description: "Readings arrived with time stamps too far from the receive time; check the logger's time synchronisation.",
 		},
 		{
-			Name: "IngestRejects", Signal: SignalRejectIncrease, Severity: "warning",
+			Name: RuleIngestRejects, Signal: SignalRejectIncrease, Severity: "warning",
 			Raise: RejectsRaise, Clear: RejectsClear, Window: CountWindow,
 			Summary:     "Ingest of {{ $labels.structure }} rejects payloads",
 			Description: "More payloads than the limit were rejected (dead letters) in the counting window; see the dead-letter table for the reasons.",

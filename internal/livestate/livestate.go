@@ -143,7 +143,7 @@ func (l *Live) add(name string, r *pipeline.Result) {
 func alarmSet(active []alerts.Alarm) map[string]bool {
 	out := map[string]bool{}
 	for _, a := range active {
-		if a.Rule == "MemberDiverging" {
+		if a.Rule == alerts.RuleMemberDiverging {
 			out[a.Subject] = true
 		}
 	}

@@ -25,18 +25,16 @@ import (
 	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/model"
 	"trussmonitor/internal/pipeline"
+	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/report"
 	"trussmonitor/internal/sensors"
+	"trussmonitor/internal/settings"
 	"trussmonitor/internal/store"
 	"trussmonitor/internal/structfile"
 )
 
 // Defaults of Options.
 const (
-	// DefaultWindow and DefaultMaxLateness are the service's epoch defaults
-	// (internal/config), so a replay assembles epochs as live running did.
-	DefaultWindow      = time.Second
-	DefaultMaxLateness = 5 * time.Second
 	// DefaultBatch is the number of readings handed to the pipeline at a
 	// time.
 	DefaultBatch = 4096
@@ -59,14 +57,15 @@ type Options struct {
 	ModelFile string
 	// OutDir is the report folder; empty writes no report.
 	OutDir string
-	// Window and MaxLateness configure the epoch assembler (zero: the
-	// defaults above).
+	// Window and MaxLateness configure the epoch assembler (zero: those of
+	// the default service configuration, settings.Defaults).
 	Window, MaxLateness time.Duration
 	// EstimateMissingLoads turns a measured load pattern whose channel is
 	// missing in an epoch into an unknown to estimate (otherwise the epoch
 	// is skipped), as the service's missing_load: estimate.
 	EstimateMissingLoads bool
-	// Rules are the alarm rules; nil means alerts.DefaultRules.
+	// Rules are the alarm rules; nil means those of the default service
+	// configuration (settings.Defaults).
 	Rules []alerts.Rule
 	// Batch is the number of readings per pipeline call (0: DefaultBatch).
 	Batch int
@@ -268,11 +267,23 @@ func (opt *Options) check() error {
 	if opt.Window < 0 || opt.MaxLateness < 0 {
 		return fmt.Errorf("replay: window %v and maximum lateness %v must not be negative", opt.Window, opt.MaxLateness)
 	}
-	if opt.Window == 0 {
-		opt.Window = DefaultWindow
-	}
-	if opt.MaxLateness == 0 {
-		opt.MaxLateness = DefaultMaxLateness
+	if opt.Window == 0 || opt.MaxLateness == 0 || opt.Rules == nil {
+		// The settings of the default service configuration, so that a
+		// replay without a configuration assembles epochs and alarms as a
+		// service without one does.
+		def, err := settings.Defaults()
+		if err != nil {
+			return err
+		}
+		if opt.Window == 0 {
+			opt.Window = def.Window
+		}
+		if opt.MaxLateness == 0 {
+			opt.MaxLateness = def.MaxLateness
+		}
+		if opt.Rules == nil {
+			opt.Rules = def.Rules
+		}
 	}
 	if opt.Batch <= 0 {
 		opt.Batch = DefaultBatch
@@ -283,17 +294,12 @@ func (opt *Options) check() error {
 // alphaGlobal is the global test size of the FitRejected rule, or the
 // reconcile default.
 func alphaGlobal(rules []alerts.Rule) float64 {
-	if rules == nil {
-		if rs, err := alerts.DefaultRules(); err == nil {
-			rules = rs
-		}
-	}
 	for _, r := range rules {
-		if r.Signal == alerts.SignalPValue && r.Below {
+		if r.Name == alerts.RuleFitRejected {
 			return r.Raise
 		}
 	}
-	return 0.001 // reconcile.DefaultAlphaGlobal
+	return reconcile.DefaultAlphaGlobal
 }
 
 // feed reads the stored readings in time order on one goroutine and hands

@@ -29,8 +29,8 @@ import (
 	"trussmonitor/internal/metrics"
 	"trussmonitor/internal/model"
 	"trussmonitor/internal/pipeline"
-	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/sensors"
+	"trussmonitor/internal/settings"
 	"trussmonitor/internal/store"
 	"trussmonitor/internal/structfile"
 )
@@ -87,6 +87,7 @@ type Service struct {
 	httpSrv   *http.Server
 	clock     func() time.Time
 	rules     []alerts.Rule
+	set       settings.Settings
 	connected atomic.Bool
 }
 
@@ -121,22 +122,12 @@ func New(cfg *config.Config, opt Options) (*Service, error) {
 			mons = append(mons, mon)
 		}
 	}
-	rules, err := alerts.DefaultRules()
+	set, err := settings.FromConfig(cfg)
 	if err != nil {
 		return nil, err
 	}
-	for i := range rules {
-		switch rules[i].Name {
-		case "ChannelSilent":
-			rules[i].Raise = cfg.Alarms.SilentAfter.D().Seconds()
-			rules[i].Clear = rules[i].Raise
-		case "IngestRejects":
-			per := rules[i].Window.Minutes()
-			rules[i].Raise = cfg.Alarms.RejectRatePerMinute * per
-			rules[i].Clear = min(rules[i].Clear, rules[i].Raise)
-		}
-	}
-	s.rules = rules
+	s.set = set
+	s.rules = set.Rules
 	st, err := store.Open(cfg.Database, store.Options{})
 	if err != nil {
 		return nil, fmt.Errorf("%s: database: %w", cfg.File, err)
@@ -172,9 +163,9 @@ func (s *Service) addStructure(mon *Monitored) error {
 	counter := &atomic.Uint64{}
 	s.rejects[name] = counter
 	cfg := pipeline.Config{
-		Window: s.cfg.Epochs.Window.D(), MaxLateness: s.cfg.Epochs.MaxLateness.D(),
+		Window: s.set.Window, MaxLateness: s.set.MaxLateness,
 		Clock: s.clock, MaxFuture: 10 * time.Minute, MaxPast: 7 * 24 * time.Hour,
-		Processor:   pipeline.ProcessorOptions{EstimateMissingLoads: s.cfg.Epochs.MissingLoad == "estimate"},
+		Processor:   pipeline.ProcessorOptions{EstimateMissingLoads: s.set.EstimateMissingLoads},
 		Rules:       s.rules,
 		Events:      eventSink{s.store},
 		RejectCount: counter.Load,
@@ -186,7 +177,7 @@ func (s *Service) addStructure(mon *Monitored) error {
 		return fmt.Errorf("structure %q: %w", name, err)
 	}
 	proc := p.Processor()
-	p.AddSink(s.live.Register(mon.Structure, proc, reconcile.DefaultAlphaGlobal))
+	p.AddSink(s.live.Register(mon.Structure, proc, s.set.AlphaGlobal))
 	p.AddSink(&metricsSink{m: s.met, sm: s.met.Structure(name, proc.Gauged(), proc.Unknown()), name: name, rules: s.rules, last: map[string]int{}})
 	p.AddSink(s.results)
 	s.pipes[name] = p
