@@ -99,24 +99,9 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) int
 		fmt.Fprintf(stderr, "monitor import: %v\n", err)
 		return 1
 	}
-	data, err := os.ReadFile(*sensorPath)
-	if err != nil {
-		fmt.Fprintf(stderr, "monitor import: sensor map: %v\n", err)
-		return 1
-	}
-	if name := sensors.StructureNameOf(data); name != "" && name != st.Name {
-		fmt.Fprintf(stderr, "monitor import: %s is the sensor map of %q but %s is structure %q; give the matching pair\n",
-			*sensorPath, name, *structPath, st.Name)
-		return 1
-	}
-	m, err := sensors.Parse(*sensorPath, data, st)
+	m, err := sensors.LoadFor(*sensorPath, st, st.Name, *structPath)
 	if err != nil {
 		fmt.Fprintf(stderr, "monitor import: %v\n", err)
-		return 1
-	}
-	if m.StructureName() != st.Name {
-		fmt.Fprintf(stderr, "monitor import: %s is the sensor map of %q but %s is structure %q; give the matching pair\n",
-			*sensorPath, m.StructureName(), *structPath, st.Name)
 		return 1
 	}
 	db, err := store.Open(*dbPath, store.Options{})

@@ -58,12 +58,9 @@ func LoadStructure(structurePath, sensorsPath string) (*Monitored, error) {
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", structurePath, err)
 	}
-	sm, err := sensors.LoadFile(sensorsPath, st)
+	sm, err := sensors.LoadFor(sensorsPath, st, st.Name, structurePath)
 	if err != nil {
 		return nil, err
-	}
-	if sm.StructureName() != st.Name {
-		return nil, fmt.Errorf("%s: sensor map is for structure %q but %s declares %q; pair the files of one structure", sensorsPath, sm.StructureName(), structurePath, st.Name)
 	}
 	return &Monitored{Structure: st, Model: m, Sensors: sm, Content: content}, nil
 }
