@@ -136,6 +136,7 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) int
 		fmt.Fprintf(stderr, "monitor import: %d of %d files stopped at an error; the readings before it are stored\n", failed, len(files))
 		return 1
 	}
+	fmt.Fprintf(stdout, "next: the store holds the readings only, not the model; replay them with the structure file:\n  monitor replay --db %s --sensors %s --structure %s --from T --to T\n", *dbPath, *sensorPath, *structPath)
 	return 0
 }
 

@@ -60,7 +60,7 @@ func runRules(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 		fmt.Fprintf(stderr, "monitor rules: %v\n", err)
 		return 1
 	}
-	fmt.Fprintf(stderr, "monitor rules: wrote %s (%d structures)\n", *out, len(names))
+	fmt.Fprintf(stderr, "monitor rules: wrote %s (%s)\n", *out, plural(len(names), "structure", "structures"))
 	return 0
 }
 

@@ -177,7 +177,7 @@ func dashboardEvent(ev alerts.Event) dashboard.Event {
 	} else {
 		d.Size = nan()
 	}
-	d.Message = fmt.Sprintf("%s %s %s: %s %.4g (threshold %.4g)", ev.Rule, ev.Subject, ev.Kind, ev.Evidence.Signal, ev.Evidence.Value, ev.Evidence.Threshold)
+	d.Message = alerts.Message(ev)
 	for _, c := range ev.Evidence.Causes {
 		d.Causes = append(d.Causes, dashboard.Cause{Kind: c.Kind, Subject: causeSubject(c.Label), T: c.T, Size: c.Size, Unit: c.Unit})
 	}
