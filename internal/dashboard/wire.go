@@ -38,6 +38,7 @@ type stateJSON struct {
 	Fit           fitJSON            `json:"fit"`
 	Loads         []loadEstimateJSON `json:"loads"`
 	Caution       string             `json:"caution"`
+	ClockNote     string             `json:"clock_note"`
 }
 
 type geometryJSON struct {

@@ -83,6 +83,7 @@ type Service struct {
 	httpLn    net.Listener
 	httpSrv   *http.Server
 	clock     func() time.Time
+	clockNote string
 	rules     []alerts.Rule
 	connected atomic.Bool
 }
@@ -96,12 +97,15 @@ type Options struct {
 	// Structures, when set, are used instead of loading the configuration's
 	// structure files (the demo passes its embedded examples).
 	Structures []*Monitored
+	// ClockNote, when set, is shown on the dashboard beside the epoch time
+	// (the demo says its time is simulated and at what speed).
+	ClockNote string
 }
 
 // New builds the service: it opens the store, loads every structure and
 // prepares the pipelines, but starts nothing.
 func New(cfg *config.Config, opt Options) (*Service, error) {
-	s := &Service{cfg: cfg, log: opt.Logger, clock: opt.Clock, pipes: map[string]*pipeline.Pipeline{}, rejects: map[string]*atomic.Uint64{}}
+	s := &Service{cfg: cfg, log: opt.Logger, clock: opt.Clock, clockNote: opt.ClockNote, pipes: map[string]*pipeline.Pipeline{}, rejects: map[string]*atomic.Uint64{}}
 	if s.log == nil {
 		s.log = slog.Default()
 	}
@@ -240,7 +244,7 @@ func (s *Service) Start(ctx context.Context) error {
 	mux.Handle("/metrics", mh)
 	mux.Handle("/healthz", mh)
 	mux.Handle("/readyz", mh)
-	mux.Handle("/", dashboard.New(s.live, dashboard.Options{Now: s.clock}))
+	mux.Handle("/", dashboard.New(s.live, dashboard.Options{Now: s.clock, ClockNote: s.clockNote}))
 	s.httpSrv = &http.Server{Handler: mux, ReadHeaderTimeout: 10 * time.Second}
 	go func() {
 		if err := s.httpSrv.Serve(ln); err != nil && !errors.Is(err, http.ErrServerClosed) {

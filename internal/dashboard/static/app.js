@@ -672,7 +672,7 @@ async function poll() {
     app.state = st;
     document.getElementById('title').textContent = st.title || st.structure;
     document.title = (st.title || st.structure) + ' – truss monitor';
-    document.getElementById('epoch').textContent = st.epoch ? 'epoch ' + fmtTime(st.epoch) + ' UTC' : 'no epoch yet';
+    document.getElementById('epoch').textContent = (st.epoch ? 'epoch ' + fmtTime(st.epoch) + ' UTC' : 'no epoch yet') + (st.clock_note ? ' (' + st.clock_note + ')' : '');
     document.getElementById('model-version').textContent = st.model_version ? 'model ' + st.model_version.slice(0, 12) : '';
     document.getElementById('caution').textContent = st.caution;
     if (key !== app.geomKey) { app.geomKey = key; drawTruss(); drawLegend(st.critical_value || 3.29); }
@@ -739,6 +739,9 @@ function setup() {
   document.getElementById('rot-reset').addEventListener('click', () => { app.view = { yaw: VIEW0.yaw, pitch: VIEW0.pitch }; drawTruss(); });
   document.getElementById('structure-select').addEventListener('change', (e) => {
     app.structure = e.target.value; app.geomKey = ''; app.selected = ''; drawSeries(null);
+    document.getElementById('member-title').textContent = 'Member';
+    document.getElementById('member-hint').textContent = 'Click a member of the drawing to see its measured and predicted force over time.';
+    document.querySelector('#member-detail tbody').replaceChildren();
   });
   poll();
 }
