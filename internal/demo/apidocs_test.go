@@ -212,6 +212,8 @@ func TestAPIDocsMatchService(t *testing.T) {
 	epoch, _ := time.Parse(time.RFC3339Nano, state.(map[string]any)["epoch"].(string))
 	series := getJSON(t, fmt.Sprintf("%s/alder-creek/members/D2/series?from=%s&to=%s", base, epoch.Add(-3*time.Second).Format(time.RFC3339), epoch.Add(time.Second).Format(time.RFC3339)))
 	real := []any{getJSON(t, base), state, series, events}
+	// TRUSSMON_API_DUMP=DIR writes the real answers there (0.json ..
+	// 3.json), to refresh the examples of docs/api.md.
 	if dir := os.Getenv("TRUSSMON_API_DUMP"); dir != "" {
 		for i, v := range real {
 			b, _ := json.MarshalIndent(v, "", "  ")
