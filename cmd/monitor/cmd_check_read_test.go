@@ -104,6 +104,18 @@ func TestCheckSensorsOfAnotherStructure(t *testing.T) {
 	if code == 0 || !strings.Contains(errs, "is the sensor map of structure") || !strings.Contains(errs, "roof/sensors.yaml") {
 		t.Errorf("exit %d, stderr %q", code, errs)
 	}
+	// A structure with every member and pattern of the footbridge but
+	// another name: the map's references all resolve, and before the shared
+	// check this exited 0 with no word.
+	data, err := os.ReadFile(footbridgeFile)
+	if err != nil {
+		t.Fatal(err)
+	}
+	other := writeTemp(t, "copy.yaml", strings.Replace(string(data), "\nname: alder-creek\n", "\nname: alder-creek-copy\n", 1))
+	code, _, errs = runModelCmd(t, runCheck, other, "--sensors", "../../testdata/footbridge/sensors.yaml")
+	if code == 0 || !strings.Contains(errs, `is the sensor map of structure "alder-creek" but`) || !strings.Contains(errs, `"alder-creek-copy"`) {
+		t.Errorf("renamed structure: exit %d, stderr %q", code, errs)
+	}
 }
 
 // TestMechanismMessages: a 2D free motion prints two components, and a
