@@ -46,17 +46,19 @@ func runCheck(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 		fmt.Fprintf(stderr, "monitor check: %v\n", err)
 		return 1
 	}
+	var sm *sensors.Map
+	if *sensorsPath != "" {
+		if sm, err = sensors.LoadFor(*sensorsPath, s, s.Name, pos[0]); err != nil {
+			fmt.Fprintf(stderr, "monitor check: %v\n", err)
+			return 1
+		}
+	}
 	rep, err := checkStructure(s)
 	if err != nil {
 		fmt.Fprintf(stderr, "monitor check: %v\n", err)
 		return 1
 	}
-	if *sensorsPath != "" && rep.Model != nil {
-		sm, err := sensors.LoadFile(*sensorsPath, s)
-		if err != nil {
-			fmt.Fprintf(stderr, "monitor check: %v\n", err)
-			return 1
-		}
+	if sm != nil && rep.Model != nil {
 		det, err := pipeline.Detectability(rep.Model, sm, reconcile.Options{})
 		if err != nil {
 			fmt.Fprintf(stderr, "monitor check: %s: %v\n", *sensorsPath, err)
@@ -69,7 +71,22 @@ func runCheck(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 		fmt.Fprintf(stderr, "monitor check: %v\n", rep.Mechanism)
 		return 1
 	}
+	if bad := rep.equilibriumFailures(); len(bad) > 0 {
+		fmt.Fprintf(stderr, "monitor check: equilibrium FAILED in %s: the solution is not the exact solution of any nearby problem (backward error above %.1e); report the structure file with this output\n", strings.Join(bad, ", "), rep.Cases[0].Equilibrium.Limit)
+		return 1
+	}
 	return 0
+}
+
+// equilibriumFailures names the solved cases whose equilibrium check failed.
+func (r *checkReport) equilibriumFailures() []string {
+	var bad []string
+	for _, c := range r.Cases {
+		if c.Err == nil && !c.Equilibrium.OK() {
+			bad = append(bad, c.Name)
+		}
+	}
+	return bad
 }
 
 // parseInterspersed parses flags that may come before or after the
@@ -98,7 +115,9 @@ type checkReport struct {
 	Model       *model.Model
 	Mechanism   *model.MechanismError
 	Determinacy model.Determinacy
-	Cases       []caseSummary
+	// Geometry is the size summary with its plausibility warnings.
+	Geometry model.Geometry
+	Cases    []caseSummary
 	// Joints is the method-of-joints cross-check; JointsNote says why it
 	// was not run when Joints is empty.
 	Joints     []jointsCheck
@@ -134,7 +153,7 @@ type jointsCheck struct {
 // only for a structure that cannot be analysed at all (invalid input);
 // a mechanism is part of the report.
 func checkStructure(s *model.Structure) (*checkReport, error) {
-	rep := &checkReport{Structure: s}
+	rep := &checkReport{Structure: s, Geometry: model.Measure(s)}
 	m, err := model.Analyze(s)
 	var me *model.MechanismError
 	switch {
@@ -217,18 +236,13 @@ func memberForceExtremes(s *model.Structure, forces []float64) (maxT float64, id
 	return maxT, idT, maxC, idC
 }
 
-// equilibriumLimit is the relative imbalance above which a solution is
-// flagged.
-const equilibriumLimit = 1e-9
-
 // Write prints the report.
 func (r *checkReport) Write(w io.Writer) {
 	s := r.Structure
-	fmt.Fprintf(w, "structure   %s", s.Name)
+	fmt.Fprintf(w, "structure   %s\n", s.Name)
 	if s.Title != "" {
-		fmt.Fprintf(w, " (%s)", s.Title)
+		fmt.Fprintf(w, "title       %s\n", s.Title)
 	}
-	fmt.Fprintln(w)
 	if s.File != "" {
 		fmt.Fprintf(w, "file        %s\n", s.File)
 	}
@@ -241,6 +255,8 @@ func (r *checkReport) Write(w io.Writer) {
 	fmt.Fprintf(w, "members     %d\n", len(s.Members))
 	fmt.Fprintf(w, "supports    %d (%s)\n", len(s.Supports), supportSummary(s))
 	fmt.Fprintf(w, "patterns    %d, cases %d\n", len(s.Patterns), len(s.Cases))
+	fmt.Fprintln(w)
+	writeGeometry(w, s, r.Geometry)
 	fmt.Fprintln(w)
 
 	d := r.Determinacy
@@ -269,15 +285,21 @@ func (r *checkReport) Write(w io.Writer) {
 	fmt.Fprintf(w, "stability   stable (%d free DOFs)\n", r.Model.FreeDOFs())
 	fmt.Fprintln(w)
 
-	worst := 0.0
+	worst, worstRel, limit := 0.0, 0.0, 0.0
 	for _, c := range r.Cases {
-		worst = math.Max(worst, c.Equilibrium.Relative)
+		if c.Err != nil {
+			continue
+		}
+		worst = math.Max(worst, c.Equilibrium.BackwardError)
+		worstRel = math.Max(worstRel, c.Equilibrium.Relative)
+		limit = c.Equilibrium.Limit
 	}
 	verdict := "ok"
-	if worst > equilibriumLimit {
-		verdict = "FAILED"
+	if len(r.equilibriumFailures()) > 0 {
+		verdict = "FAILED: not the exact solution of any nearby problem"
 	}
-	fmt.Fprintf(w, "equilibrium largest relative imbalance over all cases %.1e (limit %.0e): %s\n", worst, equilibriumLimit, verdict)
+	fmt.Fprintf(w, "equilibrium largest backward error over all cases %.1e (limit 10 n u = %.1e, n = %d free DOFs, u = 2^-53): %s\n", worst, limit, r.Model.FreeDOFs(), verdict)
+	fmt.Fprintf(w, "            largest joint imbalance %.1e of the largest load (grows with the stiffness ratio of the members; not the verdict)\n", worstRel)
 	fmt.Fprintln(w)
 
 	width := 4
@@ -290,8 +312,8 @@ func (r *checkReport) Write(w io.Writer) {
 			fmt.Fprintf(w, "  %-*s ERROR %v\n", width, c.Name, c.Err)
 			continue
 		}
-		fmt.Fprintf(w, "  %-*s max tension %s in %s, max compression %s in %s, imbalance %.1e\n",
-			width, c.Name, formatKN(c.MaxTension), c.MaxTensionMember, formatKN(c.MaxCompression), c.MaxCompressionMember, c.Equilibrium.Relative)
+		fmt.Fprintf(w, "  %-*s %s, %s, backward error %.1e\n",
+			width, c.Name, extremeText("tension", c.MaxTension, c.MaxTensionMember), extremeText("compression", c.MaxCompression, c.MaxCompressionMember), c.Equilibrium.BackwardError)
 	}
 	fmt.Fprintln(w)
 
@@ -351,6 +373,42 @@ func supportSummary(s *model.Structure) string {
 		return strings.Join(parts[:8], "; ") + fmt.Sprintf("; ... %d more", len(parts)-8)
 	}
 	return strings.Join(parts, "; ")
+}
+
+// extremeText is "max tension 12.000 kN in B4", or "no member in tension"
+// when no member carries a force of that sign.
+func extremeText(kind string, n float64, member string) string {
+	if member == "" || math.Abs(n) < 0.5 {
+		return "no member in " + kind
+	}
+	return fmt.Sprintf("max %s %s in %s", kind, formatKN(n), member)
+}
+
+// writeGeometry prints the extents, the shortest and longest member, the
+// total self-weight and the plausibility warnings.
+func writeGeometry(w io.Writer, s *model.Structure, g model.Geometry) {
+	fmt.Fprintln(w, "geometry")
+	axes := "xyz"[:s.Dim]
+	for k, a := range axes {
+		fmt.Fprintf(w, "  extent %c     %.3f m to %.3f m (%.3f m)\n", a, g.Min[k], g.Max[k], g.Max[k]-g.Min[k])
+	}
+	if g.Shortest >= 0 {
+		fmt.Fprintf(w, "  shortest     %s, %.3f m\n", s.Members[g.Shortest].ID, g.ShortestM)
+		fmt.Fprintf(w, "  longest      %s, %.3f m\n", s.Members[g.Longest].ID, g.LongestM)
+	}
+	fmt.Fprintf(w, "  self-weight  %.3f kN (members, sum density A L g)", g.SelfWeightN/1e3)
+	if g.NoDensity > 0 {
+		fmt.Fprintf(w, "; %d member(s) without a density are not included", g.NoDensity)
+	}
+	fmt.Fprintln(w)
+	if len(g.Warnings) == 0 {
+		fmt.Fprintf(w, "  sizes        plausible (members %g mm to %g m, coordinates within %g km: common practice)\n", model.PlausibleMinMemberM*1e3, model.PlausibleMaxMemberM, model.PlausibleMaxCoordinateM/1e3)
+		return
+	}
+	for _, wn := range g.Warnings {
+		fmt.Fprintf(w, "  WARNING      %s\n", wn)
+	}
+	fmt.Fprintf(w, "  (plausible: members %g mm to %g m, coordinates within %g km of the origin; common practice)\n", model.PlausibleMinMemberM*1e3, model.PlausibleMaxMemberM, model.PlausibleMaxCoordinateM/1e3)
 }
 
 // formatKN formats a force in newtons as kilonewtons (rounding noise shows as 0).

@@ -45,6 +45,8 @@ func runDemo(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	fmt.Fprintf(stdout, "trussmonitor demo (invented Alder Creek footbridge, demo data only)\n")
 	fmt.Fprintf(stdout, "dashboard:  %s\n", d.URL())
 	fmt.Fprintf(stdout, "metrics:    %smetrics\n", d.URL())
+	fmt.Fprintf(stdout, "clock:      %s, from %s (times on the dashboard and in the log are simulated)\n", demo.ClockNote(*speed), d.Now().Format("15:04:05 MST"))
+	fmt.Fprintln(stdout, "bad data:   the simulated logger sends a few bad messages on purpose; each is logged (INFO) before the service refuses it (WARN)")
 	fmt.Fprintf(stdout, "broker:     tcp://%s (embedded, topics shm/<structure>/...)\n", d.Service().BrokerAddr())
 	if !d.FaultTime().IsZero() {
 		fmt.Fprintf(stdout, "fault:      %s at simulated %s (speed %gx)\n", *fault, d.FaultTime().Format("15:04:05 MST"), *speed)

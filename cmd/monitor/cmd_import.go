@@ -99,24 +99,9 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) int
 		fmt.Fprintf(stderr, "monitor import: %v\n", err)
 		return 1
 	}
-	data, err := os.ReadFile(*sensorPath)
-	if err != nil {
-		fmt.Fprintf(stderr, "monitor import: sensor map: %v\n", err)
-		return 1
-	}
-	if name := sensors.StructureNameOf(data); name != "" && name != st.Name {
-		fmt.Fprintf(stderr, "monitor import: %s is the sensor map of %q but %s is structure %q; give the matching pair\n",
-			*sensorPath, name, *structPath, st.Name)
-		return 1
-	}
-	m, err := sensors.Parse(*sensorPath, data, st)
+	m, err := sensors.LoadFor(*sensorPath, st, st.Name, *structPath)
 	if err != nil {
 		fmt.Fprintf(stderr, "monitor import: %v\n", err)
-		return 1
-	}
-	if m.StructureName() != st.Name {
-		fmt.Fprintf(stderr, "monitor import: %s is the sensor map of %q but %s is structure %q; give the matching pair\n",
-			*sensorPath, m.StructureName(), *structPath, st.Name)
 		return 1
 	}
 	db, err := store.Open(*dbPath, store.Options{})
@@ -151,6 +136,7 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) int
 		fmt.Fprintf(stderr, "monitor import: %d of %d files stopped at an error; the readings before it are stored\n", failed, len(files))
 		return 1
 	}
+	fmt.Fprintf(stdout, "next: the store holds the readings only, not the model; replay them with the structure file:\n  monitor replay --db %s --sensors %s --structure %s --from T --to T\n", *dbPath, *sensorPath, *structPath)
 	return 0
 }
 

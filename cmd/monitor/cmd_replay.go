@@ -195,13 +195,17 @@ func printReplaySummary(w io.Writer, s *replay.Summary) {
 	}
 	sort.Strings(rules)
 	raised := make([]string, len(rules))
+	nRaised := 0
 	for i, r := range rules {
 		raised[i] = fmt.Sprintf("%s %d", r, s.Raised[r])
+		nRaised += s.Raised[r]
 	}
 	if len(raised) == 0 {
-		raised = []string{"none raised"}
+		fmt.Fprintf(w, "alarms:     none raised (%s)\n", plural(s.Events, "event", "events"))
+	} else {
+		// events = raised + cleared, so the numbers add up.
+		fmt.Fprintf(w, "alarms:     %d raised (%s), %d cleared: %s\n", nRaised, strings.Join(raised, ", "), s.Events-nRaised, plural(s.Events, "event", "events"))
 	}
-	fmt.Fprintf(w, "alarms:     %d events (%s)\n", s.Events, strings.Join(raised, ", "))
 	if s.OutDir != "" {
 		fmt.Fprintf(w, "report:     %s (%s, %s, %s)\n", s.OutDir, report.HTMLFile, report.EpochsFile, report.EventsFile)
 	}

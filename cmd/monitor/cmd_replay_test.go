@@ -95,7 +95,7 @@ func TestReplayFlagErrors(t *testing.T) {
 			[]string{"no readings of structure \"alder-creek\" in [2026-06-03T00:00:00Z, 2026-06-04T00:00:00Z)", "66240 readings", "from 2026-06-01T00:00:00Z to 2026-06-01T23:59:00Z"}},
 		{"sensor map of another structure", []string{"--db", db, "--from", "2026-06-01T00:00:00Z", "--to", "2026-06-02T00:00:00Z",
 			"--sensors", "../../testdata/roof/sensors.yaml", "--structure", "../../testdata/footbridge/structure.yaml", "--out", t.TempDir()}, 1,
-			[]string{"give the matching pair"}},
+			[]string{"give the sensor map of the same structure"}},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {

@@ -82,11 +82,7 @@ func runRules(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 		fmt.Fprintf(stderr, "monitor rules: %v\n", err)
 		return 1
 	}
-	unit := "structures"
-	if len(names) == 1 {
-		unit = "structure"
-	}
-	fmt.Fprintf(stderr, "monitor rules: wrote %s (%d %s)\n", *out, len(names), unit)
+	fmt.Fprintf(stderr, "monitor rules: wrote %s (%s)\n", *out, plural(len(names), "structure", "structures"))
 	return 0
 }
 

@@ -101,14 +101,9 @@ func runSimulate(ctx context.Context, args []string, stdout, stderr io.Writer) i
 		fmt.Fprintf(stderr, "monitor simulate: %v\n", err)
 		return 1
 	}
-	sm, err := sensors.LoadFile(*sensorPath, st)
+	sm, err := sensors.LoadFor(*sensorPath, st, st.Name, *structPath)
 	if err != nil {
 		fmt.Fprintf(stderr, "monitor simulate: %v\n", err)
-		return 1
-	}
-	if sm.StructureName() != st.Name {
-		fmt.Fprintf(stderr, "monitor simulate: %s is the sensor map of %q but %s is structure %q; give the matching pair\n",
-			*sensorPath, sm.StructureName(), *structPath, st.Name)
 		return 1
 	}
 	opt := def

@@ -11,6 +11,7 @@ import (
 
 	"trussmonitor/internal/model"
 	"trussmonitor/internal/structfile"
+	"trussmonitor/internal/units"
 )
 
 // runSolve implements "monitor solve FILE --case NAME [--json]": member
@@ -21,8 +22,9 @@ func runSolve(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 	fs.SetOutput(stderr)
 	caseName := fs.String("case", "", "load case to solve (required when the file has several)")
 	asJSON := fs.Bool("json", false, "print one JSON object (SI units) instead of tables")
+	unitFlag := fs.String("units", "", "units of the tables: si (kN, MPa, mm) or us (kip, ksi, in); default the system of the file's declared units")
 	fs.Usage = func() {
-		fmt.Fprintln(stderr, "usage: monitor solve STRUCTURE.yaml --case NAME [--json]")
+		fmt.Fprintln(stderr, "usage: monitor solve STRUCTURE.yaml --case NAME [--json] [--units si|us]")
 		fs.PrintDefaults()
 	}
 	pos, err := parseInterspersed(fs, args)
@@ -40,6 +42,13 @@ func runSolve(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 	if err != nil {
 		fmt.Fprintf(stderr, "monitor solve: %v\n", err)
 		return 1
+	}
+	system := s.Units
+	if *unitFlag != "" {
+		if system, err = units.ParseSystem(*unitFlag); err != nil {
+			fmt.Fprintf(stderr, "monitor solve: --units: %v\n", err)
+			return 2
+		}
 	}
 	name := *caseName
 	if name == "" {
@@ -66,9 +75,16 @@ func runSolve(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 			fmt.Fprintf(stderr, "monitor solve: writing JSON: %v\n", err)
 			return 1
 		}
+		if !r.Equilibrium.OK() {
+			return 1
+		}
 		return 0
 	}
-	writeSolveTables(stdout, s, name, r)
+	writeSolveTables(stdout, s, name, r, units.OutputOf(system))
+	if !r.Equilibrium.OK() {
+		fmt.Fprintf(stderr, "monitor solve: equilibrium FAILED: backward error %.1e above the limit %.1e; the result is wrong\n", r.Equilibrium.BackwardError, r.Equilibrium.Limit)
+		return 1
+	}
 	return 0
 }
 
@@ -115,6 +131,9 @@ type reactionOutput struct {
 type equilibriumOutput struct {
 	MaxImbalanceN float64   `json:"max_imbalance_n"`
 	Relative      float64   `json:"relative"`
+	BackwardError float64   `json:"backward_error"`
+	Limit         float64   `json:"backward_error_limit"`
+	OK            bool      `json:"ok"`
 	Joint         string    `json:"joint"`
 	GlobalN       []float64 `json:"global_n"`
 }
@@ -133,46 +152,51 @@ func solveJSON(s *model.Structure, name string, r *model.Result) solveOutput {
 		out.Reactions = append(out.Reactions, reactionOutput{Node: re.ID, ForceN: append([]float64(nil), re.Force[:d]...)})
 	}
 	eq := r.Equilibrium
-	out.Equilibrium = equilibriumOutput{MaxImbalanceN: eq.MaxImbalanceN, Relative: eq.Relative, Joint: eq.Joint, GlobalN: append([]float64(nil), eq.GlobalN[:d]...)}
+	out.Equilibrium = equilibriumOutput{MaxImbalanceN: eq.MaxImbalanceN, Relative: eq.Relative, BackwardError: eq.BackwardError, Limit: eq.Limit, OK: eq.OK(), Joint: eq.Joint, GlobalN: append([]float64(nil), eq.GlobalN[:d]...)}
 	return out
 }
 
-// writeSolveTables prints one case as tables in kN, MPa and mm.
-func writeSolveTables(w io.Writer, s *model.Structure, name string, r *model.Result) {
+// writeSolveTables prints one case as tables in the output units u
+// (kN, MPa, mm or kip, ksi, in).
+func writeSolveTables(w io.Writer, s *model.Structure, name string, r *model.Result, u units.Output) {
 	axes := "xyz"[:s.Dim]
-	fmt.Fprintf(w, "structure %s, load case %s\n\n", s.Name, name)
-	fmt.Fprintf(w, "%-10s %14s %12s\n", "member", "force kN", "stress MPa")
+	fmt.Fprintf(w, "structure %s, load case %s (units: force %s, stress %s, displacement %s)\n\n", s.Name, name, u.Force.Symbol, u.Stress.Symbol, u.Displacement.Symbol)
+	fmt.Fprintf(w, "%-10s %14s %12s\n", "member", "force "+u.Force.Symbol, "stress "+u.Stress.Symbol)
 	for e, mb := range s.Members {
-		fmt.Fprintf(w, "%-10s %14.3f %12.2f\n", mb.ID, noNegZero(r.Forces[e]/1e3, 3), noNegZero(r.Stresses[e]/1e6, 2))
+		fmt.Fprintf(w, "%-10s %14.3f %12.2f\n", mb.ID, noNegZero(u.Force.FromSI(r.Forces[e]), 3), noNegZero(u.Stress.FromSI(r.Stresses[e]), 2))
 	}
 	fmt.Fprintln(w)
 	fmt.Fprintf(w, "%-10s", "node")
 	for _, a := range axes {
-		fmt.Fprintf(w, " %12s", "u"+string(a)+" mm")
+		fmt.Fprintf(w, " %12s", "u"+string(a)+" "+u.Displacement.Symbol)
 	}
 	fmt.Fprintln(w)
 	for i, n := range s.Nodes {
 		fmt.Fprintf(w, "%-10s", n.ID)
 		for k := range axes {
-			fmt.Fprintf(w, " %12.4f", noNegZero(r.Displacements[i][k]*1e3, 4))
+			fmt.Fprintf(w, " %12.4f", noNegZero(u.Displacement.FromSI(r.Displacements[i][k]), 4))
 		}
 		fmt.Fprintln(w)
 	}
 	fmt.Fprintln(w)
 	fmt.Fprintf(w, "%-10s", "reaction")
 	for _, a := range axes {
-		fmt.Fprintf(w, " %12s", "R"+string(a)+" kN")
+		fmt.Fprintf(w, " %12s", "R"+string(a)+" "+u.Force.Symbol)
 	}
 	fmt.Fprintln(w)
 	for _, re := range r.Reactions {
 		fmt.Fprintf(w, "%-10s", re.ID)
 		for k := range axes {
-			fmt.Fprintf(w, " %12.3f", noNegZero(re.Force[k]/1e3, 3))
+			fmt.Fprintf(w, " %12.3f", noNegZero(u.Force.FromSI(re.Force[k]), 3))
 		}
 		fmt.Fprintln(w)
 	}
 	eq := r.Equilibrium
-	fmt.Fprintf(w, "\nequilibrium: largest imbalance %.2e N at %s, relative %.1e (limit %.0e)\n", eq.MaxImbalanceN, eq.Joint, eq.Relative, equilibriumLimit)
+	verdict := "ok"
+	if !eq.OK() {
+		verdict = "FAILED: not the exact solution of any nearby problem"
+	}
+	fmt.Fprintf(w, "\nequilibrium: backward error %.1e (limit %.1e): %s; largest joint imbalance %.2e %s at %s, relative %.1e\n", eq.BackwardError, eq.Limit, verdict, u.Force.FromSI(eq.MaxImbalanceN), u.Force.Symbol, eq.Joint, eq.Relative)
 	fmt.Fprintln(w, "\nThis tool is a monitoring aid, not a safety verdict; decisions rest with a licensed engineer under local codes.")
 }
 

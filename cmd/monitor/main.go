@@ -9,6 +9,7 @@ import (
 	"io"
 	"os"
 	"os/signal"
+	"runtime/debug"
 	"sort"
 	"syscall"
 )
@@ -53,6 +54,10 @@ func dispatch(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 		}
 		return 0
 	}
+	if args[0] == "--version" || args[0] == "-version" || args[0] == "version" {
+		fmt.Fprintln(stdout, version())
+		return 0
+	}
 	c, ok := cmds[args[0]]
 	if !ok {
 		fmt.Fprintf(stderr, "monitor: unknown command %q; run \"monitor help\" for the list\n", args[0])
@@ -61,8 +66,47 @@ func dispatch(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 	return c.run(ctx, args[1:], stdout, stderr)
 }
 
+// plural is "1 structure" or "2 structures".
+func plural(n int, one, many string) string {
+	if n == 1 {
+		return "1 " + one
+	}
+	return fmt.Sprintf("%d %s", n, many)
+}
+
+// version is the module version and VCS revision the binary was built
+// from, as recorded by the Go toolchain (runtime/debug build info).
+func version() string {
+	bi, ok := debug.ReadBuildInfo()
+	if !ok {
+		return "monitor (no build information)"
+	}
+	v := bi.Main.Version
+	if v == "" {
+		v = "(devel)"
+	}
+	out := "monitor " + bi.Main.Path + " " + v
+	var rev, at, dirty string
+	for _, s := range bi.Settings {
+		switch s.Key {
+		case "vcs.revision":
+			rev = s.Value
+		case "vcs.time":
+			at = s.Value
+		case "vcs.modified":
+			if s.Value == "true" {
+				dirty = ", modified"
+			}
+		}
+	}
+	if rev != "" {
+		out += fmt.Sprintf(" (revision %s, %s%s)", rev, at, dirty)
+	}
+	return out + ", " + bi.GoVersion
+}
+
 func usage(w io.Writer, cmds map[string]command) {
-	fmt.Fprintln(w, "usage: monitor COMMAND [flags]")
+	fmt.Fprintln(w, "usage: monitor COMMAND [flags]   (monitor --version prints the build)")
 	fmt.Fprintln(w)
 	names := make([]string, 0, len(cmds))
 	for n := range cmds {

@@ -17,6 +17,7 @@ import (
 	"fmt"
 	"log/slog"
 	"net"
+	"strings"
 	"sync"
 	"sync/atomic"
 	"time"
@@ -200,7 +201,30 @@ func (q *quietHandler) Enabled(ctx context.Context, l slog.Level) bool {
 	return l >= slog.LevelWarn && q.next.Enabled(ctx, l)
 }
 
+// closedConnection is the text of net.ErrClosed, which the broker's
+// listener reports (with an empty message) for a client connection that the
+// broker itself closed, as every connection is at shutdown.
+const closedConnection = "use of closed network connection"
+
 func (q *quietHandler) Handle(ctx context.Context, r slog.Record) error {
+	if r.Message == "" {
+		// mochi's listeners log a client connection's end as Warn("",
+		// "error", err): drop the broker's own closing of it, and give
+		// the others a message that says what they are.
+		closed := false
+		r.Attrs(func(a slog.Attr) bool {
+			if a.Key == "error" && strings.Contains(a.Value.String(), closedConnection) {
+				closed = true
+			}
+			return true
+		})
+		if closed {
+			return nil
+		}
+		nr := slog.NewRecord(r.Time, r.Level, "embedded broker: client connection ended with an error", r.PC)
+		r.Attrs(func(a slog.Attr) bool { nr.AddAttrs(a); return true })
+		r = nr
+	}
 	now := time.Now()
 	if v, ok := q.last.Load(r.Message); ok && now.Sub(v.(time.Time)) < q.every {
 		return nil

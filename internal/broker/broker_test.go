@@ -2,6 +2,8 @@ package broker
 
 import (
 	"bytes"
+	"context"
+	"errors"
 	"fmt"
 	"log/slog"
 	"strings"
@@ -139,4 +141,37 @@ func TestBurstToSlowSubscriberNotDropped(t *testing.T) {
 		t.Fatalf("broker dropped %d messages", d)
 	}
 	t.Logf("%d QoS 1 messages held unacknowledged by the subscriber, none dropped", n)
+}
+
+// recordingHandler keeps the records it is given.
+type recordingHandler struct {
+	mu   sync.Mutex
+	recs []slog.Record
+}
+
+func (h *recordingHandler) Enabled(context.Context, slog.Level) bool { return true }
+func (h *recordingHandler) Handle(_ context.Context, r slog.Record) error {
+	h.mu.Lock()
+	defer h.mu.Unlock()
+	h.recs = append(h.recs, r)
+	return nil
+}
+func (h *recordingHandler) WithAttrs([]slog.Attr) slog.Handler { return h }
+func (h *recordingHandler) WithGroup(string) slog.Handler      { return h }
+
+// TestQuietHandlerEmptyMessages: the listener's empty-message warnings
+// (mochi logs a connection's end as Warn("", "error", err)) never reach the
+// log with an empty message; the broker's own closing of a connection at
+// shutdown (net.ErrClosed) is dropped.
+func TestQuietHandlerEmptyMessages(t *testing.T) {
+	rec := &recordingHandler{}
+	log := slog.New(&quietHandler{next: rec, every: time.Minute, last: &sync.Map{}})
+	log.Warn("", "error", errors.New("read tcp 127.0.0.1:1883->127.0.0.1:5000: use of closed network connection"))
+	log.Warn("", "error", errors.New("read tcp 127.0.0.1:1883->127.0.0.1:5001: connection reset by peer"))
+	if len(rec.recs) != 1 {
+		t.Fatalf("%d records passed on, want 1 (the reset, not the closed connection)", len(rec.recs))
+	}
+	if m := rec.recs[0].Message; m == "" || !strings.Contains(m, "client connection") {
+		t.Errorf("message %q", m)
+	}
 }

@@ -28,6 +28,9 @@ type Options struct {
 	// are reduced by keeping, per bucket of consecutive epochs, the epoch
 	// with the largest |w| (so no excursion is hidden). Defaults to 2000.
 	MaxSeriesPoints int
+	// ClockNote, when set, is returned with every state (clock_note) and
+	// shown beside the epoch time, e.g. "simulated time, 20x real time".
+	ClockNote string
 }
 
 // Handler serves the JSON API under /api/ and the dashboard page at /.
@@ -106,7 +109,9 @@ func (h *Handler) state(w http.ResponseWriter, r *http.Request) {
 		writeSourceError(w, fmt.Sprintf("state of structure %q", name), err)
 		return
 	}
-	writeJSON(w, http.StatusOK, toStateJSON(s))
+	out := toStateJSON(s)
+	out.ClockNote = h.opts.ClockNote
+	writeJSON(w, http.StatusOK, out)
 }
 
 func (h *Handler) series(w http.ResponseWriter, r *http.Request) {

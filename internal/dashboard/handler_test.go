@@ -136,8 +136,21 @@ func TestStateJSON(t *testing.T) {
 	if st.Epoch == nil || *st.Epoch != "2026-06-14T09:00:59Z" {
 		t.Errorf("epoch %v, want 2026-06-14T09:00:59Z", st.Epoch)
 	}
-	if st.Geometry.Dimension != 2 || len(st.Geometry.Nodes) != 12 || len(st.Geometry.Members) != 21 {
-		t.Errorf("geometry: dimension %d, %d nodes, %d members; want 2, 12, 21", st.Geometry.Dimension, len(st.Geometry.Nodes), len(st.Geometry.Members))
+	if st.Geometry.Dimension != 2 || len(st.Geometry.Nodes) != 12 || len(st.Geometry.Members) != 22 {
+		t.Errorf("geometry: dimension %d, %d nodes, %d members; want 2, 12, 22", st.Geometry.Dimension, len(st.Geometry.Nodes), len(st.Geometry.Members))
+	}
+	// Supports, load directions and the gauge-or-stiffness mark.
+	if len(st.Geometry.Supports) != 2 || st.Geometry.Supports[0].Node != "L0" || strings.Join(st.Geometry.Supports[0].Fixed, " ") != "x y" ||
+		strings.Join(st.Geometry.Supports[1].Fixed, " ") != "y" || strings.Join(st.Geometry.Supports[1].Spring, " ") != "x" {
+		t.Errorf("supports %+v", st.Geometry.Supports)
+	}
+	if len(st.Geometry.Loads) != 10 || st.Geometry.Loads[0].Direction != [3]float64{0, -1, 0} || !st.Geometry.Loads[1].Unknown {
+		t.Errorf("loads %+v", st.Geometry.Loads)
+	}
+	for _, m := range st.Geometry.Members {
+		if m.GaugeOrStiffness != (m.ID == "D1") {
+			t.Errorf("member %s gauge_or_stiffness %v", m.ID, m.GaugeOrStiffness)
+		}
 	}
 	if !strings.Contains(st.Caution, "not a safety verdict") || !strings.Contains(st.Caution, "licensed engineer") {
 		t.Errorf("caution %q lacks the safety text", st.Caution)

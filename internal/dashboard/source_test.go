@@ -39,6 +39,19 @@ func footbridgeGeometry() Geometry {
 	add("D4", "L3", "U4")
 	add("D5", "L4", "U5")
 	add("D6", "U5", "L6")
+	// a doubly braced middle panel: C3 crosses D3
+	add("C3", "L2", "U3")
+	// D1 sits in the statically determinate end panel
+	g.Members[slices.IndexFunc(g.Members, func(m Member) bool { return m.ID == "D1" })].GaugeOrStiffness = true
+	g.Supports = []Support{
+		{Node: "L0", Fixed: [3]bool{true, true}},
+		{Node: "L6", Fixed: [3]bool{false, true}, Spring: [3]bool{true}},
+	}
+	for i := 1; i <= 5; i++ {
+		n := fmt.Sprintf("L%d", i)
+		g.Loads = append(g.Loads, NodalLoad{Node: n, Pattern: "deck", Direction: [3]float64{0, -1, 0}},
+			NodalLoad{Node: n, Pattern: "crowd", Direction: [3]float64{0, -1, 0}, Unknown: true})
+	}
 	return g
 }
 

@@ -81,6 +81,33 @@ type Geometry struct {
 	Nodes []Node
 	// Members are the bars.
 	Members []Member
+	// Supports are the restrained nodes, drawn with support symbols.
+	Supports []Support
+	// Loads are the nodal loads of the structure's load patterns, drawn as
+	// arrows.
+	Loads []NodalLoad
+}
+
+// Support is one restrained node.
+type Support struct {
+	// Node is the node id.
+	Node string
+	// Fixed and Spring say which global directions (x, y, z) are fixed or
+	// held by a spring.
+	Fixed, Spring [3]bool
+	// Inclined is true for a roller on an inclined plane or line.
+	Inclined bool
+}
+
+// NodalLoad is the direction of one pattern's force at one node.
+type NodalLoad struct {
+	// Node is the node id and Pattern the load pattern's name.
+	Node, Pattern string
+	// Direction is the unit vector of the force (global x, y, z).
+	Direction [3]float64
+	// Unknown is true for a pattern whose magnitude is estimated from the
+	// gauges.
+	Unknown bool
 }
 
 // Node is one joint with its coordinates in metres; Z is 0 for plane trusses.
@@ -96,6 +123,11 @@ type Member struct {
 	Start, End string
 	// Gauged says whether the member carries strain gauges.
 	Gauged bool
+	// GaugeOrStiffness is true for a gauged member whose gauge fault and
+	// change of stiffness move the gauges alike, so the data cannot tell
+	// them apart (a member in a statically determinate part of the truss:
+	// its force does not depend on its stiffness).
+	GaugeOrStiffness bool
 }
 
 // MemberState is the reconciliation result of one gauged member in one epoch.

@@ -38,12 +38,40 @@ type stateJSON struct {
 	Fit           fitJSON            `json:"fit"`
 	Loads         []loadEstimateJSON `json:"loads"`
 	Caution       string             `json:"caution"`
+	ClockNote     string             `json:"clock_note"`
 }
 
 type geometryJSON struct {
-	Dimension int          `json:"dimension"`
-	Nodes     []nodeJSON   `json:"nodes"`
-	Members   []memberJSON `json:"members"`
+	Dimension int             `json:"dimension"`
+	Nodes     []nodeJSON      `json:"nodes"`
+	Members   []memberJSON    `json:"members"`
+	Supports  []supportJSON   `json:"supports"`
+	Loads     []nodalLoadJSON `json:"loads"`
+}
+
+type supportJSON struct {
+	Node     string   `json:"node"`
+	Fixed    []string `json:"fixed"`
+	Spring   []string `json:"spring"`
+	Inclined bool     `json:"inclined"`
+}
+
+type nodalLoadJSON struct {
+	Node      string     `json:"node"`
+	Pattern   string     `json:"pattern"`
+	Direction [3]float64 `json:"direction"`
+	Unknown   bool       `json:"unknown"`
+}
+
+// axesOf lists the names of the true directions, e.g. ["x", "y"].
+func axesOf(b [3]bool) []string {
+	out := []string{}
+	for k, on := range b {
+		if on {
+			out = append(out, "xyz"[k:k+1])
+		}
+	}
+	return out
 }
 
 type nodeJSON struct {
@@ -54,10 +82,11 @@ type nodeJSON struct {
 }
 
 type memberJSON struct {
-	ID     string `json:"id"`
-	Start  string `json:"start"`
-	End    string `json:"end"`
-	Gauged bool   `json:"gauged"`
+	ID               string `json:"id"`
+	Start            string `json:"start"`
+	End              string `json:"end"`
+	Gauged           bool   `json:"gauged"`
+	GaugeOrStiffness bool   `json:"gauge_or_stiffness"`
 }
 
 type memberStateJSON struct {
@@ -156,6 +185,8 @@ func toStateJSON(s State) stateJSON {
 			Dimension: s.Geometry.Dimension,
 			Nodes:     make([]nodeJSON, 0, len(s.Geometry.Nodes)),
 			Members:   make([]memberJSON, 0, len(s.Geometry.Members)),
+			Supports:  make([]supportJSON, 0, len(s.Geometry.Supports)),
+			Loads:     make([]nodalLoadJSON, 0, len(s.Geometry.Loads)),
 		},
 		Gauged: make([]memberStateJSON, 0, len(s.Gauged)),
 		Fit: fitJSON{
@@ -177,6 +208,12 @@ func toStateJSON(s State) stateJSON {
 	}
 	for _, m := range s.Geometry.Members {
 		out.Geometry.Members = append(out.Geometry.Members, memberJSON(m))
+	}
+	for _, sp := range s.Geometry.Supports {
+		out.Geometry.Supports = append(out.Geometry.Supports, supportJSON{Node: sp.Node, Fixed: axesOf(sp.Fixed), Spring: axesOf(sp.Spring), Inclined: sp.Inclined})
+	}
+	for _, l := range s.Geometry.Loads {
+		out.Geometry.Loads = append(out.Geometry.Loads, nodalLoadJSON(l))
 	}
 	for _, m := range s.Gauged {
 		lo, hi := band(m.Predicted, m.SigmaResidual, s.CriticalValue)

@@ -111,6 +111,15 @@ func loadExample(dir string) (*service.Monitored, error) {
 	return &service.Monitored{Structure: st, Model: m, Sensors: sm, Content: content}, nil
 }
 
+// ClockNote says that the demo's time is simulated and at what speed.
+func ClockNote(speed float64) string {
+	return fmt.Sprintf("simulated time (demo), %g x real time", speed)
+}
+
+// demoBadRate is the share of the simulated readings sent as bad messages
+// on purpose.
+const demoBadRate = 0.0005
+
 // Start starts the broker, the service and the simulator, and returns once
 // the dashboard listens.
 func Start(ctx context.Context, opt Options) (*Demo, error) {
@@ -127,7 +136,7 @@ func Start(ctx context.Context, opt Options) (*Demo, error) {
 		opt.Fault = DefaultFault
 	}
 	if opt.Logger == nil {
-		opt.Logger = slog.New(slog.NewTextHandler(os.Stderr, &slog.HandlerOptions{Level: slog.LevelWarn}))
+		opt.Logger = slog.New(slog.NewTextHandler(os.Stderr, &slog.HandlerOptions{Level: slog.LevelInfo}))
 	}
 	d := &Demo{speed: opt.Speed, wallStart: time.Now()}
 	d.start = d.wallStart.UTC().Truncate(time.Second)
@@ -169,7 +178,7 @@ func Start(ctx context.Context, opt Options) (*Demo, error) {
 	cfg.Broker.Embedded = true
 	cfg.Broker.Listen = opt.BrokerListen
 	cfg.Broker.ClientID = "trussmonitor-demo"
-	svc, err := service.New(&cfg, service.Options{Logger: opt.Logger, Clock: d.Now, Structures: mons})
+	svc, err := service.New(&cfg, service.Options{Logger: opt.Logger, Clock: d.Now, Structures: mons, ClockNote: ClockNote(opt.Speed)})
 	if err != nil {
 		d.cleanup()
 		return nil, err
@@ -189,13 +198,14 @@ func Start(ctx context.Context, opt Options) (*Demo, error) {
 	if err != nil {
 		return nil, fmt.Errorf("demo: %w", err)
 	}
+	opt.Logger.Info(fmt.Sprintf("demo: the simulated loggers send bad messages on purpose (rate %g per reading: malformed JSON, NaN, unknown channel, wrong unit) to show that the service refuses them; each is announced by an INFO line before the service's WARN 'ingest: message rejected'", demoBadRate))
 	for i, mon := range mons {
 		sopt := simulate.DefaultOptions()
 		sopt.Seed = opt.Seed + uint64(i)
 		sopt.Start = d.start
 		sopt.Duration = 30 * 24 * time.Hour
 		sopt.Rate = time.Second
-		sopt.BadRate = 0.0005
+		sopt.BadRate = demoBadRate
 		if i == 0 {
 			sopt.Faults = faults
 		}
@@ -205,7 +215,11 @@ func Start(ctx context.Context, opt Options) (*Demo, error) {
 			d.cleanup()
 			return nil, fmt.Errorf("demo: simulator: %w", err)
 		}
-		popt := publish.Options{Broker: "tcp://" + svc.BrokerAddr(), ClientID: "demo-logger-" + mon.Structure.Name, Structure: mon.Structure.Name, Speed: opt.Speed}
+		popt := publish.Options{Broker: "tcp://" + svc.BrokerAddr(), ClientID: "demo-logger-" + mon.Structure.Name, Structure: mon.Structure.Name, Speed: opt.Speed,
+			OnBad: func(defect simulate.Defect, channel, topic string, at time.Time) {
+				opt.Logger.Info("demo: deliberate bad message from the simulated logger; the service should refuse it as a dead letter (the WARN line that follows)",
+					"defect", defect.String(), "channel", channel, "topic", topic, "simulated_time", at.UTC().Format(time.RFC3339))
+			}}
 		d.wg.Add(1)
 		go func() {
 			defer d.wg.Done()

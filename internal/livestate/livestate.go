@@ -81,10 +81,15 @@ func (l *Live) Register(s *model.Structure, proc *pipeline.Processor, alphaGloba
 	for _, n := range s.Nodes {
 		e.geometry.Nodes = append(e.geometry.Nodes, dashboard.Node{ID: n.ID, X: n.X[0], Y: n.X[1], Z: n.X[2]})
 	}
+	tied := map[string]bool{}
+	for _, id := range proc.GaugeOrStiffness() {
+		tied[id] = true
+	}
 	for _, m := range s.Members {
 		_, g := e.gaugedIndex[m.ID]
-		e.geometry.Members = append(e.geometry.Members, dashboard.Member{ID: m.ID, Start: s.Nodes[m.I].ID, End: s.Nodes[m.J].ID, Gauged: g})
+		e.geometry.Members = append(e.geometry.Members, dashboard.Member{ID: m.ID, Start: s.Nodes[m.I].ID, End: s.Nodes[m.J].ID, Gauged: g, GaugeOrStiffness: tied[m.ID]})
 	}
+	e.geometry.Supports, e.geometry.Loads = drawnSupportsAndLoads(s)
 	l.mu.Lock()
 	defer l.mu.Unlock()
 	if _, dup := l.structs[s.Name]; !dup {
@@ -172,7 +177,7 @@ func dashboardEvent(ev alerts.Event) dashboard.Event {
 	} else {
 		d.Size = nan()
 	}
-	d.Message = fmt.Sprintf("%s %s %s: %s %.4g (threshold %.4g)", ev.Rule, ev.Subject, ev.Kind, ev.Evidence.Signal, ev.Evidence.Value, ev.Evidence.Threshold)
+	d.Message = alerts.Message(ev)
 	for _, c := range ev.Evidence.Causes {
 		d.Causes = append(d.Causes, dashboard.Cause{Kind: c.Kind, Subject: causeSubject(c.Label), T: c.T, Size: c.Size, Unit: c.Unit})
 	}
@@ -301,4 +306,41 @@ func (l *Live) Events(name string, from, to time.Time) ([]dashboard.Event, error
 	}
 	sort.SliceStable(out, func(i, j int) bool { return out[i].Time.Before(out[j].Time) })
 	return out, nil
+}
+
+// drawnSupportsAndLoads lists the supports and, per pattern and node, the
+// direction of the pattern's resultant nodal force, for the drawing.
+func drawnSupportsAndLoads(s *model.Structure) ([]dashboard.Support, []dashboard.NodalLoad) {
+	var sups []dashboard.Support
+	for _, sp := range s.Supports {
+		d := dashboard.Support{Node: s.Nodes[sp.Node].ID, Fixed: sp.Fixed, Inclined: sp.Normal != nil}
+		for k := range sp.Spring {
+			d.Spring[k] = sp.Spring[k] != 0
+		}
+		sups = append(sups, d)
+	}
+	var loads []dashboard.NodalLoad
+	for _, p := range s.Patterns {
+		sum := map[int][3]float64{}
+		var order []int
+		for _, f := range p.Forces {
+			v, seen := sum[f.Node]
+			if !seen {
+				order = append(order, f.Node)
+			}
+			for k := range v {
+				v[k] += f.F[k]
+			}
+			sum[f.Node] = v
+		}
+		for _, n := range order {
+			v := sum[n]
+			l := math.Sqrt(v[0]*v[0] + v[1]*v[1] + v[2]*v[2])
+			if l == 0 || math.IsNaN(l) || math.IsInf(l, 0) {
+				continue
+			}
+			loads = append(loads, dashboard.NodalLoad{Node: s.Nodes[n].ID, Pattern: p.Name, Direction: [3]float64{v[0] / l, v[1] / l, v[2] / l}, Unknown: p.Unknown})
+		}
+	}
+	return sups, loads
 }

@@ -93,7 +93,14 @@ type FreeMotion struct {
 	Ratio float64
 	// PivotDOF names the DOF where the Cholesky pivot failed (sparse path).
 	PivotDOF string
+	// Dim is the structure's dimension: String prints this many components
+	// per node (3 when unset).
+	Dim int
 }
+
+// freeMotionListed is how many moving nodes FreeMotion.String names before
+// it says how many more move.
+const freeMotionListed = 6
 
 // NodeMotion is the displacement of one node in a free motion.
 type NodeMotion struct {
@@ -125,15 +132,25 @@ func (fm FreeMotion) String() string {
 	if fm.PivotDOF != "" {
 		s = "pivot failed at " + fm.PivotDOF + ": "
 	}
+	dim := fm.Dim
+	if dim != 2 {
+		dim = 3
+	}
 	for i, nm := range fm.Nodes {
-		if i == 6 {
-			s += fmt.Sprintf(", ... (%d nodes move)", fm.Moving)
+		if i == freeMotionListed {
 			break
 		}
 		if i > 0 {
 			s += ", "
 		}
-		s += fmt.Sprintf("%s moves (%.3g, %.3g, %.3g)", nm.ID, nm.Dir[0], nm.Dir[1], nm.Dir[2])
+		if dim == 2 {
+			s += fmt.Sprintf("%s moves (%.3g, %.3g)", nm.ID, nm.Dir[0], nm.Dir[1])
+		} else {
+			s += fmt.Sprintf("%s moves (%.3g, %.3g, %.3g)", nm.ID, nm.Dir[0], nm.Dir[1], nm.Dir[2])
+		}
+	}
+	if more := fm.Moving - min(len(fm.Nodes), freeMotionListed); more > 0 {
+		s += fmt.Sprintf(" and %d more node(s) (%d move in all)", more, fm.Moving)
 	}
 	return s
 }

@@ -151,7 +151,7 @@ func (m *Model) pivotMotions(pivot int) ([]FreeMotion, bool) {
 			// No factor to solve with: report the failed DOF itself.
 			w := m.lo.free[p]
 			n := w / m.lo.dim
-			fm = FreeMotion{Nodes: []NodeMotion{{Node: n, ID: m.s.Nodes[n].ID, Dir: m.lo.toGlobal(n, unitAxis(w%m.lo.dim))}}, Moving: 1}
+			fm = FreeMotion{Nodes: []NodeMotion{{Node: n, ID: m.s.Nodes[n].ID, Dir: m.lo.toGlobal(n, unitAxis(w%m.lo.dim))}}, Moving: 1, Dim: m.lo.dim}
 		}
 		fm.PivotDOF = m.lo.dofLabel(m.s, m.lo.free[p])
 		out = append(out, fm)
@@ -223,7 +223,7 @@ func (m *Model) describe(v []float64) FreeMotion {
 		return FreeMotion{}
 	}
 	sort.SliceStable(all, func(a, b int) bool { return all[a].mag > all[b].mag })
-	var fm FreeMotion
+	fm := FreeMotion{Dim: d}
 	for _, a := range all {
 		if a.mag < 1e-3*mx {
 			break

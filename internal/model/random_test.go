@@ -128,14 +128,6 @@ func forEachRandom(t *testing.T, f func(t *testing.T, s *Structure, rc randomCas
 	}
 }
 
-func maxAbs(v []float64) float64 {
-	var m float64
-	for _, x := range v {
-		m = math.Max(m, math.Abs(x))
-	}
-	return m
-}
-
 // TestRandomEquilibriumAndEnergy: joint equilibrium (checked in solve) and
 // energy balance, external work 1/2 f.u = strain energy sum N^2 L / (2 E A)
 // (Clapeyron's theorem), for force loads.

@@ -8,6 +8,8 @@
 // produces a *Structure; everything in this package works in SI (N, m, Pa, K).
 package model
 
+import "trussmonitor/internal/units"
+
 // Structure is a pin-jointed truss ready for analysis. All quantities are SI.
 // Indices (Member.I, Support.Node, ...) refer to positions in Nodes and
 // Members. Line fields carry the source line of the declaration (0 when the
@@ -22,6 +24,9 @@ type Structure struct {
 	File string
 	// Hash is the content hash of the source file (hex SHA-256), if any.
 	Hash string
+	// Units is the system of units the source file declared its default
+	// units in (units.SI when built in code); reports use it by default.
+	Units units.System
 	// Dim is 2 for a plane truss (x, y) or 3 for a space truss (x, y, z).
 	Dim int
 	// Gravity is the unit vector of gravity; default -y in 2D, -z in 3D.

@@ -95,10 +95,17 @@ func Validate(s *Structure) error {
 		add(0, "gravity", "direction is not a finite vector: %v", s.Gravity)
 	}
 	scale := 0.0
+	badNode := make([]bool, len(s.Nodes))
 	for i, n := range s.Nodes {
 		f := fmt.Sprintf("nodes[%d] (%s)", i, n.ID)
 		if !finite(n.X[:]...) {
 			add(n.Line, f, "coordinates %v are not finite numbers", n.X)
+			badNode[i] = true
+			continue
+		}
+		if c := maxAbs3(n.X); c > MaxCoordinateM {
+			add(n.Line, f, "coordinate %g m is beyond the valid range of +-%g m (%g km): no truss is that large and lengths would be lost to rounding; check the number and the file's length unit", c, MaxCoordinateM, MaxCoordinateM/1e3)
+			badNode[i] = true
 			continue
 		}
 		if s.Dim == 2 && n.X[2] != 0 {
@@ -117,7 +124,7 @@ func Validate(s *Structure) error {
 		}
 		if m.I == m.J {
 			add(m.Line, f, "both ends at the same node %s; a member joins two different joints", s.Nodes[m.I].ID)
-		} else {
+		} else if !badNode[m.I] && !badNode[m.J] {
 			var d [3]float64
 			for k := 0; k < 3; k++ {
 				d[k] = s.Nodes[m.J].X[k] - s.Nodes[m.I].X[k]

@@ -1,7 +1,6 @@
 package replay
 
 import (
-	"fmt"
 	"math"
 	"sort"
 	"strings"
@@ -113,35 +112,11 @@ func (c *collector) report(members, unknown []string) *report.Report {
 func (c *collector) event(e alerts.Event) report.Event {
 	ev := e.Evidence
 	out := report.Event{Time: e.Time, Rule: e.Rule, Subject: e.Subject, Kind: e.Kind, W: math.NaN(), Size: math.NaN()}
-	since := ""
-	if !ev.ActiveSince.IsZero() {
-		since = " since " + ev.ActiveSince.UTC().Format(time.RFC3339)
-	}
-	raised := e.Kind == alerts.Raised
-	switch ev.Signal {
-	case "abs_w":
+	if ev.Signal == "abs_w" {
 		out.W = ev.W
 		out.Size, out.SizeUnit = ev.Bias, "N"
-		if raised {
-			out.Message = fmt.Sprintf("|w| = %.3g above %.3g%s; estimated gauge bias %.4g N", ev.Value, ev.Threshold, since, ev.Bias)
-		} else {
-			out.Message = fmt.Sprintf("|w| = %.3g, at or below %.3g", ev.Value, ev.Threshold)
-		}
-	case "fit_p_value":
-		if raised {
-			out.Message = fmt.Sprintf("global test p-value %.3g below %.3g%s (chi-square %.4g with %d degrees of freedom)", ev.Value, ev.Threshold, since, ev.ChiSquare, ev.DOF)
-		} else {
-			out.Message = fmt.Sprintf("global test p-value %.3g, at or above %.3g", ev.Value, ev.Threshold)
-		}
-	case "seconds_since_last_reading":
-		if raised {
-			out.Message = fmt.Sprintf("no reading for %.0f s (limit %.0f s)", ev.Value, ev.Threshold)
-		} else {
-			out.Message = "reporting again"
-		}
-	default:
-		out.Message = fmt.Sprintf("%s = %.4g (threshold %.4g)%s", ev.Signal, ev.Value, ev.Threshold, since)
 	}
+	out.Message = alerts.Message(e)
 	for _, k := range ev.Causes {
 		out.Causes = append(out.Causes, report.Cause{Kind: k.Kind, Subject: c.subject(k.Label), T: k.T, Size: k.Size, Unit: k.Unit})
 	}

@@ -450,8 +450,7 @@ func resolveModel(ctx context.Context, db *store.Store, opt Options, sensorData 
 			return nil, err
 		}
 		if name != "" && name != structSt.Name {
-			return nil, fmt.Errorf("%s is the sensor map of %q but %s is structure %q; give the matching pair",
-				opt.SensorsFile, name, opt.StructureFile, structSt.Name)
+			return nil, &sensors.MismatchError{SensorsPath: opt.SensorsFile, MapStructure: name, StructurePath: opt.StructureFile, Structure: structSt.Name}
 		}
 		name = structSt.Name
 	}

@@ -58,12 +58,9 @@ func LoadStructure(structurePath, sensorsPath string) (*Monitored, error) {
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", structurePath, err)
 	}
-	sm, err := sensors.LoadFile(sensorsPath, st)
+	sm, err := sensors.LoadFor(sensorsPath, st, st.Name, structurePath)
 	if err != nil {
 		return nil, err
-	}
-	if sm.StructureName() != st.Name {
-		return nil, fmt.Errorf("%s: sensor map is for structure %q but %s declares %q; pair the files of one structure", sensorsPath, sm.StructureName(), structurePath, st.Name)
 	}
 	return &Monitored{Structure: st, Model: m, Sensors: sm, Content: content}, nil
 }
@@ -86,6 +83,7 @@ type Service struct {
 	httpLn    net.Listener
 	httpSrv   *http.Server
 	clock     func() time.Time
+	clockNote string
 	rules     []alerts.Rule
 	set       settings.Settings
 	connected atomic.Bool
@@ -100,12 +98,15 @@ type Options struct {
 	// Structures, when set, are used instead of loading the configuration's
 	// structure files (the demo passes its embedded examples).
 	Structures []*Monitored
+	// ClockNote, when set, is shown on the dashboard beside the epoch time
+	// (the demo says its time is simulated and at what speed).
+	ClockNote string
 }
 
 // New builds the service: it opens the store, loads every structure and
 // prepares the pipelines, but starts nothing.
 func New(cfg *config.Config, opt Options) (*Service, error) {
-	s := &Service{cfg: cfg, log: opt.Logger, clock: opt.Clock, pipes: map[string]*pipeline.Pipeline{}, rejects: map[string]*atomic.Uint64{}}
+	s := &Service{cfg: cfg, log: opt.Logger, clock: opt.Clock, clockNote: opt.ClockNote, pipes: map[string]*pipeline.Pipeline{}, rejects: map[string]*atomic.Uint64{}}
 	if s.log == nil {
 		s.log = slog.Default()
 	}
@@ -234,7 +235,7 @@ func (s *Service) Start(ctx context.Context) error {
 	mux.Handle("/metrics", mh)
 	mux.Handle("/healthz", mh)
 	mux.Handle("/readyz", mh)
-	mux.Handle("/", dashboard.New(s.live, dashboard.Options{Now: s.clock}))
+	mux.Handle("/", dashboard.New(s.live, dashboard.Options{Now: s.clock, ClockNote: s.clockNote}))
 	s.httpSrv = &http.Server{Handler: mux, ReadHeaderTimeout: 10 * time.Second}
 	go func() {
 		if err := s.httpSrv.Serve(ln); err != nil && !errors.Is(err, http.ErrServerClosed) {

@@ -93,6 +93,7 @@ func (r *reader) structure(root *yaml.Node) *model.Structure {
 	}
 	s.st.Dim = s.dim
 	r.unitsBlock(m["units"])
+	s.st.Units = r.unitSystem()
 	s.st.Gravity = [3]float64{0, -1, 0}
 	if s.dim == 3 {
 		s.st.Gravity = [3]float64{0, 0, -1}
@@ -167,6 +168,15 @@ func (r *reader) unitsBlock(n *yaml.Node) {
 		}
 		r.units[byKey[k]] = sym
 	}
+}
+
+// unitSystem is the system of units of the declared default units.
+func (r *reader) unitSystem() units.System {
+	syms := make([]string, 0, len(r.units))
+	for _, sym := range r.units {
+		syms = append(syms, sym)
+	}
+	return units.SystemOf(syms...)
 }
 
 // vector reads a dimensionless direction vector of dim components and
@@ -1002,6 +1012,17 @@ func (r *reader) geometry(s *state) {
 	nodes := s.st.Nodes
 	if len(nodes) == 0 {
 		return
+	}
+	huge := false
+	for i, n := range nodes {
+		c := math.Max(math.Abs(n.X[0]), math.Max(math.Abs(n.X[1]), math.Abs(n.X[2])))
+		if !s.badNode[i] && c > model.MaxCoordinateM {
+			r.errorAt(n.Line, "nodes["+n.ID+"].at", "coordinate %g m is beyond the valid range of +-%g m (%g km): no truss is that large and member lengths would be lost to rounding; check the number and the length unit (units: length)", c, model.MaxCoordinateM, model.MaxCoordinateM/1e3)
+			huge = true
+		}
+	}
+	if huge {
+		return // distances are meaningless; the coincidence checks would mislead
 	}
 	lo, hi := nodes[0].X, nodes[0].X
 	for _, n := range nodes {

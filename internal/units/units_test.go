@@ -201,3 +201,48 @@ func ExampleParse() {
 	// E = 2.068e+11 Pa, A = 0.00129032 m2, L = 3 m
 	// wrong dimension: "mm" is a unit of length, expected a force unit (one of N, kN, MN, lbf, kip)
 }
+
+// TestSystemOutput: a file's declared units decide the report system, and
+// the report units convert SI results exactly back (NIST SP 811 (2008)
+// App. B: 1 kip = 4448.2216152605 N, 1 ksi = 6.894757293168361 MPa, 1 in =
+// 25.4 mm).
+func TestSystemOutput(t *testing.T) {
+	for _, c := range []struct {
+		symbols []string
+		want    System
+	}{
+		{[]string{"m", "kN", "GPa"}, SI},
+		{[]string{"in", "lbf", "psi", "in2"}, US},
+		{[]string{"mm", "kip"}, US},
+		{[]string{"lb/ft^3"}, US},
+		{nil, SI},
+	} {
+		if got := SystemOf(c.symbols...); got != c.want {
+			t.Errorf("SystemOf(%v) = %v, want %v", c.symbols, got, c.want)
+		}
+	}
+	us := OutputOf(US)
+	for _, c := range []struct {
+		name      string
+		got, want float64
+	}{
+		{"4448.2216152605 N in kip", us.Force.FromSI(4448.2216152605), 1},
+		{"6.894757293168361 MPa in ksi", us.Stress.FromSI(6.894757293168361e6), 1},
+		{"25.4 mm in in", us.Displacement.FromSI(0.0254), 1},
+		{"0.3048 m in ft", us.Length.FromSI(0.3048), 1},
+		{"1000 N in kN", OutputOf(SI).Force.FromSI(1000), 1},
+	} {
+		if math.Abs(c.got-c.want) > 1e-12 {
+			t.Errorf("%s = %.15g, want %g", c.name, c.got, c.want)
+		}
+	}
+	for _, text := range []string{"si", "us"} {
+		s, err := ParseSystem(text)
+		if err != nil || s.String() != text {
+			t.Errorf("ParseSystem(%q) = %v, %v", text, s, err)
+		}
+	}
+	if _, err := ParseSystem("imperial"); err == nil {
+		t.Error("ParseSystem(imperial) accepted")
+	}
+}

@@ -20,14 +20,22 @@ const app = {
 };
 
 // Colour scale for |w| / k: neutral grey-blue near 0, amber in the middle,
-// saturated red at and above the critical value k. Our own palette.
+// burnt orange at and above the critical value k ("elevated"). An active
+// alarm is drawn differently in kind, not in shade: a purple core on a
+// dark halo, thicker, with a marker at mid-member (ALARM_*). Our own
+// palette.
 const STOPS = [
   [0.0, [120, 144, 166]],
   [0.55, [222, 168, 52]],
-  [1.0, [196, 22, 28]],
+  [1.0, [205, 92, 18]],
 ];
 const COLOUR_UNGAUGED = '#b9bec4';
 const COLOUR_UNCHECKED = '#8d99a6';
+const ALARM_CORE = '#7b2cbf';
+const ALARM_HALO = '#1d2a35';
+const INK = '#2b3944';
+const LOAD_COLOUR = '#1f6f8b';
+const LABEL_PX = 11;
 
 function colourFor(w, k) {
   const t = Math.min(Math.abs(w) / k, 1);
@@ -116,7 +124,147 @@ function niceLength(target) {
   return 10 * p;
 }
 
+// boxesOverlap reports whether two axis-aligned boxes {x, y, w, h} overlap.
+function boxesOverlap(a, b) {
+  return a.x < b.x + b.w && b.x < a.x + a.w && a.y < b.y + b.h && b.y < a.y + a.h;
+}
+
+// placeLabel finds a place for a member label: along the member at the
+// positions nearest its middle first, on the line or to either side, the
+// first whose box overlaps no box already taken and stays inside the
+// drawing. It returns the box or null when every place is taken.
+function placeLabel(text, a, b, taken, W, H) {
+  const w = text.length * 0.62 * LABEL_PX + 4, h = LABEL_PX + 2;
+  const len = Math.hypot(b.x - a.x, b.y - a.y) || 1;
+  const nx = -(b.y - a.y) / len, ny = (b.x - a.x) / len;
+  for (const t of [0.5, 0.4, 0.6, 0.3, 0.7, 0.22, 0.78]) {
+    for (const off of [0, 9, -9, 15, -15]) {
+      const cx = a.x + t * (b.x - a.x) + off * nx, cy = a.y + t * (b.y - a.y) + off * ny;
+      const box = { x: cx - w / 2, y: cy - h / 2, w, h };
+      if (box.x < 0 || box.y < 0 || box.x + w > W || box.y + h > H) continue;
+      if (!taken.some((o) => boxesOverlap(box, o))) return box;
+    }
+  }
+  return null;
+}
+
+// screenDir is the on-screen direction (x right, y down) of a global
+// direction vector d, and its length (short when d points at the viewer).
+function screenDir(d, dim) {
+  const o = project({ x: 0, y: 0, z: 0 }, dim), p = project({ x: d[0], y: d[1], z: d[2] }, dim);
+  const sx = p.x - o.x, sy = -(p.y - o.y);
+  const l = Math.hypot(sx, sy);
+  return { x: l ? sx / l : 0, y: l ? sy / l : 0, len: l };
+}
+
+// drawSupport draws one support with our own symbols at screen point p:
+// a vertical restraint as a triangle below the node (hatched ground for a
+// pin, two wheels for a roller free along the ground), a horizontal-only
+// restraint as a triangle beside it, a spring as a zigzag to a wall.
+function drawSupport(sp, p, dim, parent, taken, rightHalf) {
+  const up = dim === 3 ? 2 : 1;
+  const vert = sp.fixed.includes('xyz'[up]);
+  const horiz = sp.fixed.some((a) => a !== 'xyz'[up]);
+  const g = el('g', { 'data-support': sp.node, stroke: INK, 'stroke-width': 1.4, fill: 'none' }, parent);
+  let kind;
+  if (vert) {
+    kind = horiz ? 'pin' : 'roller';
+    el('polygon', { points: `${p.x},${p.y + 4} ${p.x - 8},${p.y + 16} ${p.x + 8},${p.y + 16}`, fill: '#ffffff' }, g);
+    let ground = p.y + 16;
+    if (!horiz) {
+      for (const dx of [-4, 4]) el('circle', { cx: p.x + dx, cy: p.y + 19, r: 2.6 }, g);
+      ground = p.y + 22;
+    }
+    el('line', { x1: p.x - 12, y1: ground, x2: p.x + 12, y2: ground }, g);
+    if (horiz) for (let i = -2; i <= 2; i++) el('line', { x1: p.x + 5 * i, y1: ground, x2: p.x + 5 * i - 4, y2: ground + 5 }, g);
+    taken.push({ x: p.x - 13, y: p.y + 2, w: 26, h: ground + 6 - p.y - 2 });
+  } else if (horiz) {
+    kind = 'side';
+    const s = rightHalf ? 1 : -1;
+    el('polygon', { points: `${p.x + 4 * s},${p.y} ${p.x + 16 * s},${p.y - 8} ${p.x + 16 * s},${p.y + 8}`, fill: '#ffffff' }, g);
+    el('line', { x1: p.x + 16 * s, y1: p.y - 12, x2: p.x + 16 * s, y2: p.y + 12 }, g);
+    taken.push({ x: Math.min(p.x, p.x + 18 * s), y: p.y - 12, w: 18, h: 24 });
+  }
+  if (sp.inclined) kind = (kind || '') + ' inclined';
+  for (const ax of sp.spring) {
+    const d = screenDir([ax === 'x' ? 1 : 0, ax === 'y' ? 1 : 0, ax === 'z' ? 1 : 0], dim);
+    if (d.len < 0.2) continue;
+    const s = rightHalf ? 1 : -1;
+    const ux = d.x * s, uy = d.y * s, vx = -uy, vy = ux;
+    let pts = `${p.x + 5 * ux},${p.y + 5 * uy}`;
+    for (let i = 1; i <= 6; i++) {
+      const along = 5 + 3.5 * i, side = i === 6 ? 0 : (i % 2 ? 4 : -4);
+      pts += ` ${p.x + along * ux + side * vx},${p.y + along * uy + side * vy}`;
+    }
+    el('polyline', { points: pts, 'data-spring': ax }, g);
+    const e = 5 + 3.5 * 6;
+    el('line', { x1: p.x + e * ux - 7 * vx, y1: p.y + e * uy - 7 * vy, x2: p.x + e * ux + 7 * vx, y2: p.y + e * uy + 7 * vy }, g);
+    taken.push({ x: Math.min(p.x, p.x + (e + 2) * ux) - 8, y: Math.min(p.y, p.y + (e + 2) * uy) - 8, w: Math.abs((e + 2) * ux) + 16, h: Math.abs((e + 2) * uy) + 16 });
+    kind = (kind ? kind + '+' : '') + 'spring';
+  }
+  g.setAttribute('data-kind', kind || 'none');
+  const t = el('title', {}, g);
+  t.textContent = `support ${sp.node}: fixed ${sp.fixed.join(' ') || '–'}` + (sp.spring.length ? `, spring ${sp.spring.join(' ')}` : '') + (sp.inclined ? ', inclined roller' : '');
+}
+
+// drawLoads draws one arrow per loaded node and direction (the patterns
+// acting there in its title). The arrow ends at the node; when that would
+// run along a member it hangs from the node on the other side instead.
+// Loads straight into a fixed support direction are left out.
+function drawLoadArrows(g, P, dim, parent, taken, memberDirs) {
+  const byKey = new Map();
+  const sup = new Map(g.supports.map((s) => [s.node, s]));
+  for (const l of g.loads) {
+    const key = l.node + ' ' + l.direction.map((v) => v.toFixed(3)).join(',');
+    if (!byKey.has(key)) byKey.set(key, { node: l.node, dir: l.direction, patterns: [], unknown: false });
+    const e = byKey.get(key);
+    e.patterns.push(l.pattern);
+    e.unknown = e.unknown || l.unknown;
+  }
+  const grp = el('g', { id: 'loads', 'pointer-events': 'none' }, parent);
+  for (const e of byKey.values()) {
+    const s = sup.get(e.node);
+    if (s) {
+      const k = e.dir.findIndex((v) => Math.abs(v) > 0.999);
+      if (k >= 0 && s.fixed.includes('xyz'[k])) continue;
+    }
+    const d = screenDir(e.dir, dim);
+    if (d.len < 0.2) continue;
+    const p = P.get(e.node);
+    const along = (memberDirs.get(e.node) || []).some((m) => m.x * d.x + m.y * d.y < -0.96);
+    const L = 26;
+    let tip, tail;
+    if (!along) { tip = { x: p.x - 5 * d.x, y: p.y - 5 * d.y }; tail = { x: tip.x - L * d.x, y: tip.y - L * d.y }; }
+    else { tail = { x: p.x + 5 * d.x, y: p.y + 5 * d.y }; tip = { x: tail.x + L * d.x, y: tail.y + L * d.y }; }
+    const a = el('g', { 'data-load': e.node, 'data-unknown': String(e.unknown) }, grp);
+    el('line', { x1: tail.x, y1: tail.y, x2: tip.x - 6 * d.x, y2: tip.y - 6 * d.y, stroke: LOAD_COLOUR, 'stroke-width': 1.6, 'stroke-dasharray': e.unknown ? '4 2' : '' }, a);
+    const vx = -d.y, vy = d.x;
+    el('polygon', { points: `${tip.x},${tip.y} ${tip.x - 8 * d.x + 3.5 * vx},${tip.y - 8 * d.y + 3.5 * vy} ${tip.x - 8 * d.x - 3.5 * vx},${tip.y - 8 * d.y - 3.5 * vy}`, fill: LOAD_COLOUR }, a);
+    el('title', {}, a).textContent = `load at ${e.node}: ${e.patterns.join(', ')}` + (e.unknown ? ' (magnitude estimated from the gauges)' : '');
+    taken.push({ x: Math.min(tip.x, tail.x) - 4, y: Math.min(tip.y, tail.y) - 4, w: Math.abs(tip.x - tail.x) + 8, h: Math.abs(tip.y - tail.y) + 8 });
+  }
+}
+
+// drawAxisMarker draws the global axes as seen in the current view in the
+// lower right corner.
+function drawAxisMarker(dim, parent, W, H) {
+  const o = { x: W - 46, y: H - 26 };
+  const g = el('g', { id: 'axis-marker', 'font-size': 11, fill: INK }, parent);
+  const axes = dim === 3 ? ['x', 'y', 'z'] : ['x', 'y'];
+  for (const a of axes) {
+    const d = screenDir([a === 'x' ? 1 : 0, a === 'y' ? 1 : 0, a === 'z' ? 1 : 0], dim);
+    const L = 24 * d.len;
+    el('line', { x1: o.x, y1: o.y, x2: o.x + L * d.x, y2: o.y + L * d.y, stroke: INK, 'stroke-width': 1.4, 'data-axis': a }, g);
+    const t = el('text', { x: o.x + (L + 7) * d.x, y: o.y + (L + 7) * d.y + 4, 'text-anchor': 'middle' }, g);
+    t.textContent = a;
+  }
+  el('circle', { cx: o.x, cy: o.y, r: 2, fill: INK }, g);
+}
+
 // drawTruss rebuilds the drawing from the geometry and the current view.
+// The drawing is laid out in screen pixels: the truss is scaled to fill the
+// panel's width, and a plane truss's panel takes the height its aspect
+// needs (within limits), so a long low truss is not a thin strip.
 function drawTruss() {
   const st = app.state;
   const svg = document.getElementById('truss');
@@ -133,47 +281,90 @@ function drawTruss() {
     minY = Math.min(minY, p.y); maxY = Math.max(maxY, p.y);
   }
   if (!isFinite(minX)) return;
-  const span = Math.max(maxX - minX, maxY - minY, 1e-3);
-  const pad = 0.08 * span;
-  const bottom = 0.12 * span; // room for the scale bar
-  svg.setAttribute('viewBox', [minX - pad, -maxY - pad, (maxX - minX) + 2 * pad, (maxY - minY) + 2 * pad + bottom].join(' '));
+  const W = Math.max(svg.clientWidth || 0, 320);
+  const pad = 44, foot = 40; // room for symbols, labels and the scale bar
+  const bw = Math.max(maxX - minX, 1e-3), bh = Math.max(maxY - minY, 1e-3);
+  let H = 460;
+  if (dim !== 3) H = Math.round(Math.min(Math.max(bh * (W - 2 * pad) / bw + 2 * pad + foot, 240), 560));
+  const scale = Math.min((W - 2 * pad) / bw, (H - 2 * pad - foot) / bh);
+  const ox = (W - bw * scale) / 2, oy = pad + ((H - 2 * pad - foot) - bh * scale) / 2;
+  const P = new Map();
+  for (const [id, p] of pos) P.set(id, { x: ox + (p.x - minX) * scale, y: oy + (maxY - p.y) * scale, depth: p.depth });
+  svg.style.height = H + 'px';
+  svg.setAttribute('viewBox', `0 0 ${W} ${H}`);
   svg.dataset.dimension = String(dim);
+  svg.dataset.fill = ((bw * scale) / (W - 2 * pad)).toFixed(3) + ' ' + ((bh * scale) / (H - 2 * pad - foot)).toFixed(3);
 
+  const halos = el('g', { id: 'alarm-halos', 'pointer-events': 'none' }, svg);
   const members = el('g', { id: 'members' }, svg);
   const hits = el('g', { id: 'member-hits' }, svg);
-  const labels = el('g', { id: 'member-labels', 'pointer-events': 'none' }, svg);
+  const marks = el('g', { id: 'member-marks', 'pointer-events': 'none' }, svg);
   const order = g.members.slice();
   if (dim === 3) {
-    const depth = (m) => (pos.get(m.start).depth + pos.get(m.end).depth) / 2;
+    const depth = (m) => (P.get(m.start).depth + P.get(m.end).depth) / 2;
     order.sort((a, b) => depth(b) - depth(a)); // far members first
   }
+  const taken = [];
+  const memberDirs = new Map();
+  const addDir = (n, from, to) => {
+    const l = Math.hypot(to.x - from.x, to.y - from.y) || 1;
+    if (!memberDirs.has(n)) memberDirs.set(n, []);
+    memberDirs.get(n).push({ x: (to.x - from.x) / l, y: (to.y - from.y) / l });
+  };
   for (const m of order) {
-    const a = pos.get(m.start), b = pos.get(m.end);
+    const a = P.get(m.start), b = P.get(m.end);
     if (!a || !b) continue;
-    const coords = { x1: a.x, y1: -a.y, x2: b.x, y2: -b.y };
-    el('line', Object.assign({ 'data-member': m.id, 'vector-effect': 'non-scaling-stroke', 'stroke-linecap': 'round' }, coords), members);
-    const hit = el('line', Object.assign({ 'data-hit': m.id, stroke: 'transparent', 'stroke-width': 14, 'vector-effect': 'non-scaling-stroke' }, coords), hits);
-    const t = el('title', {}, hit);
-    t.textContent = m.id;
-    if (dim === 2 && g.members.length <= 80) {
-      const tx = el('text', { x: (a.x + b.x) / 2, y: -(a.y + b.y) / 2 - 0.012 * span, 'font-size': 0.028 * span, 'text-anchor': 'middle', fill: '#44505b' }, labels);
-      tx.textContent = m.id;
+    addDir(m.start, a, b); addDir(m.end, b, a);
+    const coords = { x1: a.x, y1: a.y, x2: b.x, y2: b.y };
+    el('line', Object.assign({ 'data-halo': m.id, stroke: ALARM_HALO, 'stroke-width': 12, 'stroke-linecap': 'round', visibility: 'hidden' }, coords), halos);
+    el('line', Object.assign({ 'data-member': m.id, 'stroke-linecap': 'round' }, coords), members);
+    const hit = el('line', Object.assign({ 'data-hit': m.id, stroke: 'transparent', 'stroke-width': 14 }, coords), hits);
+    el('title', {}, hit).textContent = m.id + (m.gauge_or_stiffness ? ' (gauge fault and stiffness change cannot be told apart)' : '');
+    const mx = (a.x + b.x) / 2, my = (a.y + b.y) / 2;
+    // alarm marker (shown by paintMembers): a ring at mid-member
+    el('circle', { 'data-alarm-mark': m.id, cx: mx, cy: my, r: 7, fill: '#ffffff', stroke: ALARM_CORE, 'stroke-width': 3, visibility: 'hidden' }, marks);
+    if (m.gauge_or_stiffness) {
+      const q = { x: a.x + 0.5 * (b.x - a.x), y: a.y + 0.5 * (b.y - a.y) };
+      el('polygon', { 'data-tied': m.id, points: `${q.x},${q.y - 6} ${q.x + 6},${q.y} ${q.x},${q.y + 6} ${q.x - 6},${q.y}`, fill: '#ffffff', stroke: INK, 'stroke-width': 1.4 }, marks);
     }
+    taken.push({ x: mx - 7, y: my - 7, w: 14, h: 14 }); // the marker's place
   }
   const nodes = el('g', { id: 'nodes', 'pointer-events': 'none' }, svg);
   for (const nd of g.nodes) {
-    const p = pos.get(nd.id);
-    el('circle', { 'data-node': nd.id, cx: p.x, cy: -p.y, r: 0.007 * span, fill: '#2b3944' }, nodes);
+    const p = P.get(nd.id);
+    el('circle', { 'data-node': nd.id, cx: p.x, cy: p.y, r: 3, fill: INK }, nodes);
+    taken.push({ x: p.x - 4, y: p.y - 4, w: 8, h: 8 });
+  }
+  const sups = el('g', { id: 'supports', 'pointer-events': 'none' }, svg);
+  const midX = (minX + maxX) / 2;
+  for (const sp of g.supports || []) {
+    const p = P.get(sp.node);
+    if (p) drawSupport(sp, p, dim, sups, taken, pos.get(sp.node).x > midX);
+  }
+  drawLoadArrows(g, P, dim, svg, taken, memberDirs);
+  // member labels, placed without overlap (plane trusses and small space trusses)
+  const labels = el('g', { id: 'member-labels', 'pointer-events': 'none', 'font-size': LABEL_PX }, svg);
+  if (g.members.length <= 80) {
+    const placed = [];
+    for (const m of g.members) {
+      const a = P.get(m.start), b = P.get(m.end);
+      if (!a || !b) continue;
+      const box = placeLabel(m.id, a, b, taken.concat(placed), W, H);
+      if (!box) { labels.setAttribute('data-unplaced', (labels.getAttribute('data-unplaced') || '') + m.id + ' '); continue; }
+      placed.push(box);
+      const tx = el('text', { 'data-label': m.id, x: box.x + box.w / 2, y: box.y + box.h - 3, 'text-anchor': 'middle', fill: '#33404b', stroke: '#ffffff', 'stroke-width': 3, 'paint-order': 'stroke' }, labels);
+      tx.textContent = m.id;
+    }
   }
   // scale bar (lengths in the view plane are true lengths)
-  const L = niceLength((maxX - minX + 2 * pad) / 5);
-  const y0 = -minY + pad + 0.5 * bottom;
-  const x0 = minX;
+  const Lm = niceLength(bw / 5);
+  const y0 = H - 16, x0 = 16;
   const bar = el('g', { id: 'scale-bar' }, svg);
-  el('line', { x1: x0, y1: y0, x2: x0 + L, y2: y0, stroke: '#2b3944', 'stroke-width': 2, 'vector-effect': 'non-scaling-stroke' }, bar);
-  for (const x of [x0, x0 + L]) el('line', { x1: x, y1: y0 - 0.015 * span, x2: x, y2: y0 + 0.015 * span, stroke: '#2b3944', 'stroke-width': 2, 'vector-effect': 'non-scaling-stroke' }, bar);
-  const lt = el('text', { x: x0 + L + 0.02 * span, y: y0 + 0.012 * span, 'font-size': 0.035 * span, fill: '#2b3944' }, bar);
-  lt.textContent = L + ' m' + (dim === 3 ? ' (in the view plane)' : '');
+  el('line', { x1: x0, y1: y0, x2: x0 + Lm * scale, y2: y0, stroke: INK, 'stroke-width': 2 }, bar);
+  for (const x of [x0, x0 + Lm * scale]) el('line', { x1: x, y1: y0 - 5, x2: x, y2: y0 + 5, stroke: INK, 'stroke-width': 2 }, bar);
+  const lt = el('text', { x: x0 + Lm * scale + 8, y: y0 + 4, 'font-size': 12, fill: INK }, bar);
+  lt.textContent = Lm + ' m' + (dim === 3 ? ' (in the view plane)' : '');
+  drawAxisMarker(dim, svg, W, H);
   paintMembers();
 }
 
@@ -201,11 +392,17 @@ function paintMembers() {
     let colour, width;
     if (s === 'ungauged') { colour = COLOUR_UNGAUGED; width = 1.5; }
     else if (s === 'unchecked') { colour = COLOUR_UNCHECKED; width = 3.5; line.setAttribute('stroke-dasharray', '7 5'); }
-    else { colour = colourFor(r.w, k); width = s === 'alarm' ? 7 : 4.5; }
+    else if (s === 'alarm') { colour = ALARM_CORE; width = 6; }
+    else { colour = colourFor(r.w, k); width = 4.5; }
     line.setAttribute('stroke', colour);
     line.setAttribute('stroke-width', id === app.selected ? width + 2 : width);
     line.setAttribute('data-selected', id === app.selected ? 'true' : 'false');
     line.setAttribute('data-w', r && r.w !== null ? r.w.toFixed(3) : '');
+    const vis = s === 'alarm' ? 'visible' : 'hidden';
+    const halo = document.querySelector(`#truss line[data-halo="${CSS.escape(id)}"]`);
+    if (halo) halo.setAttribute('visibility', vis);
+    const mark = document.querySelector(`#truss circle[data-alarm-mark="${CSS.escape(id)}"]`);
+    if (mark) mark.setAttribute('visibility', vis);
   }
 }
 
@@ -223,13 +420,35 @@ function drawLegend(k) {
     t.textContent = label;
   }
   const cap = el('text', { x: 10, y: 56, 'font-size': 11, fill: '#66727d' }, svg);
-  cap.textContent = '|w|, Baarda\'s normalised residual';
-  el('line', { x1: 360, y1: 15, x2: 400, y2: 15, stroke: COLOUR_UNGAUGED, 'stroke-width': 1.5 }, svg);
-  const t1 = el('text', { x: 408, y: 19, 'font-size': 11, fill: '#1d2a35' }, svg);
-  t1.textContent = 'no gauge';
-  el('line', { x1: 360, y1: 37, x2: 400, y2: 37, stroke: COLOUR_UNCHECKED, 'stroke-width': 3.5, 'stroke-dasharray': '7 5' }, svg);
-  const t2 = el('text', { x: 408, y: 41, 'font-size': 11, fill: '#1d2a35' }, svg);
-  t2.textContent = 'gauged, cannot be checked';
+  cap.textContent = '|w|, Baarda\'s normalised residual (elevated, no alarm)';
+  const item = (y, draw, text, id) => {
+    const g = el('g', { 'data-legend': id }, svg);
+    draw(g, y);
+    const t = el('text', { x: 408, y: y + 4, 'font-size': 11, fill: '#1d2a35' }, g);
+    t.textContent = text;
+  };
+  item(15, (g, y) => el('line', { x1: 360, y1: y, x2: 400, y2: y, stroke: COLOUR_UNGAUGED, 'stroke-width': 1.5 }, g), 'no gauge', 'ungauged');
+  item(35, (g, y) => el('line', { x1: 360, y1: y, x2: 400, y2: y, stroke: COLOUR_UNCHECKED, 'stroke-width': 3.5, 'stroke-dasharray': '7 5' }, g), 'gauged, redundancy ≈ 0: cannot be checked', 'unchecked');
+  item(55, (g, y) => {
+    el('line', { x1: 360, y1: y, x2: 400, y2: y, stroke: ALARM_HALO, 'stroke-width': 12, 'stroke-linecap': 'round' }, g);
+    el('line', { x1: 360, y1: y, x2: 400, y2: y, stroke: ALARM_CORE, 'stroke-width': 6, 'stroke-linecap': 'round' }, g);
+    el('circle', { cx: 380, cy: y, r: 7, fill: '#ffffff', stroke: ALARM_CORE, 'stroke-width': 3 }, g);
+  }, 'alarm active', 'alarm');
+  item(77, (g, y) => el('polygon', { points: `380,${y - 6} 386,${y} 380,${y + 6} 374,${y}`, fill: '#ffffff', stroke: INK, 'stroke-width': 1.4 }, g), 'gauge fault and stiffness change cannot be told apart', 'tied');
+  const sym = el('g', { 'data-legend': 'symbols', stroke: INK, 'stroke-width': 1.4, fill: 'none' }, svg);
+  el('polygon', { points: '20,70 13,82 27,82', fill: '#ffffff' }, sym);
+  el('line', { x1: 9, y1: 82, x2: 31, y2: 82 }, sym);
+  el('polygon', { points: '100,70 93,82 107,82', fill: '#ffffff' }, sym);
+  for (const dx of [-4, 4]) el('circle', { cx: 100 + dx, cy: 85, r: 2.6 }, sym);
+  el('polyline', { points: '170,78 174,74 178,82 182,74 186,82 190,78' }, sym);
+  el('line', { x1: 190, y1: 71, x2: 190, y2: 85 }, sym);
+  el('line', { x1: 250, y1: 68, x2: 250, y2: 80, stroke: LOAD_COLOUR, 'stroke-width': 1.6 }, sym);
+  el('polygon', { points: '250,88 246.5,80 253.5,80', fill: LOAD_COLOUR, stroke: 'none' }, sym);
+  const labs = el('g', { 'font-size': 11, fill: '#1d2a35' }, svg);
+  for (const [x, text] of [[34, 'pin'], [112, 'roller'], [196, 'spring'], [258, 'load']]) {
+    const t = el('text', { x, y: 84 }, labs);
+    t.textContent = text;
+  }
 }
 
 // ---- panels ---------------------------------------------------------------
@@ -376,7 +595,7 @@ function drawSeries(ser) {
     if (!pts[i].alarm) continue;
     const xa = X(ts[i]);
     const xb = i + 1 < pts.length ? X(ts[i + 1]) : xa + 2;
-    el('rect', { x: xa, y: H - B + 22, width: Math.max(xb - xa, 2), height: 6, fill: colourFor(1, 1) }, strip);
+    el('rect', { x: xa, y: H - B + 22, width: Math.max(xb - xa, 2), height: 6, fill: ALARM_CORE }, strip);
   }
   const lg = el('g', { 'font-size': 11, fill: '#1d2a35' }, svg);
   el('line', { x1: L + 8, x2: L + 30, y1: H - 6, y2: H - 6, stroke: '#1d2a35', 'stroke-width': 1.6 }, lg);
@@ -385,7 +604,7 @@ function drawSeries(ser) {
   el('text', { x: L + 126, y: H - 2 }, lg).textContent = 'predicted';
   el('rect', { x: L + 196, y: H - 11, width: 22, height: 10, fill: 'rgba(120,144,166,0.25)' }, lg);
   el('text', { x: L + 222, y: H - 2 }, lg).textContent = `band ± ${fmtNum(ser.critical_value, 2)} σ of residual`;
-  el('rect', { x: L + 420, y: H - 9, width: 22, height: 6, fill: colourFor(1, 1) }, lg);
+  el('rect', { x: L + 420, y: H - 9, width: 22, height: 6, fill: ALARM_CORE }, lg);
   el('text', { x: L + 446, y: H - 2 }, lg).textContent = 'alarm active';
   note.textContent = ser.total_points > ser.points.length
     ? `${ser.points.length} of ${ser.total_points} epochs shown (largest |w| per bucket).`
@@ -453,7 +672,7 @@ async function poll() {
     app.state = st;
     document.getElementById('title').textContent = st.title || st.structure;
     document.title = (st.title || st.structure) + ' – truss monitor';
-    document.getElementById('epoch').textContent = st.epoch ? 'epoch ' + fmtTime(st.epoch) + ' UTC' : 'no epoch yet';
+    document.getElementById('epoch').textContent = (st.epoch ? 'epoch ' + fmtTime(st.epoch) + ' UTC' : 'no epoch yet') + (st.clock_note ? ' (' + st.clock_note + ')' : '');
     document.getElementById('model-version').textContent = st.model_version ? 'model ' + st.model_version.slice(0, 12) : '';
     document.getElementById('caution').textContent = st.caution;
     if (key !== app.geomKey) { app.geomKey = key; drawTruss(); drawLegend(st.critical_value || 3.29); }
@@ -503,6 +722,10 @@ function setup() {
     if (!frame) frame = requestAnimationFrame(() => { frame = 0; drawTruss(); });
   });
   window.addEventListener('pointerup', () => { drag = null; });
+  let resizeFrame = 0;
+  window.addEventListener('resize', () => {
+    if (!resizeFrame) resizeFrame = requestAnimationFrame(() => { resizeFrame = 0; drawTruss(); });
+  });
   svg.addEventListener('click', (e) => {
     if (moved) { moved = false; return; }
     const t = e.target.closest('[data-member], [data-hit]');
@@ -516,6 +739,9 @@ function setup() {
   document.getElementById('rot-reset').addEventListener('click', () => { app.view = { yaw: VIEW0.yaw, pitch: VIEW0.pitch }; drawTruss(); });
   document.getElementById('structure-select').addEventListener('change', (e) => {
     app.structure = e.target.value; app.geomKey = ''; app.selected = ''; drawSeries(null);
+    document.getElementById('member-title').textContent = 'Member';
+    document.getElementById('member-hint').textContent = 'Click a member of the drawing to see its measured and predicted force over time.';
+    document.querySelector('#member-detail tbody').replaceChildren();
   });
   poll();
 }

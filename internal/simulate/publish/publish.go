@@ -38,6 +38,9 @@ type Options struct {
 	// Progress, when set, is called with the counts so far and the time
 	// stamp of the step just sent, at most once a second of wall time.
 	Progress func(Stats, time.Time)
+	// OnBad, when set, is called before each bad message sent on purpose
+	// with its defect, channel, topic and the simulated time of its step.
+	OnBad func(defect simulate.Defect, channel, topic string, at time.Time)
 }
 
 // Stats counts what a publisher sent.
@@ -180,6 +183,9 @@ func (p *sender) sendStep(st simulate.Step) error {
 		topic := Topic(s)
 		if p.opt.PerChannel {
 			topic = ChannelTopic(s, r.Channel)
+		}
+		if p.opt.OnBad != nil {
+			p.opt.OnBad(r.Defect, r.Channel, topic, st.Time)
 		}
 		if err := p.publish(topic, payload); err != nil {
 			return err

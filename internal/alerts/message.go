@@ -1,0 +1,36 @@
+package alerts
+
+import (
+	"fmt"
+	"time"
+)
+
+// Message is the one-line wording of an event, the same on the dashboard,
+// in the API and in the replay report: what the signal was against its
+// threshold, and since when the condition held for a raised alarm.
+func Message(e Event) string {
+	ev := e.Evidence
+	since := ""
+	if !ev.ActiveSince.IsZero() {
+		since = " since " + ev.ActiveSince.UTC().Format(time.RFC3339)
+	}
+	raised := e.Kind == Raised
+	switch ev.Signal {
+	case "abs_w":
+		if raised {
+			return fmt.Sprintf("|w| = %.3g above %.3g%s; estimated gauge bias %.4g N", ev.Value, ev.Threshold, since, ev.Bias)
+		}
+		return fmt.Sprintf("|w| = %.3g, at or below %.3g", ev.Value, ev.Threshold)
+	case "fit_p_value":
+		if raised {
+			return fmt.Sprintf("global test p-value %.3g below %.3g%s (chi-square %.4g with %d degrees of freedom)", ev.Value, ev.Threshold, since, ev.ChiSquare, ev.DOF)
+		}
+		return fmt.Sprintf("global test p-value %.3g, at or above %.3g", ev.Value, ev.Threshold)
+	case "seconds_since_last_reading":
+		if raised {
+			return fmt.Sprintf("no reading for %.0f s (limit %.0f s)", ev.Value, ev.Threshold)
+		}
+		return "reporting again"
+	}
+	return fmt.Sprintf("%s = %.4g (threshold %.4g)%s", ev.Signal, ev.Value, ev.Threshold, since)
+}
