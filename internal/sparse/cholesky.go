@@ -45,6 +45,7 @@ const (
 	Natural
 	RCMOrdering
 	MinimumDegree
+	NestedDissection
 )
 
 func (o Ordering) String() string {
@@ -57,6 +58,8 @@ func (o Ordering) String() string {
 		return "rcm"
 	case MinimumDegree:
 		return "amd"
+	case NestedDissection:
+		return "nd"
 	}
 	return fmt.Sprintf("Ordering(%d)", int(o))
 }
@@ -112,6 +115,7 @@ type Stats struct {
 	N             int           // order of the matrix
 	NNZA          int           // entries of the lower triangle of A, diagonal included
 	NNZL          int           // entries of the factor L stored (band: n·(k+1); supernodal: including explicit zeros of amalgamated supernodes)
+	NNZLExact     int           // entries of L implied by the ordering, without explicit zeros (supernodal; zero for the others)
 	HalfBandwidth int           // half-bandwidth of the permuted matrix (band and dense methods; RCM bandwidth for the others when computed)
 	Supernodes    int           // number of supernodes (supernodal method)
 	Flops         float64       // floating-point operations of the numeric factorisation (estimate)
@@ -205,7 +209,7 @@ func Factorize(a *Sym, opt Options) (*Cholesky, error) {
 		return nil, fmt.Errorf("sparse: unknown factorisation method %d", int(opt.Method))
 	}
 	switch opt.Ordering {
-	case AutoOrdering, Natural, RCMOrdering, MinimumDegree:
+	case AutoOrdering, Natural, RCMOrdering, MinimumDegree, NestedDissection:
 	default:
 		return nil, fmt.Errorf("sparse: unknown ordering %d", int(opt.Ordering))
 	}
@@ -233,6 +237,8 @@ func computeOrdering(a *Sym, ord Ordering) []int {
 		return RCM(a.Adjacency())
 	case MinimumDegree:
 		return AMD(a)
+	case NestedDissection:
+		return ND(a)
 	}
 	return nil
 }

@@ -26,6 +26,7 @@ func factorSupernodal(a *Sym, perm []int, tol float64, st *Stats) (factor, error
 	sy := analyze(a, perm)
 	st.OrderTime += time.Since(t0)
 	st.NNZL = sy.nnzL
+	st.NNZLExact = sy.nnzLExact
 	st.Supernodes = len(sy.super) - 1
 	st.Flops = sy.flops
 	return numericSupernodal(a, sy, tol)
