@@ -50,6 +50,18 @@ func ND(a *Sym) []int {
 	return perm
 }
 
+// expand turns an order of the vertices into an order of the rows, the
+// rows of each vertex in their original order.
+func (g *nodeGraph) expand(order []int) []int {
+	perm := make([]int, 0, g.first[len(g.first)-1])
+	for _, v := range order {
+		for r := g.first[v]; r < g.first[v+1]; r++ {
+			perm = append(perm, r)
+		}
+	}
+	return perm
+}
+
 // ndLeafDOF is the size, in unknowns, under which a part is ordered by
 // minimum degree instead of being dissected further. Measured on the
 // double-layer roof grids (exact nnz(L) at 10k / 60k / 300k DOF): 360
