@@ -313,8 +313,9 @@ func (sf *superFactor) solveMany(x []float64, k int) {
 // 155 ms, supernodal 1.6e8 in 35 ms plus 16 ms of ordering), so the band
 // wins up to k of about 64. Σc_j² after nested dissection against minimum
 // degree: 1.24 at k = 149, 0.98 at k = 197, 0.92 at k = 293, 0.78 at
-// k = 389 (strips) and 0.87 at k = 248 (the 10k square grid), 1.11 at
-// k = 182 (5k square grid): dissection wins from k of about 240. The long
+// k = 389 (strips); on square grids 1.11 at k = 182 (5k DOF), 1.06 at
+// k = 242, 0.87 at k = 248 (10k), 0.91 at k = 362 (21k), 0.77 at k = 602
+// (60k): dissection wins from k of about 240. The long
 // box bridges have k = 20 at every length; the square roof grids have
 // k = 248 at 10k DOF, 602 at 60k and 1346 at 300k.
 const (
