@@ -232,18 +232,24 @@ func (d *dissector) dissect(vs []int32, id int32) {
 		d.leaf(vs, id)
 		return
 	}
-	// Connected components are independent: order each on its own.
+	// Connected components are independent: order each on its own. They
+	// are all found in one sweep (a fresh label marks a component as
+	// found), so a graph of many small components costs linear time and
+	// no deep recursion.
 	comp := d.bfs(vs[0], id)
 	if len(comp) < len(vs) {
-		inComp := d.newLabel(comp)
-		rest := make([]int32, 0, len(vs)-len(comp))
+		comps := [][]int32{comp}
+		labels := []int32{d.newLabel(comp)}
 		for _, v := range vs {
 			if d.label[v] == id {
-				rest = append(rest, v)
+				c := d.bfs(v, id)
+				comps = append(comps, c)
+				labels = append(labels, d.newLabel(c))
 			}
 		}
-		d.dissect(rest, id)
-		d.dissect(comp, inComp)
+		for k := len(comps) - 1; k >= 0; k-- {
+			d.dissect(comps[k], labels[k])
+		}
 		return
 	}
 	sep, pa, pb := d.separate(vs, id)
@@ -411,7 +417,7 @@ func (d *dissector) separate(vs []int32, id int32) (sep, pa, pb []int32) {
 		}
 	}
 	d.resetLevels(q)
-	d.refine(vs, id, total)
+	d.refine(vs, id)
 	for _, v := range vs {
 		switch d.side[v] {
 		case sideA:
@@ -480,7 +486,7 @@ func sortInt32(s []int32) {
 // max(w(A), w(B)) <= ndBalance·(w(A)+w(B)); every vertex moves at most once
 // a pass; after a run of moves without a new best the pass stops and the
 // moves after the best state are undone. Passes repeat while they improve.
-func (d *dissector) refine(vs []int32, id int32, total int) {
+func (d *dissector) refine(vs []int32, id int32) {
 	g := d.g
 	var w [3]int
 	for _, v := range vs {

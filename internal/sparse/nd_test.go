@@ -134,9 +134,10 @@ func TestNDBeatsMinimumDegreeOnWideGrid(t *testing.T) {
 	}
 }
 
-// TestNDSmallAndDisconnectedGraphs: empty, diagonal-only, a path, a star,
-// a clique and a graph of several components all give permutations, and
-// the factor solves.
+// TestNDSmallAndDisconnectedGraphs: empty, diagonal-only (100k isolated
+// unknowns: components must be found in one sweep, not one recursion
+// each), many two-unknown components, a path, a star, a clique and a graph
+// of several components all give permutations, and the factor solves.
 func TestNDSmallAndDisconnectedGraphs(t *testing.T) {
 	path := NewBuilder(500)
 	star := NewBuilder(200)
@@ -175,9 +176,17 @@ func TestNDSmallAndDisconnectedGraphs(t *testing.T) {
 			}
 		}
 	}
+	pairs := NewBuilder(60000) // 30000 components of two unknowns
+	for i := 0; i < 60000; i += 2 {
+		pairs.Add(i, i, 2)
+		pairs.Add(i+1, i+1, 2)
+		pairs.Add(i+1, i, -1)
+	}
 	for _, tm := range []testMatrix{
 		{"empty", NewBuilder(0).Matrix()},
 		{"diagonal", randomSPD(50, 0, rand.New(rand.NewPCG(1, 1)))},
+		{"diagonal-100k", randomSPD(100000, 0, rand.New(rand.NewPCG(1, 1)))},
+		{"pairs", pairs.Matrix()},
 		{"path", path.Matrix()},
 		{"star", star.Matrix()},
 		{"clique", clique.Matrix()},
