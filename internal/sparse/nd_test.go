@@ -93,6 +93,11 @@ func TestNDSolvesTrusses(t *testing.T) {
 		a, _ := doubleLayerGrid(nx, uint64(nx)).stiffness()
 		ms = append(ms, testMatrix{fmt.Sprintf("grid-%dx%d", nx, nx), a})
 	}
+	// The layout of the example roof in testdata/roof (8×6 modules of a
+	// square-on-square double-layer grid; its supports differ: the
+	// generator pins every perimeter top node).
+	roof, _ := doubleLayerRect(8, 6, 1).stiffness()
+	ms = append(ms, testMatrix{"example-roof-layout-8x6", roof})
 	for _, tm := range ms {
 		t.Run(tm.name, func(t *testing.T) {
 			perm := ND(tm.a)
