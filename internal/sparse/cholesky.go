@@ -39,12 +39,15 @@ func (m Method) String() string {
 type Ordering int
 
 // The orderings. AutoOrdering (the zero value) takes the natural order for
-// Dense, RCM for Band and MinimumDegree for Supernodal.
+// Dense, RCM for Band and MinimumDegree for Supernodal when the method is
+// given; with Method Auto it takes the ordering autoRule names (for wide
+// grids NestedDissection, see ND).
 const (
 	AutoOrdering Ordering = iota
 	Natural
 	RCMOrdering
 	MinimumDegree
+	NestedDissection
 )
 
 func (o Ordering) String() string {
@@ -57,6 +60,8 @@ func (o Ordering) String() string {
 		return "rcm"
 	case MinimumDegree:
 		return "amd"
+	case NestedDissection:
+		return "nd"
 	}
 	return fmt.Sprintf("Ordering(%d)", int(o))
 }
@@ -112,6 +117,7 @@ type Stats struct {
 	N             int           // order of the matrix
 	NNZA          int           // entries of the lower triangle of A, diagonal included
 	NNZL          int           // entries of the factor L stored (band: n·(k+1); supernodal: including explicit zeros of amalgamated supernodes)
+	NNZLExact     int           // entries of L implied by the ordering, without explicit zeros (supernodal; zero for the others)
 	HalfBandwidth int           // half-bandwidth of the permuted matrix (band and dense methods; RCM bandwidth for the others when computed)
 	Supernodes    int           // number of supernodes (supernodal method)
 	Flops         float64       // floating-point operations of the numeric factorisation (estimate)
@@ -165,11 +171,13 @@ func pivotOK(d, diag, tol float64) bool {
 }
 
 // Factorize computes the Cholesky factor P A Pᵀ = L Lᵀ of a. With Method
-// Auto the method is chosen as described at DenseMaxN and factorizeAuto:
-// Dense for n <= DenseMaxN; Band after RCM when the band work n·k² is
-// small or no larger than the supernodal work Σ c_j² after minimum degree;
-// Supernodal otherwise. With Ordering AutoOrdering each method takes its
-// own ordering (Dense: natural, Band: RCM, Supernodal: minimum degree).
+// Auto the method is chosen from n and the RCM half-bandwidth k alone (see
+// DenseMaxN and autoRule): Dense for n <= DenseMaxN; Band after RCM for
+// k <= 64 or n·k² <= 4e7; otherwise Supernodal, after minimum degree for
+// k < 240 and after nested dissection from k = 240. Only the ordering of
+// the chosen method is computed. With an explicit Method and Ordering
+// AutoOrdering each method takes its own ordering (Dense: natural, Band:
+// RCM, Supernodal: minimum degree).
 //
 // A pivot d_j <= PivotTol·A_jj (see DefaultPivotTol) stops the
 // factorisation with a *NotPositiveDefiniteError naming the row in a's
@@ -199,13 +207,13 @@ func Factorize(a *Sym, opt Options) (*Cholesky, error) {
 	}
 	switch opt.Method {
 	case Auto:
-		return factorizeAuto(a, opt.Ordering, tol)
+		return factorizeAuto(a, opt.Ordering, tol, productOrderers())
 	case Dense, Band, Supernodal:
 	default:
 		return nil, fmt.Errorf("sparse: unknown factorisation method %d", int(opt.Method))
 	}
 	switch opt.Ordering {
-	case AutoOrdering, Natural, RCMOrdering, MinimumDegree:
+	case AutoOrdering, Natural, RCMOrdering, MinimumDegree, NestedDissection:
 	default:
 		return nil, fmt.Errorf("sparse: unknown ordering %d", int(opt.Ordering))
 	}
@@ -221,20 +229,9 @@ func Factorize(a *Sym, opt Options) (*Cholesky, error) {
 		}
 	}
 	t0 := time.Now()
-	perm := computeOrdering(a, ord)
+	perm := productOrderers().compute(a, ord)
 	orderTime := time.Since(t0)
 	return factorizeWith(a, opt.Method, ord, perm, orderTime, tol)
-}
-
-// computeOrdering returns the permutation for ord (nil for Natural).
-func computeOrdering(a *Sym, ord Ordering) []int {
-	switch ord {
-	case RCMOrdering:
-		return RCM(a.Adjacency())
-	case MinimumDegree:
-		return AMD(a)
-	}
-	return nil
 }
 
 func factorizeWith(a *Sym, m Method, ord Ordering, perm []int, orderTime time.Duration, tol float64) (*Cholesky, error) {

@@ -9,7 +9,9 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"slices"
 	"strconv"
+	"strings"
 	"testing"
 	"time"
 )
@@ -34,19 +36,36 @@ func requireScipy(t *testing.T) {
 	t.Skip(msg)
 }
 
+// requireCholmod skips the test when gcc or CHOLMOD's header (Debian's
+// libsuitesparse-dev) is missing, or fails it when TRUSSMON_REQUIRE_TOOLS=1.
+func requireCholmod(t *testing.T) {
+	t.Helper()
+	_, errGCC := exec.LookPath("gcc")
+	_, errH := os.Stat("/usr/include/suitesparse/cholmod.h")
+	if errGCC == nil && errH == nil {
+		return
+	}
+	msg := fmt.Sprintf("needs gcc and CHOLMOD for the comparison (apt-get install -y gcc libsuitesparse-dev): %v %v", errGCC, errH)
+	if os.Getenv("TRUSSMON_REQUIRE_TOOLS") == "1" {
+		t.Fatal(msg)
+	}
+	t.Skip(msg)
+}
+
 // compareEntry is one line of results.json read by compare.py.
 type compareEntry struct {
-	Name     string  `json:"name"`
-	Matrix   string  `json:"matrix"`
-	RHS      string  `json:"rhs"`
-	Solution string  `json:"solution"`
-	DOF      int     `json:"dof"`
-	Method   string  `json:"method"`
-	Ordering string  `json:"ordering"`
-	NNZL     int     `json:"nnz_l"`
-	OrderS   float64 `json:"order_s"`
-	FactorS  float64 `json:"factor_s"`
-	SolveS   float64 `json:"solve_s"`
+	Name      string  `json:"name"`
+	Matrix    string  `json:"matrix"`
+	RHS       string  `json:"rhs"`
+	Solution  string  `json:"solution"`
+	DOF       int     `json:"dof"`
+	Method    string  `json:"method"`
+	Ordering  string  `json:"ordering"`
+	NNZL      int     `json:"nnz_l"`
+	NNZLExact int     `json:"nnz_l_exact"`
+	OrderS    float64 `json:"order_s"`
+	FactorS   float64 `json:"factor_s"`
+	SolveS    float64 `json:"solve_s"`
 }
 
 // writeMatrixMarket writes the lower triangle of a as a symmetric
@@ -120,7 +139,7 @@ func solveForCompare(t *testing.T, dir, name string, a *Sym, opt Options, repeat
 		if r == 0 || solve < e.SolveS {
 			e.SolveS = solve
 		}
-		e.Method, e.Ordering, e.NNZL = st.Method.String(), st.Ordering.String(), st.NNZL
+		e.Method, e.Ordering, e.NNZL, e.NNZLExact = st.Method.String(), st.Ordering.String(), st.NNZL, st.NNZLExact
 	}
 	for _, err := range []error{
 		writeMatrixMarket(filepath.Join(dir, e.Matrix), a),
@@ -181,22 +200,29 @@ func TestAgainstScipy(t *testing.T) {
 	t.Log("\n" + out)
 }
 
-// TestCompareWithScipy times the Go solver (Auto) and scipy on the
-// benchmark matrices and prints the side-by-side table. It takes minutes,
-// so it runs only with TRUSSMON_SOLVER_COMPARE=1:
+// TestCompareWithScipy times the Go solver (Auto), scipy (up to 150k
+// DOF) and CHOLMOD (SuiteSparse, through scripts/solvercompare's C
+// program) on the benchmark matrices, 1k to 300k DOF, and prints the
+// side-by-side tables. It takes minutes and about 2 GB, so it runs only
+// with TRUSSMON_SOLVER_COMPARE=1:
 //
-//	TRUSSMON_SOLVER_COMPARE=1 go test -v -run TestCompareWithScipy -timeout 30m ./internal/sparse/
+//	TRUSSMON_SOLVER_COMPARE=1 go test -v -run TestCompareWithScipy -timeout 60m ./internal/sparse/
 func TestCompareWithScipy(t *testing.T) {
 	if os.Getenv("TRUSSMON_SOLVER_COMPARE") != "1" {
 		t.Skip("takes minutes; set TRUSSMON_SOLVER_COMPARE=1 to run the timing comparison with scipy")
 	}
 	requireScipy(t)
+	requireCholmod(t)
 	dir := t.TempDir()
 	var entries []compareEntry
 	for _, c := range benchCases() {
+		if only := os.Getenv("TRUSSMON_SOLVER_COMPARE_ONLY"); only != "" && !slices.Contains(strings.Split(only, ","), c.name) {
+			continue
+		}
 		entries = append(entries, solveForCompare(t, dir, c.name, c.matrix(), Options{}, 3))
+		c.forget()
 	}
-	out := runCompare(t, dir, entries, 40*time.Minute, "--repeat", "2", "--max-backward", "1e-13")
+	out := runCompare(t, dir, entries, 50*time.Minute, "--repeat", "2", "--max-backward", "1e-13", "--cholmod")
 	t.Log("\n" + out)
 	if p := os.Getenv("TRUSSMON_SOLVER_COMPARE_OUT"); p != "" {
 		if err := os.WriteFile(p, []byte(out), 0o644); err != nil {

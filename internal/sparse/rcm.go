@@ -150,3 +150,21 @@ func sortByDegree(vs []int, deg []int) {
 		vs[j] = v
 	}
 }
+
+// rcmNodes returns the RCM ordering of a computed on its node graph (rows
+// of one truss joint taken together, see newNodeGraph) and expanded to
+// rows: the same level structures on a graph dim times smaller, with the
+// rows of a joint kept adjacent, which is what a band ordering wants.
+func rcmNodes(a *Sym) []int {
+	g := newNodeGraph(a)
+	nv := len(g.wgt)
+	flat := make([]int, len(g.adj))
+	for k, w := range g.adj {
+		flat[k] = int(w)
+	}
+	adj := make([][]int, nv)
+	for v := range adj {
+		adj[v] = flat[g.xadj[v]:g.xadj[v+1]:g.xadj[v+1]]
+	}
+	return g.expand(RCM(adj))
+}

@@ -100,7 +100,7 @@ func testMatrices(t testing.TB) []testMatrix {
 }
 
 var allMethods = []Method{Dense, Band, Supernodal}
-var allOrderings = []Ordering{Natural, RCMOrdering, MinimumDegree}
+var allOrderings = []Ordering{Natural, RCMOrdering, MinimumDegree, NestedDissection}
 
 // TestSolveMatchesGonumDense checks every method and ordering against
 // gonum's dense Cholesky (mat.Cholesky, a general-purpose reference
@@ -223,6 +223,12 @@ func TestOrderingsArePermutations(t *testing.T) {
 		}
 		if err := isPermutation(AMD(a), a.N()); err != nil {
 			t.Errorf("case %d AMD: %v", i, err)
+		}
+		if err := isPermutation(ND(a), a.N()); err != nil {
+			t.Errorf("case %d ND: %v", i, err)
+		}
+		if err := isPermutation(rcmNodes(a), a.N()); err != nil {
+			t.Errorf("case %d RCM on the node graph: %v", i, err)
 		}
 	}
 	// Duplicate neighbours, self-loops and out-of-range neighbours in a

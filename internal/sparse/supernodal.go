@@ -26,6 +26,7 @@ func factorSupernodal(a *Sym, perm []int, tol float64, st *Stats) (factor, error
 	sy := analyze(a, perm)
 	st.OrderTime += time.Since(t0)
 	st.NNZL = sy.nnzL
+	st.NNZLExact = sy.nnzLExact
 	st.Supernodes = len(sy.super) - 1
 	st.Flops = sy.flops
 	return numericSupernodal(a, sy, tol)
@@ -288,18 +289,35 @@ func (sf *superFactor) solveMany(x []float64, k int) {
 	}
 }
 
-// Auto selection thresholds, from the crossovers measured with
-// BenchmarkFactorSolve and BenchmarkSmall on the development machine (2
-// cores, AVX2). The rule for Method Auto:
+// Auto selection thresholds. The rule for Method Auto decides from the
+// order n and the half-bandwidth k after RCM alone (both cheap: RCM is a
+// few breadth-first searches on the node graph), and computes only the
+// ordering of the method it picks:
 //
-//  1. n <= DenseMaxN: Dense.
-//  2. Otherwise RCM gives the half-bandwidth k and the band work n·k²; below
-//     4e7 (about 10 ms): Band after RCM, without computing another ordering
-//     (narrow structures: bridges).
-//  3. Otherwise minimum degree and the symbolic factorisation give the
-//     supernodal work Σ c_j² (c_j the length of column j of L): Band when
-//     n·k² is at most that, else Supernodal (wide structures: roof grids).
-//     Both kernels ran at about the same rate per unit of these measures.
+//  1. n <= DenseMaxN: Dense, natural order.
+//  2. k <= bandMaxHalfBandwidth, or band work n·k² <= bandCheapWork: Band
+//     after RCM (narrow structures: long bridges, whose k is set by the
+//     cross-section and does not grow with the length).
+//  3. k < ndMinHalfBandwidth: Supernodal after minimum degree.
+//  4. Otherwise: Supernodal after nested dissection (wide structures: roof
+//     grids, whose k grows as √n).
+//
+// The switch points come from the double-layer roof strips nx×ny of about
+// 40k DOF (truss_test.go), where the work of the band factor n·k² and of
+// the supernodal factor Σ c_j² (c_j the length of column j of L) were
+// computed for every ordering: for strips of fixed width both grow
+// linearly in the length, so their ratio depends on the width (that is, on
+// k) alone. n·k² / Σc_j²(minimum degree) was 0.32 at k = 29, 0.94 at
+// k = 53, 1.10 at k = 77, 1.37 at k = 101; the two kernels run at about
+// the same rate per unit of these measures (grid-10k: band 6.0e8 units in
+// 155 ms, supernodal 1.6e8 in 35 ms plus 16 ms of ordering), so the band
+// wins up to k of about 64. Σc_j² after nested dissection against minimum
+// degree: 1.24 at k = 149, 0.98 at k = 197, 0.92 at k = 293, 0.78 at
+// k = 389 (strips); on square grids 1.11 at k = 182 (5k DOF), 1.06 at
+// k = 242, 0.87 at k = 248 (10k), 0.91 at k = 362 (21k), 0.77 at k = 602
+// (60k): dissection wins from k of about 240. The long
+// box bridges have k = 20 at every length; the square roof grids have
+// k = 248 at 10k DOF, 602 at 60k and 1346 at 300k.
 const (
 	// DenseMaxN is the largest order for which Auto takes the dense
 	// method: below it the ordering and symbolic work of the sparse
@@ -307,69 +325,90 @@ const (
 	// crossover: between 30 and 50 unknowns for small trusses).
 	DenseMaxN = 40
 	// bandCheapWork is the band work n·k² under which Auto takes the band
-	// method without computing a minimum degree ordering at all (about
-	// 10 ms of factorisation).
+	// method whatever k (about 10 ms of factorisation).
 	bandCheapWork = 4e7
-	// bandWorkRatio: Auto takes the band method when its work n·k² is at
-	// most this multiple of the supernodal factor's Σ c_j² (c_j the
-	// length of column j of L). The two kernels ran at about the same rate
-	// per unit of that work in the benchmarks (grid-10k: band 6.0e8 units
-	// in 155 ms, supernodal 1.6e8 in 35 ms plus 16 ms of ordering), so the
-	// ratio is one.
-	bandWorkRatio = 1.0
+	// bandMaxHalfBandwidth is the largest RCM half-bandwidth for which
+	// Auto takes the band method at any size.
+	bandMaxHalfBandwidth = 64
+	// ndMinHalfBandwidth is the smallest RCM half-bandwidth for which
+	// Auto orders the supernodal factor by nested dissection rather than
+	// minimum degree.
+	ndMinHalfBandwidth = 240
 )
 
-// factorizeAuto chooses the method (and, where asked for Auto, the
-// ordering):
-//
-//  1. n <= DenseMaxN: Dense, natural order.
-//  2. Otherwise the RCM half-bandwidth k gives the band work n·k²; if it is
-//     below bandCheapWork: Band after RCM (narrow structures: bridges).
-//  3. Otherwise minimum degree and the symbolic factorisation give the
-//     supernodal work Σ c_j²; Band if n·k² <= bandWorkRatio·Σ c_j², else
-//     Supernodal (wide structures: roof grids).
-//
-// An explicit ordering other than AutoOrdering is used for every candidate.
-func factorizeAuto(a *Sym, ord Ordering, tol float64) (*Cholesky, error) {
+// autoRule is the choice of Method Auto from the order n and the RCM
+// half-bandwidth k (see the thresholds above). The ordering returned is
+// the one Auto computes for the method.
+func autoRule(n, k int) (Method, Ordering) {
+	switch {
+	case n <= DenseMaxN:
+		return Dense, Natural
+	case k <= bandMaxHalfBandwidth || float64(n)*float64(k)*float64(k) <= bandCheapWork:
+		return Band, RCMOrdering
+	case k < ndMinHalfBandwidth:
+		return Supernodal, MinimumDegree
+	}
+	return Supernodal, NestedDissection
+}
+
+// orderers are the ordering functions Factorize calls; a test of the
+// package passes counting wrappers to check which ones the Auto rule runs.
+type orderers struct {
+	rcm, amd, nd func(*Sym) []int
+}
+
+// productOrderers returns the orderings of the package.
+func productOrderers() orderers {
+	return orderers{rcm: rcmNodes, amd: AMD, nd: ND}
+}
+
+// compute returns the permutation for ord (nil for Natural).
+func (o orderers) compute(a *Sym, ord Ordering) []int {
+	switch ord {
+	case RCMOrdering:
+		return o.rcm(a)
+	case MinimumDegree:
+		return o.amd(a)
+	case NestedDissection:
+		return o.nd(a)
+	}
+	return nil
+}
+
+// factorizeAuto chooses the method by autoRule and, for AutoOrdering, the
+// ordering with it, computing only the RCM ordering (for k) and the
+// ordering of the chosen method. An explicit ordering is computed once and
+// used both for k and for the method chosen.
+func factorizeAuto(a *Sym, ord Ordering, tol float64, o orderers) (*Cholesky, error) {
 	n := a.n
-	if n <= DenseMaxN {
-		o := ord
-		if o == AutoOrdering {
-			o = Natural
-		}
-		t0 := time.Now()
-		perm := computeOrdering(a, o)
-		return factorizeWith(a, Dense, o, perm, time.Since(t0), tol)
-	}
 	t0 := time.Now()
-	bandOrd := ord
-	if bandOrd == AutoOrdering {
-		bandOrd = RCMOrdering
+	if n <= DenseMaxN {
+		if ord == AutoOrdering {
+			ord = Natural
+		}
+		perm := o.compute(a, ord)
+		return factorizeWith(a, Dense, ord, perm, time.Since(t0), tol)
 	}
-	bandPerm := computeOrdering(a, bandOrd)
-	kd := halfBandwidth(a, bandPerm)
-	bandWork := float64(n) * float64(kd) * float64(kd)
-	if bandWork <= bandCheapWork {
-		return factorizeWith(a, Band, bandOrd, bandPerm, time.Since(t0), tol)
+	kOrd := ord
+	if kOrd == AutoOrdering {
+		kOrd = RCMOrdering
 	}
-	superOrd := ord
-	if superOrd == AutoOrdering {
-		superOrd = MinimumDegree
+	kPerm := o.compute(a, kOrd)
+	kd := halfBandwidth(a, kPerm)
+	m, autoOrd := autoRule(n, kd)
+	perm := kPerm
+	if ord == AutoOrdering && autoOrd != RCMOrdering {
+		ord = autoOrd
+		perm = o.compute(a, ord)
+	} else {
+		ord = kOrd
 	}
-	sy := analyze(a, computeOrdering(a, superOrd))
-	orderTime := time.Since(t0)
-	if bandWork <= bandWorkRatio*sy.flops {
-		return factorizeWith(a, Band, bandOrd, bandPerm, orderTime, tol)
-	}
-	c := &Cholesky{n: n, perm: sy.perm}
-	c.stats = Stats{Method: Supernodal, Ordering: superOrd, N: n, NNZA: a.NNZLower(), OrderTime: orderTime,
-		HalfBandwidth: kd, NNZL: sy.nnzL, Supernodes: len(sy.super) - 1, Flops: sy.flops}
-	t1 := time.Now()
-	f, err := numericSupernodal(a, sy, tol)
-	c.stats.FactorTime = time.Since(t1)
+	c, err := factorizeWith(a, m, ord, perm, time.Since(t0), tol)
 	if err != nil {
 		return nil, err
 	}
-	c.f = f
+	if m == Supernodal {
+		c.stats.HalfBandwidth = kd
+	}
 	return c, nil
 }

@@ -6,16 +6,17 @@ import "slices"
 // elimination tree, the supernodes (runs of consecutive columns of L
 // sharing one row pattern) and the row pattern of each.
 type symbolic struct {
-	n      int
-	perm   []int // perm[k] = original row at position k (postordered)
-	iperm  []int
-	super  []int // supernode s holds columns super[s] .. super[s+1]-1
-	sparen []int // parent supernode, -1 for a root
-	rowPtr []int // rows of supernode s: rowIdx[rowPtr[s]:rowPtr[s+1]], its own columns first, ascending
-	rowIdx []int
-	lPtr   []int // numeric block of s: lVal[lPtr[s]:lPtr[s+1]], row-major m×nc
-	nnzL   int   // entries of the lower trapezoids (explicit zeros of amalgamation included)
-	flops  float64
+	n         int
+	perm      []int // perm[k] = original row at position k (postordered)
+	iperm     []int
+	super     []int // supernode s holds columns super[s] .. super[s+1]-1
+	sparen    []int // parent supernode, -1 for a root
+	rowPtr    []int // rows of supernode s: rowIdx[rowPtr[s]:rowPtr[s+1]], its own columns first, ascending
+	rowIdx    []int
+	lPtr      []int // numeric block of s: lVal[lPtr[s]:lPtr[s+1]], row-major m×nc
+	nnzL      int   // entries of the lower trapezoids (explicit zeros of amalgamation included)
+	nnzLExact int   // entries of L without the explicit zeros: Σ column counts
+	flops     float64
 }
 
 // etree returns the elimination tree of the permuted matrix (Liu, "The
@@ -181,6 +182,10 @@ func analyze(a *Sym, perm []int) *symbolic {
 		}
 		b += g
 	}
+	sumCC := 0
+	for _, c := range cc {
+		sumCC += c
+	}
 	// Fundamental supernodes: j continues the supernode of j-1 when j is
 	// the only child of ... more precisely when parent(j-1) = j, j has one
 	// child and cc(j) = cc(j-1) - 1.
@@ -251,7 +256,7 @@ func analyze(a *Sym, perm []int) *symbolic {
 		}
 		stack = append(stack, cur)
 	}
-	sy := &symbolic{n: n, perm: perm, iperm: ip}
+	sy := &symbolic{n: n, perm: perm, iperm: ip, nnzLExact: sumCC}
 	ns = len(stack)
 	sy.super = make([]int, ns+1)
 	newID := make([]int, len(rep))

@@ -103,43 +103,47 @@ func steelEA(rng *rand.Rand) float64 {
 // of nx×nx panels: top nodes on an (nx+1)² grid at height h, bottom nodes
 // at the panel centres, top and bottom chords, four web members from every
 // bottom node to the corners of its panel, and the top perimeter nodes
-// pinned. It has 3·(2nx² - 2nx + 1) - 12nx... about 6nx² free DOF.
-func doubleLayerGrid(nx int, seed uint64) *testTruss {
+// pinned. It has about 6nx² free DOF.
+func doubleLayerGrid(nx int, seed uint64) *testTruss { return doubleLayerRect(nx, nx, seed) }
+
+// doubleLayerRect is doubleLayerGrid over nx×ny panels (a roof strip when
+// ny is much larger than nx); for ny = nx it is the same truss.
+func doubleLayerRect(nx, ny int, seed uint64) *testTruss {
 	rng := rand.New(rand.NewPCG(seed, 7))
 	t := &testTruss{dim: 3}
 	const s, h = 3.0, 2.1
-	top := func(i, j int) int { return i*(nx+1) + j }
+	top := func(i, j int) int { return i*(ny+1) + j }
 	for i := 0; i <= nx; i++ {
-		for j := 0; j <= nx; j++ {
+		for j := 0; j <= ny; j++ {
 			n := t.node(float64(i)*s, float64(j)*s, h)
-			if i == 0 || j == 0 || i == nx || j == nx {
+			if i == 0 || j == 0 || i == nx || j == ny {
 				t.fix(n, 0, 1, 2)
 			}
 		}
 	}
-	bot0 := (nx + 1) * (nx + 1)
-	bot := func(i, j int) int { return bot0 + i*nx + j }
+	bot0 := (nx + 1) * (ny + 1)
+	bot := func(i, j int) int { return bot0 + i*ny + j }
 	for i := 0; i < nx; i++ {
-		for j := 0; j < nx; j++ {
+		for j := 0; j < ny; j++ {
 			t.node((float64(i)+0.5)*s, (float64(j)+0.5)*s, 0)
 		}
 	}
 	for i := 0; i <= nx; i++ {
-		for j := 0; j <= nx; j++ {
+		for j := 0; j <= ny; j++ {
 			if i < nx {
 				t.member(top(i, j), top(i+1, j), steelEA(rng))
 			}
-			if j < nx {
+			if j < ny {
 				t.member(top(i, j), top(i, j+1), steelEA(rng))
 			}
 		}
 	}
 	for i := 0; i < nx; i++ {
-		for j := 0; j < nx; j++ {
+		for j := 0; j < ny; j++ {
 			if i+1 < nx {
 				t.member(bot(i, j), bot(i+1, j), steelEA(rng))
 			}
-			if j+1 < nx {
+			if j+1 < ny {
 				t.member(bot(i, j), bot(i, j+1), steelEA(rng))
 			}
 			b := bot(i, j)
