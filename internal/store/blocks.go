@@ -37,6 +37,12 @@ const BlockSpan = time.Hour
 
 const spanNs = int64(BlockSpan)
 
+// CompactAfter is how old readings are before the service compacts them:
+// a block period is closed once it ended one more BlockSpan ago, so the
+// dashboard's recent series and a logger's normal lateness stay in rows,
+// and compaction rewrites a block only for a backlog that arrives later.
+const CompactAfter = 2 * BlockSpan
+
 // blockStart is the start of the block period holding ts.
 func blockStart(ts int64) int64 {
 	s := ts - ts%spanNs

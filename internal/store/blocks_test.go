@@ -177,7 +177,7 @@ func TestCompactKeepsEveryPromise(t *testing.T) {
 	}
 	// VACUUM INTO copies the blocks.
 	backup := filepath.Join(t.TempDir(), "backup.db")
-	if _, err := st2.db.Exec(`VACUUM INTO ?`, backup); err != nil {
+	if err := st2.Backup(ctx, backup); err != nil {
 		t.Fatal(err)
 	}
 	b, err := Open(backup, Options{})
