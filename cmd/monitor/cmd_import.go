@@ -132,6 +132,13 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) int
 	if len(files) > 1 {
 		fmt.Fprintf(stdout, "total: %s\n", total.summary())
 	}
+	// Readings of closed hours go into compressed blocks now, as the
+	// service would do within the hour.
+	if cs, err := db.Compact(context.WithoutCancel(ctx), time.Now().Add(-store.CompactAfter)); err != nil {
+		fmt.Fprintf(stderr, "monitor import: compacting into blocks: %v (the readings stay stored as rows)\n", err)
+	} else if cs.Blocks > 0 {
+		fmt.Fprintf(stdout, "compacted %d readings of closed hours into %d blocks\n", cs.Readings, cs.Blocks)
+	}
 	if failed > 0 {
 		fmt.Fprintf(stderr, "monitor import: %d of %d files stopped at an error; the readings before it are stored\n", failed, len(files))
 		return 1

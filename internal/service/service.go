@@ -360,6 +360,11 @@ func (s *Service) applyRetention(now time.Time) {
 	if _, err := s.store.ApplyRetention(context.Background(), now, r); err != nil {
 		s.log.Warn("retention", "error", err)
 	}
+	if cs, err := s.store.Compact(context.Background(), now.Add(-store.CompactAfter)); err != nil {
+		s.log.Warn("compacting readings into blocks; they stay as rows until the next try", "error", err)
+	} else if cs.Blocks > 0 {
+		s.log.Info("compacted readings into blocks", "blocks", cs.Blocks, "readings", cs.Readings)
+	}
 }
 
 // Close stops the HTTP server and the broker and closes the store.

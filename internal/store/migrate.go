@@ -65,6 +65,17 @@ var migrations = []string{
 	// 3: time indexes used by retention and by the dead-letter listing.
 	`CREATE INDEX dead_letters_by_time ON dead_letters (received);
 	CREATE INDEX events_by_ts ON events (ts);`,
+	// 4 (blocks): readings of closed periods in compressed blocks, one
+	// per channel and BlockSpan (internal/blocks); see blocks.go.
+	`CREATE TABLE reading_blocks (
+		channel INTEGER NOT NULL REFERENCES channels(id),
+		start   INTEGER NOT NULL, -- Unix ns, start of the block period
+		first   INTEGER NOT NULL, -- Unix ns, first reading in the block
+		last    INTEGER NOT NULL, -- Unix ns, last reading in the block
+		n       INTEGER NOT NULL, -- readings in the block
+		data    BLOB    NOT NULL, -- internal/blocks encoding
+		PRIMARY KEY (channel, start)
+	);`,
 }
 
 // schemaVersion returns the version recorded in the file, 0 for a new file.

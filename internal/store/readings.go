@@ -8,6 +8,8 @@ import (
 	"sort"
 	"strings"
 	"time"
+
+	"trussmonitor/internal/blocks"
 )
 
 // Reading is one raw value of one channel at the logger's timestamp.
@@ -144,11 +146,22 @@ func (s *Store) Commit(ctx context.Context, b Batch) (CommitResult, error) {
 	first := make(map[rowKey]rowPos, total)
 	flat := make([]rowKey, 0, total)
 	vals := make([]float64, 0, total)
+	inBlocks := blockCache{}
 	for g, grp := range b.Groups {
 		for i, r := range grp.Readings {
 			k := rowKey{ids[g][i], r.Time.UnixNano()}
 			if _, dup := first[k]; dup {
 				continue
+			}
+			if s.blockedBefore(k.ch, k.ts) {
+				// A period already compacted: a reading its block holds
+				// is a redelivery, not new.
+				if _, held, err := inBlocks.storedInBlock(ctx, tx, k.ch, k.ts); err != nil {
+					return CommitResult{}, err
+				} else if held {
+					first[k] = rowPos{g, i}
+					continue
+				}
 			}
 			first[k] = rowPos{g, i}
 			flat = append(flat, k)
@@ -426,7 +439,8 @@ func (s *Store) CountReadings(ctx context.Context, structure string, from, to ti
 	if err != nil {
 		return 0, fmt.Errorf("store: counting readings of %q: %w", structure, err)
 	}
-	return n, nil
+	nb, err := s.countBlockReadings(ctx, structure, lo, hi)
+	return n + nb, err
 }
 
 // ReadReadings calls fn for every reading of structure in [from, to) (a
@@ -462,6 +476,7 @@ func (s *Store) ReadReadings(ctx context.Context, structure string, from, to tim
 		val float64
 	}
 	var buf []row
+	blk := &blockReader{s: s, ids: ids, cache: map[[2]int64][]blocks.Point{}}
 	cur := lo
 	seek := true // find the next stored time before the first chunk and after an empty one
 	for cur < hi {
@@ -499,6 +514,11 @@ func (s *Store) ReadReadings(ctx context.Context, structure string, from, to tim
 			return fmt.Errorf("store: reading %q: %w", structure, err)
 		}
 		rows.Close()
+		if err := blk.points(ctx, cur, end, func(ch int64, p blocks.Point) {
+			buf = append(buf, row{ch: ch, ts: p.Time, val: p.Value})
+		}); err != nil {
+			return fmt.Errorf("store: reading %q: %w", structure, err)
+		}
 		sort.Slice(buf, func(a, b int) bool {
 			if buf[a].ts != buf[b].ts {
 				return buf[a].ts < buf[b].ts
@@ -538,6 +558,11 @@ func (s *Store) nextTime(ctx context.Context, ids []int64, from, to int64) (int6
 		if !found || ts < best {
 			best, found = ts, true
 		}
+	}
+	if bt, ok, err := s.firstBlockTime(ctx, ids, from, to); err != nil {
+		return 0, false, err
+	} else if ok && (!found || bt < best) {
+		best, found = bt, true
 	}
 	return best, found, nil
 }

@@ -79,6 +79,11 @@ func (s *Store) pruneReadings(ctx context.Context, ts int64) (int64, error) {
 		}
 		n, _ := res.RowsAffected()
 		total += n
+		nb, err := s.pruneBlocks(ctx, id, ts)
+		if err != nil {
+			return total, err
+		}
+		total += nb
 	}
 	return total, nil
 }

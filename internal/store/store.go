@@ -42,6 +42,9 @@ type Store struct {
 	mu       sync.Mutex            // guards channels and stmts
 	channels map[chanKey]int64     // committed channel ids
 	stmts    map[stmtKey]*sql.Stmt // prepared inserts by row count
+	// blockedUntil is, per channel id, the end of its latest block
+	// period: a reading before it may be in a block (blocks.go).
+	blockedUntil map[int64]int64
 }
 
 type chanKey struct{ structure, name string }
@@ -71,12 +74,16 @@ func Open(path string, opts Options) (*Store, error) {
 	if err != nil {
 		return nil, fmt.Errorf("store: open %s: %w", path, err)
 	}
-	s := &Store{db: db, path: path, opts: opts, channels: map[chanKey]int64{}, stmts: map[stmtKey]*sql.Stmt{}}
+	s := &Store{db: db, path: path, opts: opts, channels: map[chanKey]int64{}, stmts: map[stmtKey]*sql.Stmt{}, blockedUntil: map[int64]int64{}}
 	if err := s.verifyPragmas(); err != nil {
 		db.Close()
 		return nil, err
 	}
 	if err := migrate(context.Background(), db, len(migrations)); err != nil {
+		db.Close()
+		return nil, fmt.Errorf("store: %s: %w", path, err)
+	}
+	if err := s.loadBlockHorizons(context.Background()); err != nil {
 		db.Close()
 		return nil, fmt.Errorf("store: %s: %w", path, err)
 	}
@@ -142,4 +149,15 @@ func (s *Store) Close() error {
 	}
 	s.mu.Unlock()
 	return s.db.Close()
+}
+
+// Backup writes a compact, consistent copy of the whole store to path
+// (SQLite's VACUUM INTO): readings in rows and blocks, dead letters, models,
+// events and results. path must not exist yet. It runs beside writers (a
+// read transaction) and can be taken while the service runs.
+func (s *Store) Backup(ctx context.Context, path string) error {
+	if _, err := s.db.ExecContext(ctx, `VACUUM INTO ?`, path); err != nil {
+		return fmt.Errorf("store: backup to %s: %w", path, err)
+	}
+	return nil
 }

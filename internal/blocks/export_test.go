@@ -1,0 +1,8 @@
+package blocks
+
+import "encoding/binary"
+
+var (
+	binaryAppendUvarint = binary.AppendUvarint
+	binaryAppendVarint  = binary.AppendVarint
+)

@@ -1,0 +1,353 @@
+package store
+
+import (
+	"bufio"
+	"context"
+	"fmt"
+	"math/rand/v2"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"strconv"
+	"strings"
+	"testing"
+	"time"
+)
+
+// dayStart is an hour boundary for the block tests.
+var dayStart = time.Date(2026, 6, 1, 0, 0, 0, 0, time.UTC)
+
+// someReadings returns readings of channels a and b every second over
+// hours hours from dayStart, values printed with 8 significant digits.
+func someReadings(hours int, seed uint64) []Reading {
+	rng := rand.New(rand.NewPCG(seed, 1))
+	var rs []Reading
+	for s := 0; s < hours*3600; s++ {
+		t := dayStart.Add(time.Duration(s) * time.Second)
+		for _, ch := range []string{"a", "b"} {
+			v, _ := strconv.ParseFloat(strconv.FormatFloat(1e-4+3e-6*rng.NormFloat64(), 'g', 8, 64), 64)
+			rs = append(rs, Reading{Channel: ch, Time: t, Value: v})
+		}
+	}
+	return rs
+}
+
+// readAll returns every reading of structure s in the store's read order.
+func readAll(t *testing.T, st *Store, structure string) []Reading {
+	t.Helper()
+	var out []Reading
+	if err := st.ReadReadings(context.Background(), structure, time.Time{}, time.Time{}, func(r Reading) error {
+		out = append(out, r)
+		return nil
+	}); err != nil {
+		t.Fatal(err)
+	}
+	return out
+}
+
+func sameReadings(a, b []Reading) error {
+	if len(a) != len(b) {
+		return fmt.Errorf("%d readings, want %d", len(b), len(a))
+	}
+	for i := range a {
+		if a[i].Channel != b[i].Channel || !a[i].Time.Equal(b[i].Time) || a[i].Value != b[i].Value {
+			return fmt.Errorf("reading %d: %v, want %v", i, b[i], a[i])
+		}
+	}
+	return nil
+}
+
+func rowCount(t *testing.T, st *Store) int64 {
+	t.Helper()
+	var n int64
+	if err := st.db.QueryRow(`SELECT count(*) FROM readings`).Scan(&n); err != nil {
+		t.Fatal(err)
+	}
+	return n
+}
+
+// TestCompactKeepsEveryPromise stores three hours of two channels, compacts
+// the first two, and checks that reading, counting, redelivery, late
+// readings, a second compaction and retention see exactly the readings the
+// row store would.
+func TestCompactKeepsEveryPromise(t *testing.T) {
+	ctx := context.Background()
+	st := openTemp(t)
+	rs := someReadings(3, 1)
+	if n, err := st.InsertReadings(ctx, "bridge", rs); err != nil || n != len(rs) {
+		t.Fatalf("insert: %d, %v", n, err)
+	}
+	before := readAll(t, st, "bridge")
+	cs, err := st.Compact(ctx, dayStart.Add(2*time.Hour+30*time.Minute))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if cs.Blocks != 4 || cs.Readings != 4*3600 {
+		t.Errorf("compacted %+v, want 4 blocks of 3600 readings", cs)
+	}
+	if n := rowCount(t, st); n != 2*3600 {
+		t.Errorf("%d rows left, want the third hour's 7200", n)
+	}
+	if err := sameReadings(before, readAll(t, st, "bridge")); err != nil {
+		t.Fatalf("after compaction: %v", err)
+	}
+	for _, c := range []struct{ from, to time.Time }{
+		{time.Time{}, time.Time{}},
+		{dayStart.Add(30 * time.Minute), dayStart.Add(90 * time.Minute)},
+		{dayStart.Add(59 * time.Minute), dayStart.Add(2*time.Hour + time.Second)},
+	} {
+		n, err := st.CountReadings(ctx, "bridge", c.from, c.to)
+		if err != nil {
+			t.Fatal(err)
+		}
+		want := 0
+		for _, r := range rs {
+			if (c.from.IsZero() || !r.Time.Before(c.from)) && (c.to.IsZero() || r.Time.Before(c.to)) {
+				want++
+			}
+		}
+		if n != int64(want) {
+			t.Errorf("count [%v, %v): %d, want %d", c.from, c.to, n, want)
+		}
+	}
+	// A partial read inside a block.
+	var part []Reading
+	if err := st.ReadReadings(ctx, "bridge", dayStart.Add(10*time.Minute), dayStart.Add(10*time.Minute+3*time.Second), func(r Reading) error {
+		part = append(part, r)
+		return nil
+	}); err != nil {
+		t.Fatal(err)
+	}
+	if len(part) != 6 || !part[0].Time.Equal(dayStart.Add(10*time.Minute)) {
+		t.Errorf("partial read %v", part)
+	}
+
+	// Redelivery of compacted readings: nothing new, no rows added.
+	if n, err := st.InsertReadings(ctx, "bridge", rs[:5000]); err != nil || n != 0 {
+		t.Errorf("redelivery after compaction stored %d (%v), want 0", n, err)
+	}
+	if n := rowCount(t, st); n != 2*3600 {
+		t.Errorf("redelivery added rows: %d", n)
+	}
+	// A late reading in a compacted period joins, then merges.
+	late := Reading{Channel: "a", Time: dayStart.Add(90*time.Minute + 500*time.Millisecond), Value: 7.5e-5}
+	if n, err := st.InsertReadings(ctx, "bridge", []Reading{late}); err != nil || n != 1 {
+		t.Fatalf("late reading stored %d (%v), want 1", n, err)
+	}
+	// After both channels' readings at 01:30:00 (second 5400).
+	want := append(append([]Reading(nil), before[:10802]...), late)
+	want = append(want, before[10802:]...)
+	if err := sameReadings(want, readAll(t, st, "bridge")); err != nil {
+		t.Fatalf("with the late reading: %v", err)
+	}
+	if cs, err = st.Compact(ctx, dayStart.Add(2*time.Hour)); err != nil || cs.Blocks != 1 || cs.Readings != 1 {
+		t.Errorf("second compaction %+v %v, want the late reading merged into one block", cs, err)
+	}
+	if err := sameReadings(want, readAll(t, st, "bridge")); err != nil {
+		t.Fatalf("after merging the late reading: %v", err)
+	}
+	// Retention cuts inside the first block.
+	cut := dayStart.Add(20 * time.Minute)
+	n, err := st.Prune(ctx, ClassReadings, cut)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if n != 2*1200 {
+		t.Errorf("pruned %d, want 2400", n)
+	}
+	var kept []Reading
+	for _, r := range want {
+		if !r.Time.Before(cut) {
+			kept = append(kept, r)
+		}
+	}
+	if err := sameReadings(kept, readAll(t, st, "bridge")); err != nil {
+		t.Fatalf("after retention: %v", err)
+	}
+	// A store opened again knows its blocks: a redelivery is still caught.
+	path := st.Path()
+	st.Close()
+	st2, err := Open(path, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer st2.Close()
+	if n, err := st2.InsertReadings(ctx, "bridge", rs[3000:3100]); err != nil || n != 0 {
+		t.Errorf("redelivery after reopening stored %d (%v), want 0", n, err)
+	}
+	// VACUUM INTO copies the blocks.
+	backup := filepath.Join(t.TempDir(), "backup.db")
+	if err := st2.Backup(ctx, backup); err != nil {
+		t.Fatal(err)
+	}
+	b, err := Open(backup, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer b.Close()
+	if err := sameReadings(kept, readAll(t, b, "bridge")); err != nil {
+		t.Fatalf("backup: %v", err)
+	}
+}
+
+// TestMigrationToBlocks opens a file at schema version 3 (rows only) and
+// compacts it.
+func TestMigrationToBlocks(t *testing.T) {
+	ctx := context.Background()
+	path := filepath.Join(t.TempDir(), "old.db")
+	st, err := Open(path, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	rs := someReadings(2, 2)
+	if _, err := st.InsertReadings(ctx, "bridge", rs); err != nil {
+		t.Fatal(err)
+	}
+	// Take the file back to version 3, as the previous release wrote it.
+	if _, err := st.db.Exec(`DROP TABLE reading_blocks; UPDATE schema_version SET version = 3`); err != nil {
+		t.Fatal(err)
+	}
+	st.Close()
+	st, err = Open(path, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer st.Close()
+	if v, _ := st.SchemaVersion(ctx); v != len(migrations) {
+		t.Errorf("schema version %d after opening, want %d", v, len(migrations))
+	}
+	before := readAll(t, st, "bridge")
+	if _, err := st.Compact(ctx, dayStart.Add(2*time.Hour)); err != nil {
+		t.Fatal(err)
+	}
+	if n := rowCount(t, st); n != 0 {
+		t.Errorf("%d rows left after compacting everything", n)
+	}
+	if err := sameReadings(before, readAll(t, st, "bridge")); err != nil {
+		t.Fatal(err)
+	}
+}
+
+// hourReadings returns the readings of hour h (from dayStart) of the kill
+// test: channels a and b every second, values depending on the hour.
+func hourReadings(h int) []Reading {
+	rs := someReadings(1, uint64(100+h))
+	for i := range rs {
+		rs[i].Time = rs[i].Time.Add(time.Duration(h) * time.Hour)
+	}
+	return rs
+}
+
+// TestCompactKilled kills a process that commits hours of readings and
+// compacts them (redelivering the previous hour each time), at points
+// chosen by its own progress, in several rounds; then checks that every
+// hour it reported committed is stored exactly once, with its values, and
+// that no reading is stored twice or half an hour lost.
+func TestCompactKilled(t *testing.T) {
+	if path := os.Getenv("STORE_COMPACT_CHILD"); path != "" {
+		round, _ := strconv.Atoi(os.Getenv("STORE_COMPACT_ROUND"))
+		compactChild(path, round)
+		return
+	}
+	ctx := context.Background()
+	path := filepath.Join(t.TempDir(), "kill.db")
+	const rounds, hoursPerRound = 5, 6
+	rng := rand.New(rand.NewPCG(9, 9))
+	reported := map[int]bool{}
+	for round := 0; round < rounds; round++ {
+		cmd := exec.Command(os.Args[0], "-test.run=^TestCompactKilled$")
+		cmd.Env = append(os.Environ(), "STORE_COMPACT_CHILD="+path, "STORE_COMPACT_ROUND="+strconv.Itoa(round))
+		out, err := cmd.StdoutPipe()
+		if err != nil {
+			t.Fatal(err)
+		}
+		if err := cmd.Start(); err != nil {
+			t.Fatal(err)
+		}
+		killAfter := 1 + rng.IntN(3*hoursPerRound)
+		sc := bufio.NewScanner(out)
+		lines := 0
+		for sc.Scan() {
+			f := strings.Fields(sc.Text())
+			if len(f) == 2 && f[0] == "committed" {
+				h, _ := strconv.Atoi(f[1])
+				reported[h] = true
+			}
+			if len(f) > 0 && f[0] == "error" {
+				t.Fatalf("child: %s", sc.Text())
+			}
+			lines++
+			if lines == killAfter {
+				cmd.Process.Kill()
+				break
+			}
+		}
+		cmd.Wait()
+		t.Logf("round %d: killed after %d progress lines", round, lines)
+	}
+	st, err := Open(path, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer st.Close()
+	check := func(when string) {
+		got := readAll(t, st, "bridge")
+		byHour := map[int][]Reading{}
+		for _, r := range got {
+			h := int(r.Time.Sub(dayStart) / time.Hour)
+			byHour[h] = append(byHour[h], r)
+		}
+		for h := range reported {
+			if len(byHour[h]) == 0 {
+				t.Errorf("%s: hour %d was reported committed and is missing", when, h)
+			}
+		}
+		for h, rs := range byHour {
+			if err := sameReadings(hourReadings(h), rs); err != nil {
+				t.Errorf("%s: hour %d: %v", when, h, err)
+			}
+		}
+	}
+	check("after the kills")
+	if _, err := st.Compact(ctx, dayStart.Add(rounds*hoursPerRound*time.Hour)); err != nil {
+		t.Fatal(err)
+	}
+	check("after the final compaction")
+	if n := rowCount(t, st); n != 0 {
+		t.Errorf("%d rows left after compacting everything", n)
+	}
+}
+
+// compactChild commits the hours of one round one transaction each,
+// redelivering the hour before, and compacts after each; it prints a line
+// per committed hour and per block written.
+func compactChild(path string, round int) {
+	ctx := context.Background()
+	fail := func(err error) {
+		fmt.Println("error", err)
+		os.Exit(1)
+	}
+	st, err := Open(path, Options{})
+	if err != nil {
+		fail(err)
+	}
+	for h := round * 6; h < round*6+6; h++ {
+		batch := hourReadings(h)
+		if h > 0 {
+			batch = append(hourReadings(h-1), batch...)
+		}
+		if _, err := st.InsertReadings(ctx, "bridge", batch); err != nil {
+			fail(err)
+		}
+		fmt.Println("committed", h)
+		cs, err := st.Compact(ctx, dayStart.Add(time.Duration(h)*time.Hour))
+		if err != nil {
+			fail(err)
+		}
+		for i := 0; i < cs.Blocks; i++ {
+			fmt.Println("block")
+		}
+	}
+	st.Close()
+	os.Exit(0)
+}
