@@ -8,6 +8,8 @@
 // produces a *Structure; everything in this package works in SI (N, m, Pa, K).
 package model
 
+import "trussmonitor/internal/capacity"
+
 // Structure is a pin-jointed truss ready for analysis. All quantities are SI.
 // Indices (Member.I, Support.Node, ...) refer to positions in Nodes and
 // Members. Line fields carry the source line of the declaration (0 when the
@@ -39,6 +41,11 @@ type Structure struct {
 	Patterns []Pattern
 	// Cases are named combinations of patterns with factors.
 	Cases []Case
+	// Design is the design basis for member resistance (nil when the file
+	// declares none: no resistance or utilisation is computed).
+	Design *capacity.Design
+	// DesignLine is the line of the design declaration.
+	DesignLine int
 }
 
 // Node is a joint. X holds the coordinates in metres; X[2] is 0 in 2D.
@@ -63,7 +70,22 @@ type Member struct {
 	Alpha float64
 	// Density is the mass density in kg/m^3 (for self-weight).
 	Density float64
-	Line    int
+	// Fy is the yield strength of the material in Pa (0 when not given).
+	Fy float64
+	// RadiusOfGyration is the section's radius of gyration about its
+	// weaker axis in m (given, or sqrt(I/A) from the second moment; 0 when
+	// neither is given).
+	RadiusOfGyration float64
+	// BucklingLength is the buckling length in m; 0 means BucklingFactor
+	// times the member length.
+	BucklingLength float64
+	// BucklingFactor multiplies the member length when BucklingLength is
+	// 0; 0 means 1.0.
+	BucklingFactor float64
+	// Curve is the EN 1993-1-1 buckling curve (member, else section;
+	// 0 when not given).
+	Curve capacity.Curve
+	Line  int
 }
 
 // Support restrains translations of one node.

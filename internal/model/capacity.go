@@ -1,0 +1,43 @@
+package model
+
+import (
+	"fmt"
+
+	"trussmonitor/internal/capacity"
+)
+
+// EffectiveBucklingLength returns the buckling length of member k in
+// metres: its declared buckling length, else its buckling-length factor
+// (default 1.0) times its length.
+func (s *Structure) EffectiveBucklingLength(k int) float64 {
+	mb := s.Members[k]
+	if mb.BucklingLength > 0 {
+		return mb.BucklingLength
+	}
+	f := mb.BucklingFactor
+	if f == 0 {
+		f = 1
+	}
+	return f * memberLength(s, mb)
+}
+
+// Resistances returns the axial design resistance of every member under
+// the structure's design basis, in member order, or nil when the
+// structure declares no design basis.
+func (s *Structure) Resistances() ([]capacity.Resistance, error) {
+	if s.Design == nil {
+		return nil, nil
+	}
+	out := make([]capacity.Resistance, len(s.Members))
+	for k, mb := range s.Members {
+		r, err := capacity.Compute(*s.Design, capacity.Member{
+			A: mb.A, E: mb.E, Fy: mb.Fy, RadiusOfGyration: mb.RadiusOfGyration,
+			BucklingLength: s.EffectiveBucklingLength(k), Curve: mb.Curve,
+		})
+		if err != nil {
+			return nil, fmt.Errorf("structure %s: member %s (line %d): resistance: %w", s.Name, mb.ID, mb.Line, err)
+		}
+		out[k] = r
+	}
+	return out, nil
+}
