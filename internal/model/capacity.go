@@ -41,3 +41,22 @@ func (s *Structure) Resistances() ([]capacity.Resistance, error) {
 	}
 	return out, nil
 }
+
+// Utilisations returns |N_k| / N_Rd,k for member forces n (tension
+// positive, in member order) with the resistance governing each force's
+// sign, or nil when the structure declares no design basis. A monitoring
+// estimate, not a design check (capacity.Caution).
+func (s *Structure) Utilisations(n []float64) ([]float64, error) {
+	rs, err := s.Resistances()
+	if err != nil || rs == nil {
+		return nil, err
+	}
+	if len(n) != len(rs) {
+		return nil, fmt.Errorf("structure %s: %d member forces for %d members", s.Name, len(n), len(rs))
+	}
+	out := make([]float64, len(n))
+	for k := range n {
+		out[k] = capacity.Utilisation(n[k], rs[k])
+	}
+	return out, nil
+}
