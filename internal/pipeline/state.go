@@ -175,3 +175,13 @@ func (p *Processor) memberStates(res *Result, state []float64, r *reconcile.Resu
 	}
 	return out
 }
+
+// Members returns the ids of all members of the structure in structure
+// order (the order of Result.State).
+func (p *Processor) Members() []string { return append([]string(nil), p.state.ids...) }
+
+// Resistances returns the members' design resistances in structure order
+// (nil when the structure declares no design basis).
+func (p *Processor) Resistances() []capacity.Resistance {
+	return append([]capacity.Resistance(nil), p.state.resist...)
+}

@@ -187,7 +187,8 @@ func (s *Service) addStructure(mon *Monitored) error {
 	}
 	proc := p.Processor()
 	p.AddSink(s.live.Register(mon.Structure, proc, reconcile.DefaultAlphaGlobal))
-	p.AddSink(&metricsSink{m: s.met, sm: s.met.Structure(name, proc.Gauged(), proc.Unknown()), name: name, rules: s.rules, last: map[string]int{}})
+	p.AddSink(&metricsSink{m: s.met, sm: s.met.Structure(name, proc.Gauged(), proc.Unknown()), name: name, rules: s.rules, last: map[string]int{},
+		state: s.met.MemberState(name, proc.Members())})
 	p.AddSink(s.results)
 	s.pipes[name] = p
 	s.order = append(s.order, name)
