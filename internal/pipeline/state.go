@@ -3,6 +3,7 @@ package pipeline
 import (
 	"math"
 
+	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/capacity"
 	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/sensors"
@@ -184,4 +185,16 @@ func (p *Processor) Members() []string { return append([]string(nil), p.state.id
 // (nil when the structure declares no design basis).
 func (p *Processor) Resistances() []capacity.Resistance {
 	return append([]capacity.Resistance(nil), p.state.resist...)
+}
+
+// utilisationObservations lists the members' utilisations for the alarm
+// evaluator (none without a design basis).
+func utilisationObservations(state []MemberState) []alerts.Utilisation {
+	var out []alerts.Utilisation
+	for _, s := range state {
+		if !math.IsNaN(s.Utilisation) {
+			out = append(out, alerts.Utilisation{Member: s.Member, Value: s.Utilisation})
+		}
+	}
+	return out
 }
