@@ -142,7 +142,22 @@ type Pattern struct {
 	// Unknown marks a load shape whose magnitude is not measured and is
 	// estimated by reconciliation (for example crowd or snow drift).
 	Unknown bool
-	Line    int
+	// ReferenceValue and ReferenceUnit are the load the pattern represents
+	// at factor 1 as written in the file (for example 1 and "kPa"), used
+	// to show an estimated factor in the pattern's engineering unit; empty
+	// ReferenceUnit when not given.
+	ReferenceValue float64
+	ReferenceUnit  string
+	Line           int
+}
+
+// InReferenceUnit returns factor times the pattern's reference load in its
+// engineering unit, or ok false when the pattern declares none.
+func (p Pattern) InReferenceUnit(factor float64) (value float64, unit string, ok bool) {
+	if p.ReferenceUnit == "" {
+		return 0, "", false
+	}
+	return factor * p.ReferenceValue, p.ReferenceUnit, true
 }
 
 // Factor is one pattern with its factor in a load case.

@@ -206,3 +206,23 @@ func (r *reader) designInputs(s *state) {
 		}
 	}
 }
+
+// referenceLoad reads a pattern's reference_load: the load the pattern
+// represents at factor 1, with its engineering unit (a force such as
+// "1 kN", a pressure such as "1 kPa" or a line load such as "2.5 kN/m").
+func (r *reader) referenceLoad(p *model.Pattern, n *yaml.Node, f string) {
+	if n.Kind != yaml.ScalarNode || n.ShortTag() != "!!str" {
+		r.errorf(n, f, "expected a load with its unit such as \"1 kPa\", \"1 kN\" or \"2.5 kN/m\", found %s", kindName(n))
+		return
+	}
+	v, u, err := units.ParseWritten(n.Value, units.Force, units.Pressure, units.Stiffness)
+	if err != nil {
+		r.wrap(n, f, err, "")
+		return
+	}
+	if !(v > 0) {
+		r.errorf(n, f, "reference load must be positive, got %s", n.Value)
+		return
+	}
+	p.ReferenceValue, p.ReferenceUnit = v, u.Symbol
+}

@@ -100,3 +100,22 @@ func TestDesignInputErrors(t *testing.T) {
 		})
 	}
 }
+
+func TestReferenceLoad(t *testing.T) {
+	doc := strings.Replace(baseDoc, "  - {name: p, forces: [{node: C, y: -10}]}", "  - {name: p, reference_load: 2.5 kN/m, forces: [{node: C, y: -10}]}", 1)
+	s, err := Parse("r.yaml", []byte(doc))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if v, u, ok := s.Patterns[0].InReferenceUnit(0.4); !ok || v != 1 || u != "kN/m" {
+		t.Errorf("0.4 x 2.5 kN/m = %v %q %v", v, u, ok)
+	}
+	if _, _, ok := s.Patterns[1].InReferenceUnit(1); ok {
+		t.Error("a pattern without reference_load has one")
+	}
+	for text, msg := range map[string]string{"1 mm": "measures length", "-1 kN": "must be positive", "[1]": "expected a load with its unit", "1": "expected a load with its unit"} {
+		doc := strings.Replace(baseDoc, "  - {name: p, forces: [{node: C, y: -10}]}", "  - {name: p, reference_load: "+text+", forces: [{node: C, y: -10}]}", 1)
+		_, err := Parse("r.yaml", []byte(doc))
+		wantError(t, err, "r.yaml", 22, "patterns[p].reference_load", msg)
+	}
+}

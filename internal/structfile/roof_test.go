@@ -216,6 +216,7 @@ patterns:
 	w(`  - name: snow_drift_east
     description: 1 kPa on the half with x >= 12 m (216 kN), shape of a drift whose size is estimated
     unknown: true
+    reference_load: 1 kPa
     forces:`)
 	areaLoads(1.0, spanX/2)
 	w(`  - name: maintenance

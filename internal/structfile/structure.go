@@ -699,7 +699,7 @@ func (r *reader) patterns(s *state, n *yaml.Node) {
 		m, name, f, ok := r.entry(it, "patterns", "pattern", "name", i, func(id string) (int, bool) {
 			l, dup := seen[id]
 			return l, dup
-		}, "name", "description", "self_weight", "forces", "temperatures", "settlements", "unknown")
+		}, "name", "description", "self_weight", "forces", "temperatures", "settlements", "unknown", "reference_load")
 		if !ok {
 			continue
 		}
@@ -711,6 +711,9 @@ func (r *reader) patterns(s *state, n *yaml.Node) {
 		}
 		if v, ok := m["unknown"]; ok {
 			p.Unknown, _ = r.boolean(v, f+".unknown")
+		}
+		if v, ok := m["reference_load"]; ok {
+			r.referenceLoad(&p, v, f+".reference_load")
 		}
 		if v, ok := m["self_weight"]; ok {
 			if w, ok := r.number(v, f+".self_weight"); ok {

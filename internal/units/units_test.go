@@ -204,3 +204,19 @@ func ExampleParse() {
 	// E = 2.068e+11 Pa, A = 0.00129032 m2, L = 3 m
 	// wrong dimension: "mm" is a unit of length, expected a force unit (one of N, kN, MN, lbf, kip)
 }
+
+func TestParseWritten(t *testing.T) {
+	v, u, err := ParseWritten("2.5 kN/m", Force, Pressure, Stiffness)
+	if err != nil || v != 2.5 || u.Symbol != "kN/m" || u.ToSI != 1e3 {
+		t.Errorf("2.5 kN/m: %v %+v %v", v, u, err)
+	}
+	v, u, err = ParseWritten("1 kPa", Force, Pressure, Stiffness)
+	if err != nil || v != 1 || u.Symbol != "kPa" {
+		t.Errorf("1 kPa: %v %+v %v", v, u, err)
+	}
+	for text, want := range map[string]error{"1": ErrMissingUnit, "1 mm": ErrWrongDimension, "1 kPz": ErrUnknownUnit, "kPa": ErrSyntax, "1e308 MN": ErrNotFinite} {
+		if _, _, err := ParseWritten(text, Force, Pressure, Stiffness); !errors.Is(err, want) {
+			t.Errorf("%q: %v, want %v", text, err, want)
+		}
+	}
+}
