@@ -226,6 +226,11 @@ func Run(ctx context.Context, opt Options) (*Summary, error) {
 	rep.CriticalValue = proc.Critical()
 	rep.Alpha = alphaGlobal(opt.Rules)
 	rep.Caution = report.Caution
+	rep.MemberSummaries = col.totals.summaries(proc.Resistances())
+	if mdl.st.Design != nil {
+		rep.Design = mdl.st.Design.Standard.String()
+	}
+	referenceLoads(rep, mdl.st)
 	sum.Report = rep
 	sum.Events = len(rep.Events)
 	for _, e := range rep.Events {

@@ -2,13 +2,19 @@ package replay_test
 
 import (
 	"context"
+	"encoding/csv"
 	"math"
+	"os"
+	"path/filepath"
+	"strconv"
+	"strings"
 	"testing"
 	"time"
 
 	"trussmonitor/internal/model"
 	"trussmonitor/internal/pipeline"
 	"trussmonitor/internal/replay"
+	"trussmonitor/internal/report"
 	"trussmonitor/internal/structfile"
 )
 
@@ -102,12 +108,14 @@ func TestMemberStateRecordedDay(t *testing.T) {
 	for _, mb := range st.Members {
 		c.ids = append(c.ids, mb.ID)
 	}
+	out := t.TempDir()
 	_, err = replay.Run(context.Background(), replay.Options{
-		DB: path, From: dayStart, To: dayEnd, SensorsFile: sensorsFile, Sinks: []pipeline.Sink{c},
+		DB: path, From: dayStart, To: dayEnd, SensorsFile: sensorsFile, Sinks: []pipeline.Sink{c}, OutDir: out,
 	})
 	if err != nil {
 		t.Fatal(err)
 	}
+	checkMemberReport(t, out, c)
 	t.Logf("%d fitted epochs, %d measured member-epochs; worst relative differences %.2g (total), %.2g (prediction)", c.epochs, c.measured, c.worst, c.worstFit)
 	t.Logf("D2 at 16:00: zero state %.2f kN + change %.2f kN = total %.2f kN (predicted %.2f kN, ratio %.3f), utilisation %.3f",
 		c.sample.ZeroStateN/1e3, c.sample.MeasuredChangeN/1e3, c.sample.MeasuredTotalN/1e3, c.sample.PredictedTotalN/1e3, c.sample.Ratio, c.sample.Utilisation)
@@ -119,5 +127,42 @@ func TestMemberStateRecordedDay(t *testing.T) {
 	}
 	if c.worstFit > 1e-9 {
 		t.Errorf("prediction differs from zero state + fitted change by %.3g relative", c.worstFit)
+	}
+}
+
+// checkMemberReport checks members.csv and the report's member section:
+// one row per member with its largest utilisation, and the caution beside
+// every utilisation; the crowd estimate in kPa.
+func checkMemberReport(t *testing.T, dir string, c *stateCheck) {
+	t.Helper()
+	f, err := os.Open(filepath.Join(dir, report.MembersFile))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	rows, err := csv.NewReader(f).ReadAll()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(rows) != 1+len(c.ids) || rows[0][0] != "member" || rows[0][8] != "utilisation_max" {
+		t.Fatalf("members.csv: %d rows, header %v", len(rows), rows[0])
+	}
+	for _, r := range rows[1:] {
+		u, err := strconv.ParseFloat(r[8], 64)
+		if err != nil || !(u > 0) || u > 1 {
+			t.Errorf("member %s: largest utilisation %q", r[0], r[8])
+		}
+		if r[0] == "D2" {
+			t.Logf("D2 over the day: total %s .. %s N, largest utilisation %s at %s", r[4], r[5], r[8], r[9])
+		}
+	}
+	html, err := os.ReadFile(filepath.Join(dir, report.HTMLFile))
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, want := range []string{report.UtilisationCaution, "change since zeroing (kN)", "crowd (kPa)", "EN 1993-1-1"} {
+		if !strings.Contains(string(html), want) {
+			t.Errorf("index.html lacks %q", want)
+		}
 	}
 }
