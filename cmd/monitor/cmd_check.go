@@ -51,6 +51,12 @@ func runCheck(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 		fmt.Fprintf(stderr, "monitor check: %v\n", err)
 		return 1
 	}
+	if sec, err := capacitySection(rep); err != nil {
+		fmt.Fprintf(stderr, "monitor check: %v\n", err)
+		return 1
+	} else if sec != nil {
+		rep.Extra = append(rep.Extra, sec) // check_capacity.go
+	}
 	if *sensorsPath != "" && rep.Model != nil {
 		sm, err := sensors.LoadFile(*sensorsPath, s)
 		if err != nil {

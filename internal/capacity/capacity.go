@@ -18,7 +18,7 @@ import "fmt"
 
 // Caution is the sentence every screen and report showing a utilisation
 // carries (DESIGN.md, Safety).
-const Caution = "Utilisation is a monitoring estimate from the recorded loads and the model, not a design check or an assessment; assessment rests with a licensed engineer under local codes."
+const Caution = "Utilisation is a monitoring estimate, not a design check or an assessment; assessment rests with a licensed engineer under local codes."
 
 // Standard is a design standard for member resistance.
 type Standard int

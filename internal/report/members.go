@@ -9,6 +9,8 @@ import (
 	"strconv"
 	"strings"
 	"time"
+
+	"trussmonitor/internal/capacity"
 )
 
 // MembersFile is the per-member summary written by Write when the report
@@ -16,7 +18,7 @@ import (
 const MembersFile = "members.csv"
 
 // UtilisationCaution is printed beside every utilisation in the report.
-const UtilisationCaution = "Utilisation is a monitoring estimate from the recorded loads and the model, not a design check or an assessment; assessment rests with a licensed engineer under local codes."
+const UtilisationCaution = capacity.Caution
 
 // MemberSummary is one member's total axial state over the period (every
 // member of the structure). Totals are the model's force in the gauges'
