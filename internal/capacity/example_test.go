@@ -22,6 +22,6 @@ func ExampleCompute() {
 	fmt.Printf("utilisation at -150 kN: %.3f\n", capacity.Utilisation(-150e3, r))
 	// Output:
 	// lambda-bar 1.123, chi 0.580
-	// N_pl,Rd 1001.1 kN, N_b,Rd 580.8 kN
+	// N_pl,Rd 1001.1 kN, N_b,Rd 580.9 kN
 	// utilisation at -150 kN: 0.258
 }
