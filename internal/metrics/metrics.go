@@ -62,6 +62,7 @@ type Metrics struct {
 	alarms                                                   *prometheus.GaugeVec
 	dropped                                                  prometheus.Counter
 	state                                                    *stateVecs
+	loads                                                    *loadVecs
 
 	cMessages, cReadings, cRejections, cEpochs, cSkew *children[prometheus.Counter]
 	cLatency                                          *children[prometheus.Observer]
@@ -118,6 +119,7 @@ func New(reg prometheus.Registerer) (*Metrics, error) {
 		alarms:  g(AlarmsFiring, "Number of alarms of the rule currently firing.", []string{"structure", "rule"}),
 		dropped: prometheus.NewCounter(prometheus.CounterOpts{Name: BrokerDroppedMessage, Help: "Messages the embedded broker dropped (in-flight or queue limits)."}),
 		state:   newStateVecs(),
+		loads:   newLoadVecs(),
 	}
 	two := func(v *prometheus.CounterVec) *children[prometheus.Counter] {
 		return newChildren(func(a, b string) prometheus.Counter { return v.WithLabelValues(a, b) })
@@ -131,7 +133,7 @@ func New(reg prometheus.Registerer) (*Metrics, error) {
 	})
 	for _, col := range append([]prometheus.Collector{m.measured, m.predicted, m.residual, m.w, m.mdb, m.redund, m.checkable,
 		m.chi2, m.dof, m.pvalue, m.load, m.loadStd, m.epochs, m.messages, m.readings, m.rejections, m.skew,
-		m.lastReading, m.latency, m.alarms, m.dropped}, m.state.collectors()...) {
+		m.lastReading, m.latency, m.alarms, m.dropped}, append(m.state.collectors(), m.loads.collectors()...)...) {
 		if err := reg.Register(col); err != nil {
 			return nil, fmt.Errorf("metrics: registering collectors: %w (is a second Metrics registered on the same registry?)", err)
 		}

@@ -56,6 +56,15 @@ func example(t testing.TB) (*prometheus.Registry, *Metrics) {
 	if err := st.Set(2, StateValues{TotalN: -5625, PredictedTotalN: -5625, ZeroStateN: nan, StressPa: -1.99e6, Utilisation: nan, PredictedUtilisation: nan}); err != nil {
 		t.Fatal(err)
 	}
+	ul, err := m.UnknownLoads("alder-creek", []string{"crowd", "drift"}, []LoadReference{{Quantity: LoadPressure, PerFactor: 1000}, {}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	ul.Set(0, 3.25) // 3.25 x 1 kPa
+	ul.Set(1, 2)    // no reference load: no series
+	if _, err := m.UnknownLoads("alder-creek", []string{"crowd"}, nil); err == nil {
+		t.Fatal("a pattern without its reference accepted")
+	}
 	if err := st.Set(3, StateValues{}); err == nil {
 		t.Fatal("member index 3 of 3 accepted")
 	}

@@ -5,6 +5,8 @@ import (
 	"math"
 
 	"github.com/prometheus/client_golang/prometheus"
+
+	"trussmonitor/internal/capacity"
 )
 
 // Member state metric names (DESIGN.md, "Member state, capacity and
@@ -35,8 +37,8 @@ func newStateVecs() *stateVecs {
 		totalPred: g(MemberTotalPredicted, "Reconciled prediction of the member's total axial force (recorded and estimated loads), newtons."),
 		zero:      g(MemberZeroState, "Model force of the member in the state its gauges were zeroed under, newtons."),
 		stress:    g(MemberStress, "Axial stress of the total force over the gross area, pascals."),
-		util:      g(MemberUtilisation, "Utilisation |total force| / design resistance (EN 1993-1-1 or AISC 360-16, tension or flexural buckling), ratio. A monitoring estimate, not a design check or an assessment."),
-		utilPred:  g(MemberUtilisationPredict, "Utilisation of the reconciled prediction of the total force, ratio. A monitoring estimate, not a design check or an assessment."),
+		util:      g(MemberUtilisation, "Utilisation |total force| / design resistance (EN 1993-1-1 or AISC 360-16, tension or flexural buckling), ratio. "+capacity.Caution),
+		utilPred:  g(MemberUtilisationPredict, "Utilisation of the reconciled prediction of the total force, ratio. "+capacity.Caution),
 	}
 }
 
@@ -86,4 +88,81 @@ func (s *MemberStateMetrics) Set(i int, v StateValues) error {
 		row[k].Set(x)
 	}
 	return nil
+}
+
+// Unknown loads in their pattern's engineering quantity, in base units
+// (shm_unknown_load_factor stays the bare factor).
+const (
+	UnknownLoadNewtons         = "shm_unknown_load_newtons"
+	UnknownLoadPascals         = "shm_unknown_load_pascals"
+	UnknownLoadNewtonsPerMetre = "shm_unknown_load_newtons_per_metre"
+)
+
+// LoadQuantity is the quantity a pattern's reference load measures.
+type LoadQuantity int
+
+// Load quantities of a pattern's reference load.
+const (
+	LoadForce     LoadQuantity = iota + 1 // newtons
+	LoadPressure                          // pascals
+	LoadLineForce                         // newtons per metre
+)
+
+type loadVecs struct {
+	byQuantity map[LoadQuantity]*prometheus.GaugeVec
+}
+
+func newLoadVecs() *loadVecs {
+	l := []string{"structure", "pattern"}
+	g := func(name, what string) *prometheus.GaugeVec {
+		return prometheus.NewGaugeVec(prometheus.GaugeOpts{Name: name,
+			Help: "Estimated unknown load in the pattern's engineering quantity (pattern factor times the pattern's reference load), " + what + "."}, l)
+	}
+	return &loadVecs{byQuantity: map[LoadQuantity]*prometheus.GaugeVec{
+		LoadForce:     g(UnknownLoadNewtons, "newtons"),
+		LoadPressure:  g(UnknownLoadPascals, "pascals"),
+		LoadLineForce: g(UnknownLoadNewtonsPerMetre, "newtons per metre"),
+	}}
+}
+
+func (v *loadVecs) collectors() []prometheus.Collector {
+	return []prometheus.Collector{v.byQuantity[LoadForce], v.byQuantity[LoadPressure], v.byQuantity[LoadLineForce]}
+}
+
+// LoadReference is one unknown pattern's reference load: Quantity and
+// PerFactor (base units per unit of pattern factor); Quantity 0 for a
+// pattern without one.
+type LoadReference struct {
+	Quantity  LoadQuantity
+	PerFactor float64
+}
+
+// UnknownLoadMetrics are the engineering-unit gauges of one structure's
+// unknown loads, in the order given to Metrics.UnknownLoads.
+type UnknownLoadMetrics struct {
+	refs   []LoadReference
+	gauges []prometheus.Gauge // nil for a pattern without a reference load
+}
+
+// UnknownLoads returns the engineering-unit gauges of structure name's
+// unknown patterns (same order as Metrics.Structure's patterns).
+func (m *Metrics) UnknownLoads(name string, patterns []string, refs []LoadReference) (*UnknownLoadMetrics, error) {
+	if len(refs) != len(patterns) {
+		return nil, fmt.Errorf("metrics: %d load references for %d patterns", len(refs), len(patterns))
+	}
+	u := &UnknownLoadMetrics{refs: append([]LoadReference(nil), refs...), gauges: make([]prometheus.Gauge, len(patterns))}
+	for j, p := range patterns {
+		if v, ok := m.loads.byQuantity[refs[j].Quantity]; ok {
+			u.gauges[j] = v.WithLabelValues(name, p)
+		}
+	}
+	return u, nil
+}
+
+// Set sets pattern j's load from its estimated factor.
+func (u *UnknownLoadMetrics) Set(j int, factor float64) {
+	if u == nil || j < 0 || j >= len(u.gauges) || u.gauges[j] == nil {
+		return
+	}
+	u.gauges[j].Set(factor * u.refs[j].PerFactor)
 }

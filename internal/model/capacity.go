@@ -4,6 +4,7 @@ import (
 	"fmt"
 
 	"trussmonitor/internal/capacity"
+	"trussmonitor/internal/units"
 )
 
 // EffectiveBucklingLength returns the buckling length of member k in
@@ -59,4 +60,19 @@ func (s *Structure) Utilisations(n []float64) ([]float64, error) {
 		out[k] = capacity.Utilisation(n[k], rs[k])
 	}
 	return out, nil
+}
+
+// ReferenceSI returns the pattern's reference load (the load at factor 1)
+// in SI base units with its dimension: newtons (force), pascals (pressure)
+// or newtons per metre (line load); ok is false when the pattern declares
+// none.
+func (p Pattern) ReferenceSI() (value float64, dim units.Dimension, ok bool) {
+	if p.ReferenceUnit == "" {
+		return 0, 0, false
+	}
+	u, found := units.Lookup(p.ReferenceUnit)
+	if !found {
+		return 0, 0, false
+	}
+	return p.ReferenceValue * u.ToSI, u.Dim, true
 }

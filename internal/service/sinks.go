@@ -21,6 +21,7 @@ type metricsSink struct {
 	last  map[string]int
 	skewN uint64
 	state *metrics.MemberStateMetrics // every member's total state
+	loads *metrics.UnknownLoadMetrics // unknown loads in their engineering quantity
 }
 
 // Epoch updates the member, fit, load, epoch and alarm metrics.
@@ -43,6 +44,7 @@ func (ms *metricsSink) Epoch(r *pipeline.Result) {
 		for j, ld := range r.Loads {
 			if j < len(r.Loads) && ld.Estimable {
 				_ = ms.sm.SetUnknownLoad(j, ld.Value, ld.Std)
+				ms.loads.Set(j, ld.Value)
 			}
 		}
 	}
