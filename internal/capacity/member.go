@@ -55,6 +55,20 @@ func Compute(d Design, m Member) (Resistance, error) {
 		}
 	}
 	slender := m.BucklingLength / m.RadiusOfGyration
+	r, err := compute(d, m, slender)
+	if err != nil {
+		return Resistance{}, err
+	}
+	for _, v := range []float64{r.TensionN, r.CompressionN} {
+		if !(v > 0) || math.IsInf(v, 0) {
+			return Resistance{}, fmt.Errorf("resistance %g N is not a positive finite number (slenderness L/i = %g); check the units of the area, yield strength, radius of gyration and buckling length", v, slender)
+		}
+	}
+	return r, nil
+}
+
+// compute evaluates the standard's formulas for checked inputs.
+func compute(d Design, m Member, slender float64) (Resistance, error) {
 	switch d.Standard {
 	case EN1993:
 		if !(d.GammaM0 > 0) || !(d.GammaM1 > 0) {

@@ -205,6 +205,16 @@ func (r *reader) designInputs(s *state) {
 			r.errorAt(mem.Line, f, "EN 1993-1-1 needs a buckling curve (a0, a, b, c or d, Table 6.2): add buckling_curve to section %q or to the member", mem.Section)
 		}
 	}
+	if len(r.errs) > 0 {
+		return
+	}
+	for k, mem := range s.st.Members {
+		_, err := capacity.Compute(*d, capacity.Member{A: mem.A, E: mem.E, Fy: mem.Fy, RadiusOfGyration: mem.RadiusOfGyration,
+			BucklingLength: s.st.EffectiveBucklingLength(k), Curve: mem.Curve})
+		if err != nil {
+			r.errorAt(mem.Line, "members["+mem.ID+"]", "design resistance: %v", err)
+		}
+	}
 }
 
 // referenceLoad reads a pattern's reference_load: the load the pattern

@@ -92,6 +92,7 @@ func TestDesignInputErrors(t *testing.T) {
 		{"zero factor", enDesign, fy, sec, ", buckling_factor: 0", 17, "members[BC].buckling_factor", "above 0"},
 		{"huge factor", enDesign, fy, sec, ", buckling_factor: 20", 17, "members[BC].buckling_factor", "at most 10"},
 		{"negative length", enDesign, fy, sec, ", buckling_length: -3 m", 17, "members[BC].buckling_length", "must be positive"},
+		{"vanishing second moment", enDesign, fy, ", second_moment: 1e-300 mm4, buckling_curve: b", "", 16, "members[AB]", "is not a positive finite number"},
 	}
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {
