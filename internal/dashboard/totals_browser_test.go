@@ -26,6 +26,11 @@ func (s totalsSource) State(name string) (State, error) {
 	if err != nil || st.Epoch.IsZero() {
 		return st, err
 	}
+	gauged := map[string]MemberState{}
+	for _, g := range st.Gauged {
+		gauged[g.ID] = g
+	}
+	const resistance = 500e3
 	nm := len(st.Geometry.Members)
 	st.Members = nil
 	for j, m := range st.Geometry.Members {
@@ -33,13 +38,25 @@ func (s totalsSource) State(name string) (State, error) {
 		if j == nm-1 {
 			u = 0.96
 		}
-		total := -u * 500e3
-		mt := MemberTotal{ID: m.ID, Gauged: m.Gauged, Measured: m.Gauged, ZeroState: total + 10e3, Total: total,
-			PredictedTotal: total + 2e3, Stress: total / 2.82e-3, Resistance: 500e3, Utilisation: u, PredictedUtilisation: u - 0.004,
-			MeasuredChange: math.NaN(), PredictedChange: -10e3 + 2e3, MeasuredTotal: math.NaN(), Ratio: math.NaN()}
-		if m.Gauged {
-			mt.MeasuredChange, mt.MeasuredTotal, mt.Ratio = -10e3, total, total/(total+2e3)
+		total := -u * resistance // compression
+		mt := MemberTotal{ID: m.ID, Gauged: m.Gauged, Resistance: resistance, Utilisation: u,
+			MeasuredChange: math.NaN(), MeasuredTotal: math.NaN(), Ratio: math.NaN()}
+		if g, ok := gauged[m.ID]; ok && !math.IsNaN(g.Measured) {
+			// Consistent with the gauged entry: the change since zeroing is
+			// its measured force, the zero state makes up the rest.
+			mt.Measured = true
+			mt.MeasuredChange, mt.PredictedChange = g.Measured, g.Predicted
+			mt.ZeroState = total - g.Measured
+			mt.MeasuredTotal, mt.Total = total, total
+			mt.PredictedTotal = mt.ZeroState + g.Predicted
+			mt.Ratio = mt.MeasuredTotal / mt.PredictedTotal
+		} else {
+			mt.PredictedChange = -2e3
+			mt.ZeroState = total + 2e3
+			mt.PredictedTotal, mt.Total = total, total
 		}
+		mt.Stress = mt.Total / 2.82e-3
+		mt.PredictedUtilisation = math.Abs(mt.PredictedTotal) / resistance
 		st.Members = append(st.Members, mt)
 	}
 	st.Design = &Design{Standard: "EN 1993-1-1", Caution: testUtilCaution}

@@ -348,7 +348,7 @@ function drawSeries(ser) {
     tx.textContent = (v / 1000).toFixed(Math.abs(hi - lo) < 5000 ? 2 : 1);
   }
   const yl = el('text', { x: 14, y: T + (H - T - B) / 2, transform: `rotate(-90 14 ${T + (H - T - B) / 2})`, 'text-anchor': 'middle' }, axes);
-  yl.textContent = 'axial force (kN, tension +)';
+  yl.textContent = 'change since zeroing (kN, tension +)';
   for (const f of [0, 0.5, 1]) {
     const t = t0 + f * (t1 - t0);
     const tx = el('text', { x: X(t), y: H - B + 16, 'text-anchor': f === 0 ? 'start' : f === 1 ? 'end' : 'middle' }, axes);
