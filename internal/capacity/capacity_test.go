@@ -29,26 +29,34 @@ func TestImperfectionFactors(t *testing.T) {
 
 // TestReductionFactorTable checks chi of EN 1993-1-1 6.3.1.2, equation
 // (6.49), against the tabulated values of the buckling curves of
-// Figure 6.4 (the chi table to three decimals reproduced with the
-// standard in design aids; from memory). Curve b at lambda-bar = 1.0 gives
-// 0.597.
+// Figure 6.4 (the chi table to three decimals that design aids reproduce
+// with the standard), from memory: the values below were written down as
+// recalled, before the formula was evaluated. Curve b at lambda-bar = 1.0
+// gives 0.597. The recalled a0 entries at 0.7, 1.0 and 1.2 differ from the
+// formula by up to 0.0013, hence the tolerance of 0.0015; neighbouring
+// curves differ by 0.009 or more at these slendernesses, so a wrong
+// imperfection factor fails.
 func TestReductionFactorTable(t *testing.T) {
-	lambdas := []float64{0.2, 0.5, 1.0, 1.5, 2.0}
+	lambdas := []float64{0.2, 0.3, 0.5, 0.7, 1.0, 1.2}
 	table := map[Curve][]float64{ // from memory, three decimals
-		CurveA0: {1.000, 0.951, 0.725, 0.395, 0.232},
-		CurveA:  {1.000, 0.924, 0.666, 0.372, 0.223},
-		CurveB:  {1.000, 0.884, 0.597, 0.342, 0.209},
-		CurveC:  {1.000, 0.843, 0.540, 0.315, 0.196},
-		CurveD:  {1.000, 0.779, 0.467, 0.277, 0.177},
+		CurveA0: {1.000, 0.986, 0.951, 0.897, 0.724, 0.572},
+		CurveA:  {1.000, 0.977, 0.924, 0.848, 0.666, 0.530},
+		CurveB:  {1.000, 0.964, 0.884, 0.784, 0.597, 0.478},
+		CurveC:  {1.000, 0.949, 0.843, 0.725, 0.540, 0.434},
+		CurveD:  {1.000, 0.923, 0.779, 0.643, 0.467, 0.376},
 	}
 	for c, want := range table {
 		alpha, _ := ImperfectionFactor(c)
 		for k, l := range lambdas {
 			got := ReductionFactor(alpha, l)
-			if math.Abs(got-want[k]) > 0.0006 {
+			if math.Abs(got-want[k]) > 0.0015 {
 				t.Errorf("curve %v, lambda-bar %.1f: chi %.4f, tabulated %.3f", c, l, got, want[k])
 			}
 		}
+	}
+	// The example of the issue, to the table's rounding.
+	if got := ReductionFactor(0.34, 1.0); math.Abs(got-0.597) > 0.0005 {
+		t.Errorf("curve b at lambda-bar 1.0: chi %.4f, want 0.597", got)
 	}
 }
 
@@ -102,8 +110,8 @@ const (
 // Fy = 50 ksi, E = 29,000 ksi, Lc/r = 100 gives Fe = pi^2 E / 100^2 =
 // 28.62 ksi, Fcr = 0.658^(50/28.62) 50 = 24.07 ksi and phi Fcr = 21.7 ksi
 // (the value tabulated in the AISC Steel Construction Manual, 15th ed.,
-// Table 4-14, from memory). At Lc/r = 150 (elastic range) the table gives
-// phi Fcr = 10.0 ksi (from memory), 0.9 x 0.877 x pi^2 E / 150^2.
+// Table 4-14, from memory). At Lc/r = 150 (elastic range, E3-3) the closed
+// form gives phi Fcr = 0.9 x 0.877 x pi^2 x 29,000 / 150^2 = 10.04 ksi.
 func TestAISCCriticalStress(t *testing.T) {
 	e, fy := 29000*ksi, 50*ksi
 	if fe := ElasticBucklingStress(e, 100) / ksi; math.Abs(fe-28.62) > 0.005 {
@@ -116,8 +124,8 @@ func TestAISCCriticalStress(t *testing.T) {
 	if p := PhiAISC * fcr; math.Abs(p-21.7) > 0.05 {
 		t.Errorf("phi Fcr = %.3f ksi, want 21.7 (Table 4-14)", p)
 	}
-	if p := PhiAISC * CriticalStress(e, fy, 150) / ksi; math.Abs(p-10.0) > 0.05 {
-		t.Errorf("phi Fcr at Lc/r 150 = %.3f ksi, want 10.0 (Table 4-14)", p)
+	if p := PhiAISC * CriticalStress(e, fy, 150) / ksi; math.Abs(p-10.04) > 0.005 {
+		t.Errorf("phi Fcr at Lc/r 150 = %.3f ksi, want 10.04 (E3-3 closed form)", p)
 	}
 }
 
@@ -154,10 +162,11 @@ func TestAISCBoundary(t *testing.T) {
 
 // TestAISCWorkedExample: AISC Design Examples (companion to the 15th ed.
 // Manual), Example E.1A, W14x132 of ASTM A992 (Fy = 50 ksi), Lc = 30 ft
-// about the weak axis, ry = 3.76 in, Ag = 38.8 in2: Lc/r = 95.7,
-// Fe = 31.2 ksi, Fcr = 25.6 ksi, phi_c Pn = 893 kips (from memory).
-// Tension yielding of the same gross section, D2-1: 0.90 x 50 x 38.8 =
-// 1746 kips (closed form).
+// about the weak axis, ry = 3.76 in, Ag = 38.8 in2 (section properties from
+// the Manual's Table 1-1): phi_c Pn = 893 kips (from memory); the
+// intermediate values Lc/r = 95.7, Fe = 31.2 ksi and Fcr = 25.6 ksi follow
+// in closed form. Tension yielding of the same gross section, D2-1:
+// 0.90 x 50 x 38.8 = 1746 kips (closed form).
 func TestAISCWorkedExample(t *testing.T) {
 	r, err := Compute(Design{Standard: AISC360}, Member{A: 38.8 * in * in, E: 29000 * ksi, Fy: 50 * ksi, RadiusOfGyration: 3.76 * in, BucklingLength: 30 * 12 * in})
 	if err != nil {
