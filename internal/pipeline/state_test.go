@@ -61,3 +61,47 @@ func TestMemberStateAgainstTruth(t *testing.T) {
 		})
 	}
 }
+
+// TestMemberStateMissingLoad: with a load channel missing and estimated
+// (EstimateMissingLoads), a gauged member's reconciled total is still its
+// zero-state force plus its fitted change (the estimated pattern and the
+// input errors enter both the same way), and the ungauged totals stay
+// close to the truth.
+func TestMemberStateMissingLoad(t *testing.T) {
+	f := loadScnFixture(t, "footbridge")
+	p := f.processor(t, ProcessorOptions{EstimateMissingLoads: true})
+	epochs := 0
+	f.run(t, scnOptions(t, 9, 20*time.Minute, time.Minute), func(g *simulate.Generator, s simulate.Step, values map[string]float64) {
+		delete(values, "pad_3")
+		res := p.Process(s.Time, f.sm.Evaluate(values), nil)
+		if res.Outcome != OutcomeAccepted && res.Outcome != OutcomeRejected {
+			t.Fatalf("%s: %s: %s", s.Time, res.Outcome, res.Reason)
+		}
+		epochs++
+		estimated := false
+		for _, l := range res.Loads {
+			estimated = estimated || l.Pattern == "panel_3"
+		}
+		if !estimated {
+			t.Fatalf("%s: panel_3 not estimated (loads %+v)", s.Time, res.Loads)
+		}
+		byMember := map[string]MemberResult{}
+		for _, m := range res.Members {
+			byMember[m.Member] = m
+		}
+		for k, ms := range res.State {
+			mr, gauged := byMember[ms.Member]
+			if gauged && mr.Available {
+				if d := math.Abs(ms.PredictedTotalN - (ms.ZeroStateN + mr.FittedN)); d > 1e-9*math.Max(1e3, math.Abs(ms.PredictedTotalN)) {
+					t.Fatalf("%s %s: predicted total %v, zero state + fitted change %v", s.Time, ms.Member, ms.PredictedTotalN, ms.ZeroStateN+mr.FittedN)
+				}
+			}
+			if d := math.Abs(ms.PredictedTotalN - s.Truth.Forces[k]); d > 5e3 {
+				t.Errorf("%s %s: predicted total %.1f kN, true %.1f kN", s.Time, ms.Member, ms.PredictedTotalN/1e3, s.Truth.Forces[k]/1e3)
+			}
+		}
+	})
+	if epochs < 15 {
+		t.Fatalf("only %d epochs", epochs)
+	}
+}
