@@ -135,6 +135,12 @@ func (c *collector) event(e alerts.Event) report.Event {
 		} else {
 			out.Message = fmt.Sprintf("global test p-value %.3g, at or above %.3g", ev.Value, ev.Threshold)
 		}
+	case alerts.SignalUtilisation.String():
+		if raised {
+			out.Message = fmt.Sprintf("utilisation %.3g above %.3g%s (%s)", ev.Value, ev.Threshold, since, report.UtilisationCaution)
+		} else {
+			out.Message = fmt.Sprintf("utilisation %.3g, at or below %.3g", ev.Value, ev.Threshold)
+		}
 	case "seconds_since_last_reading":
 		if raised {
 			out.Message = fmt.Sprintf("no reading for %.0f s (limit %.0f s)", ev.Value, ev.Threshold)
