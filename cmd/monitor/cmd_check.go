@@ -58,6 +58,12 @@ func runCheck(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 		fmt.Fprintf(stderr, "monitor check: %v\n", err)
 		return 1
 	}
+	if sec, err := capacitySection(rep); err != nil {
+		fmt.Fprintf(stderr, "monitor check: %v\n", err)
+		return 1
+	} else if sec != nil {
+		rep.Extra = append(rep.Extra, sec) // check_capacity.go
+	}
 	if sm != nil && rep.Model != nil {
 		det, err := pipeline.Detectability(rep.Model, sm, reconcile.Options{})
 		if err != nil {

@@ -48,7 +48,7 @@ func runReplay(ctx context.Context, args []string, stdout, stderr io.Writer) int
 	fs.Usage = func() {
 		fmt.Fprintln(stderr, "usage: monitor replay --db FILE --from TIME --to TIME --sensors FILE [--config FILE] [--structure FILE] [--model FILE] [--out DIR]")
 		fmt.Fprintln(stderr, "Replays the stored readings of a period through the monitoring pipeline and writes a report")
-		fmt.Fprintln(stderr, "folder (index.html, epochs.csv, events.csv). Times are RFC 3339, e.g. 2026-06-01T14:00:00Z.")
+		fmt.Fprintln(stderr, "folder (index.html, epochs.csv, events.csv, members.csv). Times are RFC 3339, e.g. 2026-06-01T14:00:00Z.")
 		fs.PrintDefaults()
 	}
 	if err := fs.Parse(args); err != nil {
@@ -207,7 +207,11 @@ func printReplaySummary(w io.Writer, s *replay.Summary) {
 		fmt.Fprintf(w, "alarms:     %d raised (%s), %d cleared: %s\n", nRaised, strings.Join(raised, ", "), s.Events-nRaised, plural(s.Events, "event", "events"))
 	}
 	if s.OutDir != "" {
-		fmt.Fprintf(w, "report:     %s (%s, %s, %s)\n", s.OutDir, report.HTMLFile, report.EpochsFile, report.EventsFile)
+		files := []string{report.HTMLFile, report.EpochsFile, report.EventsFile}
+		if s.Report != nil && len(s.Report.MemberSummaries) > 0 {
+			files = append(files, report.MembersFile)
+		}
+		fmt.Fprintf(w, "report:     %s (%s)\n", s.OutDir, strings.Join(files, ", "))
 	}
 	rate := 0.0
 	if sec := s.Elapsed.Seconds(); sec > 0 {

@@ -32,6 +32,16 @@ type Observation struct {
 	RejectCount uint64
 	// Causes are the epoch's top-ranked causes (most likely first).
 	Causes []Cause
+	// Utilisation are the members' utilisations of a fitted epoch
+	// (structures with a design basis only).
+	Utilisation []Utilisation
+}
+
+// Utilisation is one member's utilisation (|total force| / design
+// resistance) in an epoch.
+type Utilisation struct {
+	Member string
+	Value  float64
 }
 
 // Fit is the global test of an epoch.
@@ -131,6 +141,7 @@ type structState struct {
 	last        time.Time
 	seen        bool
 	members     map[string]Member
+	util        map[string]float64
 	fit         *Fit
 	channels    map[string]time.Time
 	skew, rej   []sample
@@ -174,7 +185,7 @@ func (e *Evaluator) Observe(ctx context.Context, o Observation) ([]Event, error)
 	e.mu.Lock()
 	s := e.st[o.Structure]
 	if s == nil {
-		s = &structState{members: map[string]Member{}, channels: map[string]time.Time{},
+		s = &structState{members: map[string]Member{}, util: map[string]float64{}, channels: map[string]time.Time{},
 			alarms: map[[2]string]*alarmState{}, firingCount: map[string]int{}, keep: e.keep}
 		e.st[o.Structure] = s
 	}
@@ -241,6 +252,9 @@ func (e *Evaluator) FiringCount(structure, rule string) int {
 func (s *structState) update(o Observation) {
 	for _, m := range o.Members {
 		s.members[m.Member] = m
+	}
+	for _, u := range o.Utilisation {
+		s.util[u.Member] = u.Value
 	}
 	if o.Fit != nil {
 		f := *o.Fit
@@ -311,6 +325,10 @@ func (s *structState) instances(r Rule, t time.Time) []instance {
 				w = -w
 			}
 			out = append(out, instance{name, w, m.Checkable})
+		}
+	case SignalUtilisation:
+		for name, u := range s.util {
+			out = append(out, instance{name, u, true})
 		}
 	case SignalSilence:
 		for name, last := range s.channels {
@@ -429,6 +447,8 @@ func (s Signal) String() string {
 		return "skewed_readings_in_window"
 	case SignalRejectIncrease:
 		return "rejections_in_window"
+	case SignalUtilisation:
+		return "utilisation"
 	}
 	return fmt.Sprintf("signal(%d)", int(s))
 }

@@ -1,6 +1,8 @@
 package alerts
 
 import (
+	"trussmonitor/internal/capacity"
+
 	"fmt"
 	"time"
 )
@@ -26,6 +28,11 @@ func Message(e Event) string {
 			return fmt.Sprintf("global test p-value %.3g below %.3g%s (chi-square %.4g with %d degrees of freedom)", ev.Value, ev.Threshold, since, ev.ChiSquare, ev.DOF)
 		}
 		return fmt.Sprintf("global test p-value %.3g, at or above %.3g", ev.Value, ev.Threshold)
+	case SignalUtilisation.String():
+		if raised {
+			return fmt.Sprintf("utilisation %.3g above %.3g%s (%s)", ev.Value, ev.Threshold, since, capacity.Caution)
+		}
+		return fmt.Sprintf("utilisation %.3g, at or below %.3g", ev.Value, ev.Threshold)
 	case "seconds_since_last_reading":
 		if raised {
 			return fmt.Sprintf("no reading for %.0f s (limit %.0f s)", ev.Value, ev.Threshold)

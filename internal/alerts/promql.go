@@ -94,6 +94,9 @@ func Expr(r Rule, s string) string {
 	case SignalAbsW:
 		sig = fmt.Sprintf("abs(%s%s) and on(structure, member) %s%s == 1", metrics.MemberW, sel, metrics.MemberCheckable, sel)
 		on = "structure, member"
+	case SignalUtilisation:
+		sig = metrics.MemberUtilisation + sel
+		on = "structure, member"
 	case SignalPValue:
 		sig = metrics.FitPValue + sel
 		on = "structure"

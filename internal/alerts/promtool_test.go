@@ -40,6 +40,7 @@ type scenario struct {
 	lastRead  map[string][]float64 // channel -> last reading, seconds
 	skew      []float64            // cumulative
 	rejects   map[string][]float64 // reason -> cumulative; NaN = series absent
+	util      map[string][]float64 // member -> utilisation; NaN = no value yet
 }
 
 func buildScenario() scenario {
@@ -114,6 +115,25 @@ func buildScenario() scenario {
 		}
 	}
 	s.rejects["unknown_channel"], s.rejects["not_finite"] = uc, nf
+	// Utilisation of T4: no series before minute 2; above 0.90 from 20 to
+	// 24 (fires at 22), 0.87 at 25 and 26 (held above the clearing 0.85),
+	// 0.80 at 27 (clears); 0.95 at 33 and 34 only (pending, reset at 35).
+	t4 := make([]float64, n)
+	for k := range t4 {
+		switch {
+		case k < 2:
+			t4[k] = nan
+		case k >= 20 && k <= 24:
+			t4[k] = 0.93
+		case k == 25 || k == 26:
+			t4[k] = 0.87
+		case k == 33 || k == 34:
+			t4[k] = 0.95
+		default:
+			t4[k] = 0.42
+		}
+	}
+	s.util = map[string][]float64{"T4": t4}
 	return s
 }
 
@@ -130,6 +150,8 @@ var expectedFiring = map[string][][2]int{
 	"ChannelSilent/B4_a": {{23, 29}},
 	"ClockSkew/":         {{12, 16}},
 	"IngestRejects/":     {{23, 30}},
+	// MemberUtilisationHigh: raise > 0.90 for 2 minutes, clear <= 0.85.
+	"MemberUtilisationHigh/T4": {{22, 26}},
 }
 
 func (s scenario) observation(k int) Observation {
@@ -144,6 +166,11 @@ func (s scenario) observation(k int) Observation {
 	for _, r := range sortedKeys(s.rejects) {
 		if v := s.rejects[r][k]; !isNaN(v) {
 			o.RejectCount += uint64(v)
+		}
+	}
+	for _, m := range sortedKeys(s.util) {
+		if v := s.util[m][k]; !isNaN(v) {
+			o.Utilisation = append(o.Utilisation, Utilisation{Member: m, Value: v})
 		}
 	}
 	return o
@@ -308,6 +335,9 @@ func promtoolTestFile(t *testing.T, rules []Rule, sc scenario, firing [][]Alarm)
 	tc.Input = append(tc.Input, series{fmt.Sprintf(`shm_clock_skew_readings_total{%s}`, st), seriesValues(sc.skew)})
 	for _, r := range sortedKeys(sc.rejects) {
 		tc.Input = append(tc.Input, series{fmt.Sprintf(`shm_ingest_rejections_total{%s, reason=%q}`, st, r), seriesValues(sc.rejects[r])})
+	}
+	for _, m := range sortedKeys(sc.util) {
+		tc.Input = append(tc.Input, series{fmt.Sprintf(`shm_member_utilisation_ratio{%s, member=%q}`, st, m), seriesValues(sc.util[m])})
 	}
 	n := 0
 	for k := 0; k < sc.minutes; k++ {

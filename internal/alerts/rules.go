@@ -41,6 +41,9 @@ const (
 	// SignalRejectIncrease is the number of ingest rejections (dead
 	// letters) counted in the last Window.
 	SignalRejectIncrease
+	// SignalUtilisation is a member's utilisation, |total force| / design
+	// resistance (members of a structure with a design basis only).
+	SignalUtilisation
 )
 
 // Scope is what one instance of a rule is about.
@@ -56,7 +59,7 @@ const (
 // Scope returns the scope of the signal.
 func (s Signal) Scope() Scope {
 	switch s {
-	case SignalAbsW:
+	case SignalAbsW, SignalUtilisation:
 		return ScopeMember
 	case SignalSilence:
 		return ScopeChannel
@@ -120,7 +123,7 @@ func (r Rule) Validate() error {
 			return fmt.Errorf("alerts: rule %q: name may hold only letters, digits and '_'", r.Name)
 		}
 	}
-	if r.Signal < SignalAbsW || r.Signal > SignalRejectIncrease {
+	if r.Signal < SignalAbsW || r.Signal > SignalUtilisation {
 		return fmt.Errorf("alerts: rule %s: unknown signal %d", r.Name, r.Signal)
 	}
 	if r.For < 0 || r.For%time.Second != 0 {
@@ -153,7 +156,19 @@ const (
 	// (2 a minute) raises; it clears when at most 2 arrived in 5 minutes.
 	RejectsRaise = 10
 	RejectsClear = 2
+	// UtilisationRaise and UtilisationClear: a member whose total force
+	// reaches 90 % of its design resistance for UtilisationFor raises a
+	// warning; it clears below 85 %. The margin leaves room for the model's
+	// and the gauges' uncertainty before the resistance itself is reached
+	// (common practice for a warning level; the owner's engineer may set
+	// another).
+	UtilisationRaise = 0.90
+	UtilisationClear = 0.85
+	UtilisationFor   = 2 * time.Minute
 )
+
+// RuleUtilisationHigh is the name of the utilisation rule.
+const RuleUtilisationHigh = "MemberUtilisationHigh"
 
 // DefaultRules returns the monitor's rules with the thresholds of the
 // reconcile defaults:
@@ -166,6 +181,8 @@ const (
 //   - ChannelSilent: no reading for more than 2 minutes.
 //   - ClockSkew: any skewed reading in the last 5 minutes.
 //   - IngestRejects: more than 10 rejections in 5 minutes; clears at <= 2.
+//   - MemberUtilisationHigh: utilisation > 0.90 for 2 minutes; clears at
+//     <= 0.85 (structures with a design basis only).
 func DefaultRules() ([]Rule, error) {
 	kRaise, err := reconcile.CriticalW(reconcile.DefaultAlpha0)
 	if err != nil {
@@ -206,6 +223,12 @@ func DefaultRules() ([]Rule, error) {
 			Raise: RejectsRaise, Clear: RejectsClear, Window: CountWindow,
 			Summary:     "Ingest of {{ $labels.structure }} rejects payloads",
 			Description: "More payloads than the limit were rejected (dead letters) in the counting window; see the dead-letter table for the reasons.",
+		},
+		{
+			Name: RuleUtilisationHigh, Signal: SignalUtilisation, Severity: "warning",
+			Raise: UtilisationRaise, Clear: UtilisationClear, For: UtilisationFor,
+			Summary:     "Member {{ $labels.member }} of {{ $labels.structure }} is near its design resistance",
+			Description: "The member's total axial force (zero-state force plus the measured change, or the reconciled prediction) exceeds the stated share of its design resistance (EN 1993-1-1 or AISC 360-16, tension or flexural buckling). Utilisation is a monitoring estimate, not a design check or an assessment; assessment rests with a licensed engineer under local codes.",
 		},
 	}
 	for _, r := range rules {

@@ -124,7 +124,7 @@ func TestStateJSON(t *testing.T) {
 	if err := json.Unmarshal([]byte(body), &raw); err != nil {
 		t.Fatal(err)
 	}
-	for _, key := range []string{"structure", "title", "model_version", "epoch", "critical_value", "geometry", "gauged", "fit", "loads", "caution"} {
+	for _, key := range []string{"structure", "title", "model_version", "epoch", "critical_value", "geometry", "gauged", "fit", "loads", "members", "design", "caution"} {
 		if _, ok := raw[key]; !ok {
 			t.Errorf("state has no field %q", key)
 		}

@@ -68,6 +68,11 @@ type State struct {
 	Fit Fit
 	// Loads are the estimated unknown load magnitudes of the latest epoch.
 	Loads []LoadEstimate
+	// Members is the total state of every member in the latest epoch (see
+	// MemberTotal); Design the design basis of the utilisation (nil when
+	// the structure declares none).
+	Members []MemberTotal
+	Design  *Design
 	// Caution is the safety text; the handler substitutes Caution when empty.
 	Caution string
 }
@@ -180,8 +185,13 @@ type LoadEstimate struct {
 	Value float64
 	// StdDev is its standard deviation in Unit.
 	StdDev float64
-	// Unit of Value and StdDev, e.g. "N" or "1" for a pattern factor.
+	// Unit of Value and StdDev: the pattern's engineering unit (for
+	// example "kPa", from its reference load), or "pattern factor" when
+	// the pattern declares no reference load.
 	Unit string
+	// Factor and FactorStdDev are the estimated pattern factor and its
+	// standard deviation (the multiple of the pattern as defined).
+	Factor, FactorStdDev float64
 }
 
 // Series is the history of one gauged member.

@@ -37,6 +37,8 @@ type stateJSON struct {
 	Gauged        []memberStateJSON  `json:"gauged"`
 	Fit           fitJSON            `json:"fit"`
 	Loads         []loadEstimateJSON `json:"loads"`
+	Members       []memberTotalJSON  `json:"members"`
+	Design        *designJSON        `json:"design"`
 	Caution       string             `json:"caution"`
 	ClockNote     string             `json:"clock_note"`
 }
@@ -112,10 +114,12 @@ type fitJSON struct {
 }
 
 type loadEstimateJSON struct {
-	Pattern string `json:"pattern"`
-	Value   num    `json:"value"`
-	StdDev  num    `json:"std_dev"`
-	Unit    string `json:"unit"`
+	Pattern      string `json:"pattern"`
+	Value        num    `json:"value"`
+	StdDev       num    `json:"std_dev"`
+	Unit         string `json:"unit"`
+	Factor       num    `json:"factor"`
+	FactorStdDev num    `json:"factor_std_dev"`
 }
 
 type seriesJSON struct {
@@ -194,6 +198,8 @@ func toStateJSON(s State) stateJSON {
 			Alpha: n(s.Fit.Alpha), Rejected: s.Fit.Rejected,
 		},
 		Loads:   make([]loadEstimateJSON, 0, len(s.Loads)),
+		Members: toMemberTotalsJSON(s.Members),
+		Design:  toDesignJSON(s.Design),
 		Caution: s.Caution,
 	}
 	if out.Caution == "" {
@@ -224,7 +230,8 @@ func toStateJSON(s State) stateJSON {
 		})
 	}
 	for _, l := range s.Loads {
-		out.Loads = append(out.Loads, loadEstimateJSON{Pattern: l.Pattern, Value: n(l.Value), StdDev: n(l.StdDev), Unit: l.Unit})
+		out.Loads = append(out.Loads, loadEstimateJSON{Pattern: l.Pattern, Value: n(l.Value), StdDev: n(l.StdDev), Unit: l.Unit,
+			Factor: n(l.Factor), FactorStdDev: n(l.FactorStdDev)})
 	}
 	return out
 }

@@ -51,6 +51,8 @@ type entry struct {
 	gauged            []string
 	gaugedIndex       map[string]int
 	unknown           []string
+	patterns          map[string]model.Pattern // for the unknown loads' engineering unit
+	design            *dashboard.Design
 	critical          float64
 	alpha             float64
 	latest            *pipeline.Result
@@ -77,6 +79,7 @@ func (l *Live) Register(s *model.Structure, proc *pipeline.Processor, alphaGloba
 	for i, g := range e.gauged {
 		e.gaugedIndex[g] = i
 	}
+	e.patterns, e.design = presentation(s)
 	e.geometry.Dimension = s.Dim
 	for _, n := range s.Nodes {
 		e.geometry.Nodes = append(e.geometry.Nodes, dashboard.Node{ID: n.ID, X: n.X[0], Y: n.X[1], Z: n.X[2]})
@@ -237,8 +240,9 @@ func (l *Live) State(name string) (dashboard.State, error) {
 	}
 	st.Fit.ChiSquare, st.Fit.DOF, st.Fit.PValue, st.Fit.Rejected = r.ChiSquare, r.DOF, r.PValue, r.Rejected
 	for _, ld := range r.Loads {
-		st.Loads = append(st.Loads, dashboard.LoadEstimate{Pattern: ld.Pattern, Value: ld.Value, StdDev: ld.Std, Unit: "pattern factor"})
+		st.Loads = append(st.Loads, loadEstimate(e.patterns, ld))
 	}
+	st.Members, st.Design = memberTotals(r.State), e.design
 	return st, nil
 }
 

@@ -61,6 +61,8 @@ type Metrics struct {
 	latency                                                  *prometheus.HistogramVec
 	alarms                                                   *prometheus.GaugeVec
 	dropped                                                  prometheus.Counter
+	state                                                    *stateVecs
+	loads                                                    *loadVecs
 
 	cMessages, cReadings, cRejections, cEpochs, cSkew *children[prometheus.Counter]
 	cLatency                                          *children[prometheus.Observer]
@@ -90,8 +92,8 @@ func New(reg prometheus.Registerer) (*Metrics, error) {
 		return prometheus.NewCounterVec(prometheus.CounterOpts{Name: name, Help: help}, labels)
 	}
 	m := &Metrics{
-		measured:   g(MemberMeasured, "Measured axial force of the gauged member in the last epoch (tension positive), newtons.", sm),
-		predicted:  g(MemberPredicted, "Axial force the model predicts for the gauged member under the recorded loads, newtons.", sm),
+		measured:   g(MemberMeasured, "Measured change of the gauged member's axial force since its gauges' zero reading, last epoch (tension positive), newtons; the total is shm_member_force_total_newtons.", sm),
+		predicted:  g(MemberPredicted, "Change of the gauged member's axial force since the zero reading predicted by the model under the recorded and estimated loads, newtons.", sm),
 		residual:   g(MemberResidual, "Residual r = measured - predicted member force, newtons.", sm),
 		w:          g(MemberW, "Baarda's w statistic of the member's adjusted residual (standard normal without a fault).", sm),
 		mdb:        g(MemberMDB, "Minimal detectable bias of the member's gauge, newtons (0 when the member cannot be checked at all).", sm),
@@ -116,6 +118,8 @@ func New(reg prometheus.Registerer) (*Metrics, error) {
 		}, st),
 		alarms:  g(AlarmsFiring, "Number of alarms of the rule currently firing.", []string{"structure", "rule"}),
 		dropped: prometheus.NewCounter(prometheus.CounterOpts{Name: BrokerDroppedMessage, Help: "Messages the embedded broker dropped (in-flight or queue limits)."}),
+		state:   newStateVecs(),
+		loads:   newLoadVecs(),
 	}
 	two := func(v *prometheus.CounterVec) *children[prometheus.Counter] {
 		return newChildren(func(a, b string) prometheus.Counter { return v.WithLabelValues(a, b) })
@@ -127,9 +131,9 @@ func New(reg prometheus.Registerer) (*Metrics, error) {
 	m.cLast = newChildren(func(a, b string) *lastReading {
 		return &lastReading{t: math.Inf(-1), g: m.lastReading.WithLabelValues(a, b)}
 	})
-	for _, col := range []prometheus.Collector{m.measured, m.predicted, m.residual, m.w, m.mdb, m.redund, m.checkable,
+	for _, col := range append([]prometheus.Collector{m.measured, m.predicted, m.residual, m.w, m.mdb, m.redund, m.checkable,
 		m.chi2, m.dof, m.pvalue, m.load, m.loadStd, m.epochs, m.messages, m.readings, m.rejections, m.skew,
-		m.lastReading, m.latency, m.alarms, m.dropped} {
+		m.lastReading, m.latency, m.alarms, m.dropped}, append(m.state.collectors(), m.loads.collectors()...)...) {
 		if err := reg.Register(col); err != nil {
 			return nil, fmt.Errorf("metrics: registering collectors: %w (is a second Metrics registered on the same registry?)", err)
 		}

@@ -5,6 +5,7 @@ import (
 	"errors"
 	"flag"
 	"io"
+	"math"
 	"net/http"
 	"net/http/httptest"
 	"os"
@@ -47,6 +48,26 @@ func example(t testing.TB) (*prometheus.Registry, *Metrics) {
 		t.Fatal(err)
 	}
 	s.SetFit(21.4, 13, 0.065)
+	st := m.MemberState("alder-creek", []string{"B4", "D2", "V0"})
+	if err := st.Set(1, StateValues{TotalN: 91190, PredictedTotalN: 66790, ZeroStateN: 64200, StressPa: 32.34e6, Utilisation: 0.0911, PredictedUtilisation: 0.0667}); err != nil {
+		t.Fatal(err)
+	}
+	nan := math.NaN() // V0 with no design basis value: its utilisation series stay unset
+	if err := st.Set(2, StateValues{TotalN: -5625, PredictedTotalN: -5625, ZeroStateN: nan, StressPa: -1.99e6, Utilisation: nan, PredictedUtilisation: nan}); err != nil {
+		t.Fatal(err)
+	}
+	ul, err := m.UnknownLoads("alder-creek", []string{"crowd", "drift"}, []LoadReference{{Quantity: LoadPressure, PerFactor: 1000}, {}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	ul.Set(0, 3.25) // 3.25 x 1 kPa
+	ul.Set(1, 2)    // no reference load: no series
+	if _, err := m.UnknownLoads("alder-creek", []string{"crowd"}, nil); err == nil {
+		t.Fatal("a pattern without its reference accepted")
+	}
+	if err := st.Set(3, StateValues{}); err == nil {
+		t.Fatal("member index 3 of 3 accepted")
+	}
 	if err := s.SetUnknownLoad(0, 3.25, 0.41); err != nil {
 		t.Fatal(err)
 	}

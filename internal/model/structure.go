@@ -8,7 +8,10 @@
 // produces a *Structure; everything in this package works in SI (N, m, Pa, K).
 package model
 
-import "trussmonitor/internal/units"
+import (
+	"trussmonitor/internal/capacity"
+	"trussmonitor/internal/units"
+)
 
 // Structure is a pin-jointed truss ready for analysis. All quantities are SI.
 // Indices (Member.I, Support.Node, ...) refer to positions in Nodes and
@@ -44,6 +47,11 @@ type Structure struct {
 	Patterns []Pattern
 	// Cases are named combinations of patterns with factors.
 	Cases []Case
+	// Design is the design basis for member resistance (nil when the file
+	// declares none: no resistance or utilisation is computed).
+	Design *capacity.Design
+	// DesignLine is the line of the design declaration.
+	DesignLine int
 }
 
 // Node is a joint. X holds the coordinates in metres; X[2] is 0 in 2D.
@@ -68,7 +76,22 @@ type Member struct {
 	Alpha float64
 	// Density is the mass density in kg/m^3 (for self-weight).
 	Density float64
-	Line    int
+	// Fy is the yield strength of the material in Pa (0 when not given).
+	Fy float64
+	// RadiusOfGyration is the section's radius of gyration about its
+	// weaker axis in m (given, or sqrt(I/A) from the second moment; 0 when
+	// neither is given).
+	RadiusOfGyration float64
+	// BucklingLength is the buckling length in m; 0 means BucklingFactor
+	// times the member length.
+	BucklingLength float64
+	// BucklingFactor multiplies the member length when BucklingLength is
+	// 0; 0 means 1.0.
+	BucklingFactor float64
+	// Curve is the EN 1993-1-1 buckling curve (member, else section;
+	// 0 when not given).
+	Curve capacity.Curve
+	Line  int
 }
 
 // Support restrains translations of one node.
@@ -125,7 +148,22 @@ type Pattern struct {
 	// Unknown marks a load shape whose magnitude is not measured and is
 	// estimated by reconciliation (for example crowd or snow drift).
 	Unknown bool
-	Line    int
+	// ReferenceValue and ReferenceUnit are the load the pattern represents
+	// at factor 1 as written in the file (for example 1 and "kPa"), used
+	// to show an estimated factor in the pattern's engineering unit; empty
+	// ReferenceUnit when not given.
+	ReferenceValue float64
+	ReferenceUnit  string
+	Line           int
+}
+
+// InReferenceUnit returns factor times the pattern's reference load in its
+// engineering unit, or ok false when the pattern declares none.
+func (p Pattern) InReferenceUnit(factor float64) (value float64, unit string, ok bool) {
+	if p.ReferenceUnit == "" {
+		return 0, "", false
+	}
+	return factor * p.ReferenceValue, p.ReferenceUnit, true
 }
 
 // Factor is one pattern with its factor in a load case.

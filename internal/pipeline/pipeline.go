@@ -309,6 +309,7 @@ func (p *Pipeline) observation(t time.Time, res *Result) alerts.Observation {
 		}
 		o.Members = append(o.Members, alerts.Member{Member: m.Member, W: m.W, Checkable: m.Checkable, EstimatedBias: bias})
 	}
+	o.Utilisation = utilisationObservations(res.State)
 	return o
 }
 

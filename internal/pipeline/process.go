@@ -78,8 +78,11 @@ type Result struct {
 	Time      time.Time
 	Outcome   string
 	// Reason explains a skipped or failed epoch.
-	Reason    string
-	Members   []MemberResult
+	Reason  string
+	Members []MemberResult
+	// State is the total state of every member of the structure, in
+	// structure order (fitted epochs only; see MemberState).
+	State     []MemberState
 	ChiSquare float64
 	DOF       int
 	PValue    float64
@@ -126,6 +129,7 @@ type ProcessorOptions struct {
 type Processor struct {
 	structure string
 	lm        *linearModel
+	state     *stateModel
 	sm        *sensors.Map
 	opt       ProcessorOptions
 	sigma     []float64
@@ -160,6 +164,9 @@ func NewProcessor(m *model.Model, sm *sensors.Map, opt ProcessorOptions) (*Proce
 		solvers:   map[string]*reconcile.Solver{},
 		subjects:  map[string]string{},
 		kinds:     map[string]string{},
+	}
+	if p.state, err = newStateModel(lm, sm); err != nil {
+		return nil, err
 	}
 	if p.sigma, err = fullSetSigma(sm, lm.names); err != nil {
 		return nil, err
@@ -415,6 +422,7 @@ func (p *Processor) fill(res *Result, r *reconcile.Result, s *reconcile.Solver, 
 		}
 	}
 	state := lm.stateForces(loads, snap.Temperatures, theta)
+	res.State = p.memberStates(res, state, r, missing, snap)
 	stiff := lm.sig.Stiffness(state)
 	cands := append([]reconcile.Candidate(nil), p.fixed...)
 	members := lm.m.Structure().Members

@@ -18,6 +18,7 @@ type collector struct {
 	epochs   []epochRow
 	events   []alerts.Event
 	subjects map[string]string // cause label -> subject, from the pipeline's causes
+	totals   memberTotals      // every member's total state (members.go)
 }
 
 // epochRow is one fitted epoch before the report's columns are fixed.
@@ -45,6 +46,7 @@ func (c *collector) Epoch(r *pipeline.Result) {
 	if r.Outcome != pipeline.OutcomeAccepted && r.Outcome != pipeline.OutcomeRejected {
 		return
 	}
+	c.totals.add(r)
 	row := epochRow{
 		time:    r.Time,
 		members: make([]report.MemberResult, len(r.Members)),

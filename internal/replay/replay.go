@@ -1,7 +1,7 @@
 // Package replay runs a stored period of raw readings through the same
 // pipeline as live running (calibration, epochs, reconciliation, alarm
 // rules on the epoch clock) at full speed, and writes the report folder
-// (internal/report): index.html, epochs.csv and events.csv.
+// (internal/report): index.html, epochs.csv, events.csv and members.csv.
 //
 // The same readings with the same model give byte-identical CSV files: the
 // pipeline has no clock in replay (epochs close on the readings' own times),
@@ -225,6 +225,11 @@ func Run(ctx context.Context, opt Options) (*Summary, error) {
 	rep.CriticalValue = proc.Critical()
 	rep.Alpha = alphaGlobal(opt.Rules)
 	rep.Caution = report.Caution
+	rep.MemberSummaries = col.totals.summaries(proc.Resistances())
+	if mdl.st.Design != nil {
+		rep.Design = mdl.st.Design.Standard.String()
+	}
+	referenceLoads(rep, mdl.st)
 	sum.Report = rep
 	sum.Events = len(rep.Events)
 	for _, e := range rep.Events {

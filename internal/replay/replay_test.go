@@ -268,7 +268,7 @@ func reducedD2(t *testing.T) string {
 	}
 	s := string(data)
 	for _, r := range [][2]string{
-		{"sections:\n", "sections:\n  - id: web_reduced\n    description: SHS 120x120x6.3 at 70 % of its area (what-if)\n    area: 1974 mm2\n    material: steel\n"},
+		{"sections:\n", "sections:\n  - id: web_reduced\n    description: SHS 120x120x6.3 at 70 % of its area (what-if)\n    area: 1974 mm2\n    radius_of_gyration: 45.5 mm\n    buckling_curve: a\n    material: steel\n"},
 		{"{id: D2, from: U1, to: L2, section: web,", "{id: D2, from: U1, to: L2, section: web_reduced,"},
 	} {
 		if strings.Count(s, r[0]) != 1 {

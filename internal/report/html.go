@@ -89,6 +89,7 @@ func writeHTML(buf *bytes.Buffer, r *Report) error {
 	writeEventTable(&sb, r)
 	writeFitPlot(&sb, r, tr)
 	writeLoadPlots(&sb, r, tr)
+	writeMemberTotals(&sb, r)
 	writeMemberPlots(&sb, r, tr)
 
 	sb.WriteString("<footer id=\"footer\">\n<h2>Data and model</h2>\n")
@@ -340,6 +341,11 @@ func writeLoadPlots(sb *strings.Builder, r *Report, tr timeRange) {
 			unit = "1"
 		}
 		fmt.Fprintf(sb, "<h3>%s</h3>\n", esc(pat.Name))
+		if pat.Reference > 0 {
+			fmt.Fprintf(sb, "<p>In %s: the pattern factor times the pattern's reference load of %s %s.</p>\n", esc(unit), esc(strconv.FormatFloat(pat.Reference, 'g', -1, 64)), esc(unit))
+		} else if unit == "1" {
+			sb.WriteString("<p>As a pattern factor (a multiple of the pattern as defined in the structure file, which gives no reference load).</p>\n")
+		}
 		p := openPlot(sb, "load-"+idPart(pat.Name), "estimated load "+pat.Name, f, valueTicks(lo, hi),
 			func(v float64) string { return strconv.FormatFloat(v, 'g', 4, 64) }, pat.Name+" ("+unit+")")
 		p.polygons("band-sd", bandPolygons(f, low, high, tr.maxGap))
@@ -355,7 +361,7 @@ func writeLoadPlots(sb *strings.Builder, r *Report, tr timeRange) {
 
 func writeMemberPlots(sb *strings.Builder, r *Report, tr timeRange) {
 	sb.WriteString("<section id=\"members\">\n<h2>Gauged members</h2>\n")
-	fmt.Fprintf(sb, "<p>Measured and predicted axial force (tension positive) with the acceptance band, predicted ± %s σ of the residual; below it Baarda's w with the critical value ± %s. Epochs where the member cannot be checked are left out of the w plot.</p>\n",
+	fmt.Fprintf(sb, "<p>Measured and predicted change of the axial force since the gauges were zeroed (tension positive; the total force is in the table above) with the acceptance band, predicted ± %s σ of the residual; below it Baarda's w with the critical value ± %s. Epochs where the member cannot be checked are left out of the w plot.</p>\n",
 		num(r.CriticalValue, 2), num(r.CriticalValue, 2))
 	k := r.CriticalValue
 	for i, m := range r.Members {
@@ -383,7 +389,7 @@ func writeMemberPlots(sb *strings.Builder, r *Report, tr timeRange) {
 			dec = 2
 		}
 		p := openPlot(sb, "force-"+idPart(m), "force in member "+m, f, valueTicks(lo, hi),
-			func(v float64) string { return strconv.FormatFloat(v/1000, 'f', dec, 64) }, "force (kN)")
+			func(v float64) string { return strconv.FormatFloat(v/1000, 'f', dec, 64) }, "change since zeroing (kN)")
 		p.polygons("band", bandPolygons(f, bandLo, bandHi, tr.maxGap))
 		p.path("predicted", linePath(f, pred, tr.maxGap))
 		p.path("measured", linePath(f, meas, tr.maxGap))

@@ -50,13 +50,23 @@ type Report struct {
 	Events []Event
 	// Caution is the safety text; Caution is used when empty.
 	Caution string
+	// MemberSummaries are every member's total force and utilisation over
+	// the period (written to members.csv and the HTML; none: no file).
+	MemberSummaries []MemberSummary
+	// Design is the design standard of the utilisation ("" for none).
+	Design string
 }
 
 // Pattern names one unknown load pattern and the unit of its magnitude.
 type Pattern struct {
 	Name string
-	// Unit of the estimate, e.g. "N" or "1" for a pattern factor.
+	// Unit of the estimate: the pattern's engineering unit (for example
+	// "kPa") or "1" for a pattern factor.
 	Unit string
+	// Reference is the load at pattern factor 1 in Unit (the pattern's
+	// reference load; 0 when the estimate is a bare factor), shown beside
+	// the plot so that the factor can be read back.
+	Reference float64
 }
 
 // Epoch is one reconciled epoch.
@@ -162,6 +172,12 @@ func Write(dir string, r *Report) error {
 		{EpochsFile, writeEpochsCSV},
 		{EventsFile, writeEventsCSV},
 		{HTMLFile, writeHTML},
+	}
+	if len(r.MemberSummaries) > 0 {
+		files = append(files, struct {
+			name  string
+			write func(*bytes.Buffer, *Report) error
+		}{MembersFile, writeMembersCSV})
 	}
 	for _, f := range files {
 		var buf bytes.Buffer

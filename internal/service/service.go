@@ -179,7 +179,12 @@ func (s *Service) addStructure(mon *Monitored) error {
 	}
 	proc := p.Processor()
 	p.AddSink(s.live.Register(mon.Structure, proc, s.set.AlphaGlobal))
-	p.AddSink(&metricsSink{m: s.met, sm: s.met.Structure(name, proc.Gauged(), proc.Unknown()), name: name, rules: s.rules, last: map[string]int{}})
+	loads, err := s.met.UnknownLoads(name, proc.Unknown(), loadReferences(mon.Structure, proc.Unknown()))
+	if err != nil {
+		return fmt.Errorf("structure %q: %w", name, err)
+	}
+	p.AddSink(&metricsSink{m: s.met, sm: s.met.Structure(name, proc.Gauged(), proc.Unknown()), name: name, rules: s.rules, last: map[string]int{},
+		state: s.met.MemberState(name, proc.Members()), loads: loads})
 	p.AddSink(s.results)
 	s.pipes[name] = p
 	s.order = append(s.order, name)

@@ -122,7 +122,9 @@ func TestServiceEndToEnd(t *testing.T) {
 		t.Errorf("%d gauged members in the state, want 18", len(st.Gauged))
 	}
 	m := get("/metrics")
-	for _, w := range []string{`shm_epochs_total{outcome="accepted",structure="alder-creek"}`, `shm_member_w_statistic{member="B4",structure="alder-creek"}`, `shm_ingest_readings_total`} {
+	for _, w := range []string{`shm_epochs_total{outcome="accepted",structure="alder-creek"}`, `shm_member_w_statistic{member="B4",structure="alder-creek"}`, `shm_ingest_readings_total`,
+		`shm_member_force_total_newtons{member="B1",structure="alder-creek"}`, `shm_member_utilisation_ratio{member="D2",structure="alder-creek"}`,
+		`shm_member_force_zero_state_newtons{member="D2",structure="alder-creek"}`, `shm_unknown_load_pascals{pattern="crowd",structure="alder-creek"}`} {
 		if !strings.Contains(m, w) {
 			t.Errorf("/metrics lacks %s", w)
 		}

@@ -20,6 +20,8 @@ type metricsSink struct {
 	rules []alerts.Rule
 	last  map[string]int
 	skewN uint64
+	state *metrics.MemberStateMetrics // every member's total state
+	loads *metrics.UnknownLoadMetrics // unknown loads in their engineering quantity
 }
 
 // Epoch updates the member, fit, load, epoch and alarm metrics.
@@ -38,9 +40,11 @@ func (ms *metricsSink) Epoch(r *pipeline.Result) {
 				W: mr.W, MDB: mr.MDBN, Redundancy: mr.Redundancy, Checkable: mr.Checkable})
 		}
 		ms.sm.SetFit(r.ChiSquare, r.DOF, r.PValue)
+		setMemberState(ms.state, r.State)
 		for j, ld := range r.Loads {
 			if j < len(r.Loads) && ld.Estimable {
 				_ = ms.sm.SetUnknownLoad(j, ld.Value, ld.Std)
+				ms.loads.Set(j, ld.Value)
 			}
 		}
 	}

@@ -208,6 +208,7 @@ var unitKeys = map[units.Dimension]string{
 	units.ThermalCoefficient: "thermal_coefficient",
 	units.Density:            "density",
 	units.Stiffness:          "stiffness",
+	units.SecondMoment:       "second_moment",
 }
 
 // quantity reads a number with a unit (or a bare number taking the declared
@@ -264,6 +265,8 @@ func example(dim units.Dimension) string {
 		return "7850 kg/m3"
 	case units.Stiffness:
 		return "20 MN/m"
+	case units.SecondMoment:
+		return "2060 cm4"
 	}
 	return "1 " + dim.SI()
 }

@@ -13,6 +13,8 @@ import (
 // files).
 func FuzzParse(f *testing.F) {
 	f.Add([]byte(baseDoc))
+	f.Add([]byte(designDoc(enDesign, ", yield_strength: 355 N/mm2", ", second_moment: 250 cm4, buckling_curve: b", ", buckling_factor: 0.7, buckling_curve: c")))
+	f.Add([]byte(designDoc("design: {standard: AISC 360-16}\n", ", yield_strength: 50 ksi", ", radius_of_gyration: 2 in", ", buckling_length: 2.5 m")))
 	f.Fuzz(func(t *testing.T, data []byte) {
 		s, err := Parse("fuzz.yaml", data)
 		if err != nil {
@@ -34,6 +36,17 @@ func FuzzParse(f *testing.F) {
 			t.Fatalf("hash %q dim %d", s.Hash, s.Dim)
 		}
 		checkIndices(t, s)
+		// A structure accepted with a design basis has a finite, positive
+		// resistance for every member.
+		rs, err := s.Resistances()
+		if err != nil {
+			t.Fatalf("accepted structure's resistances: %v", err)
+		}
+		for k, r := range rs {
+			if !(r.TensionN > 0) || !(r.CompressionN > 0) || math.IsInf(r.TensionN, 0) || math.IsInf(r.CompressionN, 0) {
+				t.Fatalf("member %d resistance %+v", k, r)
+			}
+		}
 		for _, n := range s.Nodes {
 			for _, x := range n.X {
 				if math.IsNaN(x) || math.IsInf(x, 0) {

@@ -86,6 +86,12 @@ func generateRoof() []byte {
 #   top chords    CHS 114.3 x 6.3   2137 mm2
 #   bottom chords CHS 114.3 x 5.0   1717 mm2
 #   webs          CHS  76.1 x 4.0    906 mm2
+# Radii of gyration from r = sqrt(D^2 + (D - 2t)^2) / 4 (closed form for a
+# circular hollow section): 38.25, 38.68 and 25.53 mm.
+#
+# Design basis (for the utilisation shown while monitoring, invented):
+# AISC 360-16 with Fy = 355 N/mm2; buckling length 1.0 x the member length
+# (pinned joints of the grid).
 #
 # This is a monitoring model; it is not a design check. Decisions on the
 # structure rest with a licensed engineer under local codes.`)
@@ -100,6 +106,9 @@ func generateRoof() []byte {
 	w("  temperature: K")
 	w("  thermal_coefficient: 1/K")
 	w("  density: kg/m3")
+	w("")
+	w("design:")
+	w("  standard: AISC 360-16")
 	w("")
 	w("nodes:")
 	for j := 0; j <= roofNY; j++ {
@@ -121,11 +130,12 @@ materials:
     modulus: 210000 N/mm2
     thermal_coefficient: 12e-6 1/K
     density: 7850 kg/m3
+    yield_strength: 355 N/mm2
 
 sections:
-  - {id: top, description: CHS 114.3 x 6.3, area: 2137 mm2, material: steel}
-  - {id: bottom, description: CHS 114.3 x 5.0, area: 1717 mm2, material: steel}
-  - {id: web, description: CHS 76.1 x 4.0, area: 906 mm2, material: steel}
+  - {id: top, description: CHS 114.3 x 6.3, area: 2137 mm2, radius_of_gyration: 38.25 mm, material: steel}
+  - {id: bottom, description: CHS 114.3 x 5.0, area: 1717 mm2, radius_of_gyration: 38.68 mm, material: steel}
+  - {id: web, description: CHS 76.1 x 4.0, area: 906 mm2, radius_of_gyration: 25.53 mm, material: steel}
 
 groups:
   - {name: top_layer, description: top chords TX and TY}
@@ -206,6 +216,7 @@ patterns:
 	w(`  - name: snow_drift_east
     description: 1 kPa on the half with x >= 12 m (216 kN), shape of a drift whose size is estimated
     unknown: true
+    reference_load: 1 kPa
     forces:`)
 	areaLoads(1.0, spanX/2)
 	w(`  - name: maintenance

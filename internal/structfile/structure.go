@@ -8,6 +8,7 @@ import (
 
 	"go.yaml.in/yaml/v3"
 
+	"trussmonitor/internal/capacity"
 	"trussmonitor/internal/model"
 	"trussmonitor/internal/units"
 )
@@ -20,6 +21,7 @@ type material struct {
 	hasAlpha bool
 	density  float64
 	hasRho   bool
+	fy       float64 // yield strength, Pa (0: not given)
 	line     int
 }
 
@@ -29,6 +31,8 @@ type section struct {
 	area     float64
 	material string
 	mat      *material
+	radius   float64        // weaker-axis radius of gyration, m (0: not given)
+	curve    capacity.Curve // EN 1993-1-1 buckling curve (0: not given)
 	line     int
 }
 
@@ -56,7 +60,7 @@ func (r *reader) structure(root *yaml.Node) *model.Structure {
 		return nil
 	}
 	m, ok := r.fields(root, "", "name", "title", "dimension", "units", "gravity",
-		"nodes", "materials", "sections", "members", "groups", "supports", "patterns", "cases")
+		"nodes", "materials", "sections", "members", "groups", "supports", "patterns", "cases", "design")
 	if !ok {
 		return nil
 	}
@@ -103,6 +107,9 @@ func (r *reader) structure(root *yaml.Node) *model.Structure {
 			s.st.Gravity = g
 		}
 	}
+	if n, ok := m["design"]; ok {
+		r.designBlock(s, n)
+	}
 	if n, ok := r.need(m, root, "", "nodes"); ok {
 		r.nodes(s, n)
 	}
@@ -137,6 +144,7 @@ func (r *reader) structure(root *yaml.Node) *model.Structure {
 		r.cases(s, n)
 	}
 	r.geometry(s)
+	r.designInputs(s)
 	return s.st
 }
 
@@ -148,9 +156,11 @@ func (r *reader) unitsBlock(n *yaml.Node) {
 	}
 	keys := make([]string, 0, len(unitKeys))
 	byKey := map[string]units.Dimension{}
-	for d := units.Length; d <= units.Stiffness; d++ {
-		keys = append(keys, unitKeys[d])
-		byKey[unitKeys[d]] = d
+	for d := units.Length; d <= units.SecondMoment; d++ {
+		if k, ok := unitKeys[d]; ok {
+			keys = append(keys, k)
+			byKey[k] = d
+		}
 	}
 	m, ok := r.fields(n, "units", keys...)
 	if !ok {
@@ -322,7 +332,7 @@ func (r *reader) materials(s *state, n *yaml.Node) {
 				return 0, false
 			}
 			return prev.line, true
-		}, "id", "modulus", "thermal_coefficient", "density", "description")
+		}, "id", "modulus", "thermal_coefficient", "density", "description", "yield_strength")
 		if !ok {
 			continue
 		}
@@ -352,6 +362,7 @@ func (r *reader) materials(s *state, n *yaml.Node) {
 				mat.density, mat.hasRho = d, true
 			}
 		}
+		r.yieldStrength(mat, m, f)
 	}
 }
 
@@ -367,7 +378,7 @@ func (r *reader) sections(s *state, n *yaml.Node) {
 				return 0, false
 			}
 			return prev.line, true
-		}, "id", "area", "material", "description")
+		}, "id", "area", "material", "description", "radius_of_gyration", "second_moment", "buckling_curve")
 		if !ok {
 			continue
 		}
@@ -393,6 +404,7 @@ func (r *reader) sections(s *state, n *yaml.Node) {
 				sec.material, sec.mat = mid, mat
 			}
 		}
+		r.sectionBuckling(s, sec, m, it, f)
 	}
 }
 
@@ -511,7 +523,7 @@ func (r *reader) members(s *state, n *yaml.Node) {
 				return 0, false
 			}
 			return s.st.Members[prev].Line, true
-		}, "id", "from", "to", "section", "groups")
+		}, "id", "from", "to", "section", "groups", "buckling_length", "buckling_factor", "buckling_curve")
 		if !ok {
 			continue
 		}
@@ -544,13 +556,14 @@ func (r *reader) members(s *state, n *yaml.Node) {
 			r.errorf(it, f, "member starts and ends at the same node %q", s.st.Nodes[mem.I].ID)
 		}
 		var mat *material
+		var msec *section
 		if v, ok := r.need(m, it, f, "section"); ok {
 			if sid, ok := r.id(v, f+".section"); ok {
 				sec, found := s.sections[sid]
 				if !found {
 					r.errorf(v, f+".section", "unknown section %q; declared sections: %s", sid, keyList(s.sections))
 				} else {
-					mem.Section, mem.A = sid, sec.area
+					mem.Section, mem.A, msec = sid, sec.area, sec
 					if sec.mat != nil {
 						mat = sec.mat
 						mem.Material, mem.E, mem.Alpha, mem.Density = mat.id, mat.e, mat.alpha, mat.density
@@ -558,6 +571,7 @@ func (r *reader) members(s *state, n *yaml.Node) {
 				}
 			}
 		}
+		r.memberBuckling(s, &mem, msec, mat, m, it, f)
 		mi := len(s.st.Members)
 		s.members[id] = mi
 		s.st.Members = append(s.st.Members, mem)
@@ -695,7 +709,7 @@ func (r *reader) patterns(s *state, n *yaml.Node) {
 		m, name, f, ok := r.entry(it, "patterns", "pattern", "name", i, func(id string) (int, bool) {
 			l, dup := seen[id]
 			return l, dup
-		}, "name", "description", "self_weight", "forces", "temperatures", "settlements", "unknown")
+		}, "name", "description", "self_weight", "forces", "temperatures", "settlements", "unknown", "reference_load")
 		if !ok {
 			continue
 		}
@@ -707,6 +721,9 @@ func (r *reader) patterns(s *state, n *yaml.Node) {
 		}
 		if v, ok := m["unknown"]; ok {
 			p.Unknown, _ = r.boolean(v, f+".unknown")
+		}
+		if v, ok := m["reference_load"]; ok {
+			r.referenceLoad(&p, v, f+".reference_load")
 		}
 		if v, ok := m["self_weight"]; ok {
 			if w, ok := r.number(v, f+".self_weight"); ok {

@@ -373,4 +373,19 @@ func TestDocExample(t *testing.T) {
 	if got := s.Patterns[p].Temperatures; len(got) != 3 || got[2].DeltaK != 0.5 {
 		t.Errorf("temperatures %+v", got)
 	}
+	if s.Design == nil || s.Design.Standard.String() != "EN 1993-1-1" {
+		t.Errorf("design %+v", s.Design)
+	}
+	d1, _ := s.MemberIndex("D1")
+	d2, _ := s.MemberIndex("D2")
+	if s.Members[d1].BucklingFactor != 0.9 || s.Members[d2].BucklingLength != 3.5 || s.Members[d2].Curve.String() != "b" || s.Members[d1].Curve.String() != "a" {
+		t.Errorf("buckling inputs D1 %+v D2 %+v", s.Members[d1], s.Members[d2])
+	}
+	if rs, err := s.Resistances(); err != nil || len(rs) != 5 {
+		t.Errorf("resistances %v, %v", rs, err)
+	}
+	c, _ := s.PatternIndex("crowd")
+	if v, u, ok := s.Patterns[c].InReferenceUnit(2); !ok || v != 2 || u != "kPa" {
+		t.Errorf("crowd reference load: %v %q %v", v, u, ok)
+	}
 }

@@ -51,6 +51,9 @@ const (
 	Stiffness
 	// Mass in kilograms.
 	Mass
+	// SecondMoment is a second moment of area (moment of inertia of a
+	// section) in m^4.
+	SecondMoment
 )
 
 // Pressure is the same dimension as Stress (force per area); the name reads
@@ -67,6 +70,7 @@ var dimensionNames = map[Dimension]string{
 	Density:            "density",
 	Stiffness:          "stiffness (force per length)",
 	Mass:               "mass",
+	SecondMoment:       "second moment of area",
 }
 
 var siSymbols = map[Dimension]string{
@@ -79,6 +83,7 @@ var siSymbols = map[Dimension]string{
 	Density:            "kg/m3",
 	Stiffness:          "N/m",
 	Mass:               "kg",
+	SecondMoment:       "m4",
 }
 
 // String names the dimension in words, for messages.
@@ -168,6 +173,11 @@ var canonical = []Unit{
 
 	{"kg", Mass, 1, siSource},
 	{"lb", Mass, pound, nistSource},
+
+	{"m4", SecondMoment, 1, siSource},
+	{"cm4", SecondMoment, 1e-8, siSource},
+	{"mm4", SecondMoment, 1e-12, siSource},
+	{"in4", SecondMoment, inch * inch * inch * inch, nistSource},
 }
 
 // aliases maps alternative spellings to canonical symbols.
@@ -178,6 +188,7 @@ var aliases = map[string]string{
 	"°C": "degC", "°F": "degF",
 	"/K": "1/K", "/degC": "1/degC", "/°C": "1/degC", "1/°C": "1/degC",
 	"/degF": "1/degF", "/°F": "1/degF", "1/°F": "1/degF",
+	"m^4": "m4", "cm^4": "cm4", "mm^4": "mm4", "in^4": "in4",
 	"kg/m^3": "kg/m3", "kg/m³": "kg/m3", "lb/ft^3": "lb/ft3", "lb/ft³": "lb/ft3",
 }
 

@@ -68,6 +68,9 @@ func TestParse(t *testing.T) {
 		{"1 kip/in", Stiffness, "", 175126.83524647639, "1000 lbf/in"},
 		{"1 lb", Mass, "", 0.45359237, "NIST SP 811 (2008) B.8: 1 lb = 0.453 592 37 kg exactly"},
 		{"75 kg", Mass, "", 75, "SI"},
+		{"1 in4", SecondMoment, "", 4.162314256e-07, "0.0254^4 m^4, NIST SP 811 (2008) B.6 exact inch"},
+		{"2060 cm4", SecondMoment, "", 2.06e-05, "SI prefix"},
+		{"4.5e6 mm^4", SecondMoment, "", 4.5e-06, "SI prefix"},
 		{"  .5 m ", Length, "", 0.5, "leading fraction, spaces"},
 		{"1E3 N", Force, "", 1000, "upper-case exponent"},
 		{"2e3mm", Length, "", 2, "exponent then unit without space"},
@@ -152,7 +155,7 @@ func TestEveryUnitRoundTrips(t *testing.T) {
 }
 
 func TestDimensionNames(t *testing.T) {
-	for d := Length; d <= Mass; d++ {
+	for d := Length; d <= SecondMoment; d++ {
 		if strings.HasPrefix(d.String(), "dimension(") || d.SI() == "" {
 			t.Errorf("dimension %d has no name or SI unit", int(d))
 		}
@@ -244,5 +247,21 @@ func TestSystemOutput(t *testing.T) {
 	}
 	if _, err := ParseSystem("imperial"); err == nil {
 		t.Error("ParseSystem(imperial) accepted")
+	}
+}
+
+func TestParseWritten(t *testing.T) {
+	v, u, err := ParseWritten("2.5 kN/m", Force, Pressure, Stiffness)
+	if err != nil || v != 2.5 || u.Symbol != "kN/m" || u.ToSI != 1e3 {
+		t.Errorf("2.5 kN/m: %v %+v %v", v, u, err)
+	}
+	v, u, err = ParseWritten("1 kPa", Force, Pressure, Stiffness)
+	if err != nil || v != 1 || u.Symbol != "kPa" {
+		t.Errorf("1 kPa: %v %+v %v", v, u, err)
+	}
+	for text, want := range map[string]error{"1": ErrMissingUnit, "1 mm": ErrWrongDimension, "1 kPz": ErrUnknownUnit, "kPa": ErrSyntax, "1e308 MN": ErrNotFinite} {
+		if _, _, err := ParseWritten(text, Force, Pressure, Stiffness); !errors.Is(err, want) {
+			t.Errorf("%q: %v, want %v", text, err, want)
+		}
 	}
 }

@@ -384,6 +384,7 @@ function paintMembers() {
   const byID = new Map(st.geometry.members.map((m) => [m.id, m]));
   for (const line of document.querySelectorAll('#truss line[data-member]')) {
     const id = line.getAttribute('data-member');
+    if (paintUtilisation(line, id)) continue; // state.js
     const m = byID.get(id);
     const r = res.get(id);
     const s = memberState(m, r);
@@ -408,6 +409,7 @@ function paintMembers() {
 
 function drawLegend(k) {
   const svg = document.getElementById('legend');
+  if (drawUtilisationLegend(svg)) return; // state.js
   svg.replaceChildren();
   const defs = el('defs', {}, svg);
   const grad = el('linearGradient', { id: 'w-scale', x1: 0, x2: 1, y1: 0, y2: 0 }, defs);
@@ -483,13 +485,14 @@ function drawLoads() {
   tbody.replaceChildren();
   if (!app.state.loads.length) {
     const tr = html('tr', null, tbody);
-    html('td', 'none estimated in this epoch', tr, { colspan: 3 });
+    html('td', 'none estimated in this epoch', tr, { colspan: 4 });
   }
   for (const l of app.state.loads) {
     const tr = html('tr', null, tbody, { 'data-pattern': l.pattern });
     html('td', l.pattern, tr);
     html('td', fmtSize(l.value, l.unit), tr, { class: 'num' });
     html('td', fmtSize(l.std_dev, l.unit), tr, { class: 'num' });
+    html('td', fmtNum(l.factor, 4) + ' ± ' + fmtNum(l.factor_std_dev, 4), tr, { class: 'num' });
   }
 }
 
@@ -503,15 +506,16 @@ function drawMemberDetail() {
   document.getElementById('member-hint').textContent = m ? `from node ${m.start} to node ${m.end}` : '';
   if (!m) return;
   if (!m.gauged) {
-    rows(tbody, [['gauge', 'none: this member is not measured']]);
+    rows(tbody, [['gauge', 'none: this member is not measured'], ...memberTotalRows(id)]);
     return;
   }
   const r = app.state.gauged.find((x) => x.id === id);
   if (!r) { rows(tbody, [['latest epoch', 'no result']]); return; }
   rows(tbody, [
     ['state', memberState(m, r)],
-    ['measured', fmtForce(r.measured_n)],
-    ['predicted', fmtForce(r.predicted_n)],
+    ...memberTotalRows(id), // state.js
+    ['measured (change since zeroing)', fmtForce(r.measured_n)],
+    ['predicted (change since zeroing)', fmtForce(r.predicted_n)],
     ['acceptance band', fmtForce(r.band_low_n) + ' … ' + fmtForce(r.band_high_n)],
     ['w', fmtNum(r.w, 2)],
     ['redundancy r', fmtNum(r.redundancy, 3)],
@@ -563,7 +567,7 @@ function drawSeries(ser) {
     tx.textContent = (v / 1000).toFixed(Math.abs(hi - lo) < 5000 ? 2 : 1);
   }
   const yl = el('text', { x: 14, y: T + (H - T - B) / 2, transform: `rotate(-90 14 ${T + (H - T - B) / 2})`, 'text-anchor': 'middle' }, axes);
-  yl.textContent = 'axial force (kN, tension +)';
+  yl.textContent = 'change since zeroing (kN, tension +)';
   for (const f of [0, 0.5, 1]) {
     const t = t0 + f * (t1 - t0);
     const tx = el('text', { x: X(t), y: H - B + 16, 'text-anchor': f === 0 ? 'start' : f === 1 ? 'end' : 'middle' }, axes);
@@ -679,6 +683,7 @@ async function poll() {
     else paintMembers();
     drawFit();
     drawLoads();
+    drawTotals(); // state.js
     drawMemberDetail();
     const to = new Date(epochMs() + 1).toISOString();
     const from = new Date(epochMs() - EVENTS_WINDOW_MS).toISOString();
@@ -737,6 +742,7 @@ function setup() {
   document.getElementById('rot-up').addEventListener('click', () => rotate(0, step));
   document.getElementById('rot-down').addEventListener('click', () => rotate(0, -step));
   document.getElementById('rot-reset').addEventListener('click', () => { app.view = { yaw: VIEW0.yaw, pitch: VIEW0.pitch }; drawTruss(); });
+  setupStateView(); // state.js
   document.getElementById('structure-select').addEventListener('change', (e) => {
     app.structure = e.target.value; app.geomKey = ''; app.selected = ''; drawSeries(null);
     document.getElementById('member-title').textContent = 'Member';
