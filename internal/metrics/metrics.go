@@ -41,6 +41,10 @@ const (
 	EpochDuration        = "shm_epoch_processing_seconds"
 	AlarmsFiring         = "shm_alarms_firing"
 	BrokerDroppedMessage = "shm_broker_dropped_messages_total"
+	DeadLettersDropped   = "shm_dead_letters_dropped_total"
+	CommitFailures       = "shm_ingest_commit_failures_total"
+	BrokerConnected      = "shm_broker_connected"
+	BrokerReconnects     = "shm_broker_reconnects_total"
 )
 
 // Epoch outcomes for Metrics.Epoch (common values; any string is accepted).
@@ -61,6 +65,8 @@ type Metrics struct {
 	latency                                                  *prometheus.HistogramVec
 	alarms                                                   *prometheus.GaugeVec
 	dropped                                                  prometheus.Counter
+	deadDropped, commitFailures, reconnects                  prometheus.Counter
+	connected                                                prometheus.Gauge
 
 	cMessages, cReadings, cRejections, cEpochs, cSkew *children[prometheus.Counter]
 	cLatency                                          *children[prometheus.Observer]
@@ -116,6 +122,14 @@ func New(reg prometheus.Registerer) (*Metrics, error) {
 		}, st),
 		alarms:  g(AlarmsFiring, "Number of alarms of the rule currently firing.", []string{"structure", "rule"}),
 		dropped: prometheus.NewCounter(prometheus.CounterOpts{Name: BrokerDroppedMessage, Help: "Messages the embedded broker dropped (in-flight or queue limits)."}),
+		deadDropped: prometheus.NewCounter(prometheus.CounterOpts{Name: DeadLettersDropped,
+			Help: "Oldest dead letters deleted to keep the dead-letter table under its row cap."}),
+		commitFailures: prometheus.NewCounter(prometheus.CounterOpts{Name: CommitFailures,
+			Help: "Failed store commits of received messages (each retried; nothing is acknowledged before its commit)."}),
+		reconnects: prometheus.NewCounter(prometheus.CounterOpts{Name: BrokerReconnects,
+			Help: "Connections to the MQTT broker after the first (each follows a lost connection)."}),
+		connected: prometheus.NewGauge(prometheus.GaugeOpts{Name: BrokerConnected,
+			Help: "1 while ingest is connected to the MQTT broker and subscribed, else 0."}),
 	}
 	two := func(v *prometheus.CounterVec) *children[prometheus.Counter] {
 		return newChildren(func(a, b string) prometheus.Counter { return v.WithLabelValues(a, b) })
@@ -129,7 +143,7 @@ func New(reg prometheus.Registerer) (*Metrics, error) {
 	})
 	for _, col := range []prometheus.Collector{m.measured, m.predicted, m.residual, m.w, m.mdb, m.redund, m.checkable,
 		m.chi2, m.dof, m.pvalue, m.load, m.loadStd, m.epochs, m.messages, m.readings, m.rejections, m.skew,
-		m.lastReading, m.latency, m.alarms, m.dropped} {
+		m.lastReading, m.latency, m.alarms, m.dropped, m.deadDropped, m.commitFailures, m.reconnects, m.connected} {
 		if err := reg.Register(col); err != nil {
 			return nil, fmt.Errorf("metrics: registering collectors: %w (is a second Metrics registered on the same registry?)", err)
 		}
@@ -204,6 +218,31 @@ func (m *Metrics) BrokerDropped(n int) {
 	if n > 0 {
 		m.dropped.Add(float64(n))
 	}
+}
+
+// DeadLettersDropped counts n dead letters dropped at the cap
+// (ingest.Observer).
+func (m *Metrics) DeadLettersDropped(n int) {
+	if n > 0 {
+		m.deadDropped.Add(float64(n))
+	}
+}
+
+// CommitFailed counts one failed store commit (ingest.Observer).
+func (m *Metrics) CommitFailed() { m.commitFailures.Inc() }
+
+// BrokerConnection records the broker connection state (ingest.Observer):
+// connected and subscribed (true), or lost (false). reconnect is true for
+// a connection after the first.
+func (m *Metrics) BrokerConnection(connected, reconnect bool) {
+	if connected {
+		m.connected.Set(1)
+		if reconnect {
+			m.reconnects.Inc()
+		}
+		return
+	}
+	m.connected.Set(0)
 }
 
 // ClockSkew counts n readings with a skewed logger clock.

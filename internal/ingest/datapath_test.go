@@ -1,0 +1,277 @@
+package ingest
+
+import (
+	"context"
+	"fmt"
+	"os"
+	"path/filepath"
+	"sort"
+	"sync"
+	"testing"
+	"time"
+
+	"trussmonitor/internal/store"
+)
+
+// labelObserver records the structure label values the metrics would get.
+type labelObserver struct {
+	countingObserver
+	mu         sync.Mutex
+	structures map[string]bool
+}
+
+func newLabelObserver() *labelObserver {
+	return &labelObserver{countingObserver: *newCountingObserver(), structures: map[string]bool{}}
+}
+
+func (o *labelObserver) note(s string) {
+	o.mu.Lock()
+	o.structures[s] = true
+	o.mu.Unlock()
+}
+
+func (o *labelObserver) MessageHandled(s, outcome string) {
+	o.note(s)
+	o.countingObserver.MessageHandled(s, outcome)
+}
+
+func (o *labelObserver) Rejected(s, reason string) {
+	o.note(s)
+	o.countingObserver.Rejected(s, reason)
+}
+
+func (o *labelObserver) labels() []string {
+	o.mu.Lock()
+	defer o.mu.Unlock()
+	var out []string
+	for s := range o.structures {
+		out = append(out, s)
+	}
+	sort.Strings(out)
+	return out
+}
+
+// waitSubscribed waits until the ingester's subscription is confirmed
+// (a message published before that has no subscriber and is dropped).
+func waitSubscribed(t *testing.T, in *Ingester) {
+	t.Helper()
+	deadline := time.Now().Add(30 * time.Second)
+	for in.Stats().Subscribed == 0 {
+		if time.Now().After(deadline) {
+			t.Fatal("ingest not subscribed within 30 s")
+		}
+		time.Sleep(10 * time.Millisecond)
+	}
+}
+
+// waitDeadLetters waits until at least n dead letters (rows) are stored.
+func waitDeadLetters(t *testing.T, st *store.Store, n int) map[string]int64 {
+	t.Helper()
+	deadline := time.Now().Add(30 * time.Second)
+	for {
+		c, err := st.CountDeadLetters(context.Background())
+		if err != nil {
+			t.Fatal(err)
+		}
+		var total int64
+		for _, v := range c {
+			total += v
+		}
+		if total >= int64(n) || time.Now().After(deadline) {
+			return c
+		}
+		time.Sleep(20 * time.Millisecond)
+	}
+}
+
+// TestTimeWindow: readings stamped far ahead of the receiver's clock or
+// far behind it (defaults: 10 minutes ahead, 30 days behind) are dead
+// letters of their own reason, and the last-reading time only moves with
+// accepted readings (issue 10, defect 4: a reading stamped 2255 was stored
+// and made the channel's silence alarm impossible).
+func TestTimeWindow(t *testing.T) {
+	b := embeddedBroker(t)
+	st := openStore(t, filepath.Join(t.TempDir(), "m.db"))
+	obs := newCountingObserver()
+	now := time.Now().UTC().Truncate(time.Second)
+	in, stop := startIngest(t, Config{Broker: "tcp://" + b.Addr(), ClientID: "window"}, Deps{
+		Store: st, Registries: alderRegistry(), Observer: obs,
+	})
+	waitSubscribed(t, in)
+	pub := newPublisher(t, b.Addr(), "window-pub")
+	bad := []time.Time{
+		time.Date(2255, 1, 1, 0, 0, 0, 0, time.UTC), // the trial's reading
+		now.Add(11 * time.Minute),                   // just past the 10 minutes ahead
+		time.Date(1989, 6, 1, 0, 0, 0, 0, time.UTC),
+		time.Date(2001, 6, 1, 0, 0, 0, 0, time.UTC),
+		now.Add(-31 * 24 * time.Hour), // past the 30-day backlog
+	}
+	for _, tm := range bad {
+		pub.publish("shm/alder-creek/g00", fmt.Appendf(nil, `[{"bt":%s,"u":"/","v":1}]`, senmlTime(tm)))
+	}
+	good := []time.Time{now.Add(-29 * 24 * time.Hour), now.Add(9 * time.Minute), now}
+	for _, tm := range good {
+		pub.publish("shm/alder-creek/g00", fmt.Appendf(nil, `[{"bt":%s,"u":"/","v":2}]`, senmlTime(tm)))
+	}
+	got := waitCount(t, st, "alder-creek", int64(len(good)), 30*time.Second)
+	dl := waitDeadLetters(t, st, len(bad))
+	if err := stop(); err != nil {
+		t.Fatal(err)
+	}
+	n, _ := st.CountReadings(context.Background(), "alder-creek", time.Time{}, time.Time{})
+	if got != int64(len(good)) || n != int64(len(good)) {
+		t.Errorf("stored %d readings, want %d (only those inside the window)", n, len(good))
+	}
+	if dl["outside_time_window"] != int64(len(bad)) {
+		t.Errorf("dead letters by reason %v; want %d outside_time_window", dl, len(bad))
+	}
+	obs.mu.Lock()
+	last := obs.last["g00"]
+	obs.mu.Unlock()
+	if !last.Equal(now.Add(9 * time.Minute)) {
+		t.Errorf("last reading of g00 is %s; want the latest accepted reading %s", last, now.Add(9*time.Minute))
+	}
+}
+
+// TestConflictingReadings: a redelivery (same channel, time and value) is a
+// duplicate; a different value at the same key is a dead letter
+// conflicting_reading, in one pack, across messages, and for two times
+// 0.4 us apart that share a key at the store's 1 us resolution (issue 10,
+// defect 5: the conflicting values were counted as duplicates).
+func TestConflictingReadings(t *testing.T) {
+	b := embeddedBroker(t)
+	st := openStore(t, filepath.Join(t.TempDir(), "m.db"))
+	obs := newCountingObserver()
+	in, stop := startIngest(t, Config{Broker: "tcp://" + b.Addr(), ClientID: "conflict"}, Deps{
+		Store: st, Registries: alderRegistry(), Observer: obs,
+	})
+	waitSubscribed(t, in)
+	pub := newPublisher(t, b.Addr(), "conflict-pub")
+	tm := time.Now().UTC().Truncate(time.Second)
+	ts := senmlTime(tm)
+	msgs := []struct{ topic, payload string }{
+		// One pack: the second record conflicts with the first.
+		{"shm/alder-creek", `[{"bt":` + ts + `,"n":"g00","u":"/","v":1},{"n":"g00","v":2}]`},
+		// A later message with a third value.
+		{"shm/alder-creek/g00", `[{"bt":` + ts + `,"u":"/","v":3}]`},
+		// A redelivery of the first: a duplicate.
+		{"shm/alder-creek/g00", `[{"bt":` + ts + `,"u":"/","v":1}]`},
+		// 0.4 us apart on g01: one key at 1 us resolution, two values.
+		{"shm/alder-creek/g01", fmt.Sprintf(`[{"bt":%d.0000010,"u":"/","v":5}]`, tm.Unix())},
+		{"shm/alder-creek/g01", fmt.Sprintf(`[{"bt":%d.0000014,"u":"/","v":6}]`, tm.Unix())},
+	}
+	for _, m := range msgs {
+		pub.publish(m.topic, []byte(m.payload))
+	}
+	waitCount(t, st, "alder-creek", 2, 30*time.Second)
+	dl := waitDeadLetters(t, st, 3)
+	deadline := time.Now().Add(30 * time.Second)
+	for {
+		msgsSeen, _, _ := obs.snapshot()
+		total := 0
+		for _, v := range msgsSeen {
+			total += v
+		}
+		if total >= len(msgs) || time.Now().After(deadline) {
+			break
+		}
+		time.Sleep(20 * time.Millisecond)
+	}
+	if err := stop(); err != nil {
+		t.Fatal(err)
+	}
+	var stored []store.Reading
+	st.ReadReadings(context.Background(), "alder-creek", time.Time{}, time.Time{}, func(r store.Reading) error {
+		stored = append(stored, r)
+		return nil
+	})
+	if len(stored) != 2 || stored[0].Value != 1 || stored[1].Value != 5 {
+		t.Errorf("stored %+v; want g00=1 and g01=5, the first values", stored)
+	}
+	if dl["conflicting_reading"] != 3 {
+		t.Errorf("dead letters by reason %v; want 3 conflicting_reading (one per message with a conflict)", dl)
+	}
+	_, rds, _ := obs.snapshot()
+	if rds[OutcomeDuplicate] != 1 {
+		t.Errorf("readings by outcome %v; want exactly 1 duplicate (the redelivery)", rds)
+	}
+}
+
+// TestUnknownStructureOneLabel: readings for structures that are not
+// configured are dead letters unknown_structure, and the metrics see one
+// label value for all of them, not a new structure label per name (issue
+// 10, defect 8).
+func TestUnknownStructureOneLabel(t *testing.T) {
+	b := embeddedBroker(t)
+	st := openStore(t, filepath.Join(t.TempDir(), "m.db"))
+	obs := newLabelObserver()
+	in, stop := startIngest(t, Config{Broker: "tcp://" + b.Addr(), ClientID: "unknown"}, Deps{
+		Store: st, Registries: alderRegistry(), Observer: obs,
+	})
+	waitSubscribed(t, in)
+	pub := newPublisher(t, b.Addr(), "unknown-pub")
+	ts := senmlTime(time.Now())
+	for i := range 20 {
+		pub.publish(fmt.Sprintf("shm/forged-%d/g00", i), []byte(`[{"bt":`+ts+`,"u":"/","v":1}]`))
+	}
+	pub.publish("shm/alder-creek/g00", []byte(`[{"bt":`+ts+`,"u":"/","v":1}]`))
+	waitCount(t, st, "alder-creek", 1, 30*time.Second)
+	dl := waitDeadLetters(t, st, 20)
+	if err := stop(); err != nil {
+		t.Fatal(err)
+	}
+	if dl[string(ReasonUnknownStructure)] != 20 {
+		t.Errorf("dead letters %v; want 20 unknown_structure", dl)
+	}
+	if got := obs.labels(); len(got) != 2 || got[0] != UnknownStructureLabel || got[1] != "alder-creek" {
+		t.Errorf("structure label values %q; want only %q and alder-creek", got, UnknownStructureLabel)
+	}
+}
+
+// TestDeadLetterGrowthBounded: 1,000 malformed 60 KB messages grow the
+// database by a small bounded amount: a dead letter keeps a bounded excerpt
+// of the payload, not the payload (issue 10, defect 7: they grew it from 17
+// MB to 103 MB).
+func TestDeadLetterGrowthBounded(t *testing.T) {
+	b := embeddedBroker(t)
+	path := filepath.Join(t.TempDir(), "m.db")
+	st := openStore(t, path)
+	in, stop := startIngest(t, Config{Broker: "tcp://" + b.Addr(), ClientID: "growth"}, Deps{
+		Store: st, Registries: alderRegistry(),
+	})
+	waitSubscribed(t, in)
+	pub := newPublisher(t, b.Addr(), "growth-pub")
+	const n, size = 1000, 60 << 10
+	filler := make([]byte, size)
+	for i := range filler {
+		filler[i] = 'a' + byte(i%26)
+	}
+	for i := range n {
+		// Distinct messages (the number is in the first bytes), so repeat
+		// counting does not fold them into one row.
+		p := fmt.Appendf(nil, `[{"v":%d,"x":"%s`, i, filler)[:size]
+		if err := pub.publish("shm/alder-creek/g00", p); err != nil {
+			t.Fatal(err)
+		}
+	}
+	dl := waitDeadLetters(t, st, n)
+	if err := stop(); err != nil {
+		t.Fatal(err)
+	}
+	if dl["malformed_json"] != n {
+		t.Errorf("dead letters %v; want %d malformed_json", dl, n)
+	}
+	st.Close() // checkpoints the WAL into the file
+	fi, err := os.Stat(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// Bound: the 1 KiB excerpt, the detail (at most 1 KiB) and the row's
+	// other columns, for each of the 1,000 rows: under 2.5 MB in all,
+	// against 60 MB of payload received.
+	const bound = 2_500_000
+	t.Logf("1,000 malformed 60 KB messages: database %d bytes", fi.Size())
+	if fi.Size() > bound {
+		t.Errorf("database is %d bytes after %d dead letters of %d bytes; want at most %d", fi.Size(), n, size, bound)
+	}
+}
