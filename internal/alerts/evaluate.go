@@ -53,7 +53,11 @@ type Member struct {
 // Channel is a channel's freshness.
 type Channel struct {
 	Channel     string
-	LastReading time.Time // zero: never reported (no alarm, no series)
+	LastReading time.Time // zero: no reading known
+	// WatchedSince is when monitoring of the channel began (the service's
+	// start). A channel with no reading known is silent since then; zero
+	// (replay) leaves such a channel without a value.
+	WatchedSince time.Time
 }
 
 // Cause is evidence of one ranked cause.
@@ -133,6 +137,7 @@ type structState struct {
 	members     map[string]Member
 	fit         *Fit
 	channels    map[string]time.Time
+	watched     map[string]time.Time
 	skew, rej   []sample
 	causes      []Cause
 	alarms      map[[2]string]*alarmState // rule name, subject
@@ -174,7 +179,7 @@ func (e *Evaluator) Observe(ctx context.Context, o Observation) ([]Event, error)
 	e.mu.Lock()
 	s := e.st[o.Structure]
 	if s == nil {
-		s = &structState{members: map[string]Member{}, channels: map[string]time.Time{},
+		s = &structState{members: map[string]Member{}, channels: map[string]time.Time{}, watched: map[string]time.Time{},
 			alarms: map[[2]string]*alarmState{}, firingCount: map[string]int{}, keep: e.keep}
 		e.st[o.Structure] = s
 	}
@@ -247,6 +252,9 @@ func (s *structState) update(o Observation) {
 		s.fit = &f
 	}
 	for _, c := range o.Channels {
+		if !c.WatchedSince.IsZero() {
+			s.watched[c.Channel] = c.WatchedSince
+		}
 		if !c.LastReading.IsZero() {
 			if prev, ok := s.channels[c.Channel]; !ok || c.LastReading.After(prev) {
 				s.channels[c.Channel] = c.LastReading
@@ -313,8 +321,15 @@ func (s *structState) instances(r Rule, t time.Time) []instance {
 			out = append(out, instance{name, w, m.Checkable})
 		}
 	case SignalSilence:
+		// Since the last reading; for a channel without one, since it is
+		// watched (the PromQL: last reading "or" watched since).
 		for name, last := range s.channels {
 			out = append(out, instance{name, t.Sub(last).Seconds(), true})
+		}
+		for name, since := range s.watched {
+			if _, ok := s.channels[name]; !ok {
+				out = append(out, instance{name, t.Sub(since).Seconds(), true})
+			}
 		}
 	case SignalPValue:
 		if s.fit != nil {

@@ -108,7 +108,7 @@ func Expr(r Rule, s string) string {
 		sig = metrics.FitPValue + sel
 		on = "structure"
 	case SignalSilence:
-		sig = "time() - " + metrics.ChannelLastReading + sel
+		sig = "time() - (" + metrics.ChannelLastReading + sel + " or " + metrics.ChannelWatchedSince + sel + ")"
 		on = "structure, channel"
 	case SignalSkewIncrease:
 		sig = increaseExpr(metrics.ClockSkewReadings+sel, r.Window)

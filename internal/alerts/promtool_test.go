@@ -94,6 +94,16 @@ func buildScenario() scenario {
 		}
 	}
 	s.lastRead["B4_a"] = a
+	// B5_a reports first at minute 30: silent since watching began (0)
+	// from minute 3 (180 s > 120 s) to 29.
+	b5 := make([]float64, n)
+	for k := range b5 {
+		b5[k] = nan
+		if k >= 30 {
+			b5[k] = float64(60 * k)
+		}
+	}
+	s.lastRead["B5_a"] = b5
 	s.skew = make([]float64, n)
 	for k := range s.skew {
 		if k >= 12 {
@@ -128,6 +138,7 @@ var expectedFiring = map[string][][2]int{
 	"MemberDiverging/D2": {{27, 30}},
 	"FitRejected/":       {{10, 16}},
 	"ChannelSilent/B4_a": {{23, 29}},
+	"ChannelSilent/B5_a": {{3, 29}},
 	"ClockSkew/":         {{12, 16}},
 	"IngestRejects/":     {{23, 30}},
 }
@@ -139,7 +150,11 @@ func (s scenario) observation(k int) Observation {
 		o.Members = append(o.Members, Member{Member: m, W: s.w[m][k], Checkable: s.checkable[m][k], EstimatedBias: 1000 * s.w[m][k]})
 	}
 	for _, c := range sortedKeys(s.lastRead) {
-		o.Channels = append(o.Channels, Channel{Channel: c, LastReading: time.Unix(int64(s.lastRead[c][k]), 0)})
+		ch := Channel{Channel: c, WatchedSince: time.Unix(0, 0)}
+		if v := s.lastRead[c][k]; !isNaN(v) {
+			ch.LastReading = time.Unix(int64(v), 0)
+		}
+		o.Channels = append(o.Channels, ch)
 	}
 	for _, r := range sortedKeys(s.rejects) {
 		if v := s.rejects[r][k]; !isNaN(v) {
@@ -303,7 +318,8 @@ func promtoolTestFile(t *testing.T, rules []Rule, sc scenario, firing [][]Alarm)
 	}
 	tc.Input = append(tc.Input, series{fmt.Sprintf(`shm_fit_p_value{%s}`, st), seriesValues(sc.pvalue)})
 	for _, c := range sortedKeys(sc.lastRead) {
-		tc.Input = append(tc.Input, series{fmt.Sprintf(`shm_channel_last_reading_timestamp_seconds{%s, channel=%q}`, st, c), seriesValues(sc.lastRead[c])})
+		tc.Input = append(tc.Input, series{fmt.Sprintf(`shm_channel_last_reading_timestamp_seconds{%s, channel=%q}`, st, c), seriesValues(sc.lastRead[c])},
+			series{fmt.Sprintf(`shm_channel_watched_since_timestamp_seconds{%s, channel=%q}`, st, c), fmt.Sprintf("0+0x%d", sc.minutes-1)})
 	}
 	tc.Input = append(tc.Input, series{fmt.Sprintf(`shm_clock_skew_readings_total{%s}`, st), seriesValues(sc.skew)})
 	for _, r := range sortedKeys(sc.rejects) {

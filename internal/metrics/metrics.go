@@ -42,6 +42,7 @@ const (
 	AlarmsFiring         = "shm_alarms_firing"
 	BrokerDroppedMessage = "shm_broker_dropped_messages_total"
 	DeadLettersDropped   = "shm_dead_letters_dropped_total"
+	ChannelWatchedSince  = "shm_channel_watched_since_timestamp_seconds"
 	CommitFailures       = "shm_ingest_commit_failures_total"
 	BrokerConnected      = "shm_broker_connected"
 	BrokerReconnects     = "shm_broker_reconnects_total"
@@ -61,7 +62,7 @@ type Metrics struct {
 	chi2, dof, pvalue                                        *prometheus.GaugeVec
 	load, loadStd                                            *prometheus.GaugeVec
 	epochs, messages, readings, rejections, skew             *prometheus.CounterVec
-	lastReading                                              *prometheus.GaugeVec
+	lastReading, watchedSince                                *prometheus.GaugeVec
 	latency                                                  *prometheus.HistogramVec
 	alarms                                                   *prometheus.GaugeVec
 	dropped                                                  prometheus.Counter
@@ -115,6 +116,8 @@ func New(reg prometheus.Registerer) (*Metrics, error) {
 		skew:       c(ClockSkewReadings, "Readings whose logger time stamp was too far from the receive time (clock skew).", st),
 		lastReading: g(ChannelLastReading, "Logger time stamp of the channel's last stored reading, seconds since 1970.",
 			[]string{"structure", "channel"}),
+		watchedSince: g(ChannelWatchedSince, "Receiver time at which the service began watching the channel (its start), seconds since 1970; a channel with no reading is silent since then.",
+			[]string{"structure", "channel"}),
 		latency: prometheus.NewHistogramVec(prometheus.HistogramOpts{
 			Name:    EpochDuration,
 			Help:    "Time to process one epoch (prediction, fit, tests, alarms), seconds.",
@@ -143,7 +146,7 @@ func New(reg prometheus.Registerer) (*Metrics, error) {
 	})
 	for _, col := range []prometheus.Collector{m.measured, m.predicted, m.residual, m.w, m.mdb, m.redund, m.checkable,
 		m.chi2, m.dof, m.pvalue, m.load, m.loadStd, m.epochs, m.messages, m.readings, m.rejections, m.skew,
-		m.lastReading, m.latency, m.alarms, m.dropped, m.deadDropped, m.commitFailures, m.reconnects, m.connected} {
+		m.lastReading, m.watchedSince, m.latency, m.alarms, m.dropped, m.deadDropped, m.commitFailures, m.reconnects, m.connected} {
 		if err := reg.Register(col); err != nil {
 			return nil, fmt.Errorf("metrics: registering collectors: %w (is a second Metrics registered on the same registry?)", err)
 		}
@@ -210,6 +213,11 @@ func (m *Metrics) LastReading(structure, channel string, t time.Time) {
 		l.g.Set(v)
 	}
 	l.mu.Unlock()
+}
+
+// WatchedSince records when the service began watching a channel.
+func (m *Metrics) WatchedSince(structure, channel string, t time.Time) {
+	m.watchedSince.WithLabelValues(structure, channel).Set(float64(t.UnixNano()) / 1e9)
 }
 
 // BrokerDropped counts n messages dropped by the embedded broker

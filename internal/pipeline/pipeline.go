@@ -84,6 +84,7 @@ type Pipeline struct {
 	cfg       Config
 	sinks     []Sink
 	lastSeen  map[string]time.Time
+	watched   time.Time // live: when watching began (Seed)
 	channels  []string
 	lastEval  time.Time
 	lastEpoch time.Time
@@ -173,6 +174,21 @@ func (p *Pipeline) Feed(ctx context.Context, rs []Reading) {
 			p.process(ctx, e)
 		}
 	}
+}
+
+// Seed sets the channels' last-reading times known from the store at
+// start and the time watching began (live running): a channel with no
+// reading since is silent from its last stored reading, and one with none
+// at all from since.
+func (p *Pipeline) Seed(last map[string]time.Time, since time.Time) {
+	p.mu.Lock()
+	defer p.mu.Unlock()
+	for ch, t := range last {
+		if t.After(p.lastSeen[ch]) {
+			p.lastSeen[ch] = t
+		}
+	}
+	p.watched = since
 }
 
 // Tick closes epochs whose idle time passed on the live clock and, when no
@@ -283,7 +299,7 @@ func (p *Pipeline) observation(t time.Time, res *Result) alerts.Observation {
 		o.RejectCount = p.cfg.RejectCount()
 	}
 	for _, ch := range p.channels {
-		o.Channels = append(o.Channels, alerts.Channel{Channel: ch, LastReading: p.lastSeen[ch]})
+		o.Channels = append(o.Channels, alerts.Channel{Channel: ch, LastReading: p.lastSeen[ch], WatchedSince: p.watched})
 	}
 	if res == nil || (res.Outcome != OutcomeAccepted && res.Outcome != OutcomeRejected) {
 		return o

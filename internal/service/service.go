@@ -185,6 +185,20 @@ func (s *Service) addStructure(mon *Monitored) error {
 	if err != nil {
 		return fmt.Errorf("structure %q: %w", name, err)
 	}
+	// Silence survives a restart: the last stored reading of each channel
+	// (one query), and watching begins now for channels with none.
+	last, err := s.store.LastReadings(ctx, name)
+	if err != nil {
+		return fmt.Errorf("structure %q: %w", name, err)
+	}
+	start := s.clock()
+	p.Seed(last, start)
+	for _, ch := range mon.Sensors.Channels() {
+		s.met.WatchedSince(name, ch.ID, start)
+		if t, ok := last[ch.ID]; ok {
+			s.met.LastReading(name, ch.ID, t)
+		}
+	}
 	proc := p.Processor()
 	p.AddSink(s.live.Register(mon.Structure, proc, reconcile.DefaultAlphaGlobal))
 	p.AddSink(&metricsSink{m: s.met, sm: s.met.Structure(name, proc.Gauged(), proc.Unknown()), name: name, rules: s.rules, last: map[string]int{}})

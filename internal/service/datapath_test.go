@@ -1,0 +1,141 @@
+package service
+
+import (
+	"context"
+	"io"
+	"log/slog"
+	"net/http"
+	"path/filepath"
+	"strings"
+	"testing"
+	"time"
+
+	"trussmonitor/internal/config"
+	"trussmonitor/internal/store"
+)
+
+// testConfig is the footbridge on the embedded broker, ports and files of
+// the test's own.
+func testConfig(t *testing.T, dir, clientID string) *config.Config {
+	t.Helper()
+	cfg := config.Defaults()
+	cfg.File = "(test)"
+	cfg.Database = filepath.Join(dir, "monitor.db")
+	cfg.HTTP.Listen = "127.0.0.1:0"
+	cfg.Broker.Embedded = true
+	cfg.Broker.Listen = "127.0.0.1:0"
+	cfg.Broker.ClientID = clientID
+	cfg.Structures = []config.Structure{{Structure: "../../testdata/footbridge/structure.yaml", Sensors: "../../testdata/footbridge/sensors.yaml"}}
+	if err := cfg.Validate(); err != nil {
+		t.Fatal(err)
+	}
+	return &cfg
+}
+
+// startService starts a service and returns it with a stop function that
+// shuts it down and returns Run's error.
+func startService(t *testing.T, cfg *config.Config, log *slog.Logger) (*Service, func() error) {
+	t.Helper()
+	if log == nil {
+		log = slog.New(slog.NewTextHandler(io.Discard, nil))
+	}
+	svc, err := New(cfg, Options{Logger: log})
+	if err != nil {
+		t.Fatal(err)
+	}
+	ctx, cancel := context.WithCancel(context.Background())
+	if err := svc.Start(ctx); err != nil {
+		cancel()
+		t.Fatal(err)
+	}
+	done := make(chan error, 1)
+	go func() { done <- svc.Run(ctx) }()
+	stopped := false
+	var runErr error
+	stop := func() error {
+		if stopped {
+			return runErr
+		}
+		stopped = true
+		cancel()
+		select {
+		case runErr = <-done:
+		case <-time.After(60 * time.Second):
+			runErr = context.DeadlineExceeded
+		}
+		return runErr
+	}
+	t.Cleanup(func() { stop() })
+	return svc, stop
+}
+
+func httpGet(t *testing.T, url string) (int, string) {
+	t.Helper()
+	resp, err := http.Get(url)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer resp.Body.Close()
+	b, _ := io.ReadAll(resp.Body)
+	return resp.StatusCode, string(b)
+}
+
+// TestSilenceSurvivesRestart: a channel that reported before the service
+// started and not since is silent, with its last-reading series seeded
+// from the store at start; a channel that never reported since the start
+// is silent too (issue 10, defect 3: no ChannelSilent after 70 s and no
+// last-reading series at all).
+func TestSilenceSurvivesRestart(t *testing.T) {
+	dir := t.TempDir()
+	cfg := testConfig(t, dir, "silence-test")
+	cfg.Alarms.SilentAfter = config.Duration(2 * time.Second)
+	// The logger reported once, three minutes ago, before this start.
+	last := time.Now().UTC().Add(-3 * time.Minute).Truncate(time.Millisecond)
+	st, err := store.Open(cfg.Database, store.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := st.InsertReadings(context.Background(), "alder-creek", []store.Reading{{Channel: "B2_a", Time: last, Value: 1e-5}}); err != nil {
+		t.Fatal(err)
+	}
+	st.Close()
+
+	svc, stop := startService(t, cfg, nil)
+	base := "http://" + svc.HTTPAddr()
+	_, m := httpGet(t, base+"/metrics")
+	series := `shm_channel_last_reading_timestamp_seconds{channel="B2_a",structure="alder-creek"}`
+	if !strings.Contains(m, series) {
+		t.Errorf("/metrics at start lacks %s (seeded from the store)", series)
+	}
+	raised := func() map[string]bool {
+		evs, err := svc.Store().Events(context.Background(), "alder-creek", time.Time{}, time.Time{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		out := map[string]bool{}
+		for _, e := range evs {
+			if e.Rule == "ChannelSilent" && e.Kind == store.Raised {
+				out[e.Subject] = true
+			}
+		}
+		return out
+	}
+	deadline := time.Now().Add(2 * time.Minute)
+	var got map[string]bool
+	for time.Now().Before(deadline) {
+		got = raised()
+		if got["B2_a"] && got["B4_a"] {
+			break
+		}
+		time.Sleep(100 * time.Millisecond)
+	}
+	if !got["B2_a"] {
+		t.Errorf("no ChannelSilent for B2_a, silent since %s before the start; raised for %v", last, got)
+	}
+	if !got["B4_a"] {
+		t.Errorf("no ChannelSilent for B4_a, which never reported since the start; raised for %v", got)
+	}
+	if err := stop(); err != nil {
+		t.Fatal(err)
+	}
+}
