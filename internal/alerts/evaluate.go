@@ -30,6 +30,12 @@ type Observation struct {
 	// shm_ingest_rejections_total counters).
 	SkewCount   uint64
 	RejectCount uint64
+	// CommitFailures is the cumulative count of failed store commits
+	// (shm_ingest_commit_failures_total); BrokerConnected the broker
+	// connection now (shm_broker_connected), nil when there is no broker
+	// (replay): the rule then has no value.
+	CommitFailures  uint64
+	BrokerConnected *bool
 	// Causes are the epoch's top-ranked causes (most likely first).
 	Causes []Cause
 }
@@ -139,6 +145,8 @@ type structState struct {
 	channels    map[string]time.Time
 	watched     map[string]time.Time
 	skew, rej   []sample
+	commitFail  []sample
+	broker      *bool
 	causes      []Cause
 	alarms      map[[2]string]*alarmState // rule name, subject
 	firingCount map[string]int
@@ -267,6 +275,11 @@ func (s *structState) update(o Observation) {
 	keep := s.keep
 	s.skew = appendSample(s.skew, sample{o.Time, float64(o.SkewCount)}, o.Time.Add(-keep))
 	s.rej = appendSample(s.rej, sample{o.Time, float64(o.RejectCount)}, o.Time.Add(-keep))
+	s.commitFail = appendSample(s.commitFail, sample{o.Time, float64(o.CommitFailures)}, o.Time.Add(-keep))
+	if o.BrokerConnected != nil {
+		c := *o.BrokerConnected
+		s.broker = &c
+	}
 }
 
 func appendSample(h []sample, x sample, oldest time.Time) []sample {
@@ -339,6 +352,16 @@ func (s *structState) instances(r Rule, t time.Time) []instance {
 		out = append(out, instance{"", increase(s.skew, t, r.Window), true})
 	case SignalRejectIncrease:
 		out = append(out, instance{"", increase(s.rej, t, r.Window), true})
+	case SignalCommitFailIncrease:
+		out = append(out, instance{"", increase(s.commitFail, t, r.Window), true})
+	case SignalBrokerConnected:
+		if s.broker != nil {
+			v := 0.0
+			if *s.broker {
+				v = 1
+			}
+			out = append(out, instance{"", v, true})
+		}
 	}
 	have := map[string]bool{}
 	for _, in := range out {
@@ -444,6 +467,10 @@ func (s Signal) String() string {
 		return "skewed_readings_in_window"
 	case SignalRejectIncrease:
 		return "rejections_in_window"
+	case SignalCommitFailIncrease:
+		return "commit_failures_in_window"
+	case SignalBrokerConnected:
+		return "broker_connected"
 	}
 	return fmt.Sprintf("signal(%d)", int(s))
 }

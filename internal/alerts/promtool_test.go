@@ -40,6 +40,8 @@ type scenario struct {
 	lastRead  map[string][]float64 // channel -> last reading, seconds
 	skew      []float64            // cumulative
 	rejects   map[string][]float64 // reason -> cumulative; NaN = series absent
+	commits   []float64            // failed commits, cumulative
+	connected []float64            // broker connection, 1 or 0
 }
 
 func buildScenario() scenario {
@@ -124,6 +126,17 @@ func buildScenario() scenario {
 		}
 	}
 	s.rejects["unknown_channel"], s.rejects["not_finite"] = uc, nf
+	s.commits = make([]float64, n)
+	s.connected = make([]float64, n)
+	for k := range s.commits {
+		if k >= 33 {
+			s.commits[k] = 2 // two failures at 33: alarm 33..37
+		}
+		s.connected[k] = 1
+		if k >= 34 && k <= 37 {
+			s.connected[k] = 0 // down at 34, fires at 35, clears at 38
+		}
+	}
 	return s
 }
 
@@ -134,18 +147,21 @@ func isNaN(v float64) bool { return v != v }
 // expectedFiring are the alarms the scenario must fire, worked out by hand
 // from the rules (minute ranges, inclusive).
 var expectedFiring = map[string][][2]int{
-	"MemberDiverging/B4": {{7, 10}, {17, 20}},
-	"MemberDiverging/D2": {{27, 30}},
-	"FitRejected/":       {{10, 16}},
-	"ChannelSilent/B4_a": {{23, 29}},
-	"ChannelSilent/B5_a": {{3, 29}},
-	"ClockSkew/":         {{12, 16}},
-	"IngestRejects/":     {{23, 30}},
+	"MemberDiverging/B4":  {{7, 10}, {17, 20}},
+	"MemberDiverging/D2":  {{27, 30}},
+	"FitRejected/":        {{10, 16}},
+	"ChannelSilent/B4_a":  {{23, 29}},
+	"ChannelSilent/B5_a":  {{3, 29}},
+	"ClockSkew/":          {{12, 16}},
+	"IngestRejects/":      {{23, 30}},
+	"CommitsFailing/":     {{33, 37}},
+	"BrokerDisconnected/": {{35, 37}},
 }
 
 func (s scenario) observation(k int) Observation {
 	o := Observation{Time: time.Unix(int64(60*k), 0).UTC(), Structure: "alder-creek",
-		Fit: &Fit{PValue: s.pvalue[k], ChiSquare: 30, DOF: 13}, SkewCount: uint64(s.skew[k])}
+		Fit: &Fit{PValue: s.pvalue[k], ChiSquare: 30, DOF: 13}, SkewCount: uint64(s.skew[k]),
+		CommitFailures: uint64(s.commits[k]), BrokerConnected: &[]bool{s.connected[k] == 1}[0]}
 	for _, m := range sortedKeys(s.w) {
 		o.Members = append(o.Members, Member{Member: m, W: s.w[m][k], Checkable: s.checkable[m][k], EstimatedBias: 1000 * s.w[m][k]})
 	}
@@ -325,6 +341,8 @@ func promtoolTestFile(t *testing.T, rules []Rule, sc scenario, firing [][]Alarm)
 	for _, r := range sortedKeys(sc.rejects) {
 		tc.Input = append(tc.Input, series{fmt.Sprintf(`shm_ingest_rejections_total{%s, reason=%q}`, st, r), seriesValues(sc.rejects[r])})
 	}
+	tc.Input = append(tc.Input, series{"shm_ingest_commit_failures_total", seriesValues(sc.commits)},
+		series{"shm_broker_connected", seriesValues(sc.connected)})
 	n := 0
 	for k := 0; k < sc.minutes; k++ {
 		for _, r := range rules {

@@ -41,7 +41,16 @@ const (
 	// SignalRejectIncrease is the number of ingest rejections (dead
 	// letters) counted in the last Window.
 	SignalRejectIncrease
+	// SignalCommitFailIncrease is the number of failed store commits of
+	// received messages counted in the last Window (service-wide).
+	SignalCommitFailIncrease
+	// SignalBrokerConnected is 1 while ingest is connected to the broker
+	// and subscribed, 0 while not (service-wide; no value in replay).
+	SignalBrokerConnected
 )
+
+// lastSignal is the highest valid signal.
+const lastSignal = SignalBrokerConnected
 
 // Scope is what one instance of a rule is about.
 type Scope int
@@ -62,6 +71,11 @@ func (s Signal) Scope() Scope {
 		return ScopeChannel
 	}
 	return ScopeStructure
+}
+
+// counting reports whether the signal is a counter's increase in a window.
+func (s Signal) counting() bool {
+	return s == SignalSkewIncrease || s == SignalRejectIncrease || s == SignalCommitFailIncrease
 }
 
 // Rule is one alarm rule.
@@ -109,14 +123,17 @@ func (r Rule) Validate() error {
 			return fmt.Errorf("alerts: rule %q: name may hold only letters, digits and '_'", r.Name)
 		}
 	}
-	if r.Signal < SignalAbsW || r.Signal > SignalRejectIncrease {
+	if r.Signal < SignalAbsW || r.Signal > lastSignal {
 		return fmt.Errorf("alerts: rule %s: unknown signal %d", r.Name, r.Signal)
 	}
 	if r.For < 0 || r.For%time.Second != 0 {
 		return fmt.Errorf("alerts: rule %s: for-duration %v; want whole seconds >= 0", r.Name, r.For)
 	}
-	if (r.Signal == SignalSkewIncrease || r.Signal == SignalRejectIncrease) && (r.Window <= 0 || r.Window%time.Second != 0) {
+	if r.Signal.counting() && (r.Window <= 0 || r.Window%time.Second != 0) {
 		return fmt.Errorf("alerts: rule %s: counting window %v; want whole seconds > 0", r.Name, r.Window)
+	}
+	if (r.Signal == SignalCommitFailIncrease || r.Signal == SignalBrokerConnected) && r.Clear != r.Raise {
+		return fmt.Errorf("alerts: rule %s: a service-wide signal has no structure label to hold a firing alert by; set the clearing threshold equal to the raise threshold", r.Name)
 	}
 	if r.Below && r.Clear < r.Raise || !r.Below && r.Clear > r.Raise {
 		return fmt.Errorf("alerts: rule %s: clearing threshold %v is stricter than the raise threshold %v; hysteresis needs it looser (or equal)", r.Name, r.Clear, r.Raise)
@@ -142,6 +159,10 @@ const (
 	// (2 a minute) raises; it clears when at most 2 arrived in 5 minutes.
 	RejectsRaise = 10
 	RejectsClear = 2
+	// DisconnectedFor: the broker connection must be down for a minute
+	// before BrokerDisconnected fires, so that a reconnect after a broker
+	// restart (seconds) does not raise it (common practice).
+	DisconnectedFor = time.Minute
 )
 
 // DefaultRules returns the monitor's rules with the thresholds of the
@@ -155,6 +176,10 @@ const (
 //   - ChannelSilent: no reading for more than 2 minutes.
 //   - ClockSkew: any skewed reading in the last 5 minutes.
 //   - IngestRejects: more than 10 rejections in 5 minutes; clears at <= 2.
+//   - CommitsFailing: any failed store commit of received messages in the
+//     last 5 minutes (nothing received is acknowledged or processed until
+//     its commit succeeds).
+//   - BrokerDisconnected: ingest not connected and subscribed for 1 minute.
 func DefaultRules() ([]Rule, error) {
 	kRaise, err := reconcile.CriticalW(reconcile.DefaultAlpha0)
 	if err != nil {
@@ -195,6 +220,18 @@ func DefaultRules() ([]Rule, error) {
 			Raise: RejectsRaise, Clear: RejectsClear, Window: CountWindow,
 			Summary:     "Ingest of {{ $labels.structure }} rejects payloads",
 			Description: "More payloads than the limit were rejected (dead letters) in the counting window; see the dead-letter table for the reasons.",
+		},
+		{
+			Name: "CommitsFailing", Signal: SignalCommitFailIncrease, Severity: "critical",
+			Raise: 0, Clear: 0, Window: CountWindow,
+			Summary:     "The monitor cannot store readings",
+			Description: "Store commits of received messages failed in the counting window (disk full, database locked or damaged); readings wait unacknowledged at the broker and no epoch is processed until a commit succeeds. See the service log for the error.",
+		},
+		{
+			Name: "BrokerDisconnected", Signal: SignalBrokerConnected, Severity: "critical", Below: true,
+			Raise: 1, Clear: 1, For: DisconnectedFor,
+			Summary:     "The monitor is not connected to the MQTT broker",
+			Description: "Ingest has not been connected and subscribed to the broker for the for-duration; no reading arrives. See the service log for the connection error (address, credentials, certificate).",
 		},
 	}
 	for _, r := range rules {

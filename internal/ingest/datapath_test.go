@@ -3,13 +3,16 @@ package ingest
 import (
 	"context"
 	"fmt"
+	"log/slog"
 	"os"
 	"path/filepath"
 	"sort"
+	"strings"
 	"sync"
 	"testing"
 	"time"
 
+	"trussmonitor/internal/broker"
 	"trussmonitor/internal/store"
 )
 
@@ -274,4 +277,32 @@ func TestDeadLetterGrowthBounded(t *testing.T) {
 	if fi.Size() > bound {
 		t.Errorf("database is %d bytes after %d dead letters of %d bytes; want at most %d", fi.Size(), n, size, bound)
 	}
+}
+
+// TestConnectFailureLogged: with a wrong password against the embedded
+// broker with authentication, the refusal is logged at once with the
+// broker's reason (issue 10, defect 2: no log line at all for 75 s).
+func TestConnectFailureLogged(t *testing.T) {
+	b, err := broker.Start(broker.Config{Address: "127.0.0.1:0", Users: map[string]string{"monitor": "right-password"}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer b.Close()
+	st := openStore(t, filepath.Join(t.TempDir(), "m.db"))
+	var logs safeBuffer
+	_, stop := startIngest(t, Config{Broker: "tcp://" + b.Addr(), ClientID: "wrong-password", Username: "monitor", Password: "wrong-password"}, Deps{
+		Store: st, Registries: alderRegistry(), Logger: slog.New(slog.NewTextHandler(&logs, nil)),
+	})
+	defer stop()
+	// Progress, not the wall clock: the first attempt's refusal must be
+	// logged; 60 s is a generous bound for one connection attempt.
+	deadline := time.Now().Add(60 * time.Second)
+	for time.Now().Before(deadline) {
+		if l := strings.ToLower(logs.String()); strings.Contains(l, "bad user name or password") || strings.Contains(l, "not authorized") {
+			t.Logf("logged: %s", strings.SplitN(logs.String(), "\n", 2)[0])
+			return
+		}
+		time.Sleep(20 * time.Millisecond)
+	}
+	t.Fatalf("no log line naming the refused credentials within 60 s; log:\n%s", logs.String())
 }

@@ -56,6 +56,11 @@ type Config struct {
 	// RejectCount returns the cumulative count of rejected payloads of this
 	// structure (live ingest); nil means none.
 	RejectCount func() uint64
+	// CommitFailures returns the cumulative count of failed store commits
+	// and BrokerConnected whether ingest is connected now (live ingest);
+	// nil (replay) gives those rules no value.
+	CommitFailures  func() uint64
+	BrokerConnected func() bool
 	// Observer receives late-reading counts; may be nil.
 	Observer epoch.Observer
 	// Logger logs conversion problems at a bounded rate; nil discards.
@@ -297,6 +302,13 @@ func (p *Pipeline) observation(t time.Time, res *Result) alerts.Observation {
 	o := alerts.Observation{Time: t, Structure: p.structure, SkewCount: uint64(st.Future + st.Past)}
 	if p.cfg.RejectCount != nil {
 		o.RejectCount = p.cfg.RejectCount()
+	}
+	if p.cfg.CommitFailures != nil {
+		o.CommitFailures = p.cfg.CommitFailures()
+	}
+	if p.cfg.BrokerConnected != nil {
+		c := p.cfg.BrokerConnected()
+		o.BrokerConnected = &c
 	}
 	for _, ch := range p.channels {
 		o.Channels = append(o.Channels, alerts.Channel{Channel: ch, LastReading: p.lastSeen[ch], WatchedSince: p.watched})

@@ -2,6 +2,8 @@ package service
 
 import (
 	"context"
+	"database/sql"
+	"fmt"
 	"io"
 	"log/slog"
 	"net/http"
@@ -10,6 +12,9 @@ import (
 	"testing"
 	"time"
 
+	mqtt "github.com/eclipse/paho.mqtt.golang"
+
+	"trussmonitor/internal/broker"
 	"trussmonitor/internal/config"
 	"trussmonitor/internal/store"
 )
@@ -134,6 +139,100 @@ func TestSilenceSurvivesRestart(t *testing.T) {
 	}
 	if !got["B4_a"] {
 		t.Errorf("no ChannelSilent for B4_a, which never reported since the start; raised for %v", got)
+	}
+	if err := stop(); err != nil {
+		t.Fatal(err)
+	}
+}
+
+// waitHTTP polls url until cond holds on its status and body, or fails
+// after a generous limit.
+func waitHTTP(t *testing.T, url, what string, cond func(code int, body string) bool) string {
+	t.Helper()
+	deadline := time.Now().Add(90 * time.Second)
+	var code int
+	var body string
+	for time.Now().Before(deadline) {
+		code, body = httpGet(t, url)
+		if cond(code, body) {
+			return body
+		}
+		time.Sleep(50 * time.Millisecond)
+	}
+	t.Fatalf("%s: GET %s still %d %q after 90 s", what, url, code, body)
+	return ""
+}
+
+// TestReadinessTellsThePresent: /readyz says not ready while store commits
+// fail and while the broker is gone, ready again when they recover, and the
+// metrics count commit failures and show the broker connection (issue 10,
+// defect 2: 40 s of failing commits and 60 s without a broker showed
+// "ready" and no metric).
+func TestReadinessTellsThePresent(t *testing.T) {
+	brk, err := broker.Start(broker.Config{Address: "127.0.0.1:0", AllowAnonymous: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer brk.Close()
+	dir := t.TempDir()
+	cfg := testConfig(t, dir, "readiness-test")
+	cfg.Broker.Embedded = false
+	cfg.Broker.URL = "tcp://" + brk.Addr()
+	svc, stop := startService(t, cfg, nil)
+	base := "http://" + svc.HTTPAddr()
+	ready := func(code int, _ string) bool { return code == http.StatusOK }
+	notReady := func(code int, _ string) bool { return code == http.StatusServiceUnavailable }
+	waitHTTP(t, base+"/readyz", "at start", ready)
+
+	// Commits fail: another connection holds the database's write lock.
+	lock, err := sql.Open("sqlite", cfg.Database)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer lock.Close()
+	conn, err := lock.Conn(context.Background())
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := conn.ExecContext(context.Background(), "BEGIN IMMEDIATE"); err != nil {
+		t.Fatal(err)
+	}
+	pub := mqtt.NewClient(mqtt.NewClientOptions().AddBroker("tcp://" + brk.Addr()).SetClientID("readiness-logger"))
+	if tok := pub.Connect(); !tok.WaitTimeout(10*time.Second) || tok.Error() != nil {
+		t.Fatalf("publisher: %v", tok.Error())
+	}
+	defer pub.Disconnect(50)
+	payload := fmt.Sprintf(`[{"bt":%d,"u":"/","v":1e-5}]`, time.Now().Unix())
+	pub.Publish("shm/alder-creek/B2_a", 1, false, []byte(payload)).WaitTimeout(10 * time.Second)
+	body := waitHTTP(t, base+"/readyz", "while commits fail", notReady)
+	t.Logf("commits failing: /readyz %q", body)
+	if !strings.Contains(body, "commit") {
+		t.Errorf("/readyz %q does not name the failing commits", body)
+	}
+	_, m := httpGet(t, base+"/metrics")
+	if !strings.Contains(m, "shm_ingest_commit_failures_total") || strings.Contains(m, "shm_ingest_commit_failures_total 0\n") {
+		t.Errorf("/metrics shows no commit failure")
+	}
+	if _, err := conn.ExecContext(context.Background(), "ROLLBACK"); err != nil {
+		t.Fatal(err)
+	}
+	conn.Close()
+	waitHTTP(t, base+"/readyz", "after the lock is released", ready)
+	n, err := svc.Store().CountReadings(context.Background(), "alder-creek", time.Time{}, time.Time{})
+	if err != nil || n != 1 {
+		t.Errorf("stored %d readings after the commits recovered (%v); want 1", n, err)
+	}
+
+	// The broker goes away.
+	brk.Close()
+	body = waitHTTP(t, base+"/readyz", "without a broker", notReady)
+	t.Logf("broker gone: /readyz %q", body)
+	if !strings.Contains(body, "broker") {
+		t.Errorf("/readyz %q does not name the broker", body)
+	}
+	_, m = httpGet(t, base+"/metrics")
+	if !strings.Contains(m, "shm_broker_connected 0") {
+		t.Errorf("/metrics does not show the broker disconnected")
 	}
 	if err := stop(); err != nil {
 		t.Fatal(err)
