@@ -125,7 +125,15 @@ type Evaluator struct {
 	sink  EventSink
 	mu    sync.Mutex
 	st    map[string]*structState
+
+	sinkMu   sync.Mutex // serialises storing, guards unstored
+	unstored []Event    // events the sink refused, oldest first, retried
 }
+
+// MaxUnstored bounds the events kept for a retry while the sink fails (a
+// full disk): far more than alarms raise and clear in days of a failing
+// disk. Beyond it the oldest are given up, and Observe's error says so.
+const MaxUnstored = 10_000
 
 type alarmState struct {
 	pending, firing bool
@@ -175,8 +183,11 @@ func NewEvaluator(rules []Rule, sink EventSink) (*Evaluator, error) {
 
 // Observe evaluates every rule at o.Time and returns the events (raised
 // and cleared) in rule order, then subject order. Events are also stored
-// in the sink; a sink error is returned after all events were attempted,
-// and the alarm states advance regardless.
+// in the sink, in order: an event the sink refuses (a full disk) is kept
+// and retried, with every later one, at each following Observe (or Retry)
+// until the sink takes it, so an event is never lost to a passing storage
+// failure; the error of a failed attempt is returned, and the alarm states
+// advance regardless.
 func (e *Evaluator) Observe(ctx context.Context, o Observation) ([]Event, error) {
 	if o.Structure == "" {
 		return nil, errors.New("alerts: observation without a structure name")
@@ -206,13 +217,51 @@ func (e *Evaluator) Observe(ctx context.Context, o Observation) ([]Event, error)
 	if e.sink == nil {
 		return events, nil
 	}
-	var errs []error
-	for _, ev := range events {
-		if err := e.sink.PutEvent(ctx, ev); err != nil {
-			errs = append(errs, fmt.Errorf("alerts: storing %s event of %s/%s %s: %w", ev.Kind, ev.Structure, ev.Rule, ev.Subject, err))
-		}
+	return events, e.store(ctx, events)
+}
+
+// Retry stores the events kept after a sink failure; nil when none are
+// left.
+func (e *Evaluator) Retry(ctx context.Context) error {
+	if e.sink == nil {
+		return nil
 	}
-	return events, errors.Join(errs...)
+	return e.store(ctx, nil)
+}
+
+// Unstored returns how many events wait for the sink.
+func (e *Evaluator) Unstored() int {
+	e.sinkMu.Lock()
+	defer e.sinkMu.Unlock()
+	return len(e.unstored)
+}
+
+// store appends events to the unstored ones and stores them in order,
+// stopping at the first the sink refuses.
+func (e *Evaluator) store(ctx context.Context, events []Event) error {
+	e.sinkMu.Lock()
+	defer e.sinkMu.Unlock()
+	e.unstored = append(e.unstored, events...)
+	var lost int
+	if over := len(e.unstored) - MaxUnstored; over > 0 {
+		lost = over
+		e.unstored = append(e.unstored[:0], e.unstored[over:]...)
+	}
+	done := 0
+	var err error
+	for _, ev := range e.unstored {
+		if perr := e.sink.PutEvent(ctx, ev); perr != nil {
+			err = fmt.Errorf("alerts: storing %s event of %s/%s %s (at %s): %w; %d events kept for a retry at the next evaluation",
+				ev.Kind, ev.Structure, ev.Rule, ev.Subject, ev.Time.Format(time.RFC3339), perr, len(e.unstored)-done)
+			break
+		}
+		done++
+	}
+	e.unstored = append(e.unstored[:0], e.unstored[done:]...)
+	if lost > 0 {
+		err = errors.Join(err, fmt.Errorf("alerts: %d oldest unstored events given up (more than %d waiting)", lost, MaxUnstored))
+	}
+	return err
 }
 
 // Active returns the firing alarms of structure, ordered by rule and

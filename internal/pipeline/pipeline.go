@@ -205,6 +205,13 @@ func (p *Pipeline) Tick(ctx context.Context) {
 	for _, e := range p.asm.Tick() {
 		p.process(ctx, e)
 	}
+	// Events the store refused (a full disk) are retried every tick until
+	// stored, also while no epoch closes.
+	if p.eval.Unstored() > 0 {
+		if err := p.eval.Retry(ctx); err != nil {
+			p.logOnce("alarm", "alarm events not stored yet; retrying", "structure", p.structure, "error", err)
+		}
+	}
 	if p.cfg.Clock == nil {
 		return
 	}
