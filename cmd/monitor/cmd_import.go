@@ -1,6 +1,8 @@
 package main
 
 import (
+	"bufio"
+	"compress/gzip"
 	"context"
 	"errors"
 	"flag"
@@ -29,12 +31,16 @@ const importBatch = 5000
 type importCounts struct {
 	read, stored, duplicates int
 	rejected                 map[string]int
+	first                    time.Time // earliest accepted reading
 }
 
 func (c *importCounts) add(o importCounts) {
 	c.read += o.read
 	c.stored += o.stored
 	c.duplicates += o.duplicates
+	if !o.first.IsZero() && (c.first.IsZero() || o.first.Before(c.first)) {
+		c.first = o.first
+	}
 	for k, v := range o.rejected {
 		c.rejected[k] += v
 	}
@@ -62,7 +68,8 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) int
 	maxAge := fs.Duration("max-age", 0, "refuse readings older than this before now (outside_time_window); 0: no limit (an import is the way to load a backlog)")
 	fs.Usage = func() {
 		fmt.Fprintln(stderr, "usage: monitor import --db FILE --structure FILE --sensors FILE CSVFILE...")
-		fmt.Fprintln(stderr, "Imports logger CSV files (format: docs/payloads.md) into the reading store.")
+		fmt.Fprintln(stderr, "Imports logger CSV files (format: docs/payloads.md; gzip-compressed files too) into the reading store,")
+		fmt.Fprintln(stderr, "and stores the structure file as the model version in force from the earliest reading.")
 		fs.PrintDefaults()
 	}
 	if err := fs.Parse(args); err != nil {
@@ -93,7 +100,12 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) int
 		return 2
 	}
 
-	st, err := structfile.LoadFile(*structPath)
+	content, err := os.ReadFile(*structPath)
+	if err != nil {
+		fmt.Fprintf(stderr, "monitor import: structure file: %v\n", err)
+		return 1
+	}
+	st, err := structfile.Parse(*structPath, content)
 	if err != nil {
 		fmt.Fprintf(stderr, "monitor import: %v\n", err)
 		return 1
@@ -147,6 +159,18 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) int
 	if len(files) > 1 {
 		fmt.Fprintf(stdout, "total: %s\n", total.summary())
 	}
+	// The model the readings were imported against, in force from the
+	// earliest of them: monitor replay of this store finds it and needs
+	// no --structure.
+	if !total.first.IsZero() {
+		hash, err := db.PutModel(context.WithoutCancel(ctx), st.Name, content, total.first)
+		if err != nil {
+			fmt.Fprintf(stderr, "monitor import: storing the model version: %v\n", err)
+			return 1
+		}
+		fmt.Fprintf(stdout, "model: %s of %s (%s) stored as in force from %s; monitor replay of this store needs no --structure\n",
+			hash[:12], st.Name, *structPath, total.first.UTC().Format(time.RFC3339))
+	}
 	if failed > 0 {
 		fmt.Fprintf(stderr, "monitor import: %d of %d files stopped at an error; the readings before it are stored\n", failed, len(files))
 		return 1
@@ -188,6 +212,18 @@ func importFile(ctx context.Context, db *store.Store, m *sensors.Map, lim ingest
 	}
 	cr := &countingReader{r: f}
 	bar := newProgressBar(progress, path, size)
+	// A gzip file (as the recorded day ships) is read through gunzip,
+	// recognised by its magic bytes 1f 8b (RFC 1952 section 2.3.1).
+	br := bufio.NewReader(cr)
+	var src io.Reader = br
+	if magic, _ := br.Peek(2); len(magic) == 2 && magic[0] == 0x1f && magic[1] == 0x8b {
+		zr, err := gzip.NewReader(br)
+		if err != nil {
+			return c, fmt.Errorf("gzip: %w", err)
+		}
+		defer zr.Close()
+		src = zr
+	}
 
 	readings := make([]store.Reading, 0, batch)
 	var lines []int // CSV line of each reading
@@ -226,7 +262,7 @@ func importFile(ctx context.Context, db *store.Store, m *sensors.Map, lim ingest
 		bar.update(cr.n, c.read)
 		return nil
 	}
-	_, readErr := csvimport.Read(cr, func(r csvimport.Record) error {
+	_, readErr := csvimport.Read(src, func(r csvimport.Record) error {
 		c.read++
 		now := time.Now().UTC()
 		rd, rej := ingest.Admit(lim, m, r.Channel, r.Unit, r.Time, r.Value, now)
@@ -240,6 +276,9 @@ func importFile(ctx context.Context, db *store.Store, m *sensors.Map, lim ingest
 		} else {
 			readings = append(readings, rd)
 			lines = append(lines, r.Line)
+			if c.first.IsZero() || rd.Time.Before(c.first) {
+				c.first = rd.Time
+			}
 		}
 		if len(readings)+len(dead) >= batch {
 			if err := ctx.Err(); err != nil {

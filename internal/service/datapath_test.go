@@ -3,6 +3,7 @@ package service
 import (
 	"context"
 	"database/sql"
+	"encoding/json"
 	"fmt"
 	"io"
 	"log/slog"
@@ -233,6 +234,47 @@ func TestReadinessTellsThePresent(t *testing.T) {
 	_, m = httpGet(t, base+"/metrics")
 	if !strings.Contains(m, "shm_broker_connected 0") {
 		t.Errorf("/metrics does not show the broker disconnected")
+	}
+	if err := stop(); err != nil {
+		t.Fatal(err)
+	}
+}
+
+// TestDeadLetterAPI: GET /api/dead-letters lists what the service
+// rejected, with time, topic, reason and excerpt, filtered by reason
+// (issue 10, defect 12).
+func TestDeadLetterAPI(t *testing.T) {
+	cfg := testConfig(t, t.TempDir(), "dead-letter-api")
+	svc, stop := startService(t, cfg, nil)
+	ctx := context.Background()
+	waitSubscribed(t, ctx, svc) // publishes "probe, not JSON" until it is dead-lettered
+	base := "http://" + svc.HTTPAddr()
+	code, body := httpGet(t, base+"/api/dead-letters")
+	if code != http.StatusOK {
+		t.Fatalf("GET /api/dead-letters: %d %s", code, body)
+	}
+	var got struct {
+		DeadLetters []struct {
+			Received string `json:"received"`
+			Repeats  int64  `json:"repeats"`
+			Topic    string `json:"topic"`
+			Reason   string `json:"reason"`
+			Excerpt  string `json:"excerpt"`
+			Size     int    `json:"payload_bytes"`
+		} `json:"dead_letters"`
+	}
+	if err := json.Unmarshal([]byte(body), &got); err != nil {
+		t.Fatal(err)
+	}
+	if len(got.DeadLetters) == 0 || got.DeadLetters[0].Topic != "shm/alder-creek" || got.DeadLetters[0].Reason != "malformed_json" ||
+		got.DeadLetters[0].Excerpt != "probe, not JSON" || got.DeadLetters[0].Size != len("probe, not JSON") || got.DeadLetters[0].Received == "" {
+		t.Errorf("dead letters %s", body)
+	}
+	if _, body := httpGet(t, base+"/api/dead-letters?reason=unknown_structure"); strings.Contains(body, "malformed_json") {
+		t.Errorf("reason filter: %s", body)
+	}
+	if code, body := httpGet(t, base+"/api/dead-letters?limit=0"); code != http.StatusBadRequest || !strings.Contains(body, "limit") {
+		t.Errorf("limit=0: %d %s", code, body)
 	}
 	if err := stop(); err != nil {
 		t.Fatal(err)

@@ -265,7 +265,7 @@ func (s *Service) Start(ctx context.Context) error {
 	mux.Handle("/metrics", mh)
 	mux.Handle("/healthz", mh)
 	mux.Handle("/readyz", mh)
-	mux.Handle("/", dashboard.New(s.live, dashboard.Options{Now: s.clock}))
+	mux.Handle("/", dashboard.New(s.live, dashboard.Options{Now: s.clock, DeadLetters: deadLetterSource{s.store}}))
 	s.httpSrv = &http.Server{Handler: mux, ReadHeaderTimeout: 10 * time.Second}
 	go func() {
 		if err := s.httpSrv.Serve(ln); err != nil && !errors.Is(err, http.ErrServerClosed) {
@@ -502,6 +502,23 @@ func (o *observer) Rejected(structure, reason string) {
 	if c := o.rejects[structure]; c != nil {
 		c.Add(1)
 	}
+}
+
+// deadLetterSource lists the store's dead letters for the dashboard API.
+type deadLetterSource struct{ st *store.Store }
+
+// DeadLetters lists dead letters first received in [from, to).
+func (d deadLetterSource) DeadLetters(from, to time.Time, reason string, limit int) ([]dashboard.DeadLetter, error) {
+	ds, err := d.st.ListDeadLetters(context.Background(), store.DeadLetterFilter{From: from, To: to, Reason: reason, Limit: limit})
+	if err != nil {
+		return nil, err
+	}
+	out := make([]dashboard.DeadLetter, len(ds))
+	for i, x := range ds {
+		out[i] = dashboard.DeadLetter{Received: x.Received, LastReceived: x.LastReceived, Repeats: x.Repeats, Topic: x.Topic,
+			Reason: x.Reason, Detail: x.Detail, Size: x.Size, Excerpt: x.Payload}
+	}
+	return out, nil
 }
 
 // eventSink stores alarm events in the store.
