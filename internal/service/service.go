@@ -140,7 +140,7 @@ func New(cfg *config.Config, opt Options) (*Service, error) {
 		}
 	}
 	s.rules = rules
-	st, err := store.Open(cfg.Database, store.Options{})
+	st, err := store.Open(cfg.Database, store.Options{MaxDeadLetters: cfg.Ingest.MaxDeadLetters})
 	if err != nil {
 		return nil, fmt.Errorf("%s: database: %w", cfg.File, err)
 	}
@@ -291,6 +291,7 @@ func (s *Service) Start(ctx context.Context) error {
 		Broker: url, ClientID: s.cfg.Broker.ClientID, Username: s.cfg.Broker.Username, Password: s.cfg.Broker.Password,
 		CAFile: s.cfg.Broker.TLS.CAFile, CertFile: s.cfg.Broker.TLS.CertFile, KeyFile: s.cfg.Broker.TLS.KeyFile,
 		MaxPayload: s.cfg.Broker.MaxPayloadBytes,
+		MaxAhead:   s.cfg.Ingest.MaxAhead.D(), MaxBehind: s.cfg.Ingest.MaxBehind.D(),
 	}, deps)
 	if err != nil {
 		return fmt.Errorf("%s: broker: %w", s.cfg.File, err)
