@@ -36,6 +36,14 @@ const (
 	ReasonInvalidReading   Reason = "invalid_reading"
 )
 
+// OwnReasons returns ingest's own reason codes (README.md lists them with
+// the decoder's and the sensor map's).
+func OwnReasons() []Reason {
+	return []Reason{ReasonOversized, ReasonBadTopic, ReasonUnknownStructure, ReasonUnknownChannel, ReasonNameMismatch,
+		ReasonMissingName, ReasonAbsurdMagnitude, ReasonNotFinite, ReasonRelativeTime, ReasonTimeRange, ReasonOutsideWindow,
+		ReasonConflicting, ReasonEmptyPack}
+}
+
 // UnknownStructureLabel is the structure label under which messages for
 // structures that are not configured (and topics that match none of the
 // subscriptions) are counted, so that a publisher cannot create label

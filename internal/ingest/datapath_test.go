@@ -306,3 +306,67 @@ func TestConnectFailureLogged(t *testing.T) {
 	}
 	t.Fatalf("no log line naming the refused credentials within 60 s; log:\n%s", logs.String())
 }
+
+// TestPackPerRecord: a pack is accepted per record, as README.md and
+// docs/api.md say: the good records are stored, the bad ones become one dead
+// letter per reason, and the message is counted as stored (issue 10,
+// defect 6: the README said a pack is accepted or refused whole).
+func TestPackPerRecord(t *testing.T) {
+	b := embeddedBroker(t)
+	st := openStore(t, filepath.Join(t.TempDir(), "m.db"))
+	obs := newCountingObserver()
+	in, stop := startIngest(t, Config{Broker: "tcp://" + b.Addr(), ClientID: "pack"}, Deps{Store: st, Registries: alderRegistry(), Observer: obs})
+	waitSubscribed(t, in)
+	pub := newPublisher(t, b.Addr(), "pack-pub")
+	ts := senmlTime(time.Now())
+	pub.publish("shm/alder-creek", []byte(`[{"bt":`+ts+`,"n":"g01","u":"/","v":1},{"n":"g02","u":"/","v":2},{"n":"t1","u":"Cel","v":400}]`))
+	waitCount(t, st, "alder-creek", 2, 30*time.Second)
+	waitDeadLetters(t, st, 1)
+	if err := stop(); err != nil {
+		t.Fatal(err)
+	}
+	ds, _ := st.ListDeadLetters(context.Background(), store.DeadLetterFilter{})
+	if len(ds) != 1 || ds[0].Reason != "out_of_range" || !strings.Contains(ds[0].Detail, "1 of 3 records rejected") {
+		t.Errorf("dead letters %+v; want one out_of_range naming 1 of 3 records", ds)
+	}
+	msgs, rds, _ := obs.snapshot()
+	if msgs[OutcomeStored] != 1 || rds[OutcomeStored] != 2 || rds[OutcomeRejected] != 1 {
+		t.Errorf("messages %v, readings %v; want 1 message stored, 2 readings stored, 1 rejected", msgs, rds)
+	}
+}
+
+// TestReadmeStatesTheGuarantees: the README says packs are accepted per
+// record and lists every reason code of ingest, the SenML decoder and the
+// sensor map, and the 64 KiB payload limit (issue 10, defects 6 and the
+// documentation of the reason codes).
+func TestReadmeStatesTheGuarantees(t *testing.T) {
+	b, err := os.ReadFile("../../README.md")
+	if err != nil {
+		t.Fatal(err)
+	}
+	readme := string(b)
+	if strings.Contains(readme, "accepted or refused whole") || !strings.Contains(readme, "Packs are accepted per record") {
+		t.Error("README.md does not say that packs are accepted per record")
+	}
+	codes := []string{"malformed_json", "bad_record", "bad_name", "bad_time", "unsupported_field", "unit_mismatch", "out_of_range"}
+	for _, r := range OwnReasons() {
+		codes = append(codes, string(r))
+	}
+	for _, c := range codes {
+		if !strings.Contains(readme, "| `"+c+"` |") {
+			t.Errorf("README.md's reason table lacks %s", c)
+		}
+	}
+	for _, w := range []string{"64 KiB", "1 KiB", "10 minutes ahead of, or 30 days behind", "0.24 us"} {
+		if !strings.Contains(readme, w) {
+			t.Errorf("README.md does not state %q", w)
+		}
+	}
+	api, err := os.ReadFile("../../docs/api.md")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !strings.Contains(string(api), "GET /api/dead-letters") {
+		t.Error("docs/api.md does not describe GET /api/dead-letters")
+	}
+}
