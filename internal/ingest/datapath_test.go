@@ -229,6 +229,20 @@ func TestUnknownStructureOneLabel(t *testing.T) {
 	if got := obs.labels(); len(got) != 2 || got[0] != UnknownStructureLabel || got[1] != "alder-creek" {
 		t.Errorf("structure label values %q; want only %q and alder-creek", got, UnknownStructureLabel)
 	}
+	// A topic that matches none of the subscriptions (a session subscribed
+	// to more by an earlier program, or a broker bridge) reaches the
+	// default handler: counted as bad_topic under the same one label.
+	lo := newLabelObserver()
+	in2, err := New(Config{Broker: "tcp://127.0.0.1:1", ClientID: "decode-only"}, Deps{Store: st, Registries: alderRegistry(), Observer: lo})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, topic := range []string{"shm/alder-creek/g00/extra", "other/alder-creek/g00", "shm//g00"} {
+		m := in2.decode(received{msg: fakeMessage{topic, []byte(`[{"v":1}]`)}, at: time.Now()})
+		if len(m.dead) != 1 || m.dead[0].Reason != string(ReasonBadTopic) || m.structure != UnknownStructureLabel {
+			t.Errorf("topic %s: structure label %q, dead letters %+v; want one bad_topic under %q", topic, m.structure, m.dead, UnknownStructureLabel)
+		}
+	}
 }
 
 // TestDeadLetterGrowthBounded: 1,000 malformed 60 KB messages grow the

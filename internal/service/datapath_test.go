@@ -10,6 +10,7 @@ import (
 	"net/http"
 	"path/filepath"
 	"strings"
+	"sync"
 	"testing"
 	"time"
 
@@ -17,6 +18,7 @@ import (
 
 	"trussmonitor/internal/broker"
 	"trussmonitor/internal/config"
+	"trussmonitor/internal/pipeline"
 	"trussmonitor/internal/store"
 )
 
@@ -278,5 +280,41 @@ func TestDeadLetterAPI(t *testing.T) {
 	}
 	if err := stop(); err != nil {
 		t.Fatal(err)
+	}
+}
+
+// TestReadinessSeesStalledEpochs: readings keep arriving at a pipeline that
+// closes no epoch; after the stall limit /readyz's condition names it
+// (issue 10, defect 2: "epochs flowing").
+func TestReadinessSeesStalledEpochs(t *testing.T) {
+	cfg := testConfig(t, t.TempDir(), "stall-test")
+	var mu sync.Mutex
+	now := time.Date(2026, 6, 1, 12, 0, 0, 0, time.UTC)
+	clock := func() time.Time { mu.Lock(); defer mu.Unlock(); return now }
+	svc, err := New(cfg, Options{Logger: slog.New(slog.NewTextHandler(io.Discard, nil)), Clock: clock})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer svc.Close()
+	if err := svc.Start(context.Background()); err != nil {
+		t.Fatal(err)
+	}
+	p := svc.Pipeline("alder-creek")
+	stall := svc.epochStall()
+	// One channel, one logger time: its epoch stays open (no Tick flushes
+	// it), so readings arrive and no epoch closes.
+	reading := []pipeline.Reading{{Channel: "B2_a", Time: now, Value: 1e-5}}
+	for step := time.Duration(0); step <= 2*stall; step += stall / 4 {
+		mu.Lock()
+		now = now.Add(stall / 4)
+		mu.Unlock()
+		p.Feed(context.Background(), reading)
+		svc.trackFlows(clock())
+		err := svc.ready()
+		stalled := err != nil && strings.Contains(err.Error(), "no epoch closed")
+		// step is the time since the first reading was noted.
+		if want := step > stall; stalled != want {
+			t.Errorf("after %s of readings without an epoch: readiness %v; want the stall named: %v", step, err, want)
+		}
 	}
 }
