@@ -237,6 +237,17 @@ func TestReadinessTellsThePresent(t *testing.T) {
 	if !strings.Contains(m, "shm_broker_connected 0") {
 		t.Errorf("/metrics does not show the broker disconnected")
 	}
+	// The broker returns on the same address: ready again, one reconnect.
+	brk2, err := broker.Start(broker.Config{Address: brk.Addr(), AllowAnonymous: true})
+	if err != nil {
+		t.Fatalf("restarting the broker on %s: %v", brk.Addr(), err)
+	}
+	defer brk2.Close()
+	waitHTTP(t, base+"/readyz", "after the broker returned", ready)
+	_, m = httpGet(t, base+"/metrics")
+	if !strings.Contains(m, "shm_broker_connected 1") || !strings.Contains(m, "shm_broker_reconnects_total 1") {
+		t.Errorf("/metrics after the broker returned lacks shm_broker_connected 1 and shm_broker_reconnects_total 1")
+	}
 	if err := stop(); err != nil {
 		t.Fatal(err)
 	}
