@@ -117,11 +117,11 @@ func Expr(r Rule, s string) string {
 		sig = increaseExpr(metrics.IngestRejections+sel, r.Window)
 		on = "structure"
 	case SignalCommitFailIncrease:
-		// Service-wide counter (no structure label): one ingest serves
-		// every structure of the instance.
-		sig = globalIncreaseExpr(metrics.CommitFailures, r.Window)
+		sig = increaseExpr(metrics.CommitFailures+sel, r.Window)
+		on = "structure"
 	case SignalBrokerConnected:
-		sig = metrics.BrokerConnected
+		sig = metrics.BrokerConnected + sel
+		on = "structure"
 	}
 	op := ">"
 	if r.Below {
@@ -141,12 +141,6 @@ func increaseExpr(sel string, w time.Duration) string {
 	cur := "sum by (structure) (" + sel + ")"
 	old := "sum by (structure) (" + sel + " offset " + promDuration(w) + ")"
 	return fmt.Sprintf("%s - (%s or %s * 0)", cur, old, cur)
-}
-
-// globalIncreaseExpr is the increase over w of a counter without labels
-// of ours, with a missing old value taken as 0.
-func globalIncreaseExpr(name string, w time.Duration) string {
-	return fmt.Sprintf("%s - (%s offset %s or %s * 0)", name, name, promDuration(w), name)
 }
 
 func num(v float64) string { return strconv.FormatFloat(v, 'g', -1, 64) }

@@ -341,8 +341,8 @@ func promtoolTestFile(t *testing.T, rules []Rule, sc scenario, firing [][]Alarm)
 	for _, r := range sortedKeys(sc.rejects) {
 		tc.Input = append(tc.Input, series{fmt.Sprintf(`shm_ingest_rejections_total{%s, reason=%q}`, st, r), seriesValues(sc.rejects[r])})
 	}
-	tc.Input = append(tc.Input, series{"shm_ingest_commit_failures_total", seriesValues(sc.commits)},
-		series{"shm_broker_connected", seriesValues(sc.connected)})
+	tc.Input = append(tc.Input, series{fmt.Sprintf(`shm_ingest_commit_failures_total{%s}`, st), seriesValues(sc.commits)},
+		series{fmt.Sprintf(`shm_broker_connected{%s}`, st), seriesValues(sc.connected)})
 	n := 0
 	for k := 0; k < sc.minutes; k++ {
 		for _, r := range rules {

@@ -42,10 +42,11 @@ const (
 	// letters) counted in the last Window.
 	SignalRejectIncrease
 	// SignalCommitFailIncrease is the number of failed store commits of
-	// received messages counted in the last Window (service-wide).
+	// received messages counted in the last Window (one ingest serves every
+	// structure of an instance; each counts it).
 	SignalCommitFailIncrease
 	// SignalBrokerConnected is 1 while ingest is connected to the broker
-	// and subscribed, 0 while not (service-wide; no value in replay).
+	// and subscribed, 0 while not (no value in replay).
 	SignalBrokerConnected
 )
 
@@ -131,9 +132,6 @@ func (r Rule) Validate() error {
 	}
 	if r.Signal.counting() && (r.Window <= 0 || r.Window%time.Second != 0) {
 		return fmt.Errorf("alerts: rule %s: counting window %v; want whole seconds > 0", r.Name, r.Window)
-	}
-	if (r.Signal == SignalCommitFailIncrease || r.Signal == SignalBrokerConnected) && r.Clear != r.Raise {
-		return fmt.Errorf("alerts: rule %s: a service-wide signal has no structure label to hold a firing alert by; set the clearing threshold equal to the raise threshold", r.Name)
 	}
 	if r.Below && r.Clear < r.Raise || !r.Below && r.Clear > r.Raise {
 		return fmt.Errorf("alerts: rule %s: clearing threshold %v is stricter than the raise threshold %v; hysteresis needs it looser (or equal)", r.Name, r.Clear, r.Raise)
@@ -224,13 +222,13 @@ func DefaultRules() ([]Rule, error) {
 		{
 			Name: "CommitsFailing", Signal: SignalCommitFailIncrease, Severity: "critical",
 			Raise: 0, Clear: 0, Window: CountWindow,
-			Summary:     "The monitor cannot store readings",
+			Summary:     "The monitor cannot store readings of {{ $labels.structure }}",
 			Description: "Store commits of received messages failed in the counting window (disk full, database locked or damaged); readings wait unacknowledged at the broker and no epoch is processed until a commit succeeds. See the service log for the error.",
 		},
 		{
 			Name: "BrokerDisconnected", Signal: SignalBrokerConnected, Severity: "critical", Below: true,
 			Raise: 1, Clear: 1, For: DisconnectedFor,
-			Summary:     "The monitor is not connected to the MQTT broker",
+			Summary:     "The monitor of {{ $labels.structure }} is not connected to the MQTT broker",
 			Description: "Ingest has not been connected and subscribed to the broker for the for-duration; no reading arrives. See the service log for the connection error (address, credentials, certificate).",
 		},
 	}

@@ -66,8 +66,9 @@ type Metrics struct {
 	latency                                                  *prometheus.HistogramVec
 	alarms                                                   *prometheus.GaugeVec
 	dropped                                                  prometheus.Counter
-	deadDropped, commitFailures, reconnects                  prometheus.Counter
-	connected                                                prometheus.Gauge
+	deadDropped                                              prometheus.Counter
+	commitFailures, reconnects                               *prometheus.CounterVec
+	connected                                                *prometheus.GaugeVec
 
 	cMessages, cReadings, cRejections, cEpochs, cSkew *children[prometheus.Counter]
 	cLatency                                          *children[prometheus.Observer]
@@ -127,12 +128,9 @@ func New(reg prometheus.Registerer) (*Metrics, error) {
 		dropped: prometheus.NewCounter(prometheus.CounterOpts{Name: BrokerDroppedMessage, Help: "Messages the embedded broker dropped (in-flight or queue limits)."}),
 		deadDropped: prometheus.NewCounter(prometheus.CounterOpts{Name: DeadLettersDropped,
 			Help: "Oldest dead letters deleted to keep the dead-letter table under its row cap."}),
-		commitFailures: prometheus.NewCounter(prometheus.CounterOpts{Name: CommitFailures,
-			Help: "Failed store commits of received messages (each retried; nothing is acknowledged before its commit)."}),
-		reconnects: prometheus.NewCounter(prometheus.CounterOpts{Name: BrokerReconnects,
-			Help: "Connections to the MQTT broker after the first (each follows a lost connection)."}),
-		connected: prometheus.NewGauge(prometheus.GaugeOpts{Name: BrokerConnected,
-			Help: "1 while ingest is connected to the MQTT broker and subscribed, else 0."}),
+		commitFailures: c(CommitFailures, "Failed store commits of received messages (each retried; nothing is acknowledged before its commit), counted for every structure of the instance.", st),
+		reconnects:     c(BrokerReconnects, "Connections to the MQTT broker after the first (each follows a lost connection), for every structure of the instance.", st),
+		connected:      g(BrokerConnected, "1 while the ingest of the structure's instance is connected to the MQTT broker and subscribed, else 0.", st),
 	}
 	two := func(v *prometheus.CounterVec) *children[prometheus.Counter] {
 		return newChildren(func(a, b string) prometheus.Counter { return v.WithLabelValues(a, b) })
@@ -236,21 +234,31 @@ func (m *Metrics) DeadLettersDropped(n int) {
 	}
 }
 
-// CommitFailed counts one failed store commit (ingest.Observer).
-func (m *Metrics) CommitFailed() { m.commitFailures.Inc() }
+// IngestOf creates the ingest-state series of structure at their zero
+// values (not connected, no failure, no reconnect), so that they exist from
+// the start and a counter's increase is measured from 0.
+func (m *Metrics) IngestOf(structure string) {
+	m.commitFailures.WithLabelValues(structure)
+	m.reconnects.WithLabelValues(structure)
+	m.connected.WithLabelValues(structure).Set(0)
+}
 
-// BrokerConnection records the broker connection state (ingest.Observer):
-// connected and subscribed (true), or lost (false). reconnect is true for
-// a connection after the first.
-func (m *Metrics) BrokerConnection(connected, reconnect bool) {
+// CommitFailed counts one failed store commit for structure (one ingest
+// serves every structure of an instance: the caller counts it for each).
+func (m *Metrics) CommitFailed(structure string) { m.commitFailures.WithLabelValues(structure).Inc() }
+
+// BrokerConnection records the broker connection state for structure:
+// connected and subscribed (true), or lost (false); reconnect is true for a
+// connection after the first.
+func (m *Metrics) BrokerConnection(structure string, connected, reconnect bool) {
 	if connected {
-		m.connected.Set(1)
+		m.connected.WithLabelValues(structure).Set(1)
 		if reconnect {
-			m.reconnects.Inc()
+			m.reconnects.WithLabelValues(structure).Inc()
 		}
 		return
 	}
-	m.connected.Set(0)
+	m.connected.WithLabelValues(structure).Set(0)
 }
 
 // ClockSkew counts n readings with a skewed logger clock.

@@ -213,7 +213,7 @@ func TestReadinessTellsThePresent(t *testing.T) {
 		t.Errorf("/readyz %q does not name the failing commits", body)
 	}
 	_, m := httpGet(t, base+"/metrics")
-	if !strings.Contains(m, "shm_ingest_commit_failures_total") || strings.Contains(m, "shm_ingest_commit_failures_total 0\n") {
+	if !strings.Contains(m, `shm_ingest_commit_failures_total{structure="alder-creek"}`) || strings.Contains(m, `shm_ingest_commit_failures_total{structure="alder-creek"} 0`+"\n") {
 		t.Errorf("/metrics shows no commit failure")
 	}
 	if _, err := conn.ExecContext(context.Background(), "ROLLBACK"); err != nil {
@@ -234,7 +234,7 @@ func TestReadinessTellsThePresent(t *testing.T) {
 		t.Errorf("/readyz %q does not name the broker", body)
 	}
 	_, m = httpGet(t, base+"/metrics")
-	if !strings.Contains(m, "shm_broker_connected 0") {
+	if !strings.Contains(m, `shm_broker_connected{structure="alder-creek"} 0`) {
 		t.Errorf("/metrics does not show the broker disconnected")
 	}
 	// The broker returns on the same address: ready again, one reconnect.
@@ -245,7 +245,7 @@ func TestReadinessTellsThePresent(t *testing.T) {
 	defer brk2.Close()
 	waitHTTP(t, base+"/readyz", "after the broker returned", ready)
 	_, m = httpGet(t, base+"/metrics")
-	if !strings.Contains(m, "shm_broker_connected 1") || !strings.Contains(m, "shm_broker_reconnects_total 1") {
+	if !strings.Contains(m, `shm_broker_connected{structure="alder-creek"} 1`) || !strings.Contains(m, `shm_broker_reconnects_total{structure="alder-creek"} 1`) {
 		t.Errorf("/metrics after the broker returned lacks shm_broker_connected 1 and shm_broker_reconnects_total 1")
 	}
 	if err := stop(); err != nil {

@@ -201,6 +201,7 @@ func (s *Service) addStructure(mon *Monitored) error {
 	}
 	start := s.clock()
 	p.Seed(last, start)
+	s.met.IngestOf(name)
 	for _, ch := range mon.Sensors.Channels() {
 		s.met.WatchedSince(name, ch.ID, start)
 		if t, ok := last[ch.ID]; ok {
@@ -491,10 +492,20 @@ type observer struct {
 	commitFailures atomic.Uint64
 }
 
-// CommitFailed counts a failed commit.
+// CommitFailed counts a failed commit, for every structure (one ingest
+// serves them all).
 func (o *observer) CommitFailed() {
-	o.Metrics.CommitFailed()
+	for name := range o.rejects {
+		o.Metrics.CommitFailed(name)
+	}
 	o.commitFailures.Add(1)
+}
+
+// BrokerConnection records the connection state for every structure.
+func (o *observer) BrokerConnection(connected, reconnect bool) {
+	for name := range o.rejects {
+		o.Metrics.BrokerConnection(name, connected, reconnect)
+	}
 }
 
 // Rejected counts a rejection.
