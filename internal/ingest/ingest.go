@@ -608,6 +608,8 @@ func (in *Ingester) reconnect() {
 		return
 	}
 	in.log.Warn("reconnecting to have the broker redeliver messages left unacknowledged on queue overflow")
+	in.live.Store(false)
+	in.obs.BrokerConnection(false, false)
 	in.client.Disconnect(1000)
 	in.client.Connect()
 }
