@@ -384,3 +384,35 @@ func TestReadmeStatesTheGuarantees(t *testing.T) {
 		t.Error("docs/api.md does not describe GET /api/dead-letters")
 	}
 }
+
+// TestDeadLetterCapCounted: above the store's cap the oldest dead letters
+// are dropped, and ingest reports how many (shm_dead_letters_dropped_total).
+func TestDeadLetterCapCounted(t *testing.T) {
+	b := embeddedBroker(t)
+	st, err := store.Open(filepath.Join(t.TempDir(), "m.db"), store.Options{MaxDeadLetters: 10})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer st.Close()
+	obs := newCountingObserver()
+	in, stop := startIngest(t, Config{Broker: "tcp://" + b.Addr(), ClientID: "cap"}, Deps{Store: st, Registries: alderRegistry(), Observer: obs})
+	waitSubscribed(t, in)
+	pub := newPublisher(t, b.Addr(), "cap-pub")
+	for i := range 30 {
+		pub.publish("shm/alder-creek/g00", fmt.Appendf(nil, "not JSON %d", i))
+	}
+	deadline := time.Now().Add(30 * time.Second)
+	for in.Stats().Messages < 30 && time.Now().Before(deadline) {
+		time.Sleep(20 * time.Millisecond)
+	}
+	if err := stop(); err != nil {
+		t.Fatal(err)
+	}
+	ds, _ := st.ListDeadLetters(context.Background(), store.DeadLetterFilter{})
+	obs.mu.Lock()
+	dropped := obs.deadDropped
+	obs.mu.Unlock()
+	if len(ds) != 10 || dropped != 20 || string(ds[0].Payload) != "not JSON 20" {
+		t.Errorf("%d dead letters kept (oldest %q), %d reported dropped; want 10 kept from \"not JSON 20\", 20 dropped", len(ds), ds[0].Payload, dropped)
+	}
+}

@@ -22,6 +22,8 @@ type countingObserver struct {
 	rejected map[string]int
 	last     map[string]time.Time
 	dropped  int
+	// deadDropped counts dead letters dropped at the store's cap.
+	deadDropped int
 }
 
 func newCountingObserver() *countingObserver {
@@ -56,7 +58,11 @@ func (o *countingObserver) BrokerDropped(n int) {
 	o.mu.Unlock()
 }
 
-func (o *countingObserver) DeadLettersDropped(n int)   {}
+func (o *countingObserver) DeadLettersDropped(n int) {
+	o.mu.Lock()
+	o.deadDropped += n
+	o.mu.Unlock()
+}
 func (o *countingObserver) CommitFailed()              {}
 func (o *countingObserver) BrokerConnection(c, r bool) {}
 
