@@ -103,7 +103,10 @@ func TestSilenceSurvivesRestart(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if _, err := st.InsertReadings(context.Background(), "alder-creek", []store.Reading{{Channel: "B2_a", Time: last, Value: 1e-5}}); err != nil {
+	// B2_b also has a reading stamped 2255, stored by an earlier version
+	// without the time window: it must not hold B2_b's silence off.
+	if _, err := st.InsertReadings(context.Background(), "alder-creek", []store.Reading{{Channel: "B2_a", Time: last, Value: 1e-5},
+		{Channel: "B2_b", Time: last, Value: 1e-5}, {Channel: "B2_b", Time: time.Date(2255, 1, 1, 0, 0, 0, 0, time.UTC), Value: 1e-5}}); err != nil {
 		t.Fatal(err)
 	}
 	st.Close()
@@ -132,13 +135,16 @@ func TestSilenceSurvivesRestart(t *testing.T) {
 	var got map[string]bool
 	for time.Now().Before(deadline) {
 		got = raised()
-		if got["B2_a"] && got["B4_a"] {
+		if got["B2_a"] && got["B2_b"] && got["B4_a"] {
 			break
 		}
 		time.Sleep(100 * time.Millisecond)
 	}
 	if !got["B2_a"] {
 		t.Errorf("no ChannelSilent for B2_a, silent since %s before the start; raised for %v", last, got)
+	}
+	if !got["B2_b"] {
+		t.Errorf("no ChannelSilent for B2_b, whose last plausible reading is %s (and one stamped 2255); raised for %v", last, got)
 	}
 	if !got["B4_a"] {
 		t.Errorf("no ChannelSilent for B4_a, which never reported since the start; raised for %v", got)

@@ -195,11 +195,17 @@ func (s *Service) addStructure(mon *Monitored) error {
 	}
 	// Silence survives a restart: the last stored reading of each channel
 	// (one query), and watching begins now for channels with none.
-	last, err := s.store.LastReadings(ctx, name)
+	// Readings beyond the window ahead (stored by an earlier version) are
+	// left out: they would hold the silence alarm off for ever.
+	start := s.clock()
+	ahead := s.cfg.Ingest.MaxAhead.D()
+	if ahead <= 0 {
+		ahead = ingest.DefaultMaxAhead
+	}
+	last, err := s.store.LastReadings(ctx, name, start.Add(ahead))
 	if err != nil {
 		return fmt.Errorf("structure %q: %w", name, err)
 	}
-	start := s.clock()
 	p.Seed(last, start)
 	s.met.IngestOf(name)
 	for _, ch := range mon.Sensors.Channels() {

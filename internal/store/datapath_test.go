@@ -151,8 +151,16 @@ func TestMigrationOfDeadLetters(t *testing.T) {
 	if ds, _ := s.ListDeadLetters(ctx, DeadLetterFilter{}); len(ds) != 2 || ds[1].Repeats != 2 {
 		t.Errorf("after two new identical dead letters: %d rows; want the old row and one new with 2 repeats", len(ds))
 	}
-	last, err := s.LastReadings(ctx, "alder-creek")
+	last, err := s.LastReadings(ctx, "alder-creek", time.Time{})
 	if err != nil || !last["g1"].Equal(t0) {
 		t.Errorf("last readings after upgrade %v, %v", last, err)
+	}
+	// A reading from the future stored by an earlier version is left out
+	// below the bound.
+	if _, err := s.InsertReadings(ctx, "alder-creek", []Reading{{"g1", time.Date(2255, 1, 1, 0, 0, 0, 0, time.UTC), 1}}); err != nil {
+		t.Fatal(err)
+	}
+	if last, _ := s.LastReadings(ctx, "alder-creek", t0.Add(time.Hour)); !last["g1"].Equal(t0) {
+		t.Errorf("last reading below %s: %v; want %s", t0.Add(time.Hour), last["g1"], t0)
 	}
 }

@@ -624,12 +624,14 @@ func (s *Store) nextTime(ctx context.Context, ids []int64, from, to int64) (int6
 }
 
 // LastReadings returns the time of the latest stored reading of every
-// channel of structure, in one query (each channel's maximum is one step
-// down the (channel, ts) primary key). Channels without readings are left
-// out.
-func (s *Store) LastReadings(ctx context.Context, structure string) (map[string]time.Time, error) {
+// channel of structure at or before notAfter (a zero notAfter: no bound), in
+// one query (each channel's maximum is one step down the (channel, ts)
+// primary key). The bound leaves out readings from the future that an
+// earlier version stored. Channels without readings are left out.
+func (s *Store) LastReadings(ctx context.Context, structure string, notAfter time.Time) (map[string]time.Time, error) {
+	_, hi := nsRange(time.Time{}, notAfter)
 	rows, err := s.db.QueryContext(ctx,
-		`SELECT c.name, (SELECT max(r.ts) FROM readings r WHERE r.channel = c.id) FROM channels c WHERE c.structure = ?`, structure)
+		`SELECT c.name, (SELECT max(r.ts) FROM readings r WHERE r.channel = c.id AND r.ts <= ?) FROM channels c WHERE c.structure = ?`, hi, structure)
 	if err != nil {
 		return nil, fmt.Errorf("store: last readings of %q: %w", structure, err)
 	}
