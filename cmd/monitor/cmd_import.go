@@ -1,6 +1,8 @@
 package main
 
 import (
+	"bufio"
+	"compress/gzip"
 	"context"
 	"errors"
 	"flag"
@@ -15,6 +17,7 @@ import (
 	"golang.org/x/term"
 
 	"trussmonitor/internal/csvimport"
+	"trussmonitor/internal/ingest"
 	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/store"
 	"trussmonitor/internal/structfile"
@@ -24,19 +27,20 @@ import (
 // measured ~135k rows/s at 10000 rows per transaction and 85k at 1000.
 const importBatch = 5000
 
-// Reason for readings whose time the store cannot hold.
-const reasonBadTime = "bad_time"
-
 // importCounts is the tally of one import.
 type importCounts struct {
 	read, stored, duplicates int
 	rejected                 map[string]int
+	first                    time.Time // earliest accepted reading
 }
 
 func (c *importCounts) add(o importCounts) {
 	c.read += o.read
 	c.stored += o.stored
 	c.duplicates += o.duplicates
+	if !o.first.IsZero() && (c.first.IsZero() || o.first.Before(c.first)) {
+		c.first = o.first
+	}
 	for k, v := range o.rejected {
 		c.rejected[k] += v
 	}
@@ -61,9 +65,11 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) int
 	structPath := fs.String("structure", "", "structure file (YAML)")
 	sensorPath := fs.String("sensors", "", "sensor map of the structure (YAML)")
 	batch := fs.Int("batch", importBatch, "readings per store transaction")
+	maxAge := fs.Duration("max-age", 0, "refuse readings older than this before now (outside_time_window); 0: no limit (an import is the way to load a backlog)")
 	fs.Usage = func() {
 		fmt.Fprintln(stderr, "usage: monitor import --db FILE --structure FILE --sensors FILE CSVFILE...")
-		fmt.Fprintln(stderr, "Imports logger CSV files (format: docs/payloads.md) into the reading store.")
+		fmt.Fprintln(stderr, "Imports logger CSV files (format: docs/payloads.md; gzip-compressed files too) into the reading store,")
+		fmt.Fprintln(stderr, "and stores the structure file as the model version in force from the earliest reading.")
 		fs.PrintDefaults()
 	}
 	if err := fs.Parse(args); err != nil {
@@ -94,7 +100,12 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) int
 		return 2
 	}
 
-	st, err := structfile.LoadFile(*structPath)
+	content, err := os.ReadFile(*structPath)
+	if err != nil {
+		fmt.Fprintf(stderr, "monitor import: structure file: %v\n", err)
+		return 1
+	}
+	st, err := structfile.Parse(*structPath, content)
 	if err != nil {
 		fmt.Fprintf(stderr, "monitor import: %v\n", err)
 		return 1
@@ -118,7 +129,8 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) int
 	total := importCounts{rejected: map[string]int{}}
 	failed := 0
 	for _, path := range files {
-		c, err := importFile(ctx, db, m, path, *batch, progress)
+		lim := ingest.Limits{MaxAbsValue: ingest.DefaultMaxAbsValue, MaxAhead: ingest.DefaultMaxAhead, MaxBehind: *maxAge}
+		c, err := importFile(ctx, db, m, lim, path, *batch, progress)
 		total.add(c)
 		fmt.Fprintf(stdout, "%s: %s\n", path, c.summary())
 		if err != nil {
@@ -132,6 +144,18 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) int
 	if len(files) > 1 {
 		fmt.Fprintf(stdout, "total: %s\n", total.summary())
 	}
+	// The model the readings were imported against, in force from the
+	// earliest of them: monitor replay of this store finds it and needs
+	// no --structure.
+	if !total.first.IsZero() {
+		hash, err := db.PutModel(context.WithoutCancel(ctx), st.Name, content, total.first)
+		if err != nil {
+			fmt.Fprintf(stderr, "monitor import: storing the model version: %v\n", err)
+			return 1
+		}
+		fmt.Fprintf(stdout, "model: %s of %s (%s) stored as in force from %s; monitor replay of this store needs no --structure\n",
+			hash[:12], st.Name, *structPath, total.first.UTC().Format(time.RFC3339))
+	}
 	// Readings of closed hours go into compressed blocks now, as the
 	// service would do within the hour.
 	if cs, err := db.Compact(context.WithoutCancel(ctx), time.Now().Add(-store.CompactAfter)); err != nil {
@@ -143,7 +167,7 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) int
 		fmt.Fprintf(stderr, "monitor import: %d of %d files stopped at an error; the readings before it are stored\n", failed, len(files))
 		return 1
 	}
-	fmt.Fprintf(stdout, "next: the store holds the readings only, not the model; replay them with the structure file:\n  monitor replay --db %s --sensors %s --structure %s --from T --to T\n", *dbPath, *sensorPath, *structPath)
+	fmt.Fprintf(stdout, "next: replay a period of them (the stored model version is used):\n  monitor replay --db %s --sensors %s --from T --to T\n", *dbPath, *sensorPath)
 	return 0
 }
 
@@ -164,15 +188,11 @@ func (c importCounts) summary() string {
 	return s
 }
 
-// storable is the time span the store's nanosecond column holds.
-var (
-	storableFrom = time.Date(1678, 1, 1, 0, 0, 0, 0, time.UTC)
-	storableTo   = time.Date(2262, 1, 1, 0, 0, 0, 0, time.UTC)
-)
-
 // importFile streams one CSV file into the store. Readings accepted before
 // an error in the file are committed.
-func importFile(ctx context.Context, db *store.Store, m *sensors.Map, path string, batch int, progress io.Writer) (importCounts, error) {
+// Every reading goes through ingest.Admit, the decision MQTT ingest makes,
+// with the same reason codes.
+func importFile(ctx context.Context, db *store.Store, m *sensors.Map, lim ingest.Limits, path string, batch int, progress io.Writer) (importCounts, error) {
 	c := importCounts{rejected: map[string]int{}}
 	f, err := os.Open(path)
 	if err != nil {
@@ -185,9 +205,23 @@ func importFile(ctx context.Context, db *store.Store, m *sensors.Map, path strin
 	}
 	cr := &countingReader{r: f}
 	bar := newProgressBar(progress, path, size)
+	// A gzip file (as the recorded day ships) is read through gunzip,
+	// recognised by its magic bytes 1f 8b (RFC 1952 section 2.3.1).
+	br := bufio.NewReader(cr)
+	var src io.Reader = br
+	if magic, _ := br.Peek(2); len(magic) == 2 && magic[0] == 0x1f && magic[1] == 0x8b {
+		zr, err := gzip.NewReader(br)
+		if err != nil {
+			return c, fmt.Errorf("gzip: %w", err)
+		}
+		defer zr.Close()
+		src = zr
+	}
 
 	readings := make([]store.Reading, 0, batch)
+	var lines []int // CSV line of each reading
 	var dead []store.DeadLetter
+	topic := "import:" + path
 	flush := func() error {
 		if len(readings) == 0 && len(dead) == 0 {
 			return nil
@@ -197,38 +231,47 @@ func importFile(ctx context.Context, db *store.Store, m *sensors.Map, path strin
 		res, err := db.Commit(context.WithoutCancel(ctx), store.Batch{
 			Groups:      []store.Group{{Structure: m.StructureName(), Readings: readings}},
 			DeadLetters: dead,
+			OnConflict: func(_ int, cs []store.Conflict) store.DeadLetter {
+				parts := make([]string, 0, min(len(cs), 5))
+				for _, k := range cs[:min(len(cs), 5)] {
+					r := readings[k.Index]
+					parts = append(parts, fmt.Sprintf("line %d: channel %q at %s: value %g, stored %g", lines[k.Index], r.Channel, r.Time.Format(time.RFC3339Nano), r.Value, k.Stored))
+				}
+				return store.DeadLetter{Topic: topic, Received: time.Now().UTC(), Reason: string(ingest.ReasonConflicting),
+					Detail:  fmt.Sprintf("%d readings conflict with a stored reading of the same channel and time: %s", len(cs), strings.Join(parts, "; ")),
+					Payload: []byte(parts[0])}
+			},
 		})
 		if err != nil {
 			return fmt.Errorf("storing readings: %w", err)
 		}
+		conflicts := len(res.Conflicts[0])
+		if conflicts > 0 {
+			c.rejected[string(ingest.ReasonConflicting)] += conflicts
+		}
 		c.stored += res.Inserted[0]
-		c.duplicates += len(readings) - res.Inserted[0]
-		readings, dead = readings[:0], dead[:0]
+		c.duplicates += len(readings) - res.Inserted[0] - conflicts
+		readings, lines, dead = readings[:0], lines[:0], dead[:0]
 		bar.update(cr.n, c.read)
 		return nil
 	}
-	topic := "import:" + path
-	_, readErr := csvimport.Read(cr, func(r csvimport.Record) error {
+	_, readErr := csvimport.Read(src, func(r csvimport.Record) error {
 		c.read++
-		reason, detail := "", ""
-		if err := m.Validate(r.Channel, r.Unit, r.Value); err != nil {
-			reason, detail = "invalid", err.Error()
-			var re interface{ Reason() string }
-			if errors.As(err, &re) {
-				reason = re.Reason()
-			}
-		} else if r.Time.Before(storableFrom) || !r.Time.Before(storableTo) {
-			reason, detail = reasonBadTime, fmt.Sprintf("channel %q: time %s is outside the storable years 1678 to 2261", r.Channel, r.Time.Format(time.RFC3339))
-		}
-		if reason != "" {
-			c.rejected[reason]++
+		now := time.Now().UTC()
+		rd, rej := ingest.Admit(lim, m, r.Channel, r.Unit, r.Time, r.Value, now)
+		if rej != nil {
+			c.rejected[string(rej.Reason)]++
 			dead = append(dead, store.DeadLetter{
-				Topic: topic, Received: time.Now().UTC(), Reason: reason,
-				Detail:  fmt.Sprintf("line %d: %s", r.Line, detail),
+				Topic: topic, Received: now, Reason: string(rej.Reason),
+				Detail:  fmt.Sprintf("line %d: %s", r.Line, rej.Detail),
 				Payload: []byte(r.Channel + "," + r.Unit + "," + r.Time.Format(time.RFC3339Nano) + "," + strconv.FormatFloat(r.Value, 'g', -1, 64)),
 			})
 		} else {
-			readings = append(readings, store.Reading{Channel: r.Channel, Time: r.Time, Value: r.Value})
+			readings = append(readings, rd)
+			lines = append(lines, r.Line)
+			if c.first.IsZero() || rd.Time.Before(c.first) {
+				c.first = rd.Time
+			}
 		}
 		if len(readings)+len(dead) >= batch {
 			if err := ctx.Err(); err != nil {

@@ -7,6 +7,9 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+	"time"
+
+	"trussmonitor/internal/store"
 )
 
 // replayCmd runs "monitor replay" with args.
@@ -36,7 +39,8 @@ func importedDay(t *testing.T) string {
 }
 
 // TestReplayCommand imports the recorded day and replays the afternoon of
-// the fault against the structure file (import stores no model version).
+// the fault against the structure file given (the same as the model version
+// the import stored).
 func TestReplayCommand(t *testing.T) {
 	db := importedDay(t)
 	out := filepath.Join(t.TempDir(), "report")
@@ -88,7 +92,7 @@ func TestReplayFlagErrors(t *testing.T) {
 			[]string{`unexpected argument "extra"`}},
 		{"no store", []string{"--db", filepath.Join(t.TempDir(), "none.db"), "--from", "2026-06-01T00:00:00Z", "--to", "2026-06-02T00:00:00Z", "--sensors", sens}, 1,
 			[]string{"none.db", "monitor import"}},
-		{"no model", []string{"--db", db, "--from", "2026-06-01T00:00:00Z", "--to", "2026-06-02T00:00:00Z", "--sensors", sens}, 1,
+		{"no model", []string{"--db", noModelStore(t), "--from", "2026-06-01T00:00:00Z", "--to", "2026-06-02T00:00:00Z", "--sensors", sens}, 1,
 			[]string{"no model version", "--structure FILE"}},
 		{"empty period", []string{"--db", db, "--from", "2026-06-03T00:00:00Z", "--to", "2026-06-04T00:00:00Z", "--sensors", sens,
 			"--structure", "../../testdata/footbridge/structure.yaml", "--out", t.TempDir()}, 1,
@@ -110,4 +114,20 @@ func TestReplayFlagErrors(t *testing.T) {
 			}
 		})
 	}
+}
+
+// noModelStore is a store holding one reading of the footbridge and no
+// model version (as written by the service before it stored models).
+func noModelStore(t *testing.T) string {
+	t.Helper()
+	path := filepath.Join(t.TempDir(), "no-model.db")
+	st, err := store.Open(path, store.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer st.Close()
+	if _, err := st.InsertReadings(context.Background(), "alder-creek", []store.Reading{{Channel: "B2_a", Time: time.Date(2026, 6, 1, 1, 0, 0, 0, time.UTC), Value: 1e-5}}); err != nil {
+		t.Fatal(err)
+	}
+	return path
 }

@@ -26,14 +26,15 @@ type command struct {
 // program holds no mutable global state.
 func commands() map[string]command {
 	return map[string]command{
-		"check":    {"validate a structure file (and its sensor map) and print a summary", runCheck},
-		"solve":    {"solve one load case and print member forces, displacements, reactions", runSolve},
-		"import":   {"import a logger CSV file into the reading store", runImport},
-		"run":      {"run the monitoring service", runService},
-		"replay":   {"replay a stored period through the pipeline into a report", runReplay},
-		"simulate": {"publish simulated logger readings to a broker", runSimulate},
-		"demo":     {"self-contained demo: embedded broker, simulator, service, dashboard", runDemo},
-		"rules":    {"write the alarm rules as a Prometheus alerting-rules file", runRules},
+		"check":       {"validate a structure file (and its sensor map) and print a summary", runCheck},
+		"solve":       {"solve one load case and print member forces, displacements, reactions", runSolve},
+		"import":      {"import a logger CSV file into the reading store", runImport},
+		"deadletters": {"list the rejected payloads and readings (dead letters) in the store", runDeadLetters},
+		"run":         {"run the monitoring service", runService},
+		"replay":      {"replay a stored period through the pipeline into a report", runReplay},
+		"simulate":    {"publish simulated logger readings to a broker", runSimulate},
+		"demo":        {"self-contained demo: embedded broker, simulator, service, dashboard", runDemo},
+		"rules":       {"write the alarm rules as a Prometheus alerting-rules file", runRules},
 	}
 }
 
@@ -114,7 +115,7 @@ func usage(w io.Writer, cmds map[string]command) {
 	}
 	sort.Strings(names)
 	for _, n := range names {
-		fmt.Fprintf(w, "  %-9s %s\n", n, cmds[n].summary)
+		fmt.Fprintf(w, "  %-11s %s\n", n, cmds[n].summary)
 	}
 	fmt.Fprintln(w)
 	fmt.Fprintln(w, "This tool is a monitoring aid, not a safety verdict; decisions rest with a licensed engineer under local codes.")

@@ -30,6 +30,12 @@ type Observation struct {
 	// shm_ingest_rejections_total counters).
 	SkewCount   uint64
 	RejectCount uint64
+	// CommitFailures is the cumulative count of failed store commits
+	// (shm_ingest_commit_failures_total); BrokerConnected the broker
+	// connection now (shm_broker_connected), nil when there is no broker
+	// (replay): the rule then has no value.
+	CommitFailures  uint64
+	BrokerConnected *bool
 	// Causes are the epoch's top-ranked causes (most likely first).
 	Causes []Cause
 	// Utilisation are the members' utilisations of a fitted epoch
@@ -63,7 +69,11 @@ type Member struct {
 // Channel is a channel's freshness.
 type Channel struct {
 	Channel     string
-	LastReading time.Time // zero: never reported (no alarm, no series)
+	LastReading time.Time // zero: no reading known
+	// WatchedSince is when monitoring of the channel began (the service's
+	// start). A channel with no reading known is silent since then; zero
+	// (replay) leaves such a channel without a value.
+	WatchedSince time.Time
 }
 
 // Cause is evidence of one ranked cause.
@@ -125,7 +135,15 @@ type Evaluator struct {
 	sink  EventSink
 	mu    sync.Mutex
 	st    map[string]*structState
+
+	sinkMu   sync.Mutex // serialises storing, guards unstored
+	unstored []Event    // events the sink refused, oldest first, retried
 }
+
+// MaxUnstored bounds the events kept for a retry while the sink fails (a
+// full disk): far more than alarms raise and clear in days of a failing
+// disk. Beyond it the oldest are given up, and Observe's error says so.
+const MaxUnstored = 10_000
 
 type alarmState struct {
 	pending, firing bool
@@ -144,7 +162,10 @@ type structState struct {
 	util        map[string]float64
 	fit         *Fit
 	channels    map[string]time.Time
+	watched     map[string]time.Time
 	skew, rej   []sample
+	commitFail  []sample
+	broker      *bool
 	causes      []Cause
 	alarms      map[[2]string]*alarmState // rule name, subject
 	firingCount map[string]int
@@ -173,8 +194,11 @@ func NewEvaluator(rules []Rule, sink EventSink) (*Evaluator, error) {
 
 // Observe evaluates every rule at o.Time and returns the events (raised
 // and cleared) in rule order, then subject order. Events are also stored
-// in the sink; a sink error is returned after all events were attempted,
-// and the alarm states advance regardless.
+// in the sink, in order: an event the sink refuses (a full disk) is kept
+// and retried, with every later one, at each following Observe (or Retry)
+// until the sink takes it, so an event is never lost to a passing storage
+// failure; the error of a failed attempt is returned, and the alarm states
+// advance regardless.
 func (e *Evaluator) Observe(ctx context.Context, o Observation) ([]Event, error) {
 	if o.Structure == "" {
 		return nil, errors.New("alerts: observation without a structure name")
@@ -185,7 +209,7 @@ func (e *Evaluator) Observe(ctx context.Context, o Observation) ([]Event, error)
 	e.mu.Lock()
 	s := e.st[o.Structure]
 	if s == nil {
-		s = &structState{members: map[string]Member{}, util: map[string]float64{}, channels: map[string]time.Time{},
+		s = &structState{members: map[string]Member{}, util: map[string]float64{}, channels: map[string]time.Time{}, watched: map[string]time.Time{},
 			alarms: map[[2]string]*alarmState{}, firingCount: map[string]int{}, keep: e.keep}
 		e.st[o.Structure] = s
 	}
@@ -204,13 +228,51 @@ func (e *Evaluator) Observe(ctx context.Context, o Observation) ([]Event, error)
 	if e.sink == nil {
 		return events, nil
 	}
-	var errs []error
-	for _, ev := range events {
-		if err := e.sink.PutEvent(ctx, ev); err != nil {
-			errs = append(errs, fmt.Errorf("alerts: storing %s event of %s/%s %s: %w", ev.Kind, ev.Structure, ev.Rule, ev.Subject, err))
-		}
+	return events, e.store(ctx, events)
+}
+
+// Retry stores the events kept after a sink failure; nil when none are
+// left.
+func (e *Evaluator) Retry(ctx context.Context) error {
+	if e.sink == nil {
+		return nil
 	}
-	return events, errors.Join(errs...)
+	return e.store(ctx, nil)
+}
+
+// Unstored returns how many events wait for the sink.
+func (e *Evaluator) Unstored() int {
+	e.sinkMu.Lock()
+	defer e.sinkMu.Unlock()
+	return len(e.unstored)
+}
+
+// store appends events to the unstored ones and stores them in order,
+// stopping at the first the sink refuses.
+func (e *Evaluator) store(ctx context.Context, events []Event) error {
+	e.sinkMu.Lock()
+	defer e.sinkMu.Unlock()
+	e.unstored = append(e.unstored, events...)
+	var lost int
+	if over := len(e.unstored) - MaxUnstored; over > 0 {
+		lost = over
+		e.unstored = append(e.unstored[:0], e.unstored[over:]...)
+	}
+	done := 0
+	var err error
+	for _, ev := range e.unstored {
+		if perr := e.sink.PutEvent(ctx, ev); perr != nil {
+			err = fmt.Errorf("alerts: storing %s event of %s/%s %s (at %s): %w; %d events kept for a retry at the next evaluation",
+				ev.Kind, ev.Structure, ev.Rule, ev.Subject, ev.Time.Format(time.RFC3339), perr, len(e.unstored)-done)
+			break
+		}
+		done++
+	}
+	e.unstored = append(e.unstored[:0], e.unstored[done:]...)
+	if lost > 0 {
+		err = errors.Join(err, fmt.Errorf("alerts: %d oldest unstored events given up (more than %d waiting)", lost, MaxUnstored))
+	}
+	return err
 }
 
 // Active returns the firing alarms of structure, ordered by rule and
@@ -261,6 +323,9 @@ func (s *structState) update(o Observation) {
 		s.fit = &f
 	}
 	for _, c := range o.Channels {
+		if !c.WatchedSince.IsZero() {
+			s.watched[c.Channel] = c.WatchedSince
+		}
 		if !c.LastReading.IsZero() {
 			if prev, ok := s.channels[c.Channel]; !ok || c.LastReading.After(prev) {
 				s.channels[c.Channel] = c.LastReading
@@ -273,6 +338,11 @@ func (s *structState) update(o Observation) {
 	keep := s.keep
 	s.skew = appendSample(s.skew, sample{o.Time, float64(o.SkewCount)}, o.Time.Add(-keep))
 	s.rej = appendSample(s.rej, sample{o.Time, float64(o.RejectCount)}, o.Time.Add(-keep))
+	s.commitFail = appendSample(s.commitFail, sample{o.Time, float64(o.CommitFailures)}, o.Time.Add(-keep))
+	if o.BrokerConnected != nil {
+		c := *o.BrokerConnected
+		s.broker = &c
+	}
 }
 
 func appendSample(h []sample, x sample, oldest time.Time) []sample {
@@ -331,8 +401,15 @@ func (s *structState) instances(r Rule, t time.Time) []instance {
 			out = append(out, instance{name, u, true})
 		}
 	case SignalSilence:
+		// Since the last reading; for a channel without one, since it is
+		// watched (the PromQL: last reading "or" watched since).
 		for name, last := range s.channels {
 			out = append(out, instance{name, t.Sub(last).Seconds(), true})
+		}
+		for name, since := range s.watched {
+			if _, ok := s.channels[name]; !ok {
+				out = append(out, instance{name, t.Sub(since).Seconds(), true})
+			}
 		}
 	case SignalPValue:
 		if s.fit != nil {
@@ -342,6 +419,16 @@ func (s *structState) instances(r Rule, t time.Time) []instance {
 		out = append(out, instance{"", increase(s.skew, t, r.Window), true})
 	case SignalRejectIncrease:
 		out = append(out, instance{"", increase(s.rej, t, r.Window), true})
+	case SignalCommitFailIncrease:
+		out = append(out, instance{"", increase(s.commitFail, t, r.Window), true})
+	case SignalBrokerConnected:
+		if s.broker != nil {
+			v := 0.0
+			if *s.broker {
+				v = 1
+			}
+			out = append(out, instance{"", v, true})
+		}
 	}
 	have := map[string]bool{}
 	for _, in := range out {
@@ -449,6 +536,10 @@ func (s Signal) String() string {
 		return "rejections_in_window"
 	case SignalUtilisation:
 		return "utilisation"
+	case SignalCommitFailIncrease:
+		return "commit_failures_in_window"
+	case SignalBrokerConnected:
+		return "broker_connected"
 	}
 	return fmt.Sprintf("signal(%d)", int(s))
 }

@@ -101,13 +101,19 @@ func Expr(r Rule, s string) string {
 		sig = metrics.FitPValue + sel
 		on = "structure"
 	case SignalSilence:
-		sig = "time() - " + metrics.ChannelLastReading + sel
+		sig = "time() - (" + metrics.ChannelLastReading + sel + " or " + metrics.ChannelWatchedSince + sel + ")"
 		on = "structure, channel"
 	case SignalSkewIncrease:
 		sig = increaseExpr(metrics.ClockSkewReadings+sel, r.Window)
 		on = "structure"
 	case SignalRejectIncrease:
 		sig = increaseExpr(metrics.IngestRejections+sel, r.Window)
+		on = "structure"
+	case SignalCommitFailIncrease:
+		sig = increaseExpr(metrics.CommitFailures+sel, r.Window)
+		on = "structure"
+	case SignalBrokerConnected:
+		sig = metrics.BrokerConnected + sel
 		on = "structure"
 	}
 	op := ">"

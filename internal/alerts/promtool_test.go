@@ -41,6 +41,8 @@ type scenario struct {
 	skew      []float64            // cumulative
 	rejects   map[string][]float64 // reason -> cumulative; NaN = series absent
 	util      map[string][]float64 // member -> utilisation; NaN = no value yet
+	commits   []float64            // failed commits, cumulative
+	connected []float64            // broker connection, 1 or 0
 }
 
 func buildScenario() scenario {
@@ -95,6 +97,16 @@ func buildScenario() scenario {
 		}
 	}
 	s.lastRead["B4_a"] = a
+	// B5_a reports first at minute 30: silent since watching began (0)
+	// from minute 3 (180 s > 120 s) to 29.
+	b5 := make([]float64, n)
+	for k := range b5 {
+		b5[k] = nan
+		if k >= 30 {
+			b5[k] = float64(60 * k)
+		}
+	}
+	s.lastRead["B5_a"] = b5
 	s.skew = make([]float64, n)
 	for k := range s.skew {
 		if k >= 12 {
@@ -134,6 +146,17 @@ func buildScenario() scenario {
 		}
 	}
 	s.util = map[string][]float64{"T4": t4}
+	s.commits = make([]float64, n)
+	s.connected = make([]float64, n)
+	for k := range s.commits {
+		if k >= 33 {
+			s.commits[k] = 2 // two failures at 33: alarm 33..37
+		}
+		s.connected[k] = 1
+		if k >= 34 && k <= 37 {
+			s.connected[k] = 0 // down at 34, fires at 35, clears at 38
+		}
+	}
 	return s
 }
 
@@ -144,24 +167,32 @@ func isNaN(v float64) bool { return v != v }
 // expectedFiring are the alarms the scenario must fire, worked out by hand
 // from the rules (minute ranges, inclusive).
 var expectedFiring = map[string][][2]int{
-	"MemberDiverging/B4": {{7, 10}, {17, 20}},
-	"MemberDiverging/D2": {{27, 30}},
-	"FitRejected/":       {{10, 16}},
-	"ChannelSilent/B4_a": {{23, 29}},
-	"ClockSkew/":         {{12, 16}},
-	"IngestRejects/":     {{23, 30}},
 	// MemberUtilisationHigh: raise > 0.90 for 2 minutes, clear <= 0.85.
 	"MemberUtilisationHigh/T4": {{22, 26}},
+	"MemberDiverging/B4":       {{7, 10}, {17, 20}},
+	"MemberDiverging/D2":       {{27, 30}},
+	"FitRejected/":             {{10, 16}},
+	"ChannelSilent/B4_a":       {{23, 29}},
+	"ChannelSilent/B5_a":       {{3, 29}},
+	"ClockSkew/":               {{12, 16}},
+	"IngestRejects/":           {{23, 30}},
+	"CommitsFailing/":          {{33, 37}},
+	"BrokerDisconnected/":      {{35, 37}},
 }
 
 func (s scenario) observation(k int) Observation {
 	o := Observation{Time: time.Unix(int64(60*k), 0).UTC(), Structure: "alder-creek",
-		Fit: &Fit{PValue: s.pvalue[k], ChiSquare: 30, DOF: 13}, SkewCount: uint64(s.skew[k])}
+		Fit: &Fit{PValue: s.pvalue[k], ChiSquare: 30, DOF: 13}, SkewCount: uint64(s.skew[k]),
+		CommitFailures: uint64(s.commits[k]), BrokerConnected: &[]bool{s.connected[k] == 1}[0]}
 	for _, m := range sortedKeys(s.w) {
 		o.Members = append(o.Members, Member{Member: m, W: s.w[m][k], Checkable: s.checkable[m][k], EstimatedBias: 1000 * s.w[m][k]})
 	}
 	for _, c := range sortedKeys(s.lastRead) {
-		o.Channels = append(o.Channels, Channel{Channel: c, LastReading: time.Unix(int64(s.lastRead[c][k]), 0)})
+		ch := Channel{Channel: c, WatchedSince: time.Unix(0, 0)}
+		if v := s.lastRead[c][k]; !isNaN(v) {
+			ch.LastReading = time.Unix(int64(v), 0)
+		}
+		o.Channels = append(o.Channels, ch)
 	}
 	for _, r := range sortedKeys(s.rejects) {
 		if v := s.rejects[r][k]; !isNaN(v) {
@@ -330,7 +361,8 @@ func promtoolTestFile(t *testing.T, rules []Rule, sc scenario, firing [][]Alarm)
 	}
 	tc.Input = append(tc.Input, series{fmt.Sprintf(`shm_fit_p_value{%s}`, st), seriesValues(sc.pvalue)})
 	for _, c := range sortedKeys(sc.lastRead) {
-		tc.Input = append(tc.Input, series{fmt.Sprintf(`shm_channel_last_reading_timestamp_seconds{%s, channel=%q}`, st, c), seriesValues(sc.lastRead[c])})
+		tc.Input = append(tc.Input, series{fmt.Sprintf(`shm_channel_last_reading_timestamp_seconds{%s, channel=%q}`, st, c), seriesValues(sc.lastRead[c])},
+			series{fmt.Sprintf(`shm_channel_watched_since_timestamp_seconds{%s, channel=%q}`, st, c), fmt.Sprintf("0+0x%d", sc.minutes-1)})
 	}
 	tc.Input = append(tc.Input, series{fmt.Sprintf(`shm_clock_skew_readings_total{%s}`, st), seriesValues(sc.skew)})
 	for _, r := range sortedKeys(sc.rejects) {
@@ -339,6 +371,8 @@ func promtoolTestFile(t *testing.T, rules []Rule, sc scenario, firing [][]Alarm)
 	for _, m := range sortedKeys(sc.util) {
 		tc.Input = append(tc.Input, series{fmt.Sprintf(`shm_member_utilisation_ratio{%s, member=%q}`, st, m), seriesValues(sc.util[m])})
 	}
+	tc.Input = append(tc.Input, series{fmt.Sprintf(`shm_ingest_commit_failures_total{%s}`, st), seriesValues(sc.commits)},
+		series{fmt.Sprintf(`shm_broker_connected{%s}`, st), seriesValues(sc.connected)})
 	n := 0
 	for k := 0; k < sc.minutes; k++ {
 		for _, r := range rules {

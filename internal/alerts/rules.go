@@ -44,7 +44,17 @@ const (
 	// SignalUtilisation is a member's utilisation, |total force| / design
 	// resistance (members of a structure with a design basis only).
 	SignalUtilisation
+	// SignalCommitFailIncrease is the number of failed store commits of
+	// received messages counted in the last Window (one ingest serves every
+	// structure of an instance; each counts it).
+	SignalCommitFailIncrease
+	// SignalBrokerConnected is 1 while ingest is connected to the broker
+	// and subscribed, 0 while not (no value in replay).
+	SignalBrokerConnected
 )
+
+// lastSignal is the highest valid signal.
+const lastSignal = SignalBrokerConnected
 
 // Scope is what one instance of a rule is about.
 type Scope int
@@ -76,7 +86,14 @@ const (
 	RuleChannelSilent   = "ChannelSilent"
 	RuleClockSkew       = "ClockSkew"
 	RuleIngestRejects   = "IngestRejects"
+	RuleCommitsFailing  = "CommitsFailing"
+	RuleBrokerDown      = "BrokerDisconnected"
 )
+
+// counting reports whether the signal is a counter's increase in a window.
+func (s Signal) counting() bool {
+	return s == SignalSkewIncrease || s == SignalRejectIncrease || s == SignalCommitFailIncrease
+}
 
 // Rule is one alarm rule.
 type Rule struct {
@@ -123,13 +140,13 @@ func (r Rule) Validate() error {
 			return fmt.Errorf("alerts: rule %q: name may hold only letters, digits and '_'", r.Name)
 		}
 	}
-	if r.Signal < SignalAbsW || r.Signal > SignalUtilisation {
+	if r.Signal < SignalAbsW || r.Signal > lastSignal {
 		return fmt.Errorf("alerts: rule %s: unknown signal %d", r.Name, r.Signal)
 	}
 	if r.For < 0 || r.For%time.Second != 0 {
 		return fmt.Errorf("alerts: rule %s: for-duration %v; want whole seconds >= 0", r.Name, r.For)
 	}
-	if (r.Signal == SignalSkewIncrease || r.Signal == SignalRejectIncrease) && (r.Window <= 0 || r.Window%time.Second != 0) {
+	if r.Signal.counting() && (r.Window <= 0 || r.Window%time.Second != 0) {
 		return fmt.Errorf("alerts: rule %s: counting window %v; want whole seconds > 0", r.Name, r.Window)
 	}
 	if r.Below && r.Clear < r.Raise || !r.Below && r.Clear > r.Raise {
@@ -165,6 +182,10 @@ const (
 	UtilisationRaise = 0.90
 	UtilisationClear = 0.85
 	UtilisationFor   = 2 * time.Minute
+	// DisconnectedFor: the broker connection must be down for a minute
+	// before BrokerDisconnected fires, so that a reconnect after a broker
+	// restart (seconds) does not raise it (common practice).
+	DisconnectedFor = time.Minute
 )
 
 // RuleUtilisationHigh is the name of the utilisation rule.
@@ -183,6 +204,10 @@ const RuleUtilisationHigh = "MemberUtilisationHigh"
 //   - IngestRejects: more than 10 rejections in 5 minutes; clears at <= 2.
 //   - MemberUtilisationHigh: utilisation > 0.90 for 2 minutes; clears at
 //     <= 0.85 (structures with a design basis only).
+//   - CommitsFailing: any failed store commit of received messages in the
+//     last 5 minutes (nothing received is acknowledged or processed until
+//     its commit succeeds).
+//   - BrokerDisconnected: ingest not connected and subscribed for 1 minute.
 func DefaultRules() ([]Rule, error) {
 	kRaise, err := reconcile.CriticalW(reconcile.DefaultAlpha0)
 	if err != nil {
@@ -229,6 +254,18 @@ func DefaultRules() ([]Rule, error) {
 			Raise: UtilisationRaise, Clear: UtilisationClear, For: UtilisationFor,
 			Summary:     "Member {{ $labels.member }} of {{ $labels.structure }} is near its design resistance",
 			Description: "The member's total axial force (zero-state force plus the measured change, or the reconciled prediction) exceeds the stated share of its design resistance (EN 1993-1-1 or AISC 360-16, tension or flexural buckling). Utilisation is a monitoring estimate, not a design check or an assessment; assessment rests with a licensed engineer under local codes.",
+		},
+		{
+			Name: RuleCommitsFailing, Signal: SignalCommitFailIncrease, Severity: "critical",
+			Raise: 0, Clear: 0, Window: CountWindow,
+			Summary:     "The monitor cannot store readings of {{ $labels.structure }}",
+			Description: "Store commits of received messages failed in the counting window (disk full, database locked or damaged); readings wait unacknowledged at the broker and no epoch is processed until a commit succeeds. See the service log for the error.",
+		},
+		{
+			Name: RuleBrokerDown, Signal: SignalBrokerConnected, Severity: "critical", Below: true,
+			Raise: 1, Clear: 1, For: DisconnectedFor,
+			Summary:     "The monitor of {{ $labels.structure }} is not connected to the MQTT broker",
+			Description: "Ingest has not been connected and subscribed to the broker for the for-duration; no reading arrives. See the service log for the connection error (address, credentials, certificate).",
 		},
 	}
 	for _, r := range rules {

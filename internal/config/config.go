@@ -27,6 +27,7 @@ type Config struct {
 	Retention  Retention   `yaml:"retention"`
 	HTTP       HTTP        `yaml:"http"`
 	Broker     Broker      `yaml:"broker"`
+	Ingest     Ingest      `yaml:"ingest"`
 	Epochs     Epochs      `yaml:"epochs"`
 	Alarms     Alarms      `yaml:"alarms"`
 	Structures []Structure `yaml:"structures"`
@@ -66,6 +67,21 @@ type TLS struct {
 	CAFile   string `yaml:"ca_file"`
 	CertFile string `yaml:"cert_file"`
 	KeyFile  string `yaml:"key_file"`
+}
+
+// Ingest configures what ingest accepts and keeps of what it refuses. Zero
+// values take the defaults of the packages that own them.
+type Ingest struct {
+	// MaxAhead and MaxBehind bound a reading's time around the receiver's
+	// clock; readings outside are dead letters outside_time_window.
+	// Defaults 10m ahead (ingest.DefaultMaxAhead) and 30d behind
+	// (ingest.DefaultMaxBehind).
+	MaxAhead  Duration `yaml:"max_ahead"`
+	MaxBehind Duration `yaml:"max_behind"`
+	// MaxDeadLetters caps the dead-letter rows kept (oldest dropped first,
+	// counted in shm_dead_letters_dropped_total). Default 50000
+	// (store.DefaultMaxDeadLetters), at most about 115 MB.
+	MaxDeadLetters int `yaml:"max_dead_letters"`
 }
 
 // Epochs configures the epoch assembler.
@@ -233,6 +249,9 @@ func (c *Config) Validate() error {
 	}
 	if c.Broker.MaxPayloadBytes <= 0 {
 		bad("broker.max_payload_bytes", "must be positive, got %d", c.Broker.MaxPayloadBytes)
+	}
+	if c.Ingest.MaxDeadLetters < 0 {
+		bad("ingest.max_dead_letters", "must not be negative (0 takes the default)")
 	}
 	if c.Epochs.Window.D() <= 0 {
 		bad("epochs.window", "must be positive")

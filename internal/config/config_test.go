@@ -27,6 +27,7 @@ database: data.db
 retention: {readings: 400d, results: 1d12h}
 broker: {url: "tcp://127.0.0.1:1883", client_id: site1}
 epochs: {window: 2s, max_lateness: 10s, missing_load: estimate}
+ingest: {max_ahead: 2m, max_behind: 7d, max_dead_letters: 1000}
 structures:
   - {structure: s.yaml, sensors: m.yaml}
 `))
@@ -41,6 +42,9 @@ structures:
 	}
 	if c.Epochs.Window.D() != 2*time.Second || c.Epochs.MissingLoad != "estimate" {
 		t.Errorf("epochs = %+v", c.Epochs)
+	}
+	if c.Ingest.MaxAhead.D() != 2*time.Minute || c.Ingest.MaxBehind.D() != 7*24*time.Hour || c.Ingest.MaxDeadLetters != 1000 {
+		t.Errorf("ingest = %+v", c.Ingest)
 	}
 	if c.HTTP.Listen != "127.0.0.1:9470" {
 		t.Errorf("default http.listen = %q", c.HTTP.Listen)
@@ -61,6 +65,7 @@ func TestParseErrorsNameTheField(t *testing.T) {
 		{"missing structure file", "structures: [{structure: nope.yaml, sensors: m.yaml}]\n", []string{"structures[0].structure", "nope.yaml"}},
 		{"bad scheme", "broker: {url: \"http://h:1\"}\nstructures: [{structure: s.yaml, sensors: m.yaml}]\n", []string{"broker.url", "http"}},
 		{"half tls", "broker: {tls: {cert_file: c.pem}}\nstructures: [{structure: s.yaml, sensors: m.yaml}]\n", []string{"broker.tls", "key_file"}},
+		{"negative dead-letter cap", "ingest: {max_dead_letters: -1}\nstructures: [{structure: s.yaml, sensors: m.yaml}]\n", []string{"ingest.max_dead_letters"}},
 		{"bad listen", "http: {listen: nowhere}\nstructures: [{structure: s.yaml, sensors: m.yaml}]\n", []string{"http.listen", "nowhere"}},
 	}
 	for _, tc := range tests {

@@ -31,6 +31,9 @@ type Options struct {
 	// ClockNote, when set, is returned with every state (clock_note) and
 	// shown beside the epoch time, e.g. "simulated time, 20x real time".
 	ClockNote string
+	// DeadLetters lists the stored dead letters for GET /api/dead-letters
+	// (read-only); nil answers that endpoint with 404.
+	DeadLetters DeadLetterSource
 }
 
 // Handler serves the JSON API under /api/ and the dashboard page at /.
@@ -56,6 +59,7 @@ func New(src Source, opts Options) *Handler {
 	h.mux.HandleFunc("GET /api/structures/{name}/state", h.state)
 	h.mux.HandleFunc("GET /api/structures/{name}/members/{id}/series", h.series)
 	h.mux.HandleFunc("GET /api/structures/{name}/events", h.events)
+	h.mux.HandleFunc("GET /api/dead-letters", h.deadLetters)
 	h.mux.HandleFunc("GET /api/", func(w http.ResponseWriter, r *http.Request) {
 		writeError(w, http.StatusNotFound, fmt.Sprintf("no API endpoint %s %s; see docs/api.md for the endpoints", r.Method, r.URL.Path))
 	})

@@ -217,7 +217,9 @@ func (p *mosquittoProc) dropLines() []string {
 	return out
 }
 
-var t0 = time.Date(2026, 3, 1, 12, 0, 0, 0, time.UTC)
+// t0 is two to three hours before the test's start: readings must lie in
+// the window around the receiver's clock (DefaultMaxBehind).
+var t0 = time.Now().UTC().Truncate(time.Hour).Add(-2 * time.Hour)
 
 // readingTime is the logger time of sequence number i (1 ms apart).
 func readingTime(i int) time.Time { return t0.Add(time.Duration(i) * time.Millisecond) }

@@ -33,7 +33,6 @@ import (
 	"errors"
 	"fmt"
 	"log/slog"
-	"math"
 	"os"
 	"strings"
 	"sync"
@@ -63,6 +62,14 @@ type Observer interface {
 	Rejected(structure, reason string)
 	LastReading(structure, channel string, t time.Time)
 	BrokerDropped(n int)
+	// DeadLettersDropped counts the oldest dead letters dropped to keep
+	// the store under its cap.
+	DeadLettersDropped(n int)
+	// CommitFailed counts one failed store commit (retried).
+	CommitFailed()
+	// BrokerConnection reports that ingest is now connected and
+	// subscribed (reconnect: not the first connection), or lost it.
+	BrokerConnection(connected, reconnect bool)
 }
 
 // Message outcomes.
@@ -71,22 +78,6 @@ const (
 	OutcomeDuplicate = "duplicate"
 	OutcomeRejected  = "rejected"
 	OutcomeLate      = "late"
-)
-
-// Rejection reasons of ingest's own (others come from senml and the registry).
-const (
-	ReasonOversized        = "oversized_payload"
-	ReasonBadTopic         = "bad_topic"
-	ReasonUnknownStructure = "unknown_structure"
-	ReasonUnknownChannel   = "unknown_channel"
-	ReasonNameMismatch     = "name_mismatch"
-	ReasonMissingName      = "missing_name"
-	ReasonAbsurdMagnitude  = "absurd_magnitude"
-	ReasonNotFinite        = "not_finite"
-	ReasonRelativeTime     = "relative_time"
-	ReasonTimeRange        = "bad_time"
-	ReasonEmptyPack        = "empty_pack"
-	ReasonInvalidReading   = "invalid_reading"
 )
 
 // Config configures the MQTT client and the ingest limits. Zero values take
@@ -112,7 +103,8 @@ type Config struct {
 	// TopicPrefix is the first topic level. Default "shm".
 	TopicPrefix string `yaml:"topic_prefix"`
 	// MaxPayload is the largest accepted payload in bytes; larger ones are
-	// dead-lettered (truncated to this size). Default 1 MiB.
+	// dead-lettered (oversized_payload; the dead letter keeps an excerpt
+	// of store.ExcerptBytes). Default 1 MiB; the service sets 64 KiB.
 	MaxPayload int `yaml:"max_payload"`
 	// QueueSize is the number of received messages waiting to be
 	// committed. Keep it above the broker's per-client in-flight limit.
@@ -139,6 +131,12 @@ type Config struct {
 	// clock (RFC 8428 section 4.5.3). Off by default: a redelivered
 	// relative-time reading gets a new timestamp and is stored twice.
 	AllowRelativeTime bool `yaml:"allow_relative_time"`
+	// MaxAhead and MaxBehind are the window around the receiver's clock
+	// a reading's time must lie in (else outside_time_window). Defaults
+	// DefaultMaxAhead (10 min) and DefaultMaxBehind (30 days); a negative
+	// value removes the bound on that side.
+	MaxAhead  time.Duration `yaml:"max_ahead"`
+	MaxBehind time.Duration `yaml:"max_behind"`
 	// ReconnectMin and ReconnectMax bound the reconnect backoff (doubling
 	// from min to max). Defaults 1 s and 30 s.
 	ReconnectMin time.Duration `yaml:"reconnect_min"`
@@ -176,7 +174,13 @@ func (c *Config) setDefaults() {
 		c.CommitGap = 300 * time.Microsecond
 	}
 	if c.MaxAbsValue <= 0 {
-		c.MaxAbsValue = 1e12
+		c.MaxAbsValue = DefaultMaxAbsValue
+	}
+	if c.MaxAhead == 0 {
+		c.MaxAhead = DefaultMaxAhead
+	}
+	if c.MaxBehind == 0 {
+		c.MaxBehind = DefaultMaxBehind
 	}
 	if c.ReconnectMin <= 0 {
 		c.ReconnectMin = time.Second
@@ -247,7 +251,14 @@ type Ingester struct {
 	queue    chan received
 
 	overflow atomic.Bool
-	stats    struct {
+	// Present state for readiness: connected and subscribed on the
+	// current connection; the last commit's outcome.
+	live          atomic.Bool
+	commitFailing atomic.Bool
+	failMu        sync.Mutex
+	failSince     time.Time
+	failErr       error
+	stats         struct {
 		sync.Mutex
 		Stats
 	}
@@ -345,6 +356,10 @@ func (in *Ingester) clientOptions() *paho.ClientOptions {
 		SetConnectRetryInterval(in.cfg.ReconnectMin).
 		SetMaxReconnectInterval(in.cfg.ReconnectMax).
 		SetKeepAlive(in.cfg.KeepAlive).
+		// MQTT 3.1.1 only: paho's fallback to 3.1 after a refused CONNECT
+		// would replace the broker's reason (bad user name or password,
+		// not authorised) with "unacceptable protocol version".
+		SetProtocolVersion(4).
 		SetConnectTimeout(10 * time.Second)
 	if in.cfg.Username != "" {
 		o.SetUsername(in.cfg.Username).SetPassword(in.cfg.Password)
@@ -357,9 +372,54 @@ func (in *Ingester) clientOptions() *paho.ClientOptions {
 	o.SetDefaultPublishHandler(in.onMessage)
 	o.SetOnConnectHandler(in.onConnect)
 	o.SetConnectionLostHandler(func(_ paho.Client, err error) {
+		in.live.Store(false)
+		in.obs.BrokerConnection(false, false)
 		in.log.Warn("MQTT connection lost; reconnecting", "broker", in.cfg.Broker, "err", err)
 	})
+	// Every failed attempt (refused password, untrusted certificate,
+	// unreachable broker) is logged with its reason: the first at once,
+	// then at most once per LogEvery per distinct reason.
+	o.SetConnectionNotificationHandler(func(_ paho.Client, n paho.ConnectionNotification) {
+		var err error
+		switch n := n.(type) {
+		case paho.ConnectionNotificationBrokerFailed:
+			err = n.Reason
+		case paho.ConnectionNotificationFailed:
+			err = n.Reason
+		default:
+			return
+		}
+		if err == nil {
+			return
+		}
+		in.limit.log(in.log, "connect_failed:"+err.Error(), "MQTT connection to the broker failed; retrying",
+			"broker", in.cfg.Broker, "user", in.cfg.Username, "err", err,
+			"hint", "check broker URL, user name and password (broker.username/password), the CA file and the broker's ACL")
+	})
 	return o
+}
+
+// Health is ingest's present state, for readiness.
+type Health struct {
+	// Live is true while connected to the broker and subscribed on the
+	// current connection.
+	Live bool
+	// CommitFailing is true while the latest store commit failed (it is
+	// retried); FailingSince is when the failures began and Err the last.
+	CommitFailing bool
+	FailingSince  time.Time
+	Err           error
+}
+
+// Health returns ingest's present state.
+func (in *Ingester) Health() Health {
+	h := Health{Live: in.live.Load(), CommitFailing: in.commitFailing.Load()}
+	if h.CommitFailing {
+		in.failMu.Lock()
+		h.FailingSince, h.Err = in.failSince, in.failErr
+		in.failMu.Unlock()
+	}
+	return h
 }
 
 // onConnect subscribes (again) on every connection. The broker keeps the
@@ -368,6 +428,7 @@ func (in *Ingester) clientOptions() *paho.ClientOptions {
 func (in *Ingester) onConnect(c paho.Client) {
 	in.stats.Lock()
 	in.stats.Connects++
+	reconnect := in.stats.Connects > 1
 	in.stats.Unlock()
 	p := in.cfg.TopicPrefix
 	filters := map[string]byte{p + "/+": 1, p + "/+/+": 1}
@@ -380,6 +441,8 @@ func (in *Ingester) onConnect(c paho.Client) {
 		in.stats.Lock()
 		in.stats.Subscribed++
 		in.stats.Unlock()
+		in.live.Store(c.IsConnectionOpen())
+		in.obs.BrokerConnection(true, reconnect)
 		in.log.Info("MQTT connected and subscribed", "broker", in.cfg.Broker, "client_id", in.cfg.ClientID)
 	}()
 }
@@ -545,6 +608,8 @@ func (in *Ingester) reconnect() {
 		return
 	}
 	in.log.Warn("reconnecting to have the broker redeliver messages left unacknowledged on queue overflow")
+	in.live.Store(false)
+	in.obs.BrokerConnection(false, false)
 	in.client.Disconnect(1000)
 	in.client.Connect()
 }
@@ -564,11 +629,16 @@ func (in *Ingester) ackLoop(acks <-chan ackItem) {
 // queues the acknowledgements and runs the callbacks.
 func (in *Ingester) commitBatch(batch []decodedMsg, acks chan<- ackItem) error {
 	var b store.Batch
-	for _, m := range batch {
+	var groupMsg []int // message index of each group
+	for k, m := range batch {
 		if len(m.readings) > 0 {
 			b.Groups = append(b.Groups, store.Group{Structure: m.structure, Readings: m.readings})
+			groupMsg = append(groupMsg, k)
 		}
 		b.DeadLetters = append(b.DeadLetters, m.dead...)
+	}
+	b.OnConflict = func(g int, cs []store.Conflict) store.DeadLetter {
+		return in.conflictLetter(batch[groupMsg[g]], cs)
 	}
 	var res store.CommitResult
 	var err error
@@ -578,8 +648,17 @@ func (in *Ingester) commitBatch(batch []decodedMsg, acks chan<- ackItem) error {
 		res, err = in.deps.Store.Commit(ctx, b)
 		cancel()
 		if err == nil {
+			in.commitFailing.Store(false)
 			break
 		}
+		in.obs.CommitFailed()
+		in.failMu.Lock()
+		if !in.commitFailing.Load() {
+			in.failSince = time.Now()
+		}
+		in.failErr = err
+		in.commitFailing.Store(true)
+		in.failMu.Unlock()
 		in.qmu.RLock()
 		stopping := in.stopping
 		in.qmu.RUnlock()
@@ -601,7 +680,11 @@ func (in *Ingester) commitBatch(batch []decodedMsg, acks chan<- ackItem) error {
 	acks <- ackItem{msgs: ms}
 
 	// Counting and callbacks after the commit.
-	var stored, dups int64
+	var stored, dups, conflictMsgs int64
+	if res.DeadLettersDropped > 0 {
+		in.obs.DeadLettersDropped(int(res.DeadLettersDropped))
+		in.limit.log(in.log, "dead_letters_dropped", "ingest: oldest dead letters dropped to keep under the cap", "dropped", res.DeadLettersDropped)
+	}
 	g := 0
 	for _, m := range batch {
 		outcome := OutcomeRejected
@@ -616,8 +699,9 @@ func (in *Ingester) commitBatch(batch []decodedMsg, acks chan<- ackItem) error {
 					}
 				}
 			}
+			conflicts := res.Conflicts[g]
 			g++
-			d := len(m.readings) - n
+			d := len(m.readings) - n - len(conflicts)
 			stored += int64(n)
 			dups += int64(d)
 			if n > 0 {
@@ -637,6 +721,14 @@ func (in *Ingester) commitBatch(batch []decodedMsg, acks chan<- ackItem) error {
 			}
 			if d > 0 {
 				in.obs.ReadingsHandled(m.structure, OutcomeDuplicate, d)
+			}
+			if len(conflicts) > 0 {
+				in.obs.ReadingsHandled(m.structure, OutcomeRejected, len(conflicts))
+				in.obs.Rejected(m.structure, string(ReasonConflicting))
+				conflictMsgs++
+				if n == 0 && d == 0 {
+					outcome = OutcomeRejected
+				}
 			}
 			if n > 0 && in.deps.OnCommitted != nil {
 				in.deps.OnCommitted(m.structure, newRs)
@@ -660,58 +752,93 @@ func (in *Ingester) commitBatch(batch []decodedMsg, acks chan<- ackItem) error {
 			in.stats.Rejected[d.Reason]++
 		}
 	}
+	in.stats.Rejected[string(ReasonConflicting)] += conflictMsgs
 	in.stats.Unlock()
 	return nil
+}
+
+// conflictLetter is the dead letter of a message's readings whose key was
+// already taken by another value.
+func (in *Ingester) conflictLetter(m decodedMsg, cs []store.Conflict) store.DeadLetter {
+	payload := m.raw.Payload()
+	details := make([]string, 0, min(len(cs), 5))
+	for _, c := range cs[:min(len(cs), 5)] {
+		r := m.readings[c.Index]
+		details = append(details, fmt.Sprintf("channel %q at %s: value %g, stored %g", r.Channel, r.Time.Format(time.RFC3339Nano), r.Value, c.Stored))
+	}
+	detail := fmt.Sprintf("topic %s: %d of %d readings conflict with a stored reading of the same channel and time (to %s): %s",
+		m.raw.Topic(), len(cs), len(m.readings), TimeResolution, strings.Join(details, "; "))
+	if len(cs) > 5 {
+		detail += fmt.Sprintf("; and %d more", len(cs)-5)
+	}
+	in.limit.log(in.log, string(ReasonConflicting), "ingest: message rejected", "reason", string(ReasonConflicting), "topic", m.raw.Topic(), "detail", detail)
+	return store.DeadLetter{Topic: m.raw.Topic(), Received: m.at, Reason: string(ReasonConflicting), Detail: detail,
+		Payload: append([]byte(nil), payload[:min(len(payload), store.ExcerptBytes)]...), Size: len(payload)}
 }
 
 // decodedMsg is one message after decoding and validation.
 type decodedMsg struct {
 	raw              paho.Message
+	at               time.Time // receiver clock at arrival
 	structure        string
 	readings         []store.Reading
 	dead             []store.DeadLetter
 	rejectedReadings int
 }
 
-func reasonOf(err error, fallback string) string {
+// reasonOf is the reason code an error of the decoder or the registry
+// carries (its Reason method), or fallback.
+func reasonOf(err error, fallback Reason) Reason {
 	var r interface{ Reason() string }
 	if errors.As(err, &r) && r.Reason() != "" {
-		return r.Reason()
+		return Reason(r.Reason())
 	}
 	return fallback
+}
+
+// limits are the Admit limits of this ingester.
+func (in *Ingester) limits() Limits {
+	return Limits{MaxAbsValue: in.cfg.MaxAbsValue, MaxAhead: max(in.cfg.MaxAhead, 0), MaxBehind: max(in.cfg.MaxBehind, 0)}
 }
 
 // relativeLimit is 2^28 s: RFC 8428 section 4.5.3 reads smaller times as
 // relative to the receiver's clock.
 const relativeLimit = 1 << 28
 
-// decode turns one message into readings and dead letters.
+// decode turns one message into readings and dead letters. Packs are
+// accepted per record: the records that pass Admit are stored, the others
+// become one dead letter per reason (with the count and the first few
+// records' details); the message is acknowledged either way.
 func (in *Ingester) decode(r received) decodedMsg {
 	m := r.msg
 	topic := m.Topic()
 	payload := m.Payload()
-	out := decodedMsg{raw: m}
-	reject := func(reason, detail string, n int) {
+	out := decodedMsg{raw: m, at: r.at}
+	reject := func(reason Reason, detail string, n int) {
 		p := payload
-		if len(p) > in.cfg.MaxPayload {
-			p = p[:in.cfg.MaxPayload]
+		if len(p) > store.ExcerptBytes {
+			p = p[:store.ExcerptBytes]
 		}
-		out.dead = append(out.dead, store.DeadLetter{Topic: topic, Received: r.at, Reason: reason, Detail: detail, Payload: append([]byte(nil), p...)})
+		out.dead = append(out.dead, store.DeadLetter{Topic: topic, Received: r.at, Reason: string(reason), Detail: detail,
+			Payload: append([]byte(nil), p...), Size: len(payload)})
 		out.rejectedReadings += n
-		in.limit.log(in.log, reason, "ingest: message rejected", "reason", reason, "topic", topic, "detail", detail)
+		in.limit.log(in.log, string(reason), "ingest: message rejected", "reason", string(reason), "topic", topic, "detail", detail)
 	}
 
 	structure, channel, err := in.parseTopic(topic)
-	out.structure = structure
 	if err != nil {
+		out.structure = UnknownStructureLabel
 		reject(ReasonBadTopic, err.Error(), 0)
 		return out
 	}
 	reg, ok := in.deps.Registries[structure]
 	if !ok {
+		// Counted under one label: a publisher must not create series.
+		out.structure = UnknownStructureLabel
 		reject(ReasonUnknownStructure, fmt.Sprintf("topic %s: structure %q is not configured; add its sensor map or fix the logger's topic", topic, structure), 0)
 		return out
 	}
+	out.structure = structure
 	if len(payload) > in.cfg.MaxPayload {
 		reject(ReasonOversized, fmt.Sprintf("topic %s: payload of %d bytes exceeds max_payload %d; split the pack or raise the limit", topic, len(payload), in.cfg.MaxPayload), 0)
 		return out
@@ -731,14 +858,15 @@ func (in *Ingester) decode(r received) decodedMsg {
 		reject(ReasonEmptyPack, fmt.Sprintf("topic %s: SenML pack has no records", topic), 0)
 		return out
 	}
-	byReason := map[string][]string{}
-	var order []string
-	bad := func(reason, detail string) {
+	byReason := map[Reason][]string{}
+	var order []Reason
+	bad := func(reason Reason, detail string) {
 		if _, seen := byReason[reason]; !seen {
 			order = append(order, reason)
 		}
 		byReason[reason] = append(byReason[reason], detail)
 	}
+	lim := in.limits()
 	out.readings = make([]store.Reading, 0, len(recs))
 	for i, rec := range recs {
 		name := rec.Name
@@ -752,27 +880,16 @@ func (in *Ingester) decode(r received) decodedMsg {
 			bad(ReasonMissingName, fmt.Sprintf("record %d has no name; on topic %s every record must name its channel (n or bn+n)", i, topic))
 			continue
 		}
-		if math.IsNaN(rec.Value) || math.IsInf(rec.Value, 0) {
-			bad(ReasonNotFinite, fmt.Sprintf("record %d (channel %q): value %v is not finite", i, name, rec.Value))
-			continue
-		}
-		if math.Abs(rec.Value) > in.cfg.MaxAbsValue {
-			bad(ReasonAbsurdMagnitude, fmt.Sprintf("record %d (channel %q): |value| %g exceeds max_abs_value %g", i, name, rec.Value, in.cfg.MaxAbsValue))
-			continue
-		}
 		if !in.cfg.AllowRelativeTime && rec.Time.Unix() < 2*relativeLimit {
 			bad(ReasonRelativeTime, fmt.Sprintf("record %d (channel %q): time is relative to the receiver (below 2^28 s) or before 1987; the logger must send absolute times (bt/t, Unix seconds) so a redelivered reading is recognised", i, name))
 			continue
 		}
-		if rec.Time.Year() < 1971 || rec.Time.Year() > 2261 {
-			bad(ReasonTimeRange, fmt.Sprintf("record %d (channel %q): time %s outside 1971..2261, the range the store keeps", i, name, rec.Time.Format(time.RFC3339)))
+		rd, rej := Admit(lim, reg, name, rec.Unit, rec.Time, rec.Value, r.at)
+		if rej != nil {
+			bad(rej.Reason, fmt.Sprintf("record %d: %s", i, rej.Detail))
 			continue
 		}
-		if err := reg.Validate(name, rec.Unit, rec.Value); err != nil {
-			bad(reasonOf(err, ReasonInvalidReading), fmt.Sprintf("record %d (channel %q): %v", i, name, err))
-			continue
-		}
-		out.readings = append(out.readings, store.Reading{Channel: name, Time: rec.Time, Value: rec.Value})
+		out.readings = append(out.readings, rd)
 	}
 	for _, reason := range order {
 		ds := byReason[reason]
@@ -811,6 +928,9 @@ func (nopObserver) ReadingsHandled(string, string, int)   {}
 func (nopObserver) Rejected(string, string)               {}
 func (nopObserver) LastReading(string, string, time.Time) {}
 func (nopObserver) BrokerDropped(int)                     {}
+func (nopObserver) DeadLettersDropped(int)                {}
+func (nopObserver) CommitFailed()                         {}
+func (nopObserver) BrokerConnection(bool, bool)           {}
 
 // reasonLog logs at most one line per reason per interval, with the count
 // of lines suppressed since.

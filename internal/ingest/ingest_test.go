@@ -22,6 +22,8 @@ type countingObserver struct {
 	rejected map[string]int
 	last     map[string]time.Time
 	dropped  int
+	// deadDropped counts dead letters dropped at the store's cap.
+	deadDropped int
 }
 
 func newCountingObserver() *countingObserver {
@@ -55,6 +57,14 @@ func (o *countingObserver) BrokerDropped(n int) {
 	o.dropped += n
 	o.mu.Unlock()
 }
+
+func (o *countingObserver) DeadLettersDropped(n int) {
+	o.mu.Lock()
+	o.deadDropped += n
+	o.mu.Unlock()
+}
+func (o *countingObserver) CommitFailed()              {}
+func (o *countingObserver) BrokerConnection(c, r bool) {}
 
 func (o *countingObserver) snapshot() (map[string]int, map[string]int, map[string]int) {
 	o.mu.Lock()
@@ -172,7 +182,8 @@ func TestBadInput(t *testing.T) {
 	pub := newPublisher(t, b.Addr(), "bad-input-pub")
 	bt := senmlTime(t0)
 	cases := []struct {
-		name, topic, payload, reason string
+		name, topic, payload string
+		reason               Reason
 	}{
 		{"malformed JSON", "shm/alder-creek/g00", `[{"v":1.0,`, "malformed_json"},
 		{"not an array", "shm/alder-creek/g00", `{"v":1}`, "malformed_json"},
@@ -242,18 +253,18 @@ func TestBadInput(t *testing.T) {
 				want += 2
 			}
 		}
-		if dl[c.reason] != int64(want) || rej[c.reason] != want || stats.Rejected[c.reason] != int64(want) {
-			t.Errorf("%s: reason %q: %d dead letters, %d observed, %d in stats; want %d", c.name, c.reason, dl[c.reason], rej[c.reason], stats.Rejected[c.reason], want)
+		if r := string(c.reason); dl[r] != int64(want) || rej[r] != want || stats.Rejected[r] != int64(want) {
+			t.Errorf("%s: reason %q: %d dead letters, %d observed, %d in stats; want %d", c.name, c.reason, dl[string(c.reason)], rej[string(c.reason)], stats.Rejected[string(c.reason)], want)
 		}
 	}
 	if rds[OutcomeDuplicate] != 2 || rds[OutcomeRejected] < 3 {
 		t.Errorf("readings by outcome %v; want 2 duplicates", rds)
 	}
-	// The dead letter keeps the payload (the oversized one truncated).
+	// The dead letter keeps an excerpt of the payload and its size.
 	letters, _ := st.DeadLetters(ctx, time.Time{}, time.Time{}, 0)
 	for _, d := range letters {
-		if d.Reason == ReasonOversized && len(d.Payload) != 4096 {
-			t.Errorf("oversized dead letter keeps %d bytes, want 4096", len(d.Payload))
+		if d.Reason == string(ReasonOversized) && (len(d.Payload) != store.ExcerptBytes || d.Size <= 4096 || d.Repeats != 2) {
+			t.Errorf("oversized dead letter keeps %d bytes of %d, %d repeats; want %d bytes of more than 4096, 2 repeats", len(d.Payload), d.Size, d.Repeats, store.ExcerptBytes)
 		}
 		if d.Reason == "malformed_json" && d.Topic != "shm/alder-creek/g00" {
 			t.Errorf("dead letter topic %q", d.Topic)
@@ -261,7 +272,7 @@ func TestBadInput(t *testing.T) {
 	}
 	// Logged once per reason (the limit is one a minute), not per message.
 	for _, c := range cases {
-		if n := strings.Count(logs.String(), "reason="+c.reason+" "); n != 1 {
+		if n := strings.Count(logs.String(), "reason="+string(c.reason)+" "); n != 1 {
 			t.Errorf("reason %s logged %d times, want 1", c.reason, n)
 		}
 	}

@@ -8,10 +8,12 @@ import (
 	"crypto/x509"
 	"crypto/x509/pkix"
 	"encoding/pem"
+	"log/slog"
 	"math/big"
 	"net"
 	"os"
 	"path/filepath"
+	"strings"
 	"testing"
 	"time"
 
@@ -118,4 +120,48 @@ func TestTLSWithClientCertificateAndPassword(t *testing.T) {
 		t.Fatalf("stored %d of %d over TLS", got, n)
 	}
 	checkExactlyOnce(t, st, "alder-creek", "g00", n)
+}
+
+// TestUntrustedCALogged: a broker whose certificate is not signed by the
+// configured CA is refused, and the refusal is logged at once with the
+// reason (issue 10, defect 2: no log line for 75 s with an untrusted CA).
+func TestUntrustedCALogged(t *testing.T) {
+	dir := t.TempDir()
+	now := time.Now()
+	caTmpl := func(serial int64, name string) *x509.Certificate {
+		return &x509.Certificate{SerialNumber: big.NewInt(serial), Subject: pkix.Name{CommonName: name},
+			NotBefore: now.Add(-time.Hour), NotAfter: now.Add(time.Hour),
+			IsCA: true, BasicConstraintsValid: true, KeyUsage: x509.KeyUsageCertSign}
+	}
+	ca, caKey := writeCert(t, dir, "ca", caTmpl(1, "broker CA"), nil, nil)
+	writeCert(t, dir, "other", caTmpl(2, "another CA"), nil, nil)
+	writeCert(t, dir, "server", &x509.Certificate{
+		SerialNumber: big.NewInt(3), Subject: pkix.Name{CommonName: "broker"},
+		NotBefore: now.Add(-time.Hour), NotAfter: now.Add(time.Hour),
+		IPAddresses: []net.IP{net.ParseIP("127.0.0.1")},
+		ExtKeyUsage: []x509.ExtKeyUsage{x509.ExtKeyUsageServerAuth}, KeyUsage: x509.KeyUsageDigitalSignature,
+	}, ca, caKey)
+	serverCert, err := tls.LoadX509KeyPair(filepath.Join(dir, "server.crt"), filepath.Join(dir, "server.key"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	b, err := broker.Start(broker.Config{Address: "127.0.0.1:0", Users: map[string]string{"trussmonitor": "pw"},
+		TLS: &tls.Config{Certificates: []tls.Certificate{serverCert}, MinVersion: tls.VersionTLS12}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer b.Close()
+	var logs safeBuffer
+	st := openStore(t, filepath.Join(dir, "m.db"))
+	_, stop := startIngest(t, Config{Broker: "ssl://" + b.Addr(), ClientID: "untrusted", Username: "trussmonitor", Password: "pw",
+		CAFile: filepath.Join(dir, "other.crt")}, Deps{Store: st, Registries: alderRegistry(), Logger: slog.New(slog.NewTextHandler(&logs, nil))})
+	defer stop()
+	deadline := time.Now().Add(60 * time.Second)
+	for time.Now().Before(deadline) {
+		if strings.Contains(logs.String(), "certificate signed by unknown authority") {
+			return
+		}
+		time.Sleep(20 * time.Millisecond)
+	}
+	t.Fatalf("no log line naming the untrusted certificate within 60 s; log:\n%s", logs.String())
 }

@@ -41,6 +41,11 @@ const (
 	EpochDuration        = "shm_epoch_processing_seconds"
 	AlarmsFiring         = "shm_alarms_firing"
 	BrokerDroppedMessage = "shm_broker_dropped_messages_total"
+	DeadLettersDropped   = "shm_dead_letters_dropped_total"
+	ChannelWatchedSince  = "shm_channel_watched_since_timestamp_seconds"
+	CommitFailures       = "shm_ingest_commit_failures_total"
+	BrokerConnected      = "shm_broker_connected"
+	BrokerReconnects     = "shm_broker_reconnects_total"
 )
 
 // Epoch outcomes for Metrics.Epoch (common values; any string is accepted).
@@ -57,12 +62,15 @@ type Metrics struct {
 	chi2, dof, pvalue                                        *prometheus.GaugeVec
 	load, loadStd                                            *prometheus.GaugeVec
 	epochs, messages, readings, rejections, skew             *prometheus.CounterVec
-	lastReading                                              *prometheus.GaugeVec
+	lastReading, watchedSince                                *prometheus.GaugeVec
 	latency                                                  *prometheus.HistogramVec
 	alarms                                                   *prometheus.GaugeVec
 	dropped                                                  prometheus.Counter
 	state                                                    *stateVecs
 	loads                                                    *loadVecs
+	deadDropped                                              prometheus.Counter
+	commitFailures, reconnects                               *prometheus.CounterVec
+	connected                                                *prometheus.GaugeVec
 
 	cMessages, cReadings, cRejections, cEpochs, cSkew *children[prometheus.Counter]
 	cLatency                                          *children[prometheus.Observer]
@@ -111,6 +119,8 @@ func New(reg prometheus.Registerer) (*Metrics, error) {
 		skew:       c(ClockSkewReadings, "Readings whose logger time stamp was too far from the receive time (clock skew).", st),
 		lastReading: g(ChannelLastReading, "Logger time stamp of the channel's last stored reading, seconds since 1970.",
 			[]string{"structure", "channel"}),
+		watchedSince: g(ChannelWatchedSince, "Receiver time at which the service began watching the channel (its start), seconds since 1970; a channel with no reading is silent since then.",
+			[]string{"structure", "channel"}),
 		latency: prometheus.NewHistogramVec(prometheus.HistogramOpts{
 			Name:    EpochDuration,
 			Help:    "Time to process one epoch (prediction, fit, tests, alarms), seconds.",
@@ -120,6 +130,11 @@ func New(reg prometheus.Registerer) (*Metrics, error) {
 		dropped: prometheus.NewCounter(prometheus.CounterOpts{Name: BrokerDroppedMessage, Help: "Messages the embedded broker dropped (in-flight or queue limits)."}),
 		state:   newStateVecs(),
 		loads:   newLoadVecs(),
+		deadDropped: prometheus.NewCounter(prometheus.CounterOpts{Name: DeadLettersDropped,
+			Help: "Oldest dead letters deleted to keep the dead-letter table under its row cap."}),
+		commitFailures: c(CommitFailures, "Failed store commits of received messages (each retried; nothing is acknowledged before its commit), counted for every structure of the instance.", st),
+		reconnects:     c(BrokerReconnects, "Connections to the MQTT broker after the first (each follows a lost connection), for every structure of the instance.", st),
+		connected:      g(BrokerConnected, "1 while the ingest of the structure's instance is connected to the MQTT broker and subscribed, else 0.", st),
 	}
 	two := func(v *prometheus.CounterVec) *children[prometheus.Counter] {
 		return newChildren(func(a, b string) prometheus.Counter { return v.WithLabelValues(a, b) })
@@ -133,7 +148,7 @@ func New(reg prometheus.Registerer) (*Metrics, error) {
 	})
 	for _, col := range append([]prometheus.Collector{m.measured, m.predicted, m.residual, m.w, m.mdb, m.redund, m.checkable,
 		m.chi2, m.dof, m.pvalue, m.load, m.loadStd, m.epochs, m.messages, m.readings, m.rejections, m.skew,
-		m.lastReading, m.latency, m.alarms, m.dropped}, append(m.state.collectors(), m.loads.collectors()...)...) {
+		m.lastReading, m.watchedSince, m.latency, m.alarms, m.dropped, m.deadDropped, m.commitFailures, m.reconnects, m.connected}, append(m.state.collectors(), m.loads.collectors()...)...) {
 		if err := reg.Register(col); err != nil {
 			return nil, fmt.Errorf("metrics: registering collectors: %w (is a second Metrics registered on the same registry?)", err)
 		}
@@ -202,12 +217,52 @@ func (m *Metrics) LastReading(structure, channel string, t time.Time) {
 	l.mu.Unlock()
 }
 
+// WatchedSince records when the service began watching a channel.
+func (m *Metrics) WatchedSince(structure, channel string, t time.Time) {
+	m.watchedSince.WithLabelValues(structure, channel).Set(float64(t.UnixNano()) / 1e9)
+}
+
 // BrokerDropped counts n messages dropped by the embedded broker
 // (ingest.Observer).
 func (m *Metrics) BrokerDropped(n int) {
 	if n > 0 {
 		m.dropped.Add(float64(n))
 	}
+}
+
+// DeadLettersDropped counts n dead letters dropped at the cap
+// (ingest.Observer).
+func (m *Metrics) DeadLettersDropped(n int) {
+	if n > 0 {
+		m.deadDropped.Add(float64(n))
+	}
+}
+
+// IngestOf creates the ingest-state series of structure at their zero
+// values (not connected, no failure, no reconnect), so that they exist from
+// the start and a counter's increase is measured from 0.
+func (m *Metrics) IngestOf(structure string) {
+	m.commitFailures.WithLabelValues(structure)
+	m.reconnects.WithLabelValues(structure)
+	m.connected.WithLabelValues(structure).Set(0)
+}
+
+// CommitFailed counts one failed store commit for structure (one ingest
+// serves every structure of an instance: the caller counts it for each).
+func (m *Metrics) CommitFailed(structure string) { m.commitFailures.WithLabelValues(structure).Inc() }
+
+// BrokerConnection records the broker connection state for structure:
+// connected and subscribed (true), or lost (false); reconnect is true for a
+// connection after the first.
+func (m *Metrics) BrokerConnection(structure string, connected, reconnect bool) {
+	if connected {
+		m.connected.WithLabelValues(structure).Set(1)
+		if reconnect {
+			m.reconnects.WithLabelValues(structure).Inc()
+		}
+		return
+	}
+	m.connected.WithLabelValues(structure).Set(0)
 }
 
 // ClockSkew counts n readings with a skewed logger clock.

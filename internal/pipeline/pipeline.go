@@ -56,6 +56,11 @@ type Config struct {
 	// RejectCount returns the cumulative count of rejected payloads of this
 	// structure (live ingest); nil means none.
 	RejectCount func() uint64
+	// CommitFailures returns the cumulative count of failed store commits
+	// and BrokerConnected whether ingest is connected now (live ingest);
+	// nil (replay) gives those rules no value.
+	CommitFailures  func() uint64
+	BrokerConnected func() bool
 	// Observer receives late-reading counts; may be nil.
 	Observer epoch.Observer
 	// Logger logs conversion problems at a bounded rate; nil discards.
@@ -84,6 +89,7 @@ type Pipeline struct {
 	cfg       Config
 	sinks     []Sink
 	lastSeen  map[string]time.Time
+	watched   time.Time // live: when watching began (Seed)
 	channels  []string
 	lastEval  time.Time
 	lastEpoch time.Time
@@ -175,6 +181,21 @@ func (p *Pipeline) Feed(ctx context.Context, rs []Reading) {
 	}
 }
 
+// Seed sets the channels' last-reading times known from the store at
+// start and the time watching began (live running): a channel with no
+// reading since is silent from its last stored reading, and one with none
+// at all from since.
+func (p *Pipeline) Seed(last map[string]time.Time, since time.Time) {
+	p.mu.Lock()
+	defer p.mu.Unlock()
+	for ch, t := range last {
+		if t.After(p.lastSeen[ch]) {
+			p.lastSeen[ch] = t
+		}
+	}
+	p.watched = since
+}
+
 // Tick closes epochs whose idle time passed on the live clock and, when no
 // epoch closed for a while, evaluates the alarm rules at the clock time so
 // that a logger that fell silent raises its alarm.
@@ -183,6 +204,13 @@ func (p *Pipeline) Tick(ctx context.Context) {
 	defer p.mu.Unlock()
 	for _, e := range p.asm.Tick() {
 		p.process(ctx, e)
+	}
+	// Events the store refused (a full disk) are retried every tick until
+	// stored, also while no epoch closes.
+	if p.eval.Unstored() > 0 {
+		if err := p.eval.Retry(ctx); err != nil {
+			p.logOnce("alarm", "alarm events not stored yet; retrying", "structure", p.structure, "error", err)
+		}
 	}
 	if p.cfg.Clock == nil {
 		return
@@ -282,8 +310,15 @@ func (p *Pipeline) observation(t time.Time, res *Result) alerts.Observation {
 	if p.cfg.RejectCount != nil {
 		o.RejectCount = p.cfg.RejectCount()
 	}
+	if p.cfg.CommitFailures != nil {
+		o.CommitFailures = p.cfg.CommitFailures()
+	}
+	if p.cfg.BrokerConnected != nil {
+		c := p.cfg.BrokerConnected()
+		o.BrokerConnected = &c
+	}
 	for _, ch := range p.channels {
-		o.Channels = append(o.Channels, alerts.Channel{Channel: ch, LastReading: p.lastSeen[ch]})
+		o.Channels = append(o.Channels, alerts.Channel{Channel: ch, LastReading: p.lastSeen[ch], WatchedSince: p.watched})
 	}
 	if res == nil || (res.Outcome != OutcomeAccepted && res.Outcome != OutcomeRejected) {
 		return o

@@ -77,6 +77,9 @@ type Service struct {
 	order     []string
 	results   *resultSink
 	ingester  *ingest.Ingester
+	ingPtr    atomic.Pointer[ingest.Ingester] // the ingester, for readers on other goroutines
+	flowMu    sync.Mutex
+	flows     map[string]*flow
 	brk       *broker.Broker
 	rejects   map[string]*atomic.Uint64
 	obs       *observer
@@ -129,7 +132,7 @@ func New(cfg *config.Config, opt Options) (*Service, error) {
 	}
 	s.set = set
 	s.rules = set.Rules
-	st, err := store.Open(cfg.Database, store.Options{})
+	st, err := store.Open(cfg.Database, store.Options{MaxDeadLetters: cfg.Ingest.MaxDeadLetters})
 	if err != nil {
 		return nil, fmt.Errorf("%s: database: %w", cfg.File, err)
 	}
@@ -166,16 +169,42 @@ func (s *Service) addStructure(mon *Monitored) error {
 	cfg := pipeline.Config{
 		Window: s.set.Window, MaxLateness: s.set.MaxLateness,
 		Clock: s.clock, MaxFuture: 10 * time.Minute, MaxPast: 7 * 24 * time.Hour,
-		Processor:   pipeline.ProcessorOptions{EstimateMissingLoads: s.set.EstimateMissingLoads},
-		Rules:       s.rules,
-		Events:      eventSink{s.store},
-		RejectCount: counter.Load,
-		Observer:    s.met,
-		Logger:      s.log,
+		Processor:      pipeline.ProcessorOptions{EstimateMissingLoads: s.set.EstimateMissingLoads},
+		Rules:          s.rules,
+		Events:         eventSink{s.store},
+		RejectCount:    counter.Load,
+		CommitFailures: s.obs.commitFailures.Load,
+		BrokerConnected: func() bool {
+			in := s.ingesterNow()
+			return in != nil && in.Health().Live
+		},
+		Observer: s.met,
+		Logger:   s.log,
 	}
 	p, err := pipeline.New(mon.Model, mon.Sensors, cfg)
 	if err != nil {
 		return fmt.Errorf("structure %q: %w", name, err)
+	}
+	// Silence survives a restart: the last stored reading of each channel
+	// (one query), and watching begins now for channels with none.
+	// Readings beyond the window ahead (stored by an earlier version) are
+	// left out: they would hold the silence alarm off for ever.
+	start := s.clock()
+	ahead := s.cfg.Ingest.MaxAhead.D()
+	if ahead <= 0 {
+		ahead = ingest.DefaultMaxAhead
+	}
+	last, err := s.store.LastReadings(ctx, name, start.Add(ahead))
+	if err != nil {
+		return fmt.Errorf("structure %q: %w", name, err)
+	}
+	p.Seed(last, start)
+	s.met.IngestOf(name)
+	for _, ch := range mon.Sensors.Channels() {
+		s.met.WatchedSince(name, ch.ID, start)
+		if t, ok := last[ch.ID]; ok {
+			s.met.LastReading(name, ch.ID, t)
+		}
 	}
 	proc := p.Processor()
 	p.AddSink(s.live.Register(mon.Structure, proc, s.set.AlphaGlobal))
@@ -240,7 +269,7 @@ func (s *Service) Start(ctx context.Context) error {
 	mux.Handle("/metrics", mh)
 	mux.Handle("/healthz", mh)
 	mux.Handle("/readyz", mh)
-	mux.Handle("/", dashboard.New(s.live, dashboard.Options{Now: s.clock, ClockNote: s.clockNote}))
+	mux.Handle("/", dashboard.New(s.live, dashboard.Options{Now: s.clock, ClockNote: s.clockNote, DeadLetters: deadLetterSource{s.store}}))
 	s.httpSrv = &http.Server{Handler: mux, ReadHeaderTimeout: 10 * time.Second}
 	go func() {
 		if err := s.httpSrv.Serve(ln); err != nil && !errors.Is(err, http.ErrServerClosed) {
@@ -266,12 +295,54 @@ func (s *Service) Start(ctx context.Context) error {
 		Broker: url, ClientID: s.cfg.Broker.ClientID, Username: s.cfg.Broker.Username, Password: s.cfg.Broker.Password,
 		CAFile: s.cfg.Broker.TLS.CAFile, CertFile: s.cfg.Broker.TLS.CertFile, KeyFile: s.cfg.Broker.TLS.KeyFile,
 		MaxPayload: s.cfg.Broker.MaxPayloadBytes,
+		MaxAhead:   s.cfg.Ingest.MaxAhead.D(), MaxBehind: s.cfg.Ingest.MaxBehind.D(),
 	}, deps)
 	if err != nil {
 		return fmt.Errorf("%s: broker: %w", s.cfg.File, err)
 	}
 	s.ingester = in
+	s.ingPtr.Store(in)
 	return nil
+}
+
+func (s *Service) ingesterNow() *ingest.Ingester { return s.ingPtr.Load() }
+
+// flow is what readiness knows of one structure's pipeline: when its
+// count of fed readings and of epochs last grew (receiver clock).
+type flow struct {
+	readings, epochs     int64
+	readingsAt, epochsAt time.Time
+}
+
+// trackFlows notes the pipelines' progress (each tick).
+func (s *Service) trackFlows(now time.Time) {
+	s.flowMu.Lock()
+	defer s.flowMu.Unlock()
+	if s.flows == nil {
+		s.flows = map[string]*flow{}
+	}
+	for _, name := range s.order {
+		st := s.pipes[name].Stats()
+		f := s.flows[name]
+		if f == nil {
+			f = &flow{readingsAt: now, epochsAt: now}
+			s.flows[name] = f
+		}
+		if st.Readings != f.readings {
+			f.readings, f.readingsAt = st.Readings, now
+		}
+		if st.Epochs != f.epochs {
+			f.epochs, f.epochsAt = st.Epochs, now
+		}
+	}
+}
+
+// epochStall is how long readings may flow into a pipeline without an
+// epoch closing before the service is not ready: an epoch closes at the
+// latest one window plus the maximum lateness after its first reading
+// (idle flush), so four times that, and at least 30 s, is a stall.
+func (s *Service) epochStall() time.Duration {
+	return max(4*(s.cfg.Epochs.Window.D()+s.cfg.Epochs.MaxLateness.D()), 30*time.Second)
 }
 
 // committed feeds newly stored readings to their structure's pipeline.
@@ -288,16 +359,45 @@ func (s *Service) committed(structure string, rs []store.Reading) {
 	p.Feed(context.Background(), in)
 }
 
+// ready is the readiness of the present moment: ingest connected to the
+// broker and subscribed now, the latest store commit succeeded, and every
+// pipeline that receives readings closes epochs. It names every condition
+// that fails.
 func (s *Service) ready() error {
-	if s.ingester == nil {
+	in := s.ingesterNow()
+	if in == nil {
 		return errors.New("ingest not started")
 	}
-	if st := s.ingester.Stats(); st.Connects == 0 {
-		return errors.New("not connected to the broker yet")
-	} else if st.Subscribed == 0 {
-		return errors.New("connected, not yet subscribed")
+	var errs []error
+	h := in.Health()
+	if !h.Live {
+		if st := in.Stats(); st.Connects == 0 {
+			errs = append(errs, fmt.Errorf("not connected to the broker %s yet (see the log for the connection error)", s.brokerURL()))
+		} else {
+			errs = append(errs, fmt.Errorf("not connected and subscribed to the broker %s now (reconnecting; see the log)", s.brokerURL()))
+		}
 	}
-	return nil
+	if h.CommitFailing {
+		errs = append(errs, fmt.Errorf("store commits failing since %s: %v", h.FailingSince.UTC().Format(time.RFC3339), h.Err))
+	}
+	now := s.clock()
+	stall := s.epochStall()
+	s.flowMu.Lock()
+	for _, name := range s.order {
+		if f := s.flows[name]; f != nil && now.Sub(f.readingsAt) < stall && f.readingsAt.Sub(f.epochsAt) > stall {
+			errs = append(errs, fmt.Errorf("structure %s: readings arrive but no epoch closed since %s", name, f.epochsAt.UTC().Format(time.RFC3339)))
+		}
+	}
+	s.flowMu.Unlock()
+	return errors.Join(errs...)
+}
+
+// brokerURL is the broker ingest connects to.
+func (s *Service) brokerURL() string {
+	if s.brk != nil {
+		return "tcp://" + s.brk.Addr()
+	}
+	return s.cfg.Broker.URL
 }
 
 // WaitReady waits until the ingest is connected and subscribed (Run must be
@@ -343,6 +443,7 @@ loop:
 			for _, name := range s.order {
 				s.pipes[name].Tick(ctx)
 			}
+			s.trackFlows(s.clock())
 			s.results.flush()
 			if now := s.clock(); now.Sub(lastRetention) > time.Hour {
 				lastRetention = now
@@ -391,10 +492,28 @@ func (s *Service) Close() error {
 }
 
 // observer forwards ingest observations to the metrics and counts
-// rejections per structure for the IngestRejects rule.
+// rejections per structure for the IngestRejects rule and failed commits
+// for the CommitsFailing rule.
 type observer struct {
 	*metrics.Metrics
-	rejects map[string]*atomic.Uint64
+	rejects        map[string]*atomic.Uint64
+	commitFailures atomic.Uint64
+}
+
+// CommitFailed counts a failed commit, for every structure (one ingest
+// serves them all).
+func (o *observer) CommitFailed() {
+	for name := range o.rejects {
+		o.Metrics.CommitFailed(name)
+	}
+	o.commitFailures.Add(1)
+}
+
+// BrokerConnection records the connection state for every structure.
+func (o *observer) BrokerConnection(connected, reconnect bool) {
+	for name := range o.rejects {
+		o.Metrics.BrokerConnection(name, connected, reconnect)
+	}
 }
 
 // Rejected counts a rejection.
@@ -403,6 +522,23 @@ func (o *observer) Rejected(structure, reason string) {
 	if c := o.rejects[structure]; c != nil {
 		c.Add(1)
 	}
+}
+
+// deadLetterSource lists the store's dead letters for the dashboard API.
+type deadLetterSource struct{ st *store.Store }
+
+// DeadLetters lists dead letters first received in [from, to).
+func (d deadLetterSource) DeadLetters(from, to time.Time, reason string, limit int) ([]dashboard.DeadLetter, error) {
+	ds, err := d.st.ListDeadLetters(context.Background(), store.DeadLetterFilter{From: from, To: to, Reason: reason, Limit: limit})
+	if err != nil {
+		return nil, err
+	}
+	out := make([]dashboard.DeadLetter, len(ds))
+	for i, x := range ds {
+		out[i] = dashboard.DeadLetter{Received: x.Received, LastReceived: x.LastReceived, Repeats: x.Repeats, Topic: x.Topic,
+			Reason: x.Reason, Detail: x.Detail, Size: x.Size, Excerpt: x.Payload}
+	}
+	return out, nil
 }
 
 // eventSink stores alarm events in the store.

@@ -5,6 +5,7 @@ import (
 	"encoding/json"
 	"log/slog"
 	"sync"
+	"time"
 
 	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/metrics"
@@ -88,6 +89,9 @@ type resultSink struct {
 	store *store.Store
 	log   *slog.Logger
 	buf   []store.Result
+	// warned is when the last "not stored" warning was logged (one a
+	// minute at most).
+	warned time.Time
 }
 
 // Epoch buffers one result (fitted or not).
@@ -110,7 +114,7 @@ func (rs *resultSink) Epoch(r *pipeline.Result) {
 	}
 	rs.mu.Lock()
 	rs.buf = append(rs.buf, store.Result{Structure: r.Structure, Time: r.Time, Payload: payload})
-	full := len(rs.buf) >= 500
+	full := len(rs.buf) >= 500 && len(rs.buf)%500 == 0
 	rs.mu.Unlock()
 	if full {
 		rs.flush()
@@ -127,6 +131,29 @@ func (rs *resultSink) flush() {
 		return
 	}
 	if err := rs.store.PutResults(context.Background(), buf); err != nil {
-		rs.log.Warn("results not stored", "n", len(buf), "error", err)
+		// Kept for the next flush (a full disk passes); beyond
+		// maxUnstoredResults the oldest are given up: results are
+		// recomputable from the stored readings by monitor replay.
+		rs.mu.Lock()
+		rs.buf = append(buf, rs.buf...)
+		lost := 0
+		if over := len(rs.buf) - maxUnstoredResults; over > 0 {
+			lost = over
+			rs.buf = append(rs.buf[:0], rs.buf[over:]...)
+		}
+		n := len(rs.buf)
+		quiet := time.Since(rs.warned) < time.Minute && lost == 0
+		if !quiet {
+			rs.warned = time.Now()
+		}
+		rs.mu.Unlock()
+		if quiet {
+			return
+		}
+		rs.log.Warn("epoch results not stored yet; kept for a retry at the next flush", "waiting", n, "given_up", lost, "error", err)
 	}
 }
+
+// maxUnstoredResults bounds the epoch results kept in memory while the
+// store refuses them: a day of 1 s epochs of one structure.
+const maxUnstoredResults = 86_400

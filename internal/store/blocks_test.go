@@ -203,8 +203,18 @@ func TestMigrationToBlocks(t *testing.T) {
 	if _, err := st.InsertReadings(ctx, "bridge", rs); err != nil {
 		t.Fatal(err)
 	}
-	// Take the file back to version 3, as the previous release wrote it.
-	if _, err := st.db.Exec(`DROP TABLE reading_blocks; UPDATE schema_version SET version = 3`); err != nil {
+	// Take the file back to the version before blocks, as the previous
+	// release wrote it.
+	before := -1
+	for i, m := range migrations {
+		if strings.Contains(m, "CREATE TABLE reading_blocks") {
+			before = i
+		}
+	}
+	if before < 0 {
+		t.Fatal("no migration creates reading_blocks")
+	}
+	if _, err := st.db.Exec(`DROP TABLE reading_blocks; UPDATE schema_version SET version = ?`, before); err != nil {
 		t.Fatal(err)
 	}
 	st.Close()
@@ -216,14 +226,14 @@ func TestMigrationToBlocks(t *testing.T) {
 	if v, _ := st.SchemaVersion(ctx); v != len(migrations) {
 		t.Errorf("schema version %d after opening, want %d", v, len(migrations))
 	}
-	before := readAll(t, st, "bridge")
+	stored := readAll(t, st, "bridge")
 	if _, err := st.Compact(ctx, dayStart.Add(2*time.Hour)); err != nil {
 		t.Fatal(err)
 	}
 	if n := rowCount(t, st); n != 0 {
 		t.Errorf("%d rows left after compacting everything", n)
 	}
-	if err := sameReadings(before, readAll(t, st, "bridge")); err != nil {
+	if err := sameReadings(stored, readAll(t, st, "bridge")); err != nil {
 		t.Fatal(err)
 	}
 }

@@ -65,7 +65,19 @@ var migrations = []string{
 	// 3: time indexes used by retention and by the dead-letter listing.
 	`CREATE INDEX dead_letters_by_time ON dead_letters (received);
 	CREATE INDEX events_by_ts ON events (ts);`,
-	// 4 (blocks): readings of closed periods in compressed blocks, one
+	// 4 (data path): dead letters keep a bounded excerpt of the payload
+	// (ExcerptBytes) and its original size, and fold repeats of one topic,
+	// reason and excerpt within RepeatPeriod into one row with a count and
+	// the time of the last repeat. Rows written before keep their payload
+	// cut to the excerpt.
+	`ALTER TABLE dead_letters ADD COLUMN size INTEGER NOT NULL DEFAULT 0; -- payload bytes received
+	ALTER TABLE dead_letters ADD COLUMN repeats INTEGER NOT NULL DEFAULT 1;
+	ALTER TABLE dead_letters ADD COLUMN last_received INTEGER NOT NULL DEFAULT 0; -- Unix ns, receiver clock
+	ALTER TABLE dead_letters ADD COLUMN digest BLOB NOT NULL DEFAULT x'';  -- SHA-256 of topic, reason, excerpt (first 16 bytes)
+	UPDATE dead_letters SET size = length(payload), last_received = received,
+		payload = substr(payload, 1, 1024), detail = substr(detail, 1, 1024);
+	CREATE INDEX dead_letters_by_digest ON dead_letters (digest, received);`,
+	// 5 (blocks): readings of closed periods in compressed blocks, one
 	// per channel and BlockSpan (internal/blocks); see blocks.go.
 	`CREATE TABLE reading_blocks (
 		channel INTEGER NOT NULL REFERENCES channels(id),

@@ -13,8 +13,11 @@ import (
 )
 
 // Reading is one raw value of one channel at the logger's timestamp.
-// Readings are keyed by (structure, channel, time to the nanosecond): a
-// second reading with the same key is a redelivery and is not stored again.
+// Readings are keyed by (structure, channel, time to the nanosecond; ingest
+// and import round times to the microsecond first, see
+// ingest.TimeResolution): a second reading with the same key and value is a
+// redelivery and is not stored again; with another value it is a conflict
+// (CommitResult.Conflicts), not stored either.
 type Reading struct {
 	Channel string
 	Time    time.Time
@@ -32,6 +35,16 @@ type Group struct {
 type Batch struct {
 	Groups      []Group
 	DeadLetters []DeadLetter
+	// OnConflict, when set, turns the conflicts of group g into a dead
+	// letter stored in the same transaction (ingest: conflicting_reading).
+	OnConflict func(g int, cs []Conflict) DeadLetter
+}
+
+// Conflict is a reading whose key (channel, time) is stored, or taken by an
+// earlier reading of the same batch, with another value.
+type Conflict struct {
+	Index  int     // position in its group's Readings
+	Stored float64 // the value kept under the key
 }
 
 // CommitResult says, per group of the batch, which readings were new.
@@ -41,6 +54,13 @@ type CommitResult struct {
 	// New[g][i] is false when Groups[g].Readings[i] was already stored
 	// (a redelivery, or the same key earlier in this batch).
 	New [][]bool
+	// Conflicts[g] are the readings of Groups[g] that were not new and
+	// differ in value from the one kept (nil when there are none).
+	Conflicts [][]Conflict
+	// DeadLettersAdded is the number of dead-letter rows added (repeats
+	// are counted on an existing row); DeadLettersDropped the number of
+	// the oldest dropped to keep under Options.MaxDeadLetters.
+	DeadLettersAdded, DeadLettersDropped int64
 }
 
 // rowsPerStatement is the number of readings per multi-VALUES INSERT; PROBES.md
@@ -105,7 +125,7 @@ type rowPos struct{ g, i int }
 // transaction: all of it is durable when Commit returns nil, none of it when
 // it returns an error. Readings already stored are ignored (INSERT OR IGNORE).
 func (s *Store) Commit(ctx context.Context, b Batch) (CommitResult, error) {
-	res := CommitResult{Inserted: make([]int, len(b.Groups)), New: make([][]bool, len(b.Groups))}
+	res := CommitResult{Inserted: make([]int, len(b.Groups)), New: make([][]bool, len(b.Groups)), Conflicts: make([][]Conflict, len(b.Groups))}
 	total := 0
 	for g, grp := range b.Groups {
 		for _, r := range grp.Readings {
@@ -194,8 +214,26 @@ func (s *Store) Commit(ctx context.Context, b Batch) (CommitResult, error) {
 		}
 		start = end
 	}
-	for _, d := range b.DeadLetters {
-		if err := insertDeadLetter(ctx, tx, d); err != nil {
+	if err := s.findConflicts(ctx, tx, b, ids, first, &res); err != nil {
+		return CommitResult{}, err
+	}
+	dead := b.DeadLetters
+	if b.OnConflict != nil {
+		for g, cs := range res.Conflicts {
+			if len(cs) > 0 {
+				dead = append(dead, b.OnConflict(g, cs))
+			}
+		}
+	}
+	for _, d := range dead {
+		n, err := insertDeadLetter(ctx, tx, d)
+		if err != nil {
+			return CommitResult{}, err
+		}
+		res.DeadLettersAdded += int64(n)
+	}
+	if res.DeadLettersAdded > 0 {
+		if res.DeadLettersDropped, err = s.capDeadLetters(ctx, tx); err != nil {
 			return CommitResult{}, err
 		}
 	}
@@ -210,6 +248,49 @@ func (s *Store) Commit(ctx context.Context, b Batch) (CommitResult, error) {
 		s.mu.Unlock()
 	}
 	return res, nil
+}
+
+// findConflicts compares every reading that was not new with the value
+// kept under its key: the first of the batch when that one was new, else
+// the value stored before (read back; redeliveries are rare).
+func (s *Store) findConflicts(ctx context.Context, tx *sql.Tx, b Batch, ids [][]int64, first map[rowKey]rowPos, res *CommitResult) error {
+	var lookup *sql.Stmt
+	defer func() {
+		if lookup != nil {
+			lookup.Close()
+		}
+	}()
+	stored := map[rowKey]float64{}
+	for g, grp := range b.Groups {
+		for i, r := range grp.Readings {
+			if res.New[g][i] {
+				continue
+			}
+			k := rowKey{ids[g][i], r.Time.UnixNano()}
+			p := first[k]
+			var kept float64
+			if (p != rowPos{g, i}) && res.New[p.g][p.i] {
+				kept = b.Groups[p.g].Readings[p.i].Value
+			} else if v, ok := stored[k]; ok {
+				kept = v
+			} else {
+				if lookup == nil {
+					var err error
+					if lookup, err = tx.PrepareContext(ctx, `SELECT value FROM readings WHERE channel = ? AND ts = ?`); err != nil {
+						return fmt.Errorf("store: reading back a stored reading: %w", err)
+					}
+				}
+				if err := lookup.QueryRowContext(ctx, k.ch, k.ts).Scan(&kept); err != nil {
+					return fmt.Errorf("store: reading back channel %q at %s: %w", r.Channel, r.Time.Format(time.RFC3339Nano), err)
+				}
+				stored[k] = kept
+			}
+			if r.Value != kept {
+				res.Conflicts[g] = append(res.Conflicts[g], Conflict{Index: i, Stored: kept})
+			}
+		}
+	}
+	return nil
 }
 
 func (s *Store) cachedID(k chanKey) (int64, bool) {
@@ -565,4 +646,31 @@ func (s *Store) nextTime(ctx context.Context, ids []int64, from, to int64) (int6
 		best, found = bt, true
 	}
 	return best, found, nil
+}
+
+// LastReadings returns the time of the latest stored reading of every
+// channel of structure at or before notAfter (a zero notAfter: no bound), in
+// one query (each channel's maximum is one step down the (channel, ts)
+// primary key). The bound leaves out readings from the future that an
+// earlier version stored. Channels without readings are left out.
+func (s *Store) LastReadings(ctx context.Context, structure string, notAfter time.Time) (map[string]time.Time, error) {
+	_, hi := nsRange(time.Time{}, notAfter)
+	rows, err := s.db.QueryContext(ctx,
+		`SELECT c.name, (SELECT max(r.ts) FROM readings r WHERE r.channel = c.id AND r.ts <= ?) FROM channels c WHERE c.structure = ?`, hi, structure)
+	if err != nil {
+		return nil, fmt.Errorf("store: last readings of %q: %w", structure, err)
+	}
+	defer rows.Close()
+	out := map[string]time.Time{}
+	for rows.Next() {
+		var name string
+		var ts sql.NullInt64
+		if err := rows.Scan(&name, &ts); err != nil {
+			return nil, fmt.Errorf("store: last readings of %q: %w", structure, err)
+		}
+		if ts.Valid {
+			out[name] = time.Unix(0, ts.Int64).UTC()
+		}
+	}
+	return out, rows.Err()
 }

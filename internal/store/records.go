@@ -9,54 +9,166 @@ import (
 	"errors"
 	"fmt"
 	"time"
+	"unicode/utf8"
 )
 
-// execer is what both *sql.DB and *sql.Tx offer.
-type execer interface {
-	ExecContext(ctx context.Context, query string, args ...any) (sql.Result, error)
-}
+// Dead-letter bounds. A dead letter keeps enough of the payload to see
+// what was wrong, never the whole of it: 1,000 malformed 60 KB messages
+// would otherwise add 60 MB to the file.
+const (
+	// ExcerptBytes is the most of a rejected payload a dead letter keeps
+	// (the first bytes); Size records how large the payload was.
+	ExcerptBytes = 1024
+	// DetailBytes is the most of the error message a dead letter keeps.
+	DetailBytes = 1024
+	// RepeatPeriod: a dead letter with the same topic, reason and excerpt
+	// as one stored less than this long before (by first receipt) is
+	// counted on that row (repeats, last_received) instead of stored again.
+	RepeatPeriod = time.Hour
+	// DefaultMaxDeadLetters caps the dead-letter rows (Options.MaxDeadLetters):
+	// at most ExcerptBytes + DetailBytes + topic and bookkeeping (about
+	// 2.3 KiB) a row, 50,000 rows hold at most about 115 MB. Above the cap
+	// the oldest rows are dropped first (CommitResult.DeadLettersDropped).
+	DefaultMaxDeadLetters = 50_000
+)
 
 // DeadLetter is a payload that was received but not accepted, with why.
 type DeadLetter struct {
 	Topic    string
-	Received time.Time // receiver clock
+	Received time.Time // receiver clock, first receipt
 	Reason   string    // short machine-readable reason, e.g. "malformed_json"
-	Detail   string    // the full error message
-	Payload  []byte
+	Detail   string    // the error message (cut to DetailBytes)
+	Payload  []byte    // the payload's first ExcerptBytes at most
+	// Size is the payload's length in bytes as received (0: len(Payload)).
+	Size int
+	// Repeats is how many times this dead letter was received within
+	// RepeatPeriod of the first (1 for a single one); LastReceived is the
+	// latest of them. Both are set when reading; ignored when storing.
+	Repeats      int64
+	LastReceived time.Time
 }
 
 // DeadLetter stores one rejected payload.
 func (s *Store) DeadLetter(ctx context.Context, d DeadLetter) error {
-	return insertDeadLetter(ctx, s.db, d)
+	tx, err := s.db.BeginTx(ctx, nil)
+	if err != nil {
+		return fmt.Errorf("store: dead letter for topic %q: %w", d.Topic, err)
+	}
+	defer tx.Rollback()
+	added, err := insertDeadLetter(ctx, tx, d)
+	if err != nil {
+		return err
+	}
+	if added > 0 {
+		if _, err := s.capDeadLetters(ctx, tx); err != nil {
+			return err
+		}
+	}
+	return tx.Commit()
 }
 
-func insertDeadLetter(ctx context.Context, ex execer, d DeadLetter) error {
+// cut returns at most n bytes of s, ending on a UTF-8 boundary.
+func cut(s string, n int) string {
+	if len(s) <= n {
+		return s
+	}
+	for n > 0 && !utf8.RuneStart(s[n]) {
+		n--
+	}
+	return s[:n]
+}
+
+// deadLetterDigest identifies repeats: topic, reason and excerpt.
+func deadLetterDigest(topic, reason string, excerpt []byte) []byte {
+	h := sha256.New()
+	h.Write([]byte(topic))
+	h.Write([]byte{0})
+	h.Write([]byte(reason))
+	h.Write([]byte{0})
+	h.Write(excerpt)
+	return h.Sum(nil)[:16]
+}
+
+// insertDeadLetter stores d, or counts it on the row of an identical dead
+// letter first received within RepeatPeriod. It returns 1 when it added a
+// row, 0 when it counted a repeat.
+func insertDeadLetter(ctx context.Context, tx *sql.Tx, d DeadLetter) (int, error) {
 	if d.Reason == "" {
-		return fmt.Errorf("store: dead letter for topic %q has no reason", d.Topic)
+		return 0, fmt.Errorf("store: dead letter for topic %q has no reason", d.Topic)
 	}
 	p := d.Payload
+	size := d.Size
+	if size < len(p) {
+		size = len(p)
+	}
+	if len(p) > ExcerptBytes {
+		p = p[:ExcerptBytes]
+	}
 	if p == nil {
 		p = []byte{}
 	}
-	_, err := ex.ExecContext(ctx,
-		`INSERT INTO dead_letters (topic, received, reason, detail, payload) VALUES (?, ?, ?, ?, ?)`,
-		d.Topic, clampNs(d.Received), d.Reason, d.Detail, p)
+	ts := clampNs(d.Received)
+	digest := deadLetterDigest(d.Topic, d.Reason, p)
+	res, err := tx.ExecContext(ctx,
+		`UPDATE dead_letters SET repeats = repeats + 1, last_received = max(last_received, ?)
+		 WHERE id = (SELECT id FROM dead_letters WHERE digest = ? AND received > ? AND received <= ? ORDER BY received DESC LIMIT 1)`,
+		ts, digest, ts-int64(RepeatPeriod), ts)
 	if err != nil {
-		return fmt.Errorf("store: dead letter for topic %q (%s): %w", d.Topic, d.Reason, err)
+		return 0, fmt.Errorf("store: dead letter for topic %q (%s): %w", d.Topic, d.Reason, err)
 	}
-	return nil
+	if n, _ := res.RowsAffected(); n > 0 {
+		return 0, nil
+	}
+	_, err = tx.ExecContext(ctx,
+		`INSERT INTO dead_letters (topic, received, reason, detail, payload, size, repeats, last_received, digest)
+		 VALUES (?, ?, ?, ?, ?, ?, 1, ?, ?)`,
+		d.Topic, ts, d.Reason, cut(d.Detail, DetailBytes), p, size, ts, digest)
+	if err != nil {
+		return 0, fmt.Errorf("store: dead letter for topic %q (%s): %w", d.Topic, d.Reason, err)
+	}
+	return 1, nil
 }
 
-// DeadLetters returns up to limit dead letters received in [from, to) (zero
-// times unbounded), oldest first. limit <= 0 means no limit.
-func (s *Store) DeadLetters(ctx context.Context, from, to time.Time, limit int) ([]DeadLetter, error) {
-	lo, hi := nsRange(from, to)
+// capDeadLetters drops the oldest dead-letter rows above the cap and
+// returns how many it dropped.
+func (s *Store) capDeadLetters(ctx context.Context, tx *sql.Tx) (int64, error) {
+	limit := s.opts.MaxDeadLetters
+	var n int64
+	if err := tx.QueryRowContext(ctx, `SELECT count(*) FROM dead_letters`).Scan(&n); err != nil {
+		return 0, fmt.Errorf("store: counting dead letters: %w", err)
+	}
+	if n <= int64(limit) {
+		return 0, nil
+	}
+	res, err := tx.ExecContext(ctx,
+		`DELETE FROM dead_letters WHERE id IN (SELECT id FROM dead_letters ORDER BY received, id LIMIT ?)`, n-int64(limit))
+	if err != nil {
+		return 0, fmt.Errorf("store: dropping the oldest dead letters above the cap of %d: %w", limit, err)
+	}
+	dropped, _ := res.RowsAffected()
+	return dropped, nil
+}
+
+// DeadLetterFilter selects dead letters: first received in [From, To)
+// (zero times unbounded), with Reason when not empty, at most Limit (<= 0:
+// no limit), oldest first.
+type DeadLetterFilter struct {
+	From, To time.Time
+	Reason   string
+	Limit    int
+}
+
+// ListDeadLetters returns the dead letters that match f.
+func (s *Store) ListDeadLetters(ctx context.Context, f DeadLetterFilter) ([]DeadLetter, error) {
+	lo, hi := nsRange(f.From, f.To)
+	limit := f.Limit
 	if limit <= 0 {
 		limit = -1
 	}
 	rows, err := s.db.QueryContext(ctx,
-		`SELECT topic, received, reason, detail, payload FROM dead_letters
-		 WHERE received >= ? AND received < ? ORDER BY received, id LIMIT ?`, lo, hi, limit)
+		`SELECT topic, received, reason, detail, payload, size, repeats, last_received FROM dead_letters
+		 WHERE received >= ? AND received < ? AND (? = '' OR reason = ?) ORDER BY received, id LIMIT ?`,
+		lo, hi, f.Reason, f.Reason, limit)
 	if err != nil {
 		return nil, fmt.Errorf("store: listing dead letters: %w", err)
 	}
@@ -64,19 +176,27 @@ func (s *Store) DeadLetters(ctx context.Context, from, to time.Time, limit int) 
 	var out []DeadLetter
 	for rows.Next() {
 		var d DeadLetter
-		var ts int64
-		if err := rows.Scan(&d.Topic, &ts, &d.Reason, &d.Detail, &d.Payload); err != nil {
+		var ts, last int64
+		if err := rows.Scan(&d.Topic, &ts, &d.Reason, &d.Detail, &d.Payload, &d.Size, &d.Repeats, &last); err != nil {
 			return nil, fmt.Errorf("store: listing dead letters: %w", err)
 		}
 		d.Received = time.Unix(0, ts).UTC()
+		d.LastReceived = time.Unix(0, last).UTC()
 		out = append(out, d)
 	}
 	return out, rows.Err()
 }
 
-// CountDeadLetters returns the number of stored dead letters per reason.
+// DeadLetters returns up to limit dead letters received in [from, to) (zero
+// times unbounded), oldest first. limit <= 0 means no limit.
+func (s *Store) DeadLetters(ctx context.Context, from, to time.Time, limit int) ([]DeadLetter, error) {
+	return s.ListDeadLetters(ctx, DeadLetterFilter{From: from, To: to, Limit: limit})
+}
+
+// CountDeadLetters returns the number of dead letters received per reason,
+// repeats included.
 func (s *Store) CountDeadLetters(ctx context.Context) (map[string]int64, error) {
-	rows, err := s.db.QueryContext(ctx, `SELECT reason, count(*) FROM dead_letters GROUP BY reason`)
+	rows, err := s.db.QueryContext(ctx, `SELECT reason, sum(repeats) FROM dead_letters GROUP BY reason`)
 	if err != nil {
 		return nil, fmt.Errorf("store: counting dead letters: %w", err)
 	}

@@ -31,6 +31,9 @@ type Options struct {
 	// ReadChunk is the first time span ReadReadings asks SQLite for at a
 	// time; it adapts to the row density. Zero means 1 minute.
 	ReadChunk time.Duration
+	// MaxDeadLetters caps the dead-letter rows; the oldest are dropped
+	// first. Zero means DefaultMaxDeadLetters.
+	MaxDeadLetters int
 }
 
 // Store is an open store file. Its methods are safe for concurrent use.
@@ -59,6 +62,9 @@ func Open(path string, opts Options) (*Store, error) {
 	}
 	if opts.BusyTimeout <= 0 {
 		opts.BusyTimeout = 5 * time.Second
+	}
+	if opts.MaxDeadLetters <= 0 {
+		opts.MaxDeadLetters = DefaultMaxDeadLetters
 	}
 	if opts.ReadChunk <= 0 {
 		opts.ReadChunk = time.Minute
