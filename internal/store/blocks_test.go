@@ -129,6 +129,17 @@ func TestCompactKeepsEveryPromise(t *testing.T) {
 	if n := rowCount(t, st); n != 2*3600 {
 		t.Errorf("redelivery added rows: %d", n)
 	}
+	// Another value at a compacted key is a conflict, decided against the
+	// block's value, and not stored.
+	clash := rs[100]
+	clash.Value += 1e-6
+	res, err := st.Commit(ctx, Batch{Groups: []Group{{Structure: "bridge", Readings: []Reading{clash}}}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if res.Inserted[0] != 0 || len(res.Conflicts[0]) != 1 || res.Conflicts[0][0].Stored != rs[100].Value {
+		t.Errorf("conflicting value at a compacted key: inserted %d, conflicts %+v; want 0 and one conflict with the stored %v", res.Inserted[0], res.Conflicts[0], rs[100].Value)
+	}
 	// A late reading in a compacted period joins, then merges.
 	late := Reading{Channel: "a", Time: dayStart.Add(90*time.Minute + 500*time.Millisecond), Value: 7.5e-5}
 	if n, err := st.InsertReadings(ctx, "bridge", []Reading{late}); err != nil || n != 1 {

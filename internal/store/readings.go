@@ -167,6 +167,7 @@ func (s *Store) Commit(ctx context.Context, b Batch) (CommitResult, error) {
 	flat := make([]rowKey, 0, total)
 	vals := make([]float64, 0, total)
 	inBlocks := blockCache{}
+	heldInBlock := map[rowKey]float64{} // keys a block already holds, with its value
 	for g, grp := range b.Groups {
 		for i, r := range grp.Readings {
 			k := rowKey{ids[g][i], r.Time.UnixNano()}
@@ -176,10 +177,11 @@ func (s *Store) Commit(ctx context.Context, b Batch) (CommitResult, error) {
 			if s.blockedBefore(k.ch, k.ts) {
 				// A period already compacted: a reading its block holds
 				// is a redelivery, not new.
-				if _, held, err := inBlocks.storedInBlock(ctx, tx, k.ch, k.ts); err != nil {
+				if v, held, err := inBlocks.storedInBlock(ctx, tx, k.ch, k.ts); err != nil {
 					return CommitResult{}, err
 				} else if held {
 					first[k] = rowPos{g, i}
+					heldInBlock[k] = v
 					continue
 				}
 			}
@@ -214,7 +216,7 @@ func (s *Store) Commit(ctx context.Context, b Batch) (CommitResult, error) {
 		}
 		start = end
 	}
-	if err := s.findConflicts(ctx, tx, b, ids, first, &res); err != nil {
+	if err := s.findConflicts(ctx, tx, b, ids, first, heldInBlock, &res); err != nil {
 		return CommitResult{}, err
 	}
 	dead := b.DeadLetters
@@ -253,14 +255,14 @@ func (s *Store) Commit(ctx context.Context, b Batch) (CommitResult, error) {
 // findConflicts compares every reading that was not new with the value
 // kept under its key: the first of the batch when that one was new, else
 // the value stored before (read back; redeliveries are rare).
-func (s *Store) findConflicts(ctx context.Context, tx *sql.Tx, b Batch, ids [][]int64, first map[rowKey]rowPos, res *CommitResult) error {
+func (s *Store) findConflicts(ctx context.Context, tx *sql.Tx, b Batch, ids [][]int64, first map[rowKey]rowPos, heldInBlock map[rowKey]float64, res *CommitResult) error {
 	var lookup *sql.Stmt
 	defer func() {
 		if lookup != nil {
 			lookup.Close()
 		}
 	}()
-	stored := map[rowKey]float64{}
+	stored := heldInBlock // values kept in blocks; rows are read back below
 	for g, grp := range b.Groups {
 		for i, r := range grp.Readings {
 			if res.New[g][i] {
@@ -653,10 +655,16 @@ func (s *Store) nextTime(ctx context.Context, ids []int64, from, to int64) (int6
 // one query (each channel's maximum is one step down the (channel, ts)
 // primary key). The bound leaves out readings from the future that an
 // earlier version stored. Channels without readings are left out.
+//
+// Readings in blocks count too (a block whose last reading lies beyond
+// notAfter is passed over: ingest refuses readings that far ahead).
 func (s *Store) LastReadings(ctx context.Context, structure string, notAfter time.Time) (map[string]time.Time, error) {
 	_, hi := nsRange(time.Time{}, notAfter)
 	rows, err := s.db.QueryContext(ctx,
-		`SELECT c.name, (SELECT max(r.ts) FROM readings r WHERE r.channel = c.id AND r.ts <= ?) FROM channels c WHERE c.structure = ?`, hi, structure)
+		`SELECT c.name, max(
+			coalesce((SELECT max(r.ts) FROM readings r WHERE r.channel = c.id AND r.ts <= ?), -9223372036854775808),
+			coalesce((SELECT max(b.last) FROM reading_blocks b WHERE b.channel = c.id AND b.last <= ?), -9223372036854775808))
+		 FROM channels c WHERE c.structure = ?`, hi, hi, structure)
 	if err != nil {
 		return nil, fmt.Errorf("store: last readings of %q: %w", structure, err)
 	}
@@ -668,7 +676,7 @@ func (s *Store) LastReadings(ctx context.Context, structure string, notAfter tim
 		if err := rows.Scan(&name, &ts); err != nil {
 			return nil, fmt.Errorf("store: last readings of %q: %w", structure, err)
 		}
-		if ts.Valid {
+		if ts.Valid && ts.Int64 != math.MinInt64 {
 			out[name] = time.Unix(0, ts.Int64).UTC()
 		}
 	}
