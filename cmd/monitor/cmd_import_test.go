@@ -42,8 +42,8 @@ func TestImportCSV(t *testing.T) {
 	if !strings.Contains(out.String(), want) {
 		t.Errorf("summary %q lacks %q", out.String(), want)
 	}
-	// import stores readings, not the model: it says replay needs --structure.
-	if s := out.String(); !strings.Contains(s, "not the model") || !strings.Contains(s, "monitor replay --db "+db) || !strings.Contains(s, "--structure") {
+	// import stores the model version too: replay needs no --structure.
+	if s := out.String(); !strings.Contains(s, "needs no --structure") || !strings.Contains(s, "monitor replay --db "+db) || strings.Contains(s, "--structure ../") {
 		t.Errorf("summary %q does not say how to replay", s)
 	}
 	if errb.Len() != 0 {

@@ -166,8 +166,8 @@ func TestAPIDocsMatchService(t *testing.T) {
 		t.Skip("runs the demo for about half a minute")
 	}
 	docs := docExamples(t)
-	if len(docs) != 4 {
-		t.Fatalf("docs/api.md has %d JSON examples; the test expects 4 (structures, state, series, events)", len(docs))
+	if len(docs) != 5 {
+		t.Fatalf("docs/api.md has %d JSON examples; the test expects 5 (structures, state, series, events, dead letters)", len(docs))
 	}
 
 	runCtx, stop := context.WithCancel(context.Background())
@@ -211,16 +211,18 @@ func TestAPIDocsMatchService(t *testing.T) {
 	state := getJSON(t, base+"/alder-creek/state")
 	epoch, _ := time.Parse(time.RFC3339Nano, state.(map[string]any)["epoch"].(string))
 	series := getJSON(t, fmt.Sprintf("%s/alder-creek/members/D2/series?from=%s&to=%s", base, epoch.Add(-3*time.Second).Format(time.RFC3339), epoch.Add(time.Second).Format(time.RFC3339)))
-	real := []any{getJSON(t, base), state, series, events}
+	// The demo's deliberate bad messages are dead letters by now.
+	deadLetters := getJSON(t, d.URL()+"api/dead-letters")
+	real := []any{getJSON(t, base), state, series, events, deadLetters}
 	// TRUSSMON_API_DUMP=DIR writes the real answers there (0.json ..
-	// 3.json), to refresh the examples of docs/api.md.
+	// 4.json), to refresh the examples of docs/api.md.
 	if dir := os.Getenv("TRUSSMON_API_DUMP"); dir != "" {
 		for i, v := range real {
 			b, _ := json.MarshalIndent(v, "", "  ")
 			os.WriteFile(fmt.Sprintf("%s/%d.json", dir, i), b, 0o644)
 		}
 	}
-	for i, name := range []string{"structures", "state", "series", "events"} {
+	for i, name := range []string{"structures", "state", "series", "events", "dead letters"} {
 		for _, diff := range compareShape(name, docs[i], real[i]) {
 			t.Errorf("docs/api.md %s example: %s", name, diff)
 		}

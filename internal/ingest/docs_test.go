@@ -67,9 +67,9 @@ func TestReadmeDeadLetterReasons(t *testing.T) {
 		t.Fatal(err)
 	}
 	text := string(data)
-	start := strings.Index(text, "| reason | what was wrong |")
+	start := strings.Index(text, "| reason | refused because |")
 	if start < 0 {
-		t.Fatal("README.md has no table of dead-letter reasons (| reason | what was wrong |)")
+		t.Fatal("README.md has no table of dead-letter reasons (| reason | refused because |)")
 	}
 	table := text[start:]
 	if end := strings.Index(table, "\n\n"); end >= 0 {
