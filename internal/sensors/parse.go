@@ -316,7 +316,7 @@ func (p *parser) zeroStates(n *yaml.Node, m *Map) {
 // Fields allowed per kind, besides the common ones.
 var (
 	commonFields  = []string{"id", "kind", "unit", "note", "range"}
-	gaugeFields   = []string{"member", "position", "zero", "zero_state", "noise_microstrain", "temperature_channel", "zero_temperature"}
+	gaugeFields   = []string{"member", "position", "zero", "zero_state", "noise_microstrain", "temperature_channel", "zero_temperature", "fatigue"}
 	kindFieldsMap = map[Kind][]string{
 		KindStrain:            {"thermal_output_microstrain"},
 		KindQuarterBridge:     {"gauge_factor", "excitation", "thermal_output_microstrain"},
@@ -553,6 +553,9 @@ func (p *parser) gauge(n *yaml.Node, ch *Channel, get func(string) (*yaml.Node, 
 		}
 	} else {
 		ch.ZeroTemperature = math.NaN() // resolved from the zero state in crossCheck
+	}
+	if fn, ok := get("fatigue"); ok {
+		p.fatigueBlock(fn, ch)
 	}
 }
 
