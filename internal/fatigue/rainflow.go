@@ -249,3 +249,10 @@ func (c *Counter) UnmarshalBinary(b []byte) error {
 	*c = nc
 	return nil
 }
+
+// Clone returns an independent copy of the counter.
+func (c *Counter) Clone() Counter {
+	d := *c
+	d.stack = append([]float64(nil), c.stack...)
+	return d
+}

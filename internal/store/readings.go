@@ -30,6 +30,11 @@ type Group struct {
 type Batch struct {
 	Groups      []Group
 	DeadLetters []DeadLetter
+	// Fatigue, when set, runs inside the transaction after the readings are
+	// inserted, with the result so far (which readings are new); the
+	// updates it returns are written in the same transaction. An error
+	// rolls the whole batch back.
+	Fatigue func(CommitResult) ([]FatigueUpdate, error)
 }
 
 // CommitResult says, per group of the batch, which readings were new.
@@ -183,6 +188,11 @@ func (s *Store) Commit(ctx context.Context, b Batch) (CommitResult, error) {
 	}
 	for _, d := range b.DeadLetters {
 		if err := insertDeadLetter(ctx, tx, d); err != nil {
+			return CommitResult{}, err
+		}
+	}
+	if b.Fatigue != nil {
+		if err := writeFatigue(ctx, tx, b.Fatigue, res); err != nil {
 			return CommitResult{}, err
 		}
 	}
