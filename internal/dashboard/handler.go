@@ -28,6 +28,9 @@ type Options struct {
 	// are reduced by keeping, per bucket of consecutive epochs, the epoch
 	// with the largest |w| (so no excursion is hidden). Defaults to 2000.
 	MaxSeriesPoints int
+	// Fatigue, when set, feeds the fatigue panel; without it the fatigue
+	// endpoint lists no gauges.
+	Fatigue FatigueSource
 }
 
 // Handler serves the JSON API under /api/ and the dashboard page at /.
@@ -53,6 +56,7 @@ func New(src Source, opts Options) *Handler {
 	h.mux.HandleFunc("GET /api/structures/{name}/state", h.state)
 	h.mux.HandleFunc("GET /api/structures/{name}/members/{id}/series", h.series)
 	h.mux.HandleFunc("GET /api/structures/{name}/events", h.events)
+	h.mux.HandleFunc("GET /api/structures/{name}/fatigue", h.fatigueHandler)
 	h.mux.HandleFunc("GET /api/", func(w http.ResponseWriter, r *http.Request) {
 		writeError(w, http.StatusNotFound, fmt.Sprintf("no API endpoint %s %s; see docs/api.md for the endpoints", r.Method, r.URL.Path))
 	})

@@ -28,18 +28,21 @@ type Life struct {
 	// Days are the damage per UTC day from Start, in order, including
 	// days without cycles inside the period.
 	Days []DayDamage
-	// Total is the damage accumulated since Start (Miner's sum, D).
+	// Total is the damage in the days listed (Miner's sum over the period).
 	Total float64
-	// Cycles is the number of cycles counted since Start.
+	// Cycles is the number of cycles counted in the days listed.
 	Cycles float64
+	// Accumulated is the damage since the gauge's declared start (or its
+	// first hour) up to the period's end: D in the projection.
+	Accumulated float64
 	// WindowDays is the span (days) before the period's end the daily rate
 	// is averaged over: RateWindowDays, or less when accumulation started
 	// later.
 	WindowDays float64
 	// RatePerDay is the damage in the window divided by its span in days.
 	RatePerDay float64
-	// RemainingYears is (1 - Total) / RatePerDay in years of 365.25 days:
-	// +Inf when the rate is zero, 0 when Total >= 1.
+	// RemainingYears is (1 - Accumulated) / RatePerDay in years of 365.25
+	// days: +Inf when the rate is zero, 0 when Accumulated >= 1.
 	RemainingYears float64
 }
 
@@ -48,10 +51,11 @@ type Life struct {
 // pattern, short enough to follow a change in use).
 const RateWindowDays = 7
 
-// Summarise computes damage per day, the accumulated damage and the
-// projection from hourly histograms on curve c, counting hours starting in
-// [from, to) and not before start (zero start: from the first hour). The
-// days are UTC days.
+// Summarise computes, from hourly histograms on curve c, the damage per UTC
+// day of the hours starting in [from, to) and not before start; the damage
+// accumulated from start (zero: every hour given) to the end; the daily rate
+// over the last RateWindowDays of the period; and the projected remaining
+// life.
 func Summarise(c Curve, hours []HourHistogram, start, from, to time.Time) Life {
 	begin := from
 	if start.After(begin) {
@@ -60,7 +64,12 @@ func Summarise(c Curve, hours []HourHistogram, start, from, to time.Time) Life {
 	var l Life
 	l.Start = begin
 	if !to.After(begin) {
-		l.RemainingYears = math.Inf(1)
+		for _, h := range hours {
+			if !h.Hour.Before(start) && h.Hour.Before(to) {
+				l.Accumulated += c.HistogramDamage(h.Hist)
+			}
+		}
+		l.RemainingYears = RemainingYears(l.Accumulated, 0)
 		return l
 	}
 	dayOf := func(t time.Time) time.Time {
@@ -78,7 +87,11 @@ func Summarise(c Curve, hours []HourHistogram, start, from, to time.Time) Life {
 	}
 	var inWindow float64
 	for _, h := range hours {
-		if h.Hour.Before(begin) || !h.Hour.Before(to) {
+		if h.Hour.Before(start) || !h.Hour.Before(to) {
+			continue
+		}
+		if h.Hour.Before(begin) {
+			l.Accumulated += c.HistogramDamage(h.Hist)
 			continue
 		}
 		i := int(dayOf(h.Hour).Sub(first).Hours() / 24)
@@ -97,9 +110,10 @@ func Summarise(c Curve, hours []HourHistogram, start, from, to time.Time) Life {
 		l.Total += d.Damage
 		l.Cycles += d.Cycles
 	}
+	l.Accumulated += l.Total
 	l.WindowDays = to.Sub(winStart).Hours() / 24
 	l.RatePerDay = inWindow / l.WindowDays
-	l.RemainingYears = RemainingYears(l.Total, l.RatePerDay)
+	l.RemainingYears = RemainingYears(l.Accumulated, l.RatePerDay)
 	return l
 }
 
