@@ -226,6 +226,9 @@ func Run(ctx context.Context, opt Options) (*Summary, error) {
 	rep.CriticalValue = proc.Critical()
 	rep.Alpha = alphaGlobal(opt.Rules)
 	rep.Caution = report.Caution
+	if rep.Fatigue, err = fatigueFigures(ctx, db, mdl.name, sm, opt.From, opt.To); err != nil {
+		return nil, err
+	}
 	sum.Report = rep
 	sum.Events = len(rep.Events)
 	for _, e := range rep.Events {

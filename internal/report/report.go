@@ -50,6 +50,9 @@ type Report struct {
 	Events []Event
 	// Caution is the safety text; Caution is used when empty.
 	Caution string
+	// Fatigue holds the fatigue gauges' figures of the period (none when
+	// no gauge counts fatigue); shown with FatigueCaution.
+	Fatigue []FatigueGauge
 }
 
 // Pattern names one unknown load pattern and the unit of its magnitude.
