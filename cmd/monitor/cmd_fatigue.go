@@ -165,7 +165,7 @@ func printFatigue(w io.Writer, structure string, from, to time.Time, source stri
 		if !g.Fatigue.Start.IsZero() {
 			start = g.Fatigue.Start.Format("2006-01-02")
 		}
-		fmt.Fprintf(tw, "%s\t%s\t%g MPa\t%.2f\t%.2f\t%s\t%.1f\t%.4e\t%.4e\t%.4e /d\t%.1f d\t%s\t\n",
+		fmt.Fprintf(tw, "%s\t%s\t%g MPa\t%.2f\t%.2f\t%s\t%.1f\t%.4e\t%.4e\t%.4e /d\t%.2f d\t%s\t\n",
 			g.Channel, g.Member, g.Fatigue.Curve.DeltaSigmaC/1e6, g.Fatigue.Curve.GammaFf, g.Fatigue.Curve.GammaMf, start,
 			l.Life.Cycles, l.Life.Total, l.Life.Accumulated, l.Life.RatePerDay, l.Life.WindowDays, yearsText(l.Life.RemainingYears))
 	}

@@ -1,0 +1,149 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"fmt"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+	"time"
+
+	"trussmonitor/internal/fatiguetrack"
+	"trussmonitor/internal/sensors"
+	"trussmonitor/internal/simulate"
+	"trussmonitor/internal/store"
+	"trussmonitor/internal/structfile"
+)
+
+func fatigueCmd(args ...string) (int, string, string) {
+	var out, errb bytes.Buffer
+	code := runFatigue(context.Background(), args, &out, &errb)
+	return code, out.String(), errb.String()
+}
+
+// fatigueStore stores an hour of the footbridge's high-rate record, with the
+// fatigue count in each commit, as the service does.
+func fatigueStore(t *testing.T, start time.Time) (string, *sensors.Map) {
+	t.Helper()
+	st, err := structfile.LoadFile("../../testdata/footbridge/structure.yaml")
+	if err != nil {
+		t.Fatal(err)
+	}
+	sm, err := sensors.LoadFile("../../testdata/footbridge/sensors.yaml", st)
+	if err != nil {
+		t.Fatal(err)
+	}
+	opt := simulate.DefaultOptions()
+	opt.Start, opt.Duration = start, time.Hour
+	gen, err := simulate.New(st, sm, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	path := filepath.Join(t.TempDir(), "monitor.db")
+	db, err := store.Open(path, store.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer db.Close()
+	tr := fatiguetrack.New(nil)
+	tr.Add(st.Name, sm, sm.FatigueGauges())
+	hr := simulate.DefaultHighRate()
+	hr.PackSpan = 10 * time.Second
+	hr.Vehicle.CrossingsPerDay = 120 // a few crossings within the hour
+	ctx := context.Background()
+	for pk, err := range gen.HighRate(hr) {
+		if err != nil {
+			t.Fatal(err)
+		}
+		var rs []store.Reading
+		for i, tm := range pk.Times {
+			for k, ch := range pk.Channels {
+				rs = append(rs, store.Reading{Channel: ch, Time: tm, Value: pk.Raw[i][k]})
+			}
+		}
+		b := store.Batch{Groups: []store.Group{{Structure: st.Name, Readings: rs}}}
+		var apply func()
+		b.Fatigue = func(r store.CommitResult) ([]store.FatigueUpdate, error) {
+			ups, a, err := tr.Stage(b.Groups, r)
+			apply = a
+			return ups, err
+		}
+		if _, err := db.Commit(ctx, b); err != nil {
+			t.Fatal(err)
+		}
+		apply()
+	}
+	if _, err := db.PutModel(ctx, st.Name, mustRead(t, "../../testdata/footbridge/structure.yaml"), start); err != nil {
+		t.Fatal(err)
+	}
+	return path, sm
+}
+
+func TestFatigueCommand(t *testing.T) {
+	start := time.Date(2026, 6, 1, 7, 30, 0, 0, time.UTC)
+	db, sm := fatigueStore(t, start)
+	from, to := start.Format(time.RFC3339), start.Add(time.Hour).Format(time.RFC3339)
+	// The stored model version stands in for --structure.
+	code, stdout, stderr := fatigueCmd("--db", db, "--from", from, "--to", to, "--sensors", "../../testdata/footbridge/sensors.yaml")
+	if code != 0 {
+		t.Fatalf("exit %d: %s", code, stderr)
+	}
+	t.Log(stdout)
+	// The printed figures are those of the stored histograms.
+	s, err := store.Open(db, store.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	lives, err := fatiguetrack.Lives(context.Background(), s, sm.StructureName(), sm.FatigueGauges(), start, start.Add(time.Hour))
+	s.Close()
+	if err != nil {
+		t.Fatal(err)
+	}
+	nonzero := 0
+	for _, l := range lives {
+		if l.Life.Total > 0 {
+			nonzero++
+		}
+		for _, want := range []string{l.Gauge.Channel, fmt.Sprintf("%.4e", l.Life.Total), fmt.Sprintf("%.4e", l.Life.Accumulated)} {
+			if !strings.Contains(stdout, want) {
+				t.Errorf("output lacks %q", want)
+			}
+		}
+	}
+	if nonzero == 0 {
+		t.Error("no gauge shows damage; the vehicle should have crossed")
+	}
+	for _, want := range []string{"CAUTION", "not a design check or an assessment", "licensed engineer", "2026-06-01  cycles", "first reading", "2026-01-01"} {
+		if !strings.Contains(stdout, want) {
+			t.Errorf("output lacks %q", want)
+		}
+	}
+	// The raw recount of the same period.
+	code, stdout, stderr = fatigueCmd("--db", db, "--from", from, "--to", to, "--sensors", "../../testdata/footbridge/sensors.yaml",
+		"--structure", "../../testdata/footbridge/structure.yaml", "--raw")
+	if code != 0 || !strings.Contains(stdout, "raw readings of the period") || !strings.Contains(stdout, "D1_b") {
+		t.Errorf("--raw: exit %d: %s %s", code, stdout, stderr)
+	}
+	// Usage errors.
+	if code, _, stderr := fatigueCmd("--db", db); code != 2 || !strings.Contains(stderr, "missing --from, --sensors, --to") {
+		t.Errorf("missing flags: exit %d: %s", code, stderr)
+	}
+	if code, _, stderr := fatigueCmd("--db", db, "--from", to, "--to", from, "--sensors", "x.yaml"); code != 2 || !strings.Contains(stderr, "is not after") {
+		t.Errorf("reversed period: exit %d: %s", code, stderr)
+	}
+	if code, _, stderr := fatigueCmd("--db", db, "--from", from, "--to", to, "--sensors", "../../testdata/roof/sensors.yaml",
+		"--structure", "../../testdata/roof/structure.yaml"); code != 1 || !strings.Contains(stderr, "no gauge a fatigue block") {
+		t.Errorf("map without fatigue gauges: exit %d: %s", code, stderr)
+	}
+}
+
+func mustRead(t *testing.T, path string) []byte {
+	t.Helper()
+	b, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return b
+}
