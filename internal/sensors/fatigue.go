@@ -35,6 +35,9 @@ type FatigueGauge struct {
 	Fatigue Fatigue
 }
 
+// fatigueGaugeFields are the gauge fields this file reads.
+var fatigueGaugeFields = []string{"fatigue"}
+
 var fatigueFields = []string{"detail_category", "gamma_Ff", "gamma_Mf", "start"}
 
 // fatigueBlock reads a gauge's fatigue block:

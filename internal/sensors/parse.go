@@ -316,7 +316,7 @@ func (p *parser) zeroStates(n *yaml.Node, m *Map) {
 // Fields allowed per kind, besides the common ones.
 var (
 	commonFields  = []string{"id", "kind", "unit", "note", "range"}
-	gaugeFields   = []string{"member", "position", "zero", "zero_state", "noise_microstrain", "temperature_channel", "zero_temperature", "fatigue"}
+	gaugeFields   = []string{"member", "position", "zero", "zero_state", "noise_microstrain", "temperature_channel", "zero_temperature"}
 	kindFieldsMap = map[Kind][]string{
 		KindStrain:            {"thermal_output_microstrain"},
 		KindQuarterBridge:     {"gauge_factor", "excitation", "thermal_output_microstrain"},
@@ -332,6 +332,7 @@ func allowedFields(k Kind) []string {
 	out := append([]string(nil), commonFields...)
 	if k.IsGauge() {
 		out = append(out, gaugeFields...)
+		out = append(out, fatigueGaugeFields...)
 	}
 	return append(out, kindFieldsMap[k]...)
 }
