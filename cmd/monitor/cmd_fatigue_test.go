@@ -10,6 +10,7 @@ import (
 	"testing"
 	"time"
 
+	"trussmonitor/internal/broker"
 	"trussmonitor/internal/fatiguetrack"
 	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/simulate"
@@ -146,4 +147,25 @@ func mustRead(t *testing.T, path string) []byte {
 		t.Fatal(err)
 	}
 	return b
+}
+
+// TestSimulateHighRate publishes ten simulated seconds of the footbridge's
+// 50 Hz fatigue record to the embedded broker.
+func TestSimulateHighRate(t *testing.T) {
+	b, err := broker.Start(broker.Config{Address: "127.0.0.1:0", AllowAnonymous: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer b.Close()
+	var stdout, stderr bytes.Buffer
+	code := runSimulate(context.Background(), []string{"--structure", "../../testdata/footbridge/structure.yaml", "--sensors", "../../testdata/footbridge/sensors.yaml",
+		"--broker", "tcp://" + b.Addr(), "--high-rate", "20ms", "--duration", "10s", "--speed", "0"}, &stdout, &stderr)
+	if code != 0 || !strings.Contains(stdout.String(), "published 10 packs: 2000 high-rate readings, 10 messages acknowledged") {
+		t.Errorf("exit %d: %s %s", code, stdout.String(), stderr.String())
+	}
+	code = runSimulate(context.Background(), []string{"--structure", "../../testdata/footbridge/structure.yaml", "--sensors", "../../testdata/footbridge/sensors.yaml",
+		"--high-rate", "20ms", "--csv", "x.csv"}, &stdout, &stderr)
+	if code != 2 || !strings.Contains(stderr.String(), "does not write CSV") {
+		t.Errorf("--high-rate with --csv: exit %d: %s", code, stderr.String())
+	}
 }

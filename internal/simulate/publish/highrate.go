@@ -11,15 +11,19 @@ import (
 )
 
 // RunHighRate connects to the broker and sends the high-rate record as one
-// SenML pack per HighRatePack on shm/<Structure> (PerChannel and Speed are
-// ignored: packs go as fast as the broker acknowledges them). Stats count
-// packs as Steps.
+// SenML pack per HighRatePack on shm/<Structure>, paced by Speed like Run
+// (0: as fast as the broker acknowledges); PerChannel is ignored. Stats
+// count packs as Steps.
 func RunHighRate(ctx context.Context, packs iter.Seq2[simulate.HighRatePack, error], opt Options) (Stats, error) {
 	p, err := connect(opt)
 	if err != nil {
 		return Stats{}, err
 	}
 	err = func() error {
+		var simStart, wallStart time.Time
+		timer := time.NewTimer(time.Hour)
+		timer.Stop()
+		defer timer.Stop()
 		for pk, err := range packs {
 			if err != nil {
 				return fmt.Errorf("publish: simulator: %w", err)
@@ -29,6 +33,19 @@ func RunHighRate(ctx context.Context, packs iter.Seq2[simulate.HighRatePack, err
 			}
 			if len(pk.Times) == 0 {
 				continue
+			}
+			if simStart.IsZero() {
+				simStart, wallStart = pk.Times[0], time.Now()
+			} else if opt.Speed > 0 {
+				due := wallStart.Add(time.Duration(float64(pk.Times[0].Sub(simStart)) / opt.Speed))
+				if wait := time.Until(due); wait > 0 {
+					timer.Reset(wait)
+					select {
+					case <-ctx.Done():
+						return ctx.Err()
+					case <-timer.C:
+					}
+				}
 			}
 			p.buf = AppendTimedPack(p.buf[:0], pk)
 			if err := p.publish(Topic(opt.Structure), p.buf); err != nil {
