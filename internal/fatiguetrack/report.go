@@ -75,7 +75,6 @@ func LivesFromRaw(ctx context.Context, rr RawReader, structure string, src Stres
 			a.buf = a.buf[:0]
 		}
 	}
-	var convErr error
 	err := rr.ReadReadings(ctx, structure, from, to, func(r store.Reading) error {
 		a, ok := idx[r.Channel]
 		if !ok {
@@ -83,10 +82,7 @@ func LivesFromRaw(ctx context.Context, rr RawReader, structure string, src Stres
 		}
 		s, err := src.Stress(r.Channel, r.Value)
 		if err != nil {
-			if convErr == nil {
-				convErr = err
-			}
-			return nil
+			return nil // a reading without a stress is left out, as in the live count
 		}
 		h := r.Time.UTC().Truncate(time.Hour)
 		if a.cur == nil || !h.Equal(a.hour) {

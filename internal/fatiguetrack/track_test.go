@@ -126,6 +126,15 @@ func TestRestartContinuesExactly(t *testing.T) {
 		if !reflect.DeepEqual(got.Bins(), want.Bins()) {
 			t.Errorf("%s: stored + residue %v\n one pass %v", ch, got.Bins(), want.Bins())
 		}
+		// Recounting the raw readings gives the same histogram (its residue
+		// closes at the end of the record, like the direct count).
+		raw, err := LivesFromRaw(ctx, st, "bridge", src, gauges[:1], t0, t0.Add(24*time.Hour))
+		if err != nil {
+			t.Fatal(err)
+		}
+		if ch == "g1" && !reflect.DeepEqual(raw[0].Hist.Bins(), want.Bins()) {
+			t.Errorf("%s: raw recount %v\n one pass %v", ch, raw[0].Hist.Bins(), want.Bins())
+		}
 		// The restored tracker's damage is the Miner sum of the stored hours.
 		var d float64
 		for _, h := range hours {
