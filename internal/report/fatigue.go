@@ -6,6 +6,8 @@ import (
 	"strconv"
 	"strings"
 	"time"
+
+	"trussmonitor/internal/fatigue"
 )
 
 // FatigueGauge is the fatigue of one gauge's detail over the period, as
@@ -51,9 +53,9 @@ type FatigueDay struct {
 const fatigueCSS = `
 .bar{fill:#5a6f8a}.limit{stroke:#a33;stroke-dasharray:4 3}.limit-label{fill:#a33;font-size:11px}`
 
-// FatigueCaution is printed with every fatigue figure.
-const FatigueCaution = "Fatigue damage and remaining life are a monitoring estimate from the recorded strains, " +
-	"not a design check or an assessment of the structure; assessment rests with a licensed engineer under local codes."
+// FatigueCaution is printed with every fatigue figure (one text for every
+// screen: fatigue.Caution).
+const FatigueCaution = fatigue.Caution
 
 func sci(v float64) string {
 	switch {
