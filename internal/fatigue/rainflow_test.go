@@ -22,9 +22,9 @@ func total(xs []float64) tally {
 	return t
 }
 
-// TestASTMExample is the rainflow example of ASTM E1049-85 (Fig. 6 and the
-// table of 5.4.4: loading -2, 1, -3, 5, -1, 3, -4, 4, -2), counts from memory:
-// range 3: 0.5, 4: 1.5, 6: 0.5, 8: 1.0, 9: 0.5.
+// TestASTMExample is the rainflow counting example of ASTM E1049-85, 5.4.4
+// (loading -2, 1, -3, 5, -1, 3, -4, 4, -2), counts from memory: range 3: 0.5,
+// 4: 1.5, 6: 0.5, 8: 1.0, 9: 0.5.
 func TestASTMExample(t *testing.T) {
 	got := total([]float64{-2, 1, -3, 5, -1, 3, -4, 4, -2})
 	want := tally{3: 0.5, 4: 1.5, 6: 0.5, 8: 1.0, 9: 0.5}

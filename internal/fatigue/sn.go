@@ -20,9 +20,9 @@ const (
 	M2 = 5
 )
 
-// Categories are the detail categories of EN 1993-1-9 Table 8.1 (plain
-// members and mechanically fastened joints, and the welded details of the
-// following tables use the same set), as Delta sigma_C in MPa.
+// Categories are the detail categories of EN 1993-1-9 (the fourteen curves
+// of Figure 7.1, the categories the detail tables of section 8, from Table
+// 8.1 on, assign), as Delta sigma_C in MPa.
 var Categories = [...]float64{160, 140, 125, 112, 100, 90, 80, 71, 63, 56, 50, 45, 40, 36}
 
 // IsCategory reports whether mpa is one of Categories.
