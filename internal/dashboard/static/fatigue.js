@@ -55,7 +55,11 @@
   async function refresh() {
     const sel = document.getElementById('structure-select');
     const panel = document.getElementById('fatigue-panel');
-    if (!sel || !panel || !sel.value) return;
+    if (!sel || !panel) return;
+    if (!sel.value) { // app.js has not listed the structures yet
+      setTimeout(refresh, 300);
+      return;
+    }
     let data;
     try {
       const res = await fetch('/api/structures/' + encodeURIComponent(sel.value) + '/fatigue', { cache: 'no-store' });
@@ -90,7 +94,7 @@
   document.addEventListener('DOMContentLoaded', () => {
     const sel = document.getElementById('structure-select');
     if (sel) sel.addEventListener('change', refresh);
-    setTimeout(refresh, 500); // after app.js has filled the structure list
+    refresh();
     setInterval(refresh, 30000);
   });
 })();
