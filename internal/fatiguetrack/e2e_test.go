@@ -64,7 +64,7 @@ func TestEndToEndDamage(t *testing.T) {
 		gauges[i].Fatigue.Start = time.Time{}
 	}
 	hr := simulate.DefaultHighRate()
-	hr.Vehicle.CrossingsPerDay = 48 // a busy maintenance day, so that short runs see crossings
+	hr.Vehicle.CrossingsPerDay = 288 // crowded on purpose: about a dozen crossings in the default hour
 	gen, err := simulate.New(st, sm, opt)
 	if err != nil {
 		t.Fatal(err)
