@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
+	"reflect"
 	"strings"
 	"testing"
 	"time"
@@ -167,5 +168,53 @@ func TestSimulateHighRate(t *testing.T) {
 		"--high-rate", "20ms", "--csv", "x.csv"}, &stdout, &stderr)
 	if code != 2 || !strings.Contains(stderr.String(), "does not write CSV") {
 		t.Errorf("--high-rate with --csv: exit %d: %s", code, stderr.String())
+	}
+}
+
+// TestImportCountsFatigue: "monitor import" counts the fatigue gauges in
+// each commit like the live ingest; importing the same file again (every
+// reading a duplicate) leaves the histograms as they were.
+func TestImportCountsFatigue(t *testing.T) {
+	db := importedDay(t)
+	ctx := context.Background()
+	hist := func() map[string][]store.FatigueHour {
+		s, err := store.Open(db, store.Options{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer s.Close()
+		out := map[string][]store.FatigueHour{}
+		chs, err := s.FatigueChannels(ctx, "alder-creek")
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, ch := range chs {
+			out[ch], err = s.FatigueHours(ctx, "alder-creek", ch, time.Time{}, time.Date(2100, 1, 1, 0, 0, 0, 0, time.UTC))
+			if err != nil {
+				t.Fatal(err)
+			}
+		}
+		return out
+	}
+	first := hist()
+	if len(first) != 4 || len(first["D1_a"]) != 24 {
+		t.Fatalf("fatigue histograms of %d gauges, %d hours of D1_a; want 4 gauges and 24 hours", len(first), len(first["D1_a"]))
+	}
+	data := gunzip(t, "../../testdata/replay/footbridge-day.csv.gz")
+	csvPath := filepath.Join(t.TempDir(), "day.csv")
+	if err := os.WriteFile(csvPath, data, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	var out, errb bytes.Buffer
+	if code := runImport(ctx, []string{"--db", db, "--structure", "../../testdata/footbridge/structure.yaml",
+		"--sensors", "../../testdata/footbridge/sensors.yaml", csvPath}, &out, &errb); code != 0 {
+		t.Fatalf("second import: exit %d: %s", code, errb.String())
+	}
+	if again := hist(); !reflect.DeepEqual(again, first) {
+		t.Error("importing the same readings again changed the fatigue histograms")
+	}
+	if code, stdout, stderr := fatigueCmd("--db", db, "--from", "2026-06-01T00:00:00Z", "--to", "2026-06-02T00:00:00Z",
+		"--sensors", "../../testdata/footbridge/sensors.yaml", "--structure", "../../testdata/footbridge/structure.yaml"); code != 0 || !strings.Contains(stdout, "stored hourly") {
+		t.Errorf("monitor fatigue on the imported day: exit %d: %s %s", code, stdout, stderr)
 	}
 }

@@ -15,6 +15,7 @@ import (
 	"golang.org/x/term"
 
 	"trussmonitor/internal/csvimport"
+	"trussmonitor/internal/fatiguetrack"
 	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/store"
 	"trussmonitor/internal/structfile"
@@ -130,10 +131,21 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) int
 	if f, ok := stderr.(*os.File); ok && term.IsTerminal(int(f.Fd())) {
 		progress = stderr
 	}
+	// Gauges with a fatigue block are counted in each commit, as by the
+	// live ingest, continuing from the counter state already stored.
+	var tr *fatiguetrack.Tracker
+	if gs := m.FatigueGauges(); len(gs) > 0 {
+		tr = fatiguetrack.New(nil)
+		tr.Add(m.StructureName(), m, gs)
+		if err := tr.Load(context.WithoutCancel(ctx), db); err != nil {
+			fmt.Fprintf(stderr, "monitor import: %v\n", err)
+			return 1
+		}
+	}
 	total := importCounts{rejected: map[string]int{}}
 	failed := 0
 	for _, path := range files {
-		c, err := importFile(ctx, db, m, path, *batch, progress)
+		c, err := importFile(ctx, db, m, tr, path, *batch, progress)
 		total.add(c)
 		fmt.Fprintf(stdout, "%s: %s\n", path, c.summary())
 		if err != nil {
@@ -146,6 +158,15 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) int
 	}
 	if len(files) > 1 {
 		fmt.Fprintf(stdout, "total: %s\n", total.summary())
+	}
+	if tr != nil {
+		var late int64
+		for _, g := range tr.Gauges() {
+			late += g.Late
+		}
+		if late > 0 {
+			fmt.Fprintf(stdout, "fatigue: %d readings of fatigue gauges were older than the last one counted and are stored but not counted (import files in time order)\n", late)
+		}
 	}
 	if failed > 0 {
 		fmt.Fprintf(stderr, "monitor import: %d of %d files stopped at an error; the readings before it are stored\n", failed, len(files))
@@ -179,7 +200,7 @@ var (
 
 // importFile streams one CSV file into the store. Readings accepted before
 // an error in the file are committed.
-func importFile(ctx context.Context, db *store.Store, m *sensors.Map, path string, batch int, progress io.Writer) (importCounts, error) {
+func importFile(ctx context.Context, db *store.Store, m *sensors.Map, tr *fatiguetrack.Tracker, path string, batch int, progress io.Writer) (importCounts, error) {
 	c := importCounts{rejected: map[string]int{}}
 	f, err := os.Open(path)
 	if err != nil {
@@ -201,12 +222,24 @@ func importFile(ctx context.Context, db *store.Store, m *sensors.Map, path strin
 		}
 		// Commit even when ctx is cancelled: readings already accepted
 		// must not be lost on an interrupt.
-		res, err := db.Commit(context.WithoutCancel(ctx), store.Batch{
+		b := store.Batch{
 			Groups:      []store.Group{{Structure: m.StructureName(), Readings: readings}},
 			DeadLetters: dead,
-		})
+		}
+		var applyFatigue func()
+		if tr != nil {
+			b.Fatigue = func(r store.CommitResult) ([]store.FatigueUpdate, error) {
+				ups, apply, err := tr.Stage(b.Groups, r)
+				applyFatigue = apply
+				return ups, err
+			}
+		}
+		res, err := db.Commit(context.WithoutCancel(ctx), b)
 		if err != nil {
 			return fmt.Errorf("storing readings: %w", err)
+		}
+		if applyFatigue != nil {
+			applyFatigue()
 		}
 		c.stored += res.Inserted[0]
 		c.duplicates += len(readings) - res.Inserted[0]
