@@ -17,6 +17,7 @@ import (
 	"golang.org/x/term"
 
 	"trussmonitor/internal/csvimport"
+	"trussmonitor/internal/fatiguetrack"
 	"trussmonitor/internal/ingest"
 	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/store"
@@ -126,11 +127,22 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) int
 	if f, ok := stderr.(*os.File); ok && term.IsTerminal(int(f.Fd())) {
 		progress = stderr
 	}
+	// Gauges with a fatigue block are counted in each commit, as by the
+	// live ingest, continuing from the counter state already stored.
+	var tr *fatiguetrack.Tracker
+	if gs := m.FatigueGauges(); len(gs) > 0 {
+		tr = fatiguetrack.New(nil)
+		tr.Add(m.StructureName(), m, gs)
+		if err := tr.Load(context.WithoutCancel(ctx), db); err != nil {
+			fmt.Fprintf(stderr, "monitor import: %v\n", err)
+			return 1
+		}
+	}
 	total := importCounts{rejected: map[string]int{}}
 	failed := 0
+	lim := ingest.Limits{MaxAbsValue: ingest.DefaultMaxAbsValue, MaxAhead: ingest.DefaultMaxAhead, MaxBehind: *maxAge}
 	for _, path := range files {
-		lim := ingest.Limits{MaxAbsValue: ingest.DefaultMaxAbsValue, MaxAhead: ingest.DefaultMaxAhead, MaxBehind: *maxAge}
-		c, err := importFile(ctx, db, m, lim, path, *batch, progress)
+		c, err := importFile(ctx, db, m, lim, tr, path, *batch, progress)
 		total.add(c)
 		fmt.Fprintf(stdout, "%s: %s\n", path, c.summary())
 		if err != nil {
@@ -163,6 +175,15 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) int
 	} else if cs.Blocks > 0 {
 		fmt.Fprintf(stdout, "compacted %d readings of closed hours into %d blocks\n", cs.Readings, cs.Blocks)
 	}
+	if tr != nil {
+		var late int64
+		for _, g := range tr.Gauges() {
+			late += g.Late
+		}
+		if late > 0 {
+			fmt.Fprintf(stdout, "fatigue: %d readings of fatigue gauges were older than the last one counted and are stored but not counted (import files in time order)\n", late)
+		}
+	}
 	if failed > 0 {
 		fmt.Fprintf(stderr, "monitor import: %d of %d files stopped at an error; the readings before it are stored\n", failed, len(files))
 		return 1
@@ -192,7 +213,7 @@ func (c importCounts) summary() string {
 // an error in the file are committed.
 // Every reading goes through ingest.Admit, the decision MQTT ingest makes,
 // with the same reason codes.
-func importFile(ctx context.Context, db *store.Store, m *sensors.Map, lim ingest.Limits, path string, batch int, progress io.Writer) (importCounts, error) {
+func importFile(ctx context.Context, db *store.Store, m *sensors.Map, lim ingest.Limits, tr *fatiguetrack.Tracker, path string, batch int, progress io.Writer) (importCounts, error) {
 	c := importCounts{rejected: map[string]int{}}
 	f, err := os.Open(path)
 	if err != nil {
@@ -228,7 +249,7 @@ func importFile(ctx context.Context, db *store.Store, m *sensors.Map, lim ingest
 		}
 		// Commit even when ctx is cancelled: readings already accepted
 		// must not be lost on an interrupt.
-		res, err := db.Commit(context.WithoutCancel(ctx), store.Batch{
+		b := store.Batch{
 			Groups:      []store.Group{{Structure: m.StructureName(), Readings: readings}},
 			DeadLetters: dead,
 			OnConflict: func(_ int, cs []store.Conflict) store.DeadLetter {
@@ -241,9 +262,21 @@ func importFile(ctx context.Context, db *store.Store, m *sensors.Map, lim ingest
 					Detail:  fmt.Sprintf("%d readings conflict with a stored reading of the same channel and time: %s", len(cs), strings.Join(parts, "; ")),
 					Payload: []byte(parts[0])}
 			},
-		})
+		}
+		var applyFatigue func()
+		if tr != nil {
+			b.Fatigue = func(r store.CommitResult) ([]store.FatigueUpdate, error) {
+				ups, apply, err := tr.Stage(b.Groups, r)
+				applyFatigue = apply
+				return ups, err
+			}
+		}
+		res, err := db.Commit(context.WithoutCancel(ctx), b)
 		if err != nil {
 			return fmt.Errorf("storing readings: %w", err)
+		}
+		if applyFatigue != nil {
+			applyFatigue()
 		}
 		conflicts := len(res.Conflicts[0])
 		if conflicts > 0 {

@@ -60,6 +60,7 @@ func runSimulate(ctx context.Context, args []string, stdout, stderr io.Writer) i
 	speed := fs.Float64("speed", 1, "simulated time per wall time (60 = a simulated minute per second, 0 = as fast as possible)")
 	badRate := fs.Float64("bad-rate", def.BadRate, "probability per channel and step of a bad message (malformed, NaN, unknown channel, wrong unit)")
 	csvPath := fs.String("csv", "", "write a logger CSV file (gzip when the name ends in .gz) instead of publishing")
+	highRate := fs.Duration("high-rate", 0, "publish instead the high-rate record of the gauges with a fatigue block, sampled at this interval (20ms = 50 Hz; pedestrian groups and a service vehicle), one SenML pack per second")
 	var faults faultFlags
 	fs.Var(&faults, "fault", "inject a fault KIND:TARGET:AT[:SIZE], repeatable: stiffness:D2:10m:0.3, drift:B4_a:2h:50e-6/h, stuck:T4_a:1h, settlement:L8:3h:0.005 (AT: duration from --start or RFC 3339 time)")
 	fs.Usage = func() {
@@ -117,6 +118,22 @@ func runSimulate(ctx context.Context, args []string, stdout, stderr io.Writer) i
 		fmt.Fprintf(stderr, "monitor simulate: fault %s from %s\n", f, f.Time(opt.Start).UTC().Format(time.RFC3339))
 	}
 
+	if *highRate != 0 {
+		if *csvPath != "" {
+			fmt.Fprintln(stderr, "monitor simulate: --high-rate publishes to the broker; it does not write CSV")
+			return 2
+		}
+		hr := simulate.DefaultHighRate()
+		hr.Interval = *highRate
+		stats, err := publish.RunHighRate(ctx, gen.HighRate(hr), publish.Options{
+			Broker: *broker, Username: *username, Password: *password, ClientID: *clientID, Structure: st.Name, Speed: *speed})
+		fmt.Fprintf(stdout, "published %d packs: %d high-rate readings, %d messages acknowledged\n", stats.Steps, stats.Readings, stats.Messages)
+		if err != nil && !errors.Is(err, context.Canceled) {
+			fmt.Fprintf(stderr, "monitor simulate: %v\n", err)
+			return 1
+		}
+		return 0
+	}
 	if *csvPath != "" {
 		if err := writeSimulatedCSV(ctx, *csvPath, gen); err != nil {
 			fmt.Fprintf(stderr, "monitor simulate: %v\n", err)

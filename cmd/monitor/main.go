@@ -35,6 +35,7 @@ func commands() map[string]command {
 		"simulate":    {"publish simulated logger readings to a broker", runSimulate},
 		"demo":        {"self-contained demo: embedded broker, simulator, service, dashboard", runDemo},
 		"rules":       {"write the alarm rules as a Prometheus alerting-rules file", runRules},
+		"fatigue":     {"fatigue damage per gauge and projected remaining life from the store", runFatigue},
 	}
 }
 

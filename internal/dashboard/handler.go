@@ -34,6 +34,9 @@ type Options struct {
 	// DeadLetters lists the stored dead letters for GET /api/dead-letters
 	// (read-only); nil answers that endpoint with 404.
 	DeadLetters DeadLetterSource
+	// Fatigue, when set, feeds the fatigue panel; without it the fatigue
+	// endpoint lists no gauges.
+	Fatigue FatigueSource
 }
 
 // Handler serves the JSON API under /api/ and the dashboard page at /.
@@ -60,6 +63,7 @@ func New(src Source, opts Options) *Handler {
 	h.mux.HandleFunc("GET /api/structures/{name}/members/{id}/series", h.series)
 	h.mux.HandleFunc("GET /api/structures/{name}/events", h.events)
 	h.mux.HandleFunc("GET /api/dead-letters", h.deadLetters)
+	h.mux.HandleFunc("GET /api/structures/{name}/fatigue", h.fatigueHandler)
 	h.mux.HandleFunc("GET /api/", func(w http.ResponseWriter, r *http.Request) {
 		writeError(w, http.StatusNotFound, fmt.Sprintf("no API endpoint %s %s; see docs/api.md for the endpoints", r.Method, r.URL.Path))
 	})

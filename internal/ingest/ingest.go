@@ -213,11 +213,22 @@ type Deps struct {
 	// they are committed (duplicates left out), in arrival order. It runs
 	// on the committer goroutine: a slow callback slows ingestion.
 	OnCommitted func(structure string, rs []store.Reading)
+	// Fatigue, when set, counts fatigue from the new readings inside each
+	// commit's transaction (see FatigueStager).
+	Fatigue FatigueStager
 	// BrokerDrops, when set, is polled every second and increases are
 	// reported through Observer.BrokerDropped (e.g. broker.Broker.Dropped).
 	BrokerDrops func() int64
 	Logger      *slog.Logger     // nil discards
 	Now         func() time.Time // receiver clock; nil means time.Now
+}
+
+// FatigueStager computes, inside a commit's transaction, the fatigue updates
+// of the batch's new readings, and returns apply to call once the commit
+// holds (a failed attempt is simply staged again). *fatiguetrack.Tracker
+// implements it.
+type FatigueStager interface {
+	Stage(groups []store.Group, res store.CommitResult) (ups []store.FatigueUpdate, apply func(), err error)
 }
 
 // Stats are ingest's running totals.
@@ -642,13 +653,25 @@ func (in *Ingester) commitBatch(batch []decodedMsg, acks chan<- ackItem) error {
 	}
 	var res store.CommitResult
 	var err error
+	var applyFatigue func()
+	if in.deps.Fatigue != nil {
+		b.Fatigue = func(r store.CommitResult) ([]store.FatigueUpdate, error) {
+			ups, apply, err := in.deps.Fatigue.Stage(b.Groups, r)
+			applyFatigue = apply
+			return ups, err
+		}
+	}
 	deadline := time.Time{}
 	for attempt := 0; ; attempt++ {
 		ctx, cancel := context.WithTimeout(context.Background(), 30*time.Second)
+		applyFatigue = nil
 		res, err = in.deps.Store.Commit(ctx, b)
 		cancel()
 		if err == nil {
 			in.commitFailing.Store(false)
+			if applyFatigue != nil {
+				applyFatigue()
+			}
 			break
 		}
 		in.obs.CommitFailed()

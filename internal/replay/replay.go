@@ -230,6 +230,9 @@ func Run(ctx context.Context, opt Options) (*Summary, error) {
 		rep.Design = mdl.st.Design.Standard.String()
 	}
 	referenceLoads(rep, mdl.st)
+	if rep.Fatigue, err = fatigueFigures(ctx, db, mdl.name, sm, opt.From, opt.To); err != nil {
+		return nil, err
+	}
 	sum.Report = rep
 	sum.Events = len(rep.Events)
 	for _, e := range rep.Events {

@@ -255,6 +255,14 @@ func TestRecordedDayFault(t *testing.T) {
 	if !bytes.Contains(html, []byte("not a safety verdict")) {
 		t.Error("index.html lacks the safety caution")
 	}
+	// The footbridge's fatigue gauges get a histogram and a damage plot,
+	// recounted from the raw readings (the import stored no histograms),
+	// with the fatigue caution.
+	for _, want := range []string{`id="fatigue-hist-B4_a"`, `id="fatigue-damage-D1_b"`, "not a design check or an assessment", "recounted from the raw readings"} {
+		if !bytes.Contains(html, []byte(want)) {
+			t.Errorf("index.html lacks %s", want)
+		}
+	}
 }
 
 // reducedD2 writes a copy of the footbridge structure file in which D2 has

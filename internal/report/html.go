@@ -77,7 +77,7 @@ func writeHTML(buf *bytes.Buffer, r *Report) error {
 	}
 	tr := newTimeRange(r)
 	sb.WriteString("<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\"/>\n")
-	fmt.Fprintf(&sb, "<title>Replay report: %s</title>\n<style>\n%s\n</style>\n</head>\n<body>\n", esc(title), css)
+	fmt.Fprintf(&sb, "<title>Replay report: %s</title>\n<style>\n%s\n</style>\n</head>\n<body>\n", esc(title), css+fatigueStyle(r))
 	fmt.Fprintf(&sb, "<header id=\"header\">\n<h1>Replay report: %s</h1>\n", esc(title))
 	fmt.Fprintf(&sb, "<p class=\"meta\">Structure <code>%s</code>; period %s to %s (UTC); %d epochs; model version <code id=\"model-version\">%s</code>.</p>\n",
 		esc(r.Structure), esc(timeText(time.Unix(0, tr.t0))), esc(timeText(time.Unix(0, tr.t1))), len(r.Epochs), esc(r.ModelVersion))
@@ -91,6 +91,7 @@ func writeHTML(buf *bytes.Buffer, r *Report) error {
 	writeLoadPlots(&sb, r, tr)
 	writeMemberTotals(&sb, r)
 	writeMemberPlots(&sb, r, tr)
+	writeFatigue(&sb, r)
 
 	sb.WriteString("<footer id=\"footer\">\n<h2>Data and model</h2>\n")
 	fmt.Fprintf(&sb, "<p>Every epoch is in <a href=\"%s\">%s</a> and every event in <a href=\"%s\">%s</a>. Plots reduce long periods to the minimum and maximum per pixel column; the CSV files keep every value. Model version used: <code>%s</code>. The acceptance band is the predicted force ± k times the standard deviation of the residual, k = %s (critical value of Baarda's w-test); the global test is the chi-square test at alpha = %s.</p>\n",

@@ -55,6 +55,9 @@ type Report struct {
 	MemberSummaries []MemberSummary
 	// Design is the design standard of the utilisation ("" for none).
 	Design string
+	// Fatigue holds the fatigue gauges' figures of the period (none when
+	// no gauge counts fatigue); shown with FatigueCaution.
+	Fatigue []FatigueGauge
 }
 
 // Pattern names one unknown load pattern and the unit of its magnitude.

@@ -332,6 +332,7 @@ func allowedFields(k Kind) []string {
 	out := append([]string(nil), commonFields...)
 	if k.IsGauge() {
 		out = append(out, gaugeFields...)
+		out = append(out, fatigueGaugeFields...)
 	}
 	return append(out, kindFieldsMap[k]...)
 }
@@ -553,6 +554,9 @@ func (p *parser) gauge(n *yaml.Node, ch *Channel, get func(string) (*yaml.Node, 
 		}
 	} else {
 		ch.ZeroTemperature = math.NaN() // resolved from the zero state in crossCheck
+	}
+	if fn, ok := get("fatigue"); ok {
+		p.fatigueBlock(fn, ch)
 	}
 }
 

@@ -130,6 +130,9 @@ type Channel struct {
 	// Groups are the member groups whose temperature a temperature channel
 	// gives.
 	Groups []string
+
+	// Fatigue is a gauge's fatigue block, or nil.
+	Fatigue *Fatigue
 }
 
 // ZeroState is a state of the structure under which gauges were zeroed: the
@@ -174,6 +177,10 @@ func (m *Map) Channels() []Channel {
 	for i := range out {
 		out[i].ThermalOutput = append([]float64(nil), out[i].ThermalOutput...)
 		out[i].Groups = append([]string(nil), out[i].Groups...)
+		if f := out[i].Fatigue; f != nil {
+			fc := *f
+			out[i].Fatigue = &fc
+		}
 	}
 	return out
 }

@@ -24,6 +24,7 @@ import (
 	"trussmonitor/internal/broker"
 	"trussmonitor/internal/config"
 	"trussmonitor/internal/dashboard"
+	"trussmonitor/internal/fatiguetrack"
 	"trussmonitor/internal/ingest"
 	"trussmonitor/internal/livestate"
 	"trussmonitor/internal/metrics"
@@ -90,6 +91,7 @@ type Service struct {
 	rules     []alerts.Rule
 	set       settings.Settings
 	connected atomic.Bool
+	fatigue   *fatiguetrack.Tracker // nil when no gauge counts fatigue
 }
 
 // Options are the parts of a service that are not in the configuration.
@@ -151,6 +153,10 @@ func New(cfg *config.Config, opt Options) (*Service, error) {
 			st.Close()
 			return nil, err
 		}
+	}
+	if err := s.addFatigue(mons); err != nil {
+		st.Close()
+		return nil, err
 	}
 	return s, nil
 }
@@ -269,7 +275,11 @@ func (s *Service) Start(ctx context.Context) error {
 	mux.Handle("/metrics", mh)
 	mux.Handle("/healthz", mh)
 	mux.Handle("/readyz", mh)
-	mux.Handle("/", dashboard.New(s.live, dashboard.Options{Now: s.clock, ClockNote: s.clockNote, DeadLetters: deadLetterSource{s.store}}))
+	dopts := dashboard.Options{Now: s.clock, ClockNote: s.clockNote, DeadLetters: deadLetterSource{s.store}}
+	if s.fatigue != nil {
+		dopts.Fatigue = fatigueSource{tr: s.fatigue, st: s.store, clock: s.clock}
+	}
+	mux.Handle("/", dashboard.New(s.live, dopts))
 	s.httpSrv = &http.Server{Handler: mux, ReadHeaderTimeout: 10 * time.Second}
 	go func() {
 		if err := s.httpSrv.Serve(ln); err != nil && !errors.Is(err, http.ErrServerClosed) {
@@ -287,6 +297,9 @@ func (s *Service) Start(ctx context.Context) error {
 	deps := ingest.Deps{
 		Store: s.store, Registries: regs, Observer: s.obs, Logger: s.log, Now: s.clock,
 		OnCommitted: s.committed,
+	}
+	if s.fatigue != nil {
+		deps.Fatigue = s.fatigue
 	}
 	if s.brk != nil {
 		deps.BrokerDrops = s.brk.Dropped

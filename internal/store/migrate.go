@@ -88,6 +88,25 @@ var migrations = []string{
 		data    BLOB    NOT NULL, -- internal/blocks encoding
 		PRIMARY KEY (channel, start)
 	);`,
+	// 6 (fatigue): per gauge, stress-range histograms per hour (rainflow cycles
+	// per 0.5 MPa bin, sparse) and the rainflow counter's state, both written
+	// in the transaction of the readings they come from.
+	`CREATE TABLE fatigue_hours (
+		structure TEXT    NOT NULL,
+		channel   TEXT    NOT NULL,
+		hour      INTEGER NOT NULL, -- Unix seconds of the hour's start, logger clock
+		bin       INTEGER NOT NULL, -- stress range from bin*width to (bin+1)*width
+		cycles    REAL    NOT NULL,
+		PRIMARY KEY (structure, channel, hour, bin)
+	) WITHOUT ROWID;
+	CREATE TABLE fatigue_state (
+		structure TEXT    NOT NULL,
+		channel   TEXT    NOT NULL,
+		last_ts   INTEGER NOT NULL, -- Unix ns of the last sample counted
+		bin_width REAL    NOT NULL, -- Pa
+		state     BLOB    NOT NULL, -- the counter's serialised state
+		PRIMARY KEY (structure, channel)
+	) WITHOUT ROWID;`,
 }
 
 // schemaVersion returns the version recorded in the file, 0 for a new file.

@@ -38,6 +38,11 @@ type Batch struct {
 	// OnConflict, when set, turns the conflicts of group g into a dead
 	// letter stored in the same transaction (ingest: conflicting_reading).
 	OnConflict func(g int, cs []Conflict) DeadLetter
+	// Fatigue, when set, runs inside the transaction after the readings are
+	// inserted, with the result so far (which readings are new); the
+	// updates it returns are written in the same transaction. An error
+	// rolls the whole batch back.
+	Fatigue func(CommitResult) ([]FatigueUpdate, error)
 }
 
 // Conflict is a reading whose key (channel, time) is stored, or taken by an
@@ -236,6 +241,11 @@ func (s *Store) Commit(ctx context.Context, b Batch) (CommitResult, error) {
 	}
 	if res.DeadLettersAdded > 0 {
 		if res.DeadLettersDropped, err = s.capDeadLetters(ctx, tx); err != nil {
+			return CommitResult{}, err
+		}
+	}
+	if b.Fatigue != nil {
+		if err := writeFatigue(ctx, tx, b.Fatigue, res); err != nil {
 			return CommitResult{}, err
 		}
 	}

@@ -65,8 +65,22 @@ func ChannelTopic(structure, channel string) string { return "shm/" + structure 
 // stops early, returning ctx.Err(), when ctx is cancelled; the stats count
 // what was acknowledged up to then.
 func Run(ctx context.Context, steps iter.Seq2[simulate.Step, error], opt Options) (Stats, error) {
+	p, err := connect(opt)
+	if err != nil {
+		return Stats{}, err
+	}
+	err = p.run(ctx, steps)
+	if ferr := p.flush(); err == nil {
+		err = ferr
+	}
+	p.client.Disconnect(250)
+	return p.stats, err
+}
+
+// connect opens the publisher's connection.
+func connect(opt Options) (*sender, error) {
 	if opt.Structure == "" {
-		return Stats{}, errors.New("publish: no structure name for the topic shm/<structure>")
+		return nil, errors.New("publish: no structure name for the topic shm/<structure>")
 	}
 	if opt.Timeout <= 0 {
 		opt.Timeout = 30 * time.Second
@@ -91,18 +105,12 @@ func Run(ctx context.Context, steps iter.Seq2[simulate.Step, error], opt Options
 	client := mqtt.NewClient(co)
 	tok := client.Connect()
 	if !tok.WaitTimeout(opt.Timeout) {
-		return Stats{}, fmt.Errorf("publish: connecting to %s: no answer within %s; is the broker running?", opt.Broker, opt.Timeout)
+		return nil, fmt.Errorf("publish: connecting to %s: no answer within %s; is the broker running?", opt.Broker, opt.Timeout)
 	}
 	if err := tok.Error(); err != nil {
-		return Stats{}, fmt.Errorf("publish: connecting to %s: %w", opt.Broker, err)
+		return nil, fmt.Errorf("publish: connecting to %s: %w", opt.Broker, err)
 	}
-	p := &sender{client: client, opt: opt}
-	err := p.run(ctx, steps)
-	if ferr := p.flush(); err == nil {
-		err = ferr
-	}
-	client.Disconnect(250)
-	return p.stats, err
+	return &sender{client: client, opt: opt}, nil
 }
 
 // sender holds one connection's state.
