@@ -111,7 +111,9 @@ func TestEndToEndDamage(t *testing.T) {
 	defer db.Close()
 	tr := fatiguetrack.New(nil)
 	tr.Add(st.Name, sm, gauges)
-	in, err := ingest.New(ingest.Config{Broker: "tcp://" + b.Addr(), ClientID: "fatigue-e2e"},
+	// The record is dated 2026-06-01 (a fixed morning peak): no backlog
+	// bound (MaxBehind < 0), which this test does not check.
+	in, err := ingest.New(ingest.Config{Broker: "tcp://" + b.Addr(), ClientID: "fatigue-e2e", MaxBehind: -1},
 		ingest.Deps{Store: db, Registries: map[string]ingest.Registry{st.Name: sm}, Fatigue: tr})
 	if err != nil {
 		t.Fatal(err)

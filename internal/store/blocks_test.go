@@ -3,6 +3,7 @@ package store
 import (
 	"bufio"
 	"context"
+	"database/sql"
 	"fmt"
 	"math/rand/v2"
 	"os"
@@ -201,21 +202,11 @@ func TestCompactKeepsEveryPromise(t *testing.T) {
 	}
 }
 
-// TestMigrationToBlocks opens a file at schema version 3 (rows only) and
-// compacts it.
+// TestMigrationToBlocks writes a file with the migrations before blocks
+// only (as the previous release did), stores rows in it, then opens it with
+// this build and compacts it.
 func TestMigrationToBlocks(t *testing.T) {
 	ctx := context.Background()
-	path := filepath.Join(t.TempDir(), "old.db")
-	st, err := Open(path, Options{})
-	if err != nil {
-		t.Fatal(err)
-	}
-	rs := someReadings(2, 2)
-	if _, err := st.InsertReadings(ctx, "bridge", rs); err != nil {
-		t.Fatal(err)
-	}
-	// Take the file back to the version before blocks, as the previous
-	// release wrote it.
 	before := -1
 	for i, m := range migrations {
 		if strings.Contains(m, "CREATE TABLE reading_blocks") {
@@ -225,11 +216,37 @@ func TestMigrationToBlocks(t *testing.T) {
 	if before < 0 {
 		t.Fatal("no migration creates reading_blocks")
 	}
-	if _, err := st.db.Exec(`DROP TABLE reading_blocks; UPDATE schema_version SET version = ?`, before); err != nil {
+	path := filepath.Join(t.TempDir(), "old.db")
+	old, err := sql.Open("sqlite", "file:"+path+"?_pragma=journal_mode(WAL)")
+	if err != nil {
 		t.Fatal(err)
 	}
-	st.Close()
-	st, err = Open(path, Options{})
+	if err := migrate(ctx, old, before); err != nil {
+		t.Fatal(err)
+	}
+	rs := someReadings(2, 2)
+	if _, err := old.Exec(`INSERT INTO channels (id, structure, name) VALUES (1, 'bridge', 'a'), (2, 'bridge', 'b')`); err != nil {
+		t.Fatal(err)
+	}
+	tx, err := old.Begin()
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, r := range rs {
+		ch := 1
+		if r.Channel == "b" {
+			ch = 2
+		}
+		if _, err := tx.Exec(`INSERT INTO readings (channel, ts, value) VALUES (?, ?, ?)`, ch, r.Time.UnixNano(), r.Value); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if err := tx.Commit(); err != nil {
+		t.Fatal(err)
+	}
+	old.Close()
+
+	st, err := Open(path, Options{})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -238,6 +255,9 @@ func TestMigrationToBlocks(t *testing.T) {
 		t.Errorf("schema version %d after opening, want %d", v, len(migrations))
 	}
 	stored := readAll(t, st, "bridge")
+	if len(stored) != len(rs) {
+		t.Fatalf("%d readings in the migrated file, want %d", len(stored), len(rs))
+	}
 	if _, err := st.Compact(ctx, dayStart.Add(2*time.Hour)); err != nil {
 		t.Fatal(err)
 	}
