@@ -1,6 +1,6 @@
 // Package units parses quantities written with units (SI and US customary)
 // and converts them to SI: metres, newtons, pascals, kelvin (as temperature
-// differences), kilograms.
+// differences), kilograms, hertz.
 //
 // A quantity is a decimal number followed by a unit symbol, with or without a
 // space ("12.5 mm", "210GPa", "-20 kN"), or a bare number that takes a
@@ -51,6 +51,8 @@ const (
 	Stiffness
 	// Mass in kilograms.
 	Mass
+	// Frequency in hertz (a logger's sampling rate).
+	Frequency
 )
 
 // Pressure is the same dimension as Stress (force per area); the name reads
@@ -67,6 +69,7 @@ var dimensionNames = map[Dimension]string{
 	Density:            "density",
 	Stiffness:          "stiffness (force per length)",
 	Mass:               "mass",
+	Frequency:          "frequency",
 }
 
 var siSymbols = map[Dimension]string{
@@ -79,6 +82,7 @@ var siSymbols = map[Dimension]string{
 	Density:            "kg/m3",
 	Stiffness:          "N/m",
 	Mass:               "kg",
+	Frequency:          "Hz",
 }
 
 // String names the dimension in words, for messages.
@@ -168,6 +172,11 @@ var canonical = []Unit{
 
 	{"kg", Mass, 1, siSource},
 	{"lb", Mass, pound, nistSource},
+
+	{"Hz", Frequency, 1, siSource},
+	{"kHz", Frequency, 1e3, siSource},
+	{"1/s", Frequency, 1, siSource},
+	{"1/min", Frequency, 1.0 / 60, "SI Brochure (9th ed.) Table 8, minute = 60 s"},
 }
 
 // aliases maps alternative spellings to canonical symbols.
@@ -178,6 +187,7 @@ var aliases = map[string]string{
 	"°C": "degC", "°F": "degF",
 	"/K": "1/K", "/degC": "1/degC", "/°C": "1/degC", "1/°C": "1/degC",
 	"/degF": "1/degF", "/°F": "1/degF", "1/°F": "1/degF",
+	"/s": "1/s", "/min": "1/min",
 	"kg/m^3": "kg/m3", "kg/m³": "kg/m3", "lb/ft^3": "lb/ft3", "lb/ft³": "lb/ft3",
 }
 

@@ -68,6 +68,9 @@ func TestParse(t *testing.T) {
 		{"1 kip/in", Stiffness, "", 175126.83524647639, "1000 lbf/in"},
 		{"1 lb", Mass, "", 0.45359237, "NIST SP 811 (2008) B.8: 1 lb = 0.453 592 37 kg exactly"},
 		{"75 kg", Mass, "", 75, "SI"},
+		{"50 Hz", Frequency, "", 50, "SI"},
+		{"2 kHz", Frequency, "", 2000, "SI prefix"},
+		{"6 1/min", Frequency, "", 0.1, "SI Brochure (9th ed.) Table 8: 1 min = 60 s"},
 		{"  .5 m ", Length, "", 0.5, "leading fraction, spaces"},
 		{"1E3 N", Force, "", 1000, "upper-case exponent"},
 		{"2e3mm", Length, "", 2, "exponent then unit without space"},
@@ -152,7 +155,7 @@ func TestEveryUnitRoundTrips(t *testing.T) {
 }
 
 func TestDimensionNames(t *testing.T) {
-	for d := Length; d <= Mass; d++ {
+	for d := Length; d <= Frequency; d++ {
 		if strings.HasPrefix(d.String(), "dimension(") || d.SI() == "" {
 			t.Errorf("dimension %d has no name or SI unit", int(d))
 		}
@@ -168,7 +171,7 @@ func FuzzParse(f *testing.F) {
 		f.Add(s, int(Length))
 	}
 	f.Fuzz(func(t *testing.T, s string, d int) {
-		dim := Dimension(d%9 + 1)
+		dim := Dimension(d%10 + 1)
 		if d < 0 {
 			dim = Length
 		}
