@@ -88,6 +88,7 @@ type Service struct {
 	clock     func() time.Time
 	rules     []alerts.Rule
 	connected atomic.Bool
+	httpIdle  time.Duration
 }
 
 // Options are the parts of a service that are not in the configuration.
@@ -99,12 +100,15 @@ type Options struct {
 	// Structures, when set, are used instead of loading the configuration's
 	// structure files (the demo passes its embedded examples).
 	Structures []*Monitored
+	// HTTPIdleTimeout closes idle keep-alive HTTP connections; zero means
+	// DefaultHTTPIdleTimeout.
+	HTTPIdleTimeout time.Duration
 }
 
 // New builds the service: it opens the store, loads every structure and
 // prepares the pipelines, but starts nothing.
 func New(cfg *config.Config, opt Options) (*Service, error) {
-	s := &Service{cfg: cfg, log: opt.Logger, clock: opt.Clock, pipes: map[string]*pipeline.Pipeline{}, rejects: map[string]*atomic.Uint64{}}
+	s := &Service{cfg: cfg, log: opt.Logger, clock: opt.Clock, httpIdle: opt.HTTPIdleTimeout, pipes: map[string]*pipeline.Pipeline{}, rejects: map[string]*atomic.Uint64{}}
 	if s.log == nil {
 		s.log = slog.Default()
 	}
@@ -238,13 +242,14 @@ func (s *Service) Start(ctx context.Context) error {
 		return fmt.Errorf("%s: http.listen: %w", s.cfg.File, err)
 	}
 	s.httpLn = ln
+	warnExposed(s.log, s.cfg.File, ln.Addr())
 	mux := http.NewServeMux()
 	mh := metrics.Handler(s.reg, s.ready)
 	mux.Handle("/metrics", mh)
 	mux.Handle("/healthz", mh)
 	mux.Handle("/readyz", mh)
 	mux.Handle("/", dashboard.New(s.live, dashboard.Options{Now: s.clock}))
-	s.httpSrv = &http.Server{Handler: mux, ReadHeaderTimeout: 10 * time.Second}
+	s.httpSrv = newHTTPServer(dashboard.Harden(mux), s.httpIdle)
 	go func() {
 		if err := s.httpSrv.Serve(ln); err != nil && !errors.Is(err, http.ErrServerClosed) {
 			s.log.Error("http server stopped", "error", err)
