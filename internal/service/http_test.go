@@ -39,6 +39,13 @@ func (s *syncBuffer) String() string {
 // broker, both on loopback ports chosen by the system, and stops it at the
 // end of the test. edit may change the configuration.
 func startService(t *testing.T, edit func(*config.Config), opt Options) (*Service, *syncBuffer) {
+	svc, logs, _ := startStoppable(t, edit, opt)
+	return svc, logs
+}
+
+// startStoppable is startService that also returns a function stopping
+// the service (waiting for its shutdown); calling it again does nothing.
+func startStoppable(t *testing.T, edit func(*config.Config), opt Options) (*Service, *syncBuffer, func()) {
 	t.Helper()
 	cfg := config.Defaults()
 	cfg.File = "(test)"
@@ -67,13 +74,17 @@ func startService(t *testing.T, edit func(*config.Config), opt Options) (*Servic
 	}
 	done := make(chan error, 1)
 	go func() { done <- svc.Run(ctx) }()
-	t.Cleanup(func() {
-		cancel()
-		if err := <-done; err != nil {
-			t.Errorf("shutdown: %v", err)
-		}
-	})
-	return svc, logs
+	var once sync.Once
+	stop := func() {
+		once.Do(func() {
+			cancel()
+			if err := <-done; err != nil {
+				t.Errorf("shutdown: %v", err)
+			}
+		})
+	}
+	t.Cleanup(stop)
+	return svc, logs, stop
 }
 
 // TestHTTPIdleConnectionClosed: a keep-alive connection that sends nothing
