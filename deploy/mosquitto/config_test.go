@@ -108,8 +108,10 @@ func connect(addr, user, pass string) (paho.Client, error) {
 // startMosquitto writes the directives lines, each passed through adapt
 // (which returns the value to keep, or false to drop the line), plus a
 // plain listener on a free loopback port, starts mosquitto on it in dir and
-// returns the listener's address. It stops the broker at the end of the test.
-func startMosquitto(t *testing.T, bin, dir string, lines []string, adapt func(key, val string) (string, bool)) string {
+// returns the listener's address and a function that kills the broker
+// (SIGKILL, as a crash or power loss would) and waits for it to exit. It
+// stops the broker (SIGINT) at the end of the test.
+func startMosquitto(t *testing.T, bin, dir string, lines []string, adapt func(key, val string) (string, bool)) (string, func()) {
 	t.Helper()
 	l, err := net.Listen("tcp", "127.0.0.1:0")
 	if err != nil {
@@ -146,12 +148,16 @@ func startMosquitto(t *testing.T, bin, dir string, lines []string, adapt func(ke
 		cmd.Process.Signal(os.Interrupt)
 		<-exited
 	})
+	kill := func() {
+		cmd.Process.Kill()
+		<-exited
+	}
 	addr := fmt.Sprintf("127.0.0.1:%d", port)
 	for {
 		c, err := net.DialTimeout("tcp", addr, time.Second)
 		if err == nil {
 			c.Close()
-			return addr
+			return addr, kill
 		}
 		select {
 		case <-exited:
@@ -171,7 +177,7 @@ func TestConfigWithMosquitto(t *testing.T) {
 	dir := t.TempDir()
 	lines, _ := directives(t, "mosquitto.conf")
 	abs := func(p string) string { a, _ := filepath.Abs(p); return a }
-	addr := startMosquitto(t, bin, dir, lines, func(key, val string) (string, bool) {
+	addr, _ := startMosquitto(t, bin, dir, lines, func(key, val string) (string, bool) {
 		switch key {
 		case "password_file":
 			return abs("passwd.example"), true

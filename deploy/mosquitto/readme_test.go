@@ -183,7 +183,7 @@ func TestReadmeBrokerSteps(t *testing.T) {
 	if out, err := exec.Command(passwd, "-b", s.path(values["password_file"]), other, password(other)).CombinedOutput(); err != nil {
 		t.Fatalf("adding a second logger: %v\n%s", err, out)
 	}
-	addr := startMosquitto(t, bin, s.dir, lines, func(key, val string) (string, bool) {
+	addr, _ := startMosquitto(t, bin, s.dir, lines, func(key, val string) (string, bool) {
 		switch key {
 		case "listener", "protocol", "cafile", "certfile", "keyfile", "tls_version", "require_certificate":
 			return "", false // TLS listener: replaced by the loopback listener
