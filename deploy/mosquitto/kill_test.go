@@ -43,7 +43,7 @@ func TestKillAfterSnapshot(t *testing.T) {
 
 	// The monitor's persistent session, subscribed, then away.
 	session := func(addr string, got func(string)) paho.Client {
-		o := paho.NewClientOptions().AddBroker("tcp://"+addr).SetClientID("monitor-kill-test").
+		o := paho.NewClientOptions().AddBroker("tcp://" + addr).SetClientID("monitor-kill-test").
 			SetUsername("trussmonitor").SetPassword("demo-monitor-password").
 			SetCleanSession(false).SetAutoReconnect(false).SetConnectTimeout(waitLimit)
 		if got != nil {
