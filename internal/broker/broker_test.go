@@ -96,8 +96,18 @@ func TestBurstToSlowSubscriberNotDropped(t *testing.T) {
 	seen := map[string]bool{}
 	var held []paho.Message
 	got := make(chan struct{})
+	// The subscriber sends nothing while it holds the messages, so its
+	// client pings the broker after the keep-alive, and the answer queues
+	// behind the burst still in the socket. paho's default 10 s ping
+	// timeout then drops the connection on a loaded machine (under -race
+	// with other packages' tests: 18,280 of 20,000 received, then nothing;
+	// likely also the 14,208 of the CI run). The timeout here is generous,
+	// and a failure names a lost connection.
+	lost := make(chan error, 1)
 	o := paho.NewClientOptions().AddBroker("tcp://" + b.Addr()).SetClientID("slow-sub").
-		SetCleanSession(false).SetAutoAckDisabled(true).SetAutoReconnect(false)
+		SetCleanSession(false).SetAutoAckDisabled(true).SetAutoReconnect(false).
+		SetPingTimeout(5 * time.Minute).
+		SetConnectionLostHandler(func(_ paho.Client, err error) { lost <- err })
 	o.SetDefaultPublishHandler(func(_ paho.Client, m paho.Message) {
 		mu.Lock()
 		defer mu.Unlock()
@@ -119,8 +129,9 @@ func TestBurstToSlowSubscriberNotDropped(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	toks := make([]paho.Token, 0, n)
 	for i := range n {
-		pub.Publish("shm/alder-creek/g1", 1, false, fmt.Sprint(i))
+		toks = append(toks, pub.Publish("shm/alder-creek/g1", 1, false, fmt.Sprint(i)))
 	}
 	// Wait on progress, not on the clock: on a loaded machine the burst
 	// may take minutes (14,208 of 20,000 had arrived after 60 s in one
@@ -132,7 +143,25 @@ func TestBurstToSlowSubscriberNotDropped(t *testing.T) {
 		return len(seen)
 	}
 	if k, ok := waitProgress(got, count, time.Minute); !ok {
-		t.Fatalf("received %d of %d, none for a minute; broker dropped %d", k, n, b.Dropped())
+		select {
+		case err := <-lost:
+			t.Errorf("subscriber connection lost: %v", err)
+		default:
+		}
+		acked, failed := 0, 0
+		for _, tok := range toks {
+			select {
+			case <-tok.Done():
+				if tok.Error() != nil {
+					failed++
+				} else {
+					acked++
+				}
+			default:
+			}
+		}
+		t.Fatalf("received %d of %d, none for a minute; broker dropped %d; publisher: %d acknowledged, %d failed, connected %v; subscriber connected %v",
+			k, n, b.Dropped(), acked, failed, pub.IsConnectionOpen(), sub.IsConnectionOpen())
 	}
 	mu.Lock()
 	for _, m := range held {
