@@ -15,7 +15,12 @@ import (
 func connect(t *testing.T, addr, id, user, pass string) (paho.Client, error) {
 	t.Helper()
 	o := paho.NewClientOptions().AddBroker("tcp://" + addr).SetClientID(id).
-		SetUsername(user).SetPassword(pass).SetAutoReconnect(false).SetConnectTimeout(5 * time.Second)
+		SetUsername(user).SetPassword(pass).SetAutoReconnect(false).SetConnectTimeout(5 * time.Second).
+		// While the broker holds back a publisher (its subscriber reads
+		// slowly), the answer to a ping waits too: paho's default 10 s
+		// ping timeout dropped the burst test's publisher on a loaded
+		// machine (12,873 of 20,000 acknowledged, the rest failed).
+		SetPingTimeout(5 * time.Minute)
 	c := paho.NewClient(o)
 	tok := c.Connect()
 	if !tok.WaitTimeout(time.Minute) {
@@ -147,6 +152,13 @@ func TestBurstToSlowSubscriberNotDropped(t *testing.T) {
 		case err := <-lost:
 			t.Errorf("subscriber connection lost: %v", err)
 		default:
+		}
+		// The publisher's failed tokens say why it stopped.
+		for _, tok := range toks {
+			if tok.WaitTimeout(0) && tok.Error() != nil {
+				t.Errorf("publisher: %v", tok.Error())
+				break
+			}
 		}
 		acked, failed := 0, 0
 		for _, tok := range toks {
