@@ -403,7 +403,7 @@ var wantMonitorKeys = []string{
 	"broker", "broker.client_id", "broker.embedded", "broker.listen", "broker.max_payload_bytes", "broker.password_file",
 	"broker.tls", "broker.tls.ca_file", "broker.tls.cert_file", "broker.tls.key_file", "broker.url", "broker.username",
 	"database", "epochs", "epochs.max_lateness", "epochs.missing_load", "epochs.window",
-	"http", "http.listen", "ingest", "ingest.max_ahead", "ingest.max_behind", "ingest.max_dead_letters", "retention", "retention.dead_letters", "retention.readings", "retention.results",
+	"http", "http.listen", "ingest", "ingest.max_ahead", "ingest.max_behind", "ingest.max_dead_letters", "ingest.subscribe", "retention", "retention.dead_letters", "retention.readings", "retention.results",
 	"structures", "structures[].sensors", "structures[].structure",
 }
 

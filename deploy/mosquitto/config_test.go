@@ -73,52 +73,65 @@ func TestProductionSettings(t *testing.T) {
 
 const requireEnv = "TRUSSMON_REQUIRE_TOOLS"
 
+// waitLimit bounds each wait for the broker; it only ends a test that would
+// otherwise hang (a loaded machine still answers well within it).
+const waitLimit = 2 * time.Minute
+
+func skipOrFail(t *testing.T, msg string) {
+	t.Helper()
+	if os.Getenv(requireEnv) == "1" {
+		t.Fatalf("%s (%s=1 makes this a failure)", msg, requireEnv)
+	}
+	t.Skip(msg)
+}
+
+func mosquittoBinary(t *testing.T) string {
+	t.Helper()
+	bin, err := exec.LookPath("mosquitto")
+	if err != nil {
+		skipOrFail(t, "mosquitto binary not found; apt-get install mosquitto")
+	}
+	return bin
+}
+
 func connect(addr, user, pass string) (paho.Client, error) {
 	o := paho.NewClientOptions().AddBroker("tcp://" + addr).SetClientID(fmt.Sprintf("cfgtest-%s-%d", user, time.Now().UnixNano())).
-		SetUsername(user).SetPassword(pass).SetAutoReconnect(false).SetConnectTimeout(3 * time.Second)
+		SetUsername(user).SetPassword(pass).SetAutoReconnect(false).SetConnectTimeout(waitLimit)
 	c := paho.NewClient(o)
 	tok := c.Connect()
-	if !tok.WaitTimeout(5 * time.Second) {
+	if !tok.WaitTimeout(waitLimit) {
 		return nil, fmt.Errorf("connect timed out")
 	}
 	return c, tok.Error()
 }
 
-// TestConfigWithMosquitto starts mosquitto with a test variant of
-// mosquitto.conf (same limits and authentication, a plain loopback listener
-// on a spare port, the example password and ACL files) and checks that the
-// password is required and the ACL lets readings through.
-func TestConfigWithMosquitto(t *testing.T) {
-	bin, err := exec.LookPath("mosquitto")
-	if err != nil {
-		if os.Getenv(requireEnv) == "1" {
-			t.Fatalf("mosquitto binary not found (%s=1 makes this a failure); apt-get install mosquitto", requireEnv)
-		}
-		t.Skip("mosquitto binary not found; apt-get install mosquitto")
-	}
-	dir := t.TempDir()
+// startMosquitto writes the directives lines, each passed through adapt
+// (which returns the value to keep, or false to drop the line), plus a
+// plain listener on a free loopback port, starts mosquitto on it in dir and
+// returns the listener's address and a function that kills the broker
+// (SIGKILL, as a crash or power loss would) and waits for it to exit. It
+// stops the broker (SIGINT) at the end of the test.
+func startMosquitto(t *testing.T, bin, dir string, lines []string, adapt func(key, val string) (string, bool)) (string, func()) {
+	t.Helper()
 	l, err := net.Listen("tcp", "127.0.0.1:0")
 	if err != nil {
 		t.Fatal(err)
 	}
 	port := l.Addr().(*net.TCPAddr).Port
 	l.Close()
-	lines, _ := directives(t, "mosquitto.conf")
 	var b strings.Builder
 	if os.Geteuid() == 0 {
 		// As root mosquitto switches to user "mosquitto", which cannot
 		// read the test's private temp dir.
 		b.WriteString("user root\n")
 	}
+	fmt.Fprintf(&b, "listener %d 127.0.0.1\n", port)
 	for _, line := range lines {
-		key, _, _ := strings.Cut(line, " ")
-		if !replaced[key] {
-			b.WriteString(line + "\n")
+		key, val, _ := strings.Cut(line, " ")
+		if v, ok := adapt(key, strings.TrimSpace(val)); ok {
+			b.WriteString(key + " " + v + "\n")
 		}
 	}
-	abs := func(p string) string { a, _ := filepath.Abs(p); return a }
-	fmt.Fprintf(&b, "listener %d 127.0.0.1\npassword_file %s\nacl_file %s\npersistence_location %s/\nlog_dest file %s\n",
-		port, abs("passwd.example"), abs("acl.example"), dir, filepath.Join(dir, "mosquitto.log"))
 	conf := filepath.Join(dir, "test.conf")
 	if err := os.WriteFile(conf, []byte(b.String()), 0o644); err != nil {
 		t.Fatal(err)
@@ -129,31 +142,61 @@ func TestConfigWithMosquitto(t *testing.T) {
 	if err := cmd.Start(); err != nil {
 		t.Fatal(err)
 	}
-	defer func() {
+	exited := make(chan struct{})
+	go func() { cmd.Wait(); close(exited) }()
+	t.Cleanup(func() {
 		cmd.Process.Signal(os.Interrupt)
-		cmd.Wait()
-	}()
+		<-exited
+	})
+	kill := func() {
+		cmd.Process.Kill()
+		<-exited
+	}
 	addr := fmt.Sprintf("127.0.0.1:%d", port)
-	deadline := time.Now().Add(10 * time.Second)
 	for {
-		c, err := net.DialTimeout("tcp", addr, 200*time.Millisecond)
+		c, err := net.DialTimeout("tcp", addr, time.Second)
 		if err == nil {
 			c.Close()
-			break
+			return addr, kill
 		}
-		if time.Now().After(deadline) {
+		select {
+		case <-exited:
 			log, _ := os.ReadFile(filepath.Join(dir, "mosquitto.log"))
-			t.Fatalf("mosquitto did not start with the test variant of mosquitto.conf:\n%s\n%s\nconfig:\n%s", out.String(), log, b.String())
+			t.Fatalf("mosquitto exited with the test variant of mosquitto.conf:\n%s\n%s\nconfig:\n%s", out.String(), log, b.String())
+		case <-time.After(50 * time.Millisecond):
 		}
-		time.Sleep(50 * time.Millisecond)
 	}
+}
+
+// TestConfigWithMosquitto starts mosquitto with a test variant of
+// mosquitto.conf (same limits and authentication, a plain loopback listener
+// on a spare port, the example password and ACL files) and checks that the
+// password is required and the ACL lets readings through.
+func TestConfigWithMosquitto(t *testing.T) {
+	bin := mosquittoBinary(t)
+	dir := t.TempDir()
+	lines, _ := directives(t, "mosquitto.conf")
+	abs := func(p string) string { a, _ := filepath.Abs(p); return a }
+	addr, _ := startMosquitto(t, bin, dir, lines, func(key, val string) (string, bool) {
+		switch key {
+		case "password_file":
+			return abs("passwd.example"), true
+		case "acl_file":
+			return abs("acl.example"), true
+		case "persistence_location":
+			return dir + "/", true
+		case "log_dest":
+			return "file " + filepath.Join(dir, "mosquitto.log"), true
+		}
+		return val, !replaced[key]
+	})
 
 	for _, c := range []struct {
 		name, user, pass string
 		ok               bool
 	}{
 		{"monitor with its password", "trussmonitor", "demo-monitor-password", true},
-		{"logger with its password", "alder-logger", "demo-logger-password", true},
+		{"logger with its password", "alder-creek", "demo-logger-password", true},
 		{"wrong password", "trussmonitor", "demo-logger-password", false},
 		{"no credentials (anonymous)", "", "", false},
 		{"unknown user", "guest", "guest", false},
@@ -177,22 +220,22 @@ func TestConfigWithMosquitto(t *testing.T) {
 	}
 	defer mon.Disconnect(50)
 	got := make(chan string, 1)
-	if tok := mon.Subscribe("shm/#", 1, func(_ paho.Client, m paho.Message) { got <- string(m.Payload()) }); !tok.WaitTimeout(5*time.Second) || tok.Error() != nil {
+	if tok := mon.Subscribe("shm/#", 1, func(_ paho.Client, m paho.Message) { got <- string(m.Payload()) }); !tok.WaitTimeout(waitLimit) || tok.Error() != nil {
 		t.Fatalf("subscribe: %v", tok.Error())
 	}
-	lg, err := connect(addr, "alder-logger", "demo-logger-password")
+	lg, err := connect(addr, "alder-creek", "demo-logger-password")
 	if err != nil {
 		t.Fatal(err)
 	}
 	defer lg.Disconnect(50)
 	payload := `[{"bt":1772366400,"n":"g1","u":"/","v":1.5e-4}]`
-	lg.Publish("shm/alder-creek", 1, false, payload).WaitTimeout(5 * time.Second)
+	lg.Publish("shm/alder-creek", 1, false, payload).WaitTimeout(waitLimit)
 	select {
 	case p := <-got:
 		if p != payload {
 			t.Fatalf("monitor received %q", p)
 		}
-	case <-time.After(5 * time.Second):
+	case <-time.After(waitLimit):
 		t.Fatal("the logger's reading did not reach the monitor (ACL?)")
 	}
 }

@@ -82,6 +82,13 @@ type Ingest struct {
 	// counted in shm_dead_letters_dropped_total). Default 50000
 	// (store.DefaultMaxDeadLetters), at most about 115 MB.
 	MaxDeadLetters int `yaml:"max_dead_letters"`
+	// Subscribe is "all" (the default: every structure's topics, so a
+	// logger publishing under a structure name this instance does not
+	// monitor leaves a dead letter unknown_structure instead of vanishing)
+	// or "configured" (only this instance's structures: for instances that
+	// share a broker, each serving its own structures, deploy/README.md
+	// "Scaling out").
+	Subscribe string `yaml:"subscribe"`
 }
 
 // Epochs configures the epoch assembler.
@@ -161,6 +168,7 @@ func Defaults() Config {
 			ClientID:        "trussmonitor",
 			MaxPayloadBytes: 64 << 10,
 		},
+		Ingest: Ingest{Subscribe: "all"},
 		Epochs: Epochs{Window: Duration(time.Second), MaxLateness: Duration(5 * time.Second), MissingLoad: "skip"},
 		Alarms: Alarms{SilentAfter: Duration(5 * time.Minute), RejectRatePerMinute: 30},
 	}
@@ -249,6 +257,9 @@ func (c *Config) Validate() error {
 	}
 	if c.Broker.MaxPayloadBytes <= 0 {
 		bad("broker.max_payload_bytes", "must be positive, got %d", c.Broker.MaxPayloadBytes)
+	}
+	if c.Ingest.Subscribe != "all" && c.Ingest.Subscribe != "configured" {
+		bad("ingest.subscribe", "is %q; use all (every structure's topics) or configured (only this instance's structures)", c.Ingest.Subscribe)
 	}
 	if c.Ingest.MaxDeadLetters < 0 {
 		bad("ingest.max_dead_letters", "must not be negative (0 takes the default)")

@@ -43,6 +43,6 @@ func ExampleNew() {
 	fmt.Print(resp.StatusCode, " ", string(b))
 	// Output:
 	// 404 {
-	//   "error": "unknown structure \"nowhere\"; known structures: tie"
+	//   "error": "unknown structure; known structures: tie"
 	// }
 }

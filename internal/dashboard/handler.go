@@ -65,7 +65,7 @@ func New(src Source, opts Options) *Handler {
 	h.mux.HandleFunc("GET /api/dead-letters", h.deadLetters)
 	h.mux.HandleFunc("GET /api/structures/{name}/fatigue", h.fatigueHandler)
 	h.mux.HandleFunc("GET /api/", func(w http.ResponseWriter, r *http.Request) {
-		writeError(w, http.StatusNotFound, fmt.Sprintf("no API endpoint %s %s; see docs/api.md for the endpoints", r.Method, r.URL.Path))
+		writeError(w, http.StatusNotFound, "no API endpoint at this path; see docs/api.md for the endpoints")
 	})
 	sub, err := fs.Sub(staticFiles, "static")
 	if err != nil {
@@ -80,7 +80,8 @@ func New(src Source, opts Options) *Handler {
 	h.mux.Handle("GET /", http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
 		w.Header().Set("Cache-Control", "no-cache")
 		w.Header().Set("X-Content-Type-Options", "nosniff")
-		w.Header().Set("Content-Security-Policy", "default-src 'self'; img-src 'self' data:; style-src 'self'; script-src 'self'; connect-src 'self'")
+		w.Header().Set("X-Frame-Options", "DENY")
+		w.Header().Set("Content-Security-Policy", pageCSP)
 		files.ServeHTTP(w, r)
 	}))
 	return h
@@ -103,7 +104,9 @@ func (h *Handler) knownStructure(w http.ResponseWriter, name string) bool {
 	if slices.Contains(names, name) {
 		return true
 	}
-	writeError(w, http.StatusNotFound, fmt.Sprintf("unknown structure %q; known structures: %s", name, strings.Join(names, ", ")))
+	// The requested name is not echoed back: it is the caller's text, of
+	// any length.
+	writeError(w, http.StatusNotFound, fmt.Sprintf("unknown structure; known structures: %s", strings.Join(names, ", ")))
 	return false
 }
 
@@ -138,7 +141,7 @@ func (h *Handler) series(w http.ResponseWriter, r *http.Request) {
 	}
 	i := slices.IndexFunc(s.Geometry.Members, func(m Member) bool { return m.ID == id })
 	if i < 0 {
-		writeError(w, http.StatusNotFound, fmt.Sprintf("structure %q has no member %q", name, id))
+		writeError(w, http.StatusNotFound, fmt.Sprintf("structure %q has no member with the requested id", name))
 		return
 	}
 	if !s.Geometry.Members[i].Gauged {
@@ -219,7 +222,7 @@ func (h *Handler) timeRange(w http.ResponseWriter, r *http.Request) (from, to ti
 func parseTime(param, v string) (time.Time, error) {
 	t, err := time.Parse(time.RFC3339Nano, v)
 	if err != nil {
-		return time.Time{}, fmt.Errorf("query parameter %s: %q is not an RFC 3339 time; write for example 2026-12-02T01:30:00Z (a + in an offset must be sent as %%2B)", param, v)
+		return time.Time{}, fmt.Errorf("query parameter %s is not an RFC 3339 time; write for example 2026-12-02T01:30:00Z (a + in an offset must be sent as %%2B)", param)
 	}
 	return t, nil
 }
@@ -273,6 +276,8 @@ func writeJSON(w http.ResponseWriter, status int, v any) {
 	w.Header().Set("Content-Type", "application/json; charset=utf-8")
 	w.Header().Set("Cache-Control", "no-store")
 	w.Header().Set("X-Content-Type-Options", "nosniff")
+	w.Header().Set("X-Frame-Options", "DENY")
+	w.Header().Set("Content-Security-Policy", apiCSP)
 	w.WriteHeader(status)
 	_, _ = w.Write(append(b, '\n'))
 }

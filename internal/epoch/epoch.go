@@ -3,8 +3,11 @@
 // averaged, so that every epoch is one time-aligned snapshot of the
 // structure for reconciliation.
 //
-// An epoch closes when every expected channel has reported (ExpectedSamples
-// readings each), or when the watermark passes its end: the watermark is the
+// Every reading inside the window is averaged (a channel sampled at 50 Hz
+// contributes 50 readings to a 1 s epoch). An epoch closes when every
+// expected channel has delivered its expected number of readings
+// (SamplesPerChannel, from the declared sampling rate; ExpectedSamples
+// otherwise), or when the watermark passes its end: the watermark is the
 // largest logger time seen minus MaxLateness. In live running an idle flush
 // driven by an injected clock also closes epochs when readings stop
 // arriving. Epochs are emitted in time order: a complete epoch waits for
@@ -52,6 +55,13 @@ type Config struct {
 	// makes an epoch complete (e.g. 10 for 10 Hz gauges and a 1 s window).
 	// Zero means 1.
 	ExpectedSamples int
+	// SamplesPerChannel gives, per expected channel, the number of readings
+	// that completes an epoch (from the channel's declared sampling rate:
+	// 50 for 50 Hz and a 1 s window); a channel not listed expects
+	// ExpectedSamples. Every reading of the window is averaged, whatever the
+	// count; the count only decides whether the epoch may close before the
+	// watermark passes its end.
+	SamplesPerChannel map[string]int
 	// IdleFlush, with a clock, closes an epoch once the clock is this far
 	// past its end even though no newer readings came (a silent logger).
 	// Zero means Window + MaxLateness.
@@ -87,7 +97,7 @@ type Epoch struct {
 	Channels []ChannelMean
 	// Missing are the expected channels with no reading, sorted.
 	Missing []string
-	// Short are expected channels with fewer than ExpectedSamples readings.
+	// Short are expected channels with fewer readings than expected.
 	Short []string
 	// Reason is why it closed (ClosedComplete, ...).
 	Reason string
@@ -126,7 +136,7 @@ type acc struct {
 	index int64
 	sum   map[string]float64
 	n     map[string]int
-	full  int // expected channels with ExpectedSamples readings
+	full  int // expected channels with their expected number of readings
 }
 
 // Assembler assembles the epochs of one structure. It is not safe for
@@ -136,7 +146,8 @@ type Assembler struct {
 	clock    func() time.Time
 	obs      Observer
 	expected map[string]bool
-	window   int64 // ns
+	need     map[string]int // readings per epoch that complete each expected channel
+	window   int64          // ns
 
 	open       []*acc // by index, ascending
 	closedUpTo int64  // every epoch with index <= closedUpTo is closed
@@ -173,6 +184,19 @@ func New(cfg Config, clock func() time.Time, obs Observer) (*Assembler, error) {
 			return nil, fmt.Errorf("epoch: structure %q: channel %q listed twice in expected channels", cfg.Structure, c)
 		}
 		a.expected[c] = true
+	}
+	a.need = make(map[string]int, len(cfg.Expected))
+	for _, c := range cfg.Expected {
+		a.need[c] = cfg.ExpectedSamples
+	}
+	for c, n := range cfg.SamplesPerChannel {
+		if !a.expected[c] {
+			return nil, fmt.Errorf("epoch: structure %q: samples per epoch given for channel %q, which is not an expected channel", cfg.Structure, c)
+		}
+		if n < 1 {
+			return nil, fmt.Errorf("epoch: structure %q: channel %q: %d samples per epoch; give at least 1", cfg.Structure, c, n)
+		}
+		a.need[c] = n
 	}
 	a.stats.LateByChannel = map[string]int64{}
 	return a, nil
@@ -219,7 +243,7 @@ func (a *Assembler) Add(r Reading) []Epoch {
 		return nil
 	}
 	e := a.epochAt(k)
-	if e.n[r.Channel] < a.cfg.ExpectedSamples && e.n[r.Channel]+1 == a.cfg.ExpectedSamples {
+	if e.n[r.Channel]+1 == a.need[r.Channel] {
 		e.full++
 	}
 	e.sum[r.Channel] += r.Value
@@ -329,7 +353,7 @@ func (a *Assembler) emit(e *acc, reason string) Epoch {
 		switch n := e.n[c]; {
 		case n == 0:
 			ep.Missing = append(ep.Missing, c)
-		case n < a.cfg.ExpectedSamples:
+		case n < a.need[c]:
 			ep.Short = append(ep.Short, c)
 		}
 	}

@@ -5,6 +5,8 @@ import (
 	"math"
 	"math/rand/v2"
 	"reflect"
+	"slices"
+	"sort"
 	"strings"
 	"testing"
 	"time"
@@ -172,10 +174,12 @@ func TestIdleFlushAndSkew(t *testing.T) {
 
 func TestConfigErrors(t *testing.T) {
 	for name, cfg := range map[string]Config{
-		"zero window":      {Expected: []string{"a"}},
-		"negative latency": {Window: time.Second, MaxLateness: -1, Expected: []string{"a"}},
-		"no channels":      {Window: time.Second},
-		"duplicate":        {Window: time.Second, Expected: []string{"a", "a"}},
+		"zero window":                      {Expected: []string{"a"}},
+		"negative latency":                 {Window: time.Second, MaxLateness: -1, Expected: []string{"a"}},
+		"no channels":                      {Window: time.Second},
+		"duplicate":                        {Window: time.Second, Expected: []string{"a", "a"}},
+		"samples of an unexpected channel": {Window: time.Second, Expected: []string{"a"}, SamplesPerChannel: map[string]int{"b": 5}},
+		"zero samples":                     {Window: time.Second, Expected: []string{"a"}, SamplesPerChannel: map[string]int{"a": 0}},
 	} {
 		if _, err := New(cfg, nil, nil); err == nil {
 			t.Errorf("%s: accepted", name)
@@ -241,4 +245,91 @@ func ExampleAssembler() {
 		fmt.Println(e.Start.Format(time.TimeOnly), e.Reason, g1, g2)
 	}
 	// Output: 12:00:00 complete 102 -40
+}
+
+// TestHighRateChannels: channels sampled at 1, 10 and 50 Hz with a 1 s
+// window (DESIGN.md, Epochs). Every sample of the window is averaged, none
+// counts as late, and an epoch closes as soon as each channel delivered its
+// expected count (rate x window). The expected mean is the arithmetic mean
+// of the samples computed here, independently of the assembler.
+func TestHighRateChannels(t *testing.T) {
+	rates := map[string]int{"g1": 50, "g2": 10, "t1": 1}
+	for _, tc := range []struct {
+		name     string
+		channels []string
+	}{
+		{"1 Hz", []string{"t1"}},
+		{"10 Hz", []string{"g2"}},
+		{"50 Hz", []string{"g1"}},
+		{"1, 10 and 50 Hz together", []string{"g1", "g2", "t1"}},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			per := map[string]int{}
+			for _, c := range tc.channels {
+				per[c] = rates[c]
+			}
+			a := mustNew(t, Config{Expected: tc.channels, SamplesPerChannel: per, MaxLateness: 3 * time.Second}, nil)
+			rng := rand.New(rand.NewPCG(7, 9))
+			type sample struct {
+				ch string
+				ns int64
+				v  float64
+			}
+			const seconds = 6
+			var in []sample
+			sums := map[string][]float64{} // per channel, per second
+			for _, c := range tc.channels {
+				sums[c] = make([]float64, seconds)
+				step := int64(time.Second) / int64(rates[c])
+				for k := int64(0); k < seconds*int64(rates[c]); k++ {
+					ns := k * step
+					v := 1e-4*math.Sin(float64(ns)/3e8) + 1e-6*rng.NormFloat64()
+					in = append(in, sample{c, ns, v})
+					sums[c][ns/int64(time.Second)] += v
+				}
+			}
+			// Loggers deliver channels interleaved in time order.
+			sort.SliceStable(in, func(i, j int) bool { return in[i].ns < in[j].ns })
+			var out []Epoch
+			for _, s := range in {
+				out = append(out, a.Add(Reading{Channel: s.ch, Time: t0.Add(time.Duration(s.ns)), Value: s.v})...)
+			}
+			closedEarly := len(out)
+			out = append(out, a.Flush()...)
+			st := a.Stats()
+			if st.Late != 0 {
+				t.Errorf("%d readings counted late (by channel %v), want 0", st.Late, st.LateByChannel)
+			}
+			if st.Readings != int64(len(in)) {
+				t.Errorf("%d readings assembled, want %d", st.Readings, len(in))
+			}
+			if len(out) != seconds {
+				t.Fatalf("%d epochs, want %d: %s", len(out), seconds, describe(out))
+			}
+			// The watermark (3 s) cannot close the last three epochs; they
+			// close complete as their last sample arrives.
+			if closedEarly != seconds {
+				t.Errorf("%d epochs closed before the flush, want %d (complete): %s", closedEarly, seconds, describe(out))
+			}
+			for i, e := range out {
+				if len(e.Missing)+len(e.Short) > 0 {
+					t.Errorf("epoch %d: missing %v short %v", i, e.Missing, e.Short)
+				}
+				for _, c := range tc.channels {
+					want := sums[c][i] / float64(rates[c])
+					got, ok := e.Mean(c)
+					if !ok || math.Abs(got-want) > 1e-12*math.Abs(want)+1e-20 {
+						t.Errorf("epoch %d channel %s: mean %g, want %g (mean of its %d samples)", i, c, got, want, rates[c])
+					}
+					n := e.Channels[slices.IndexFunc(e.Channels, func(m ChannelMean) bool { return m.Channel == c })].N
+					if n != rates[c] {
+						t.Errorf("epoch %d channel %s: %d samples averaged, want %d", i, c, n, rates[c])
+					}
+				}
+				if e.Reason != ClosedComplete && e.Reason != ClosedWatermark {
+					t.Errorf("epoch %d closed by %s", i, e.Reason)
+				}
+			}
+		})
+	}
 }

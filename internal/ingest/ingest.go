@@ -34,6 +34,7 @@ import (
 	"fmt"
 	"log/slog"
 	"os"
+	"sort"
 	"strings"
 	"sync"
 	"sync/atomic"
@@ -102,6 +103,14 @@ type Config struct {
 	ServerName string `yaml:"server_name"`
 	// TopicPrefix is the first topic level. Default "shm".
 	TopicPrefix string `yaml:"topic_prefix"`
+	// SubscribeAll subscribes to every structure's topics (<prefix>/+ and
+	// <prefix>/+/+), so that messages for a structure without a registry
+	// are dead-lettered as unknown_structure. By default the ingest
+	// subscribes only to the topics of its registries' structures
+	// (<prefix>/<structure> and <prefix>/<structure>/+): instances that
+	// serve different structures share a broker without receiving each
+	// other's messages.
+	SubscribeAll bool `yaml:"subscribe_all"`
 	// MaxPayload is the largest accepted payload in bytes; larger ones are
 	// dead-lettered (oversized_payload; the dead letter keeps an excerpt
 	// of store.ExcerptBytes). Default 1 MiB; the service sets 64 KiB.
@@ -433,6 +442,32 @@ func (in *Ingester) Health() Health {
 	return h
 }
 
+// filters returns the topic filters to subscribe to (QoS 1) and the
+// wildcard filters to remove from a persistent session.
+func (in *Ingester) filters() (subscribe map[string]byte, unsubscribe []string) {
+	p := in.cfg.TopicPrefix
+	all := []string{p + "/+", p + "/+/+"}
+	if in.cfg.SubscribeAll {
+		return map[string]byte{all[0]: 1, all[1]: 1}, nil
+	}
+	subscribe = map[string]byte{}
+	for name := range in.deps.Registries {
+		subscribe[p+"/"+name] = 1
+		subscribe[p+"/"+name+"/+"] = 1
+	}
+	return subscribe, all
+}
+
+// filterList renders topic filters for a log line, sorted.
+func filterList(filters map[string]byte) string {
+	var l []string
+	for f := range filters {
+		l = append(l, f)
+	}
+	sort.Strings(l)
+	return strings.Join(l, " ")
+}
+
 // onConnect subscribes (again) on every connection. The broker keeps the
 // subscription in the persistent session; subscribing again is harmless
 // and covers a broker that lost its state.
@@ -441,12 +476,17 @@ func (in *Ingester) onConnect(c paho.Client) {
 	in.stats.Connects++
 	reconnect := in.stats.Connects > 1
 	in.stats.Unlock()
-	p := in.cfg.TopicPrefix
-	filters := map[string]byte{p + "/+": 1, p + "/+/+": 1}
+	filters, dropped := in.filters()
+	if len(dropped) > 0 {
+		// A persistent session keeps the subscriptions of an earlier run;
+		// remove the wildcard ones that would bring other instances'
+		// structures (harmless when they do not exist).
+		c.Unsubscribe(dropped...)
+	}
 	tok := c.SubscribeMultiple(filters, nil)
 	go func() {
 		if !tok.WaitTimeout(30*time.Second) || tok.Error() != nil {
-			in.log.Error("MQTT subscribe failed; reconnecting", "broker", in.cfg.Broker, "filters", p+"/+ and "+p+"/+/+", "err", tok.Error())
+			in.log.Error("MQTT subscribe failed; reconnecting", "broker", in.cfg.Broker, "filters", filterList(filters), "err", tok.Error())
 			return
 		}
 		in.stats.Lock()

@@ -174,7 +174,7 @@ func TestBadInput(t *testing.T) {
 	st := openStore(t, filepath.Join(t.TempDir(), "m.db"))
 	obs := newCountingObserver()
 	var logs safeBuffer
-	in, stop := startIngest(t, Config{Broker: "tcp://" + b.Addr(), ClientID: "bad-input", MaxPayload: 4096, MaxAbsValue: 1e9}, Deps{
+	in, stop := startIngest(t, Config{Broker: "tcp://" + b.Addr(), ClientID: "bad-input", MaxPayload: 4096, MaxAbsValue: 1e9, SubscribeAll: true}, Deps{
 		Store: st, Registries: alderRegistry(), Observer: obs,
 		Logger: slog.New(slog.NewTextHandler(&logs, nil)),
 	})
@@ -355,3 +355,27 @@ func (m fakeMessage) Topic() string     { return m.topic }
 func (m fakeMessage) MessageID() uint16 { return 0 }
 func (m fakeMessage) Payload() []byte   { return m.payload }
 func (m fakeMessage) Ack()              {}
+
+// TestSubscriptionFilters: by default only the registries' structures'
+// topics are subscribed (and the wildcard ones of an earlier session
+// removed); SubscribeAll takes every structure's.
+func TestSubscriptionFilters(t *testing.T) {
+	st := openStore(t, filepath.Join(t.TempDir(), "m.db"))
+	for _, all := range []bool{false, true} {
+		in, err := New(Config{Broker: "tcp://127.0.0.1:1", ClientID: "filters", SubscribeAll: all}, Deps{Store: st, Registries: alderRegistry()})
+		if err != nil {
+			t.Fatal(err)
+		}
+		sub, unsub := in.filters()
+		want, wantUnsub := "shm/alder-creek shm/alder-creek/+", "shm/+ shm/+/+"
+		if all {
+			want, wantUnsub = "shm/+ shm/+/+", ""
+		}
+		if got := filterList(sub); got != want {
+			t.Errorf("SubscribeAll %v: subscribes %q, want %q", all, got, want)
+		}
+		if got := strings.Join(unsub, " "); got != wantUnsub {
+			t.Errorf("SubscribeAll %v: unsubscribes %q, want %q", all, got, wantUnsub)
+		}
+	}
+}

@@ -109,12 +109,16 @@ func New(m *model.Model, sm *sensors.Map, cfg Config, sinks ...Sink) (*Pipeline,
 		return nil, err
 	}
 	var expected []string
+	samples := map[string]int{}
 	for _, ch := range sm.Channels() {
 		expected = append(expected, ch.ID)
+		if ch.SampleRate > 0 {
+			samples[ch.ID] = ch.SamplesPer(cfg.Window)
+		}
 	}
 	asm, err := epoch.New(epoch.Config{
 		Structure: name, Window: cfg.Window, MaxLateness: cfg.MaxLateness, Expected: expected,
-		MaxFuture: cfg.MaxFuture, MaxPast: cfg.MaxPast,
+		SamplesPerChannel: samples, MaxFuture: cfg.MaxFuture, MaxPast: cfg.MaxPast,
 	}, cfg.Clock, cfg.Observer)
 	if err != nil {
 		return nil, err

@@ -315,7 +315,7 @@ func (p *parser) zeroStates(n *yaml.Node, m *Map) {
 
 // Fields allowed per kind, besides the common ones.
 var (
-	commonFields  = []string{"id", "kind", "unit", "note", "range"}
+	commonFields  = []string{"id", "kind", "unit", "note", "range", "sample_rate"}
 	gaugeFields   = []string{"member", "position", "zero", "zero_state", "noise_microstrain", "temperature_channel", "zero_temperature"}
 	kindFieldsMap = map[Kind][]string{
 		KindStrain:            {"thermal_output_microstrain"},
@@ -423,6 +423,15 @@ func (p *parser) channel(n *yaml.Node, m *Map) (Channel, bool) {
 	}
 	if nn, ok := get("note"); ok {
 		ch.Note, _ = p.str(nn, ch.ID, "note")
+	}
+	if rn, ok := get("sample_rate"); ok {
+		if v, _, ok := p.quantity(rn, ch.ID, "sample_rate", units.Frequency); ok {
+			if v > MaxSampleRate {
+				p.fail(rn.Line, ch.ID, "sample_rate", "%g Hz is above %g Hz, more than a data logger of static and fatigue gauges delivers; check the unit (Hz, kHz, 1/min)", v, MaxSampleRate)
+			} else {
+				ch.SampleRate = v
+			}
+		}
 	}
 
 	if ch.Kind.IsGauge() {

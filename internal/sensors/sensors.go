@@ -11,7 +11,9 @@ package sensors
 
 import (
 	"fmt"
+	"math"
 	"strings"
+	"time"
 )
 
 // Structure is what the sensor map needs to know of the structure it
@@ -117,10 +119,18 @@ type Channel struct {
 	ZeroState string
 	// Noise is the standard deviation of one reading in engineering units:
 	// strain for gauges, degC for temperatures, pattern factor for loads.
+	// It is also the standard deviation of an epoch's mean of several
+	// readings: not divided by sqrt(n), since the readings of one window
+	// are not independent errors (drift, zero shift, thermal output; see
+	// docs/sensor-map.md).
 	Noise float64
 	// Range is the plausible span of raw readings; readings outside it are
 	// rejected as out of range.
 	Range [2]float64
+	// SampleRate is the logger's declared sampling rate of the channel in
+	// Hz (field sample_rate, e.g. "50 Hz"), or 0 when not declared. It
+	// gives the number of readings an epoch expects (SamplesPer).
+	SampleRate float64
 
 	// Pattern is the load pattern a load channel feeds.
 	Pattern string
@@ -133,6 +143,26 @@ type Channel struct {
 
 	// Fatigue is a gauge's fatigue block, or nil.
 	Fatigue *Fatigue
+}
+
+// MaxSampleRate bounds a declared sample_rate (Hz): a higher value is
+// refused as a likely unit mistake (common practice: data loggers of
+// strain gauges on bridges sample at most a few kHz).
+const MaxSampleRate = 10000.0
+
+// SamplesPer returns the number of readings the channel delivers in one
+// epoch of length window at its declared sampling rate: rate x window
+// rounded up (a window that holds 1.5 sampling periods holds 1 or 2
+// readings, and the epoch waits for the larger count), at least 1. Without
+// a declared rate it is 1: the epoch may close once the channel has
+// reported once, and further readings of that window count as late.
+func (c Channel) SamplesPer(window time.Duration) int {
+	if !(c.SampleRate > 0) || window <= 0 {
+		return 1
+	}
+	// The small tolerance keeps 50 Hz x 1 s at 50 despite rounding.
+	n := int(math.Ceil(c.SampleRate*window.Seconds() - 1e-9))
+	return max(n, 1)
 }
 
 // ZeroState is a state of the structure under which gauges were zeroed: the

@@ -6,6 +6,7 @@ import (
 	"math"
 	"strings"
 	"testing"
+	"time"
 )
 
 // testStructure is a small in-code structure: a few members of steel with
@@ -311,6 +312,12 @@ func TestParseErrors(t *testing.T) {
 		{"duplicate id", "  - {id: t, kind: temperature, unit: Cel, groups: [top], noise: 0.1}\n  - {id: t, kind: temperature, unit: Cel, groups: [top], noise: 0.1}\n",
 			[]string{"small.yaml:6:", "used twice"}},
 		{"unknown kind", "  - {id: t, kind: laser, unit: m}\n", []string{`field "kind"`, `unknown kind "laser"`}},
+		{"sample rate in a length unit", "  - {id: t, kind: temperature, unit: Cel, groups: [top], noise: 0.1, sample_rate: 5 m}\n",
+			[]string{`field "sample_rate"`, "frequency"}},
+		{"sample rate zero", "  - {id: t, kind: temperature, unit: Cel, groups: [top], noise: 0.1, sample_rate: 0 Hz}\n",
+			[]string{`field "sample_rate"`, "must be positive"}},
+		{"sample rate implausible", "  - {id: t, kind: temperature, unit: Cel, groups: [top], noise: 0.1, sample_rate: 50 kHz}\n",
+			[]string{`field "sample_rate"`, "above 10000 Hz"}},
 	}
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {
@@ -438,5 +445,39 @@ func TestConcurrentUse(t *testing.T) {
 	}
 	for g := 0; g < 4; g++ {
 		<-done
+	}
+}
+
+// TestSampleRate: the declared sampling rate with its unit and the number
+// of readings it gives per epoch (rate x window, rounded up, at least 1).
+func TestSampleRate(t *testing.T) {
+	head := "structure: x\nchannels:\n"
+	for _, tc := range []struct {
+		field  string
+		hz     float64
+		window time.Duration
+		want   int
+	}{
+		{"", 0, time.Second, 1},
+		{", sample_rate: 50 Hz", 50, time.Second, 50},
+		{", sample_rate: 50", 50, time.Second, 50}, // a bare number is in Hz
+		{", sample_rate: 10 Hz", 10, time.Second, 10},
+		{", sample_rate: 1 Hz", 1, time.Second, 1},
+		{", sample_rate: 0.2 kHz", 200, 500 * time.Millisecond, 100},
+		{", sample_rate: 3 Hz", 3, 500 * time.Millisecond, 2},
+		{", sample_rate: 6 1/min", 0.1, time.Second, 1},
+	} {
+		body := "  - {id: t, kind: temperature, unit: Cel, groups: [top], noise: 0.1" + tc.field + "}\n"
+		m, err := Parse("rate.yaml", []byte(head+body), smallStructure())
+		if err != nil {
+			t.Fatalf("%q: %v", tc.field, err)
+		}
+		ch, _ := m.Channel("t")
+		if math.Abs(ch.SampleRate-tc.hz) > 1e-12*tc.hz {
+			t.Errorf("%q: rate %v Hz, want %v", tc.field, ch.SampleRate, tc.hz)
+		}
+		if got := ch.SamplesPer(tc.window); got != tc.want {
+			t.Errorf("%q: %d readings per %v, want %d", tc.field, got, tc.window, tc.want)
+		}
 	}
 }

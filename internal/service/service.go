@@ -92,6 +92,7 @@ type Service struct {
 	set       settings.Settings
 	connected atomic.Bool
 	fatigue   *fatiguetrack.Tracker // nil when no gauge counts fatigue
+	httpIdle  time.Duration
 }
 
 // Options are the parts of a service that are not in the configuration.
@@ -106,12 +107,15 @@ type Options struct {
 	// ClockNote, when set, is shown on the dashboard beside the epoch time
 	// (the demo says its time is simulated and at what speed).
 	ClockNote string
+	// HTTPIdleTimeout closes idle keep-alive HTTP connections; zero means
+	// DefaultHTTPIdleTimeout.
+	HTTPIdleTimeout time.Duration
 }
 
 // New builds the service: it opens the store, loads every structure and
 // prepares the pipelines, but starts nothing.
 func New(cfg *config.Config, opt Options) (*Service, error) {
-	s := &Service{cfg: cfg, log: opt.Logger, clock: opt.Clock, clockNote: opt.ClockNote, pipes: map[string]*pipeline.Pipeline{}, rejects: map[string]*atomic.Uint64{}}
+	s := &Service{cfg: cfg, log: opt.Logger, clock: opt.Clock, clockNote: opt.ClockNote, httpIdle: opt.HTTPIdleTimeout, pipes: map[string]*pipeline.Pipeline{}, rejects: map[string]*atomic.Uint64{}}
 	if s.log == nil {
 		s.log = slog.Default()
 	}
@@ -270,6 +274,7 @@ func (s *Service) Start(ctx context.Context) error {
 		return fmt.Errorf("%s: http.listen: %w", s.cfg.File, err)
 	}
 	s.httpLn = ln
+	warnExposed(s.log, s.cfg.File, ln.Addr())
 	mux := http.NewServeMux()
 	mh := metrics.Handler(s.reg, s.ready)
 	mux.Handle("/metrics", mh)
@@ -280,7 +285,7 @@ func (s *Service) Start(ctx context.Context) error {
 		dopts.Fatigue = fatigueSource{tr: s.fatigue, st: s.store, clock: s.clock}
 	}
 	mux.Handle("/", dashboard.New(s.live, dopts))
-	s.httpSrv = &http.Server{Handler: mux, ReadHeaderTimeout: 10 * time.Second}
+	s.httpSrv = newHTTPServer(dashboard.Harden(mux), s.httpIdle)
 	go func() {
 		if err := s.httpSrv.Serve(ln); err != nil && !errors.Is(err, http.ErrServerClosed) {
 			s.log.Error("http server stopped", "error", err)
@@ -309,6 +314,7 @@ func (s *Service) Start(ctx context.Context) error {
 		CAFile: s.cfg.Broker.TLS.CAFile, CertFile: s.cfg.Broker.TLS.CertFile, KeyFile: s.cfg.Broker.TLS.KeyFile,
 		MaxPayload: s.cfg.Broker.MaxPayloadBytes,
 		MaxAhead:   s.cfg.Ingest.MaxAhead.D(), MaxBehind: s.cfg.Ingest.MaxBehind.D(),
+		SubscribeAll: s.cfg.Ingest.Subscribe != "configured",
 	}, deps)
 	if err != nil {
 		return fmt.Errorf("%s: broker: %w", s.cfg.File, err)

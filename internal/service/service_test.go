@@ -69,21 +69,11 @@ func TestServiceEndToEnd(t *testing.T) {
 		t.Fatal(err)
 	}
 	want := int64(stats.Readings)
-	var stored int64
-	deadline := time.Now().Add(3 * time.Minute) // generous: the race detector slows ingest tenfold
-	for time.Now().Before(deadline) {
-		stored, err = svc.Store().CountReadings(ctx, mon.Structure.Name, sopt.Start, sopt.Start.Add(sopt.Duration))
-		if err != nil {
-			t.Fatal(err)
-		}
-		if stored >= want {
-			break
-		}
-		time.Sleep(100 * time.Millisecond)
-	}
+	stored := waitStored(t, svc, mon.Structure.Name, sopt.Start, sopt.Start.Add(sopt.Duration), want)
 	if stored != want {
 		t.Fatalf("stored %d readings, published %d", stored, want)
 	}
+	deadline := time.Now().Add(3 * time.Minute) // generous: only ends a hung test
 	base := "http://" + svc.HTTPAddr()
 	get := func(path string) string {
 		t.Helper()

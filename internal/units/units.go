@@ -1,6 +1,6 @@
 // Package units parses quantities written with units (SI and US customary)
 // and converts them to SI: metres, newtons, pascals, kelvin (as temperature
-// differences), kilograms.
+// differences), kilograms, hertz.
 //
 // A quantity is a decimal number followed by a unit symbol, with or without a
 // space ("12.5 mm", "210GPa", "-20 kN"), or a bare number that takes a
@@ -54,6 +54,8 @@ const (
 	// SecondMoment is a second moment of area (moment of inertia of a
 	// section) in m^4.
 	SecondMoment
+	// Frequency in hertz (a logger's sampling rate).
+	Frequency
 )
 
 // Pressure is the same dimension as Stress (force per area); the name reads
@@ -71,6 +73,7 @@ var dimensionNames = map[Dimension]string{
 	Stiffness:          "stiffness (force per length)",
 	Mass:               "mass",
 	SecondMoment:       "second moment of area",
+	Frequency:          "frequency",
 }
 
 var siSymbols = map[Dimension]string{
@@ -84,6 +87,7 @@ var siSymbols = map[Dimension]string{
 	Stiffness:          "N/m",
 	Mass:               "kg",
 	SecondMoment:       "m4",
+	Frequency:          "Hz",
 }
 
 // String names the dimension in words, for messages.
@@ -178,6 +182,10 @@ var canonical = []Unit{
 	{"cm4", SecondMoment, 1e-8, siSource},
 	{"mm4", SecondMoment, 1e-12, siSource},
 	{"in4", SecondMoment, inch * inch * inch * inch, nistSource},
+	{"Hz", Frequency, 1, siSource},
+	{"kHz", Frequency, 1e3, siSource},
+	{"1/s", Frequency, 1, siSource},
+	{"1/min", Frequency, 1.0 / 60, "SI Brochure (9th ed.) Table 8, minute = 60 s"},
 }
 
 // aliases maps alternative spellings to canonical symbols.
@@ -188,7 +196,7 @@ var aliases = map[string]string{
 	"°C": "degC", "°F": "degF",
 	"/K": "1/K", "/degC": "1/degC", "/°C": "1/degC", "1/°C": "1/degC",
 	"/degF": "1/degF", "/°F": "1/degF", "1/°F": "1/degF",
-	"m^4": "m4", "cm^4": "cm4", "mm^4": "mm4", "in^4": "in4",
+	"m^4": "m4", "cm^4": "cm4", "mm^4": "mm4", "in^4": "in4", "/s": "1/s", "/min": "1/min",
 	"kg/m^3": "kg/m3", "kg/m³": "kg/m3", "lb/ft^3": "lb/ft3", "lb/ft³": "lb/ft3",
 }
 

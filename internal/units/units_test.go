@@ -71,6 +71,9 @@ func TestParse(t *testing.T) {
 		{"1 in4", SecondMoment, "", 4.162314256e-07, "0.0254^4 m^4, NIST SP 811 (2008) B.6 exact inch"},
 		{"2060 cm4", SecondMoment, "", 2.06e-05, "SI prefix"},
 		{"4.5e6 mm^4", SecondMoment, "", 4.5e-06, "SI prefix"},
+		{"50 Hz", Frequency, "", 50, "SI"},
+		{"2 kHz", Frequency, "", 2000, "SI prefix"},
+		{"6 1/min", Frequency, "", 0.1, "SI Brochure (9th ed.) Table 8: 1 min = 60 s"},
 		{"  .5 m ", Length, "", 0.5, "leading fraction, spaces"},
 		{"1E3 N", Force, "", 1000, "upper-case exponent"},
 		{"2e3mm", Length, "", 2, "exponent then unit without space"},
@@ -155,7 +158,7 @@ func TestEveryUnitRoundTrips(t *testing.T) {
 }
 
 func TestDimensionNames(t *testing.T) {
-	for d := Length; d <= SecondMoment; d++ {
+	for d := Length; d <= Frequency; d++ {
 		if strings.HasPrefix(d.String(), "dimension(") || d.SI() == "" {
 			t.Errorf("dimension %d has no name or SI unit", int(d))
 		}
@@ -171,7 +174,7 @@ func FuzzParse(f *testing.F) {
 		f.Add(s, int(Length))
 	}
 	f.Fuzz(func(t *testing.T, s string, d int) {
-		dim := Dimension(d%9 + 1)
+		dim := Dimension(d%10 + 1)
 		if d < 0 {
 			dim = Length
 		}

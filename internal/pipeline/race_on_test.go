@@ -1,0 +1,7 @@
+//go:build race
+
+package pipeline
+
+// raceDetector is true in a build with the race detector (go test -race),
+// which runs this package's long scenario tests about ten times slower.
+const raceDetector = true
