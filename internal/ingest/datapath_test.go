@@ -208,7 +208,7 @@ func TestUnknownStructureOneLabel(t *testing.T) {
 	b := embeddedBroker(t)
 	st := openStore(t, filepath.Join(t.TempDir(), "m.db"))
 	obs := newLabelObserver()
-	in, stop := startIngest(t, Config{Broker: "tcp://" + b.Addr(), ClientID: "unknown"}, Deps{
+	in, stop := startIngest(t, Config{Broker: "tcp://" + b.Addr(), ClientID: "unknown", SubscribeAll: true}, Deps{
 		Store: st, Registries: alderRegistry(), Observer: obs,
 	})
 	waitSubscribed(t, in)
