@@ -24,7 +24,20 @@ const (
 	// NodalLoad is an unmodelled force at one node in one direction;
 	// signature in newtons per newton; size in newtons.
 	NodalLoad
+	// SpringChange is a relative change of one support spring's stiffness
+	// in one direction; signature in newtons per unit fraction; size as a
+	// fraction, shown in percent (exact by Sherman-Morrison, as a member's).
+	SpringChange
+	// ChannelBias is a bias of one gauge channel of a member; signature in
+	// newtons per unit strain of that channel (E A / number of gauges of
+	// the member); size as a strain, shown in microstrain.
+	ChannelBias
 )
+
+// rankOne reports whether the kind changes the stiffness matrix by a
+// rank-one term (member or spring), so that its size is exact by
+// Sherman-Morrison rather than linear.
+func (k Kind) rankOne() bool { return k == StiffnessChange || k == SpringChange }
 
 // String returns the kind's plain name.
 func (k Kind) String() string {
@@ -37,17 +50,24 @@ func (k Kind) String() string {
 		return "support_settlement"
 	case NodalLoad:
 		return "nodal_load"
+	case SpringChange:
+		return "spring_change"
+	case ChannelBias:
+		return "channel_bias"
 	}
 	return fmt.Sprintf("kind(%d)", int(k))
 }
 
 // Display returns the factor from the SI size to the displayed size and
-// the displayed unit: newtons for gauge faults and loads, percent of E A for
-// stiffness changes, millimetres for settlements.
+// the displayed unit: newtons for gauge faults and loads, percent for
+// stiffness changes of members and springs, millimetres for settlements,
+// microstrain for a channel bias.
 func (k Kind) Display() (scale float64, unit string) {
 	switch k {
-	case StiffnessChange:
+	case StiffnessChange, SpringChange:
 		return 100, "%"
+	case ChannelBias:
+		return 1e6, "µε"
 	case SupportSettlement:
 		return 1000, "mm"
 	default:

@@ -85,12 +85,18 @@ const (
 	// EN 1993-1-1 table 3.1 and clause 3.2.6); a reading that far off is a
 	// broken gauge, reported by the channel checks.
 	MaxBiasStrain = 5000e-6
+	// MaxSpringLoss and MaxSpringGain bound a support spring's relative
+	// change: an elastomeric bearing's stiffness may fall by 90 % or
+	// triple with cold, ageing or a seized guide (common practice).
+	MaxSpringLoss = 0.90
+	MaxSpringGain = 2.0
 )
 
 // PlausibleRange returns the default plausible range of a candidate's size
 // for kinds whose bound does not depend on the structure: stiffness
 // [-MaxStiffnessLoss, +MaxStiffnessGain], settlement +-MaxSettlement, and
-// for a gauge bias +-MaxBiasStrain times ea (the member's E A in newtons,
+// spring [-MaxSpringLoss, +MaxSpringGain], channel bias +-MaxBiasStrain,
+// for a member's gauge-group bias +-MaxBiasStrain times ea (the member's E A in newtons,
 // the gauge's force per unit strain). Nodal loads get their bound from the
 // structure's loads (ok false here).
 func PlausibleRange(k Kind, ea float64) (lo, hi float64, ok bool) {
@@ -99,6 +105,10 @@ func PlausibleRange(k Kind, ea float64) (lo, hi float64, ok bool) {
 		return -MaxStiffnessLoss, MaxStiffnessGain, true
 	case SupportSettlement:
 		return -MaxSettlement, MaxSettlement, true
+	case SpringChange:
+		return -MaxSpringLoss, MaxSpringGain, true
+	case ChannelBias:
+		return -MaxBiasStrain, MaxBiasStrain, true
 	case GaugeFault:
 		if ea > 0 {
 			return -MaxBiasStrain * ea, MaxBiasStrain * ea, true
@@ -113,7 +123,7 @@ func PlausibleRange(k Kind, ea float64) (lo, hi float64, ok bool) {
 // S d / (1 + kappa d), so x = d / (1 + kappa d) and d = x / (1 - kappa x);
 // every other kind is linear (d = x).
 func exactSize(kind Kind, kappa, x float64) float64 {
-	if kind == StiffnessChange && kappa != 0 {
+	if kind.rankOne() && kappa != 0 {
 		return x / (1 - kappa*x)
 	}
 	return x
@@ -121,7 +131,7 @@ func exactSize(kind Kind, kappa, x float64) float64 {
 
 // linearOf is the inverse of exactSize: x = d / (1 + kappa d).
 func linearOf(kind Kind, kappa, d float64) float64 {
-	if kind == StiffnessChange && kappa != 0 {
+	if kind.rankOne() && kappa != 0 {
 		return d / (1 + kappa*d)
 	}
 	return d
@@ -130,7 +140,7 @@ func linearOf(kind Kind, kappa, d float64) float64 {
 // exactStd propagates the standard deviation sx of x to the size:
 // dd/dx = 1 / (1 - kappa x)^2 for a stiffness change.
 func exactStd(kind Kind, kappa, x, sx float64) float64 {
-	if kind == StiffnessChange && kappa != 0 {
+	if kind.rankOne() && kappa != 0 {
 		q := 1 - kappa*x
 		return sx / (q * q)
 	}
@@ -145,7 +155,7 @@ func minimalDetectableSize(kind Kind, kappa, den, delta0 float64) float64 {
 		return math.Inf(1)
 	}
 	x := delta0 / math.Sqrt(den)
-	if kind == StiffnessChange {
+	if kind.rankOne() {
 		return math.Abs(exactSize(kind, kappa, -x))
 	}
 	return x
@@ -358,7 +368,7 @@ func (c *Cause) finishSizes() {
 			c.Testable = false
 		}
 		c.Implausible = c.Size < in.lower || c.Size > in.upper || math.IsNaN(c.Size)
-		if c.Kind == StiffnessChange && in.kappa*x >= 1 {
+		if c.Kind.rankOne() && in.kappa*x >= 1 {
 			// x beyond 1/kappa has no stiffness factor at all
 			// (the rank-one model would need 1 + d <= 0).
 			c.Implausible = true
