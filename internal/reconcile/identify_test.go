@@ -400,3 +400,70 @@ func denseForces(t *testing.T, st *model.Structure, k int, d float64, p model.Pa
 	}
 	return out
 }
+
+// TestSeparatingGaugeHandTruss: on the hand truss with gauges on D1, B1 and
+// D2 only, no gauged member besides D2 lies in panel 2's self-stress state,
+// so "gauge D2" and "E A of D2" are one group (rho = 1). Among single extra
+// gauges, C2 (self-stress entry 1, the largest; hand calculation in
+// TestSeparabilityHandTruss) lowers their correlation most, to
+// kappa / sqrt(kappa^2 + (1 - kappa)^2) = 0.924 at equal noise, kappa =
+// 1/sqrt 2: still above rho_max = 0.917, so the search must name C2 and
+// report that it does not quite separate them.
+func TestSeparatingGaugeHandTruss(t *testing.T) {
+	m, mi := handTruss(t)
+	names := []string{"D1", "B1", "D2"}
+	gauged := []int{mi["D1"], mi["B1"], mi["D2"]}
+	r, err := m.SolveFactors([]model.Factor{{Pattern: "p", Factor: 1}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	all := make([]int, len(m.Structure().Members))
+	for i := range all {
+		all[i] = i
+	}
+	sg, err := m.Signatures(all)
+	if err != nil {
+		t.Fatal(err)
+	}
+	stiff := sg.Stiffness(r.Forces)
+	kappa, err := m.SelfFlexibility([]int{mi["D2"]})
+	if err != nil {
+		t.Fatal(err)
+	}
+	sigma := []float64{2e3, 2e3, 2e3}
+	s, err := NewSolver(nil, sigma, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	sig := make([]float64, 3)
+	for g, k := range gauged {
+		sig[g] = stiff.At(k, mi["D2"])
+	}
+	cands := append(GaugeFaults(names), Candidate{Kind: StiffnessChange, Label: "E A of D2", Signature: sig, Kappa: kappa[0]})
+	res, err := s.Epoch(make([]float64, 3), make([]float64, 3), nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	id, err := res.Identify(cands, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	groups, untestable := id.DesignGroups()
+	if len(groups) != 1 || len(groups[0]) != 2 || groups[0][0].Label != "gauge D2" || groups[0][1].Label != "E A of D2" {
+		t.Fatalf("design groups %v (untestable %v); want one group {gauge D2, E A of D2}", groups, untestable)
+	}
+	var options []ExtraGauge
+	for _, name := range []string{"T1", "V0", "V1", "T2", "V2", "C2"} {
+		k := mi[name]
+		options = append(options, ExtraGauge{Label: name, Row: nil, Sigma: 2e3, Entries: map[string]float64{"E A of D2": stiff.At(k, mi["D2"])}})
+	}
+	best, ok, err := SeparatingGauge(nil, sigma, cands[2:], options, Options{})
+	if err != nil || !ok {
+		t.Fatalf("SeparatingGauge: ok %v, err %v", ok, err)
+	}
+	k := 1 / math.Sqrt2
+	want := k / math.Sqrt(k*k+(1-k)*(1-k))
+	if best.Gauge != "C2" || math.Abs(best.MaxRho-want) > 1e-9 || best.Separates != (want < s.RhoMax()) {
+		t.Errorf("best extra gauge %+v; want C2 with |rho| %.4f (hand calculation), separates %v", best, want, want < s.RhoMax())
+	}
+}
