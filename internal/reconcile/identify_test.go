@@ -467,3 +467,62 @@ func TestSeparatingGaugeHandTruss(t *testing.T) {
 		t.Errorf("best extra gauge %+v; want C2 with |rho| %.4f (hand calculation), separates %v", best, want, want < s.RhoMax())
 	}
 }
+
+// TestGroupsPlausibilityAndTestability: on a synthetic design with no
+// unknowns and unit noise, a settlement candidate whose fitted size is 0.5 m
+// (beyond MaxSettlement) is ranked after a plausible candidate with a
+// smaller T and marked; a candidate with an all-zero signature (null
+// signature) and one whose largest plausible size shifts its test by less
+// than delta0 are never offered (both untestable).
+func TestGroupsPlausibilityAndTestability(t *testing.T) {
+	const g = 6
+	sigma := []float64{1, 1, 1, 1, 1, 1}
+	s, err := NewSolver(nil, sigma, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	y := []float64{50, 0, 0, 0, 0, 0}
+	y[3] = 20
+	res, err := s.Epoch(y, make([]float64, g), nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	unit := func(i int, v float64) []float64 {
+		sig := make([]float64, g)
+		sig[i] = v
+		return sig
+	}
+	cands := []Candidate{
+		// Size 50 / 100 = 0.5 m: implausible; T = 2500.
+		{Kind: SupportSettlement, Label: "settlement far", Signature: unit(0, 100), Lower: -MaxSettlement, Upper: MaxSettlement},
+		// A plausible load of 20 N; T = 400.
+		{Kind: NodalLoad, Label: "load near", Signature: unit(3, 1), Lower: -1e3, Upper: 1e3},
+		{Kind: NodalLoad, Label: "load null", Signature: make([]float64, g), Lower: -1e3, Upper: 1e3},
+		// 1e-4 N per metre: 0.1 m moves the gauge by 1e-5 sigma.
+		{Kind: SupportSettlement, Label: "settlement faint", Signature: unit(5, 1e-4), Lower: -MaxSettlement, Upper: MaxSettlement},
+	}
+	id, err := res.Identify(cands, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	groups := id.Groups(id.Causes)
+	if len(groups) != 2 {
+		t.Fatalf("%d groups; want 2 (untestable left out): %+v", len(groups), groups)
+	}
+	if groups[0].Causes[0].Label != "load near" || groups[0].Implausible {
+		t.Errorf("first group %s (implausible %v); want the plausible load first", groups[0].Labels(), groups[0].Implausible)
+	}
+	if groups[1].Causes[0].Label != "settlement far" || !groups[1].Implausible || !groups[1].Causes[0].Implausible {
+		t.Errorf("second group %s (implausible %v); want the 0.5 m settlement marked implausible", groups[1].Labels(), groups[1].Implausible)
+	}
+	if u := id.Untestable(); len(u) != 2 || u[0] != "load null" || u[1] != "settlement faint" {
+		t.Errorf("untestable %v; want [load null settlement faint]", u)
+	}
+	// Standard deviation and minimal detectable size of a linear
+	// candidate: 1/sqrt(Den) and delta0/sqrt(Den) (Baarda 1968; Teunissen
+	// 2000, from memory): for "load near" Den = 1.
+	c := id.Causes[1]
+	if math.Abs(c.Std-1) > 1e-12 || math.Abs(c.MDS-s.Delta0()) > 1e-12 {
+		t.Errorf("load near: std %v, MDS %v; want 1 and delta0 = %v", c.Std, c.MDS, s.Delta0())
+	}
+}
