@@ -64,6 +64,15 @@ type Cause struct {
 	T     float64 `json:"t"`
 	Size  float64 `json:"size"` // in Unit
 	Unit  string  `json:"unit"`
+	// Std is the standard deviation of Size and MDS the minimal detectable
+	// size, in Unit.
+	Std float64 `json:"std,omitempty"`
+	MDS float64 `json:"mds,omitempty"`
+	// Group numbers the separability group (from 1): causes of one group
+	// cannot be told apart by the gauges and carry no order.
+	Group int `json:"group,omitempty"`
+	// Implausible marks a size outside its plausible range.
+	Implausible bool `json:"implausible,omitempty"`
 }
 
 // Event kinds.
@@ -93,7 +102,7 @@ type Evidence struct {
 	PValue      float64   `json:"p_value,omitempty"`
 	ChiSquare   float64   `json:"chi_square,omitempty"`
 	DOF         int       `json:"dof,omitempty"`
-	Causes      []Cause   `json:"causes,omitempty"` // top three
+	Causes      []Cause   `json:"causes,omitempty"` // top three, or the whole first group
 	// Epochs is the number of epochs behind Value for a mean rule (Value
 	// is then the mean of the statistic over the for-duration, or over the
 	// hold-off for a cleared event).
@@ -489,6 +498,9 @@ func (s *structState) evaluateMean(r Rule, o Observation, events []Event) []Even
 		a := s.alarms[key]
 		raise := in.ok && in.value > MeanThreshold(r.Raise, r.ZRaise, in.n)
 		if a == nil {
+			if sup := s.alarms[[2]string{r.SuppressedBy, in.subject}]; r.SuppressedBy != "" && sup != nil && sup.firing {
+				raise = false
+			}
 			if !raise {
 				continue
 			}
@@ -544,10 +556,13 @@ func (s *structState) event(r Rule, o Observation, in instance, kind string, a *
 	default:
 		causes = nil
 	}
-	if len(causes) > 3 {
-		causes = causes[:3]
+	// The top three causes, and the whole first group when it is larger
+	// (its causes cannot be told apart, so none of them may be cut).
+	n := min(len(causes), 3)
+	for n < len(causes) && causes[n].Group == 1 {
+		n++
 	}
-	ev.Evidence.Causes = append([]Cause(nil), causes...)
+	ev.Evidence.Causes = append([]Cause(nil), causes[:n]...)
 	return ev
 }
 

@@ -155,7 +155,11 @@ func meanExpr(r Rule, s string) string {
 		return fmt.Sprintf("%s > clamp_min(%s / sqrt(count_over_time(%s)), %s)", abs("avg_over_time("+rng+")"), num(z), rng, num(floor))
 	}
 	firing := fmt.Sprintf("ALERTS{alertname=%s, alertstate=\"firing\", structure=%s}", strconv.Quote(r.Name), strconv.Quote(s))
-	return fmt.Sprintf("%s\nor\n(%s and on(%s) %s)", cond(r.For, r.Raise, r.ZRaise), cond(r.Hold, r.Clear, r.ZClear), on, firing)
+	raise := cond(r.For, r.Raise, r.ZRaise)
+	if r.SuppressedBy != "" {
+		raise = fmt.Sprintf("(%s unless on(%s) ALERTS{alertname=%s, alertstate=\"firing\", structure=%s})", raise, on, strconv.Quote(r.SuppressedBy), strconv.Quote(s))
+	}
+	return fmt.Sprintf("%s\nor\n(%s and on(%s) %s)", raise, cond(r.Hold, r.Clear, r.ZClear), on, firing)
 }
 
 // Expr returns the PromQL expression of rule r for structure s.

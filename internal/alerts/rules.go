@@ -107,6 +107,10 @@ type Rule struct {
 	Mean           bool
 	ZRaise, ZClear float64
 	Hold           time.Duration
+	// SuppressedBy names a rule of the same signal whose firing alarm on a
+	// subject keeps this rule from raising on it (one alarm per fault: the
+	// window alarm is for faults the for-duration alarm does not see).
+	SuppressedBy string
 	// Summary and Description are the alert's annotations; they may use
 	// {{ $labels.structure }}, {{ $labels.member }}, {{ $labels.channel }}.
 	Summary     string
@@ -238,7 +242,8 @@ func MeanThreshold(floor, z float64, n int) float64 {
 //     below Phi^-1(0.99) = 2.33.
 //   - MemberShifted: the mean w over an hour beyond MeanThreshold(1, 5.33,
 //     n): a small persistent fault that single epochs cannot show; clears
-//     when the hour's mean is within MeanThreshold(0.5, 3.29, n).
+//     when the hour's mean is within MeanThreshold(0.5, 3.29, n). It does
+//     not raise on a member whose MemberDiverging alarm is firing.
 //   - ChannelSilent: no reading for more than 2 minutes.
 //   - ClockSkew: any skewed reading in the last 5 minutes.
 //   - IngestRejects: more than 10 rejections in 5 minutes; clears at <= 2.
@@ -272,8 +277,9 @@ func DefaultRules() ([]Rule, error) {
 		{
 			Name: "MemberShifted", Signal: SignalAbsW, Severity: "warning",
 			Raise: ShiftRaise, Clear: ShiftClear, For: ShiftWindow, Mean: true, ZRaise: zTwo, ZClear: kRaise, Hold: ShiftWindow,
-			Summary:     "Member {{ $labels.member }} of {{ $labels.structure }} shows a small persistent shift",
-			Description: "The mean of the member's w statistic over the last hour is shifted beyond what noise explains: a small persistent fault (a stiffness change in a redundant panel, a slowly drifting gauge) that single epochs do not show." + caution,
+			SuppressedBy: "MemberDiverging",
+			Summary:      "Member {{ $labels.member }} of {{ $labels.structure }} shows a small persistent shift",
+			Description:  "The mean of the member's w statistic over the last hour is shifted beyond what noise explains: a small persistent fault (a stiffness change in a redundant panel, a slowly drifting gauge) that single epochs do not show." + caution,
 		},
 		{
 			Name: "ChannelSilent", Signal: SignalSilence, Severity: "warning",

@@ -266,6 +266,7 @@ func (p *Pipeline) process(ctx context.Context, e epoch.Epoch) {
 		}
 	}
 	res.Active = p.eval.Active(p.structure)
+	adaptAfter(p.proc, res)
 	st := p.asm.Stats()
 	res.SkewedReadings = uint64(st.Future + st.Past)
 	res.Took = time.Since(started)
@@ -292,12 +293,15 @@ func (p *Pipeline) observation(t time.Time, res *Result) alerts.Observation {
 	// The evidence carries this epoch's ranking: its sizes are those of the
 	// fault as it is now, where a window that only began to fill would
 	// dilute them.
+	// The first group is kept whole (its causes carry no order), then
+	// further causes up to three.
 	causes := res.Causes
 	for i, c := range causes {
-		if i == 3 {
+		if i >= 3 && c.Group != 1 {
 			break
 		}
-		o.Causes = append(o.Causes, alerts.Cause{Label: c.Label, Kind: c.Kind, T: c.T, Size: c.Size, Unit: c.Unit})
+		o.Causes = append(o.Causes, alerts.Cause{Label: c.Label, Kind: c.Kind, T: c.T, Size: c.Size, Unit: c.Unit,
+			Std: c.Std, MDS: c.MDS, Group: c.Group, Implausible: c.Implausible})
 	}
 	for _, m := range res.Members {
 		if !m.Available {

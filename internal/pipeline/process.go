@@ -44,11 +44,14 @@ type MemberResult struct {
 	SigmaN, SigmaAdjustedN float64
 	// FittedN = PredictedN + the unknown loads' share: the model's best
 	// estimate of the member force change.
-	FittedN    float64
-	W          float64
-	Redundancy float64
-	MDBN       float64
-	Checkable  bool
+	FittedN float64
+	// W is Baarda's w; while the fit carries adapted hypotheses it comes
+	// from the adapted fit (except for the alarm's own member), and
+	// WNominal keeps that of the nominal fit.
+	W, WNominal float64
+	Redundancy  float64
+	MDBN        float64
+	Checkable   bool
 }
 
 // LoadEstimate is the estimated factor of one unknown load pattern.
@@ -105,6 +108,13 @@ type Result struct {
 	// an alarm, and available from Processor.WindowCauses).
 	Causes []Cause
 	Window []Cause
+	// Adapted is the fit with the hypotheses carried while alarms are
+	// active (nil when none is carried); Members' w, Loads and Causes then
+	// come from it, ChiSquare and PValue stay those of the nominal model.
+	Adapted *AdaptedFit
+	// LoadShifts flags unknown-load estimates that left their recent
+	// distribution when an alarm rose (set by the Pipeline).
+	LoadShifts []LoadShift
 	// MissingChannels are the channels that did not report in the epoch.
 	MissingChannels []string
 	// Events are the alarm events this epoch raised or cleared, Active the
@@ -147,8 +157,10 @@ type Processor struct {
 	window    *reconcile.WindowRanker
 	cands     *candidates
 	lastID    *reconcile.Identification // the latest epoch's, for grouping the window
-	fixed     []reconcile.Candidate     // gauge, channel, settlement and nodal-load candidates
-	subjects  map[string]string         // candidate label -> subject
+	adapted   []adaptedHypothesis
+	loadHist  loadHistory
+	fixed     []reconcile.Candidate // gauge, channel, settlement and nodal-load candidates
+	subjects  map[string]string     // candidate label -> subject
 	kinds     map[string]string
 	y, yhat   []float64
 	avail     []bool
@@ -169,6 +181,7 @@ func NewProcessor(m *model.Model, sm *sensors.Map, opt ProcessorOptions) (*Proce
 		return nil, err
 	}
 	p := &Processor{
+		loadHist:  loadHistory{n: opt.CauseWindow},
 		structure: m.Structure().Name,
 		lm:        lm,
 		sm:        sm,
@@ -434,6 +447,30 @@ func (p *Processor) fill(res *Result, r *reconcile.Result, s *reconcile.Solver, 
 	if r.Rejected {
 		res.Causes = convertGroups(id.Groups(id.Causes), p.subjects, p.opt.MaxCauses)
 	}
+	if len(p.adapted) > 0 {
+		if a, _, err := lm.design(missing); err == nil {
+			p.adaptedFit(res, s, a, cands, missing)
+		}
+	}
+	if !r.Rejected && res.Adapted == nil {
+		p.loadHist.add(theta)
+	}
+}
+
+// LoadShifts returns the unknown-load estimates of res that left the
+// distribution of the recent accepted epochs by more than k combined
+// standard deviations (to be called when an alarm rises).
+func (p *Processor) LoadShifts(res *Result, k float64) []LoadShift {
+	theta := make([]float64, 0, len(p.lm.unknown))
+	std := make([]float64, 0, len(p.lm.unknown))
+	for j := range p.lm.unknown {
+		if j >= len(res.Loads) {
+			return nil
+		}
+		theta = append(theta, res.Loads[j].Value)
+		std = append(std, res.Loads[j].Std)
+	}
+	return p.loadHist.shifts(p.lm.unknown, theta, std, k)
 }
 
 // minStiffnessEffect is the least effect, in standard deviations of the

@@ -1,0 +1,289 @@
+package pipeline
+
+import (
+	"math"
+
+	"gonum.org/v1/gonum/mat"
+
+	"trussmonitor/internal/alerts"
+	"trussmonitor/internal/reconcile"
+)
+
+// Adaptation (DESIGN.md, Identification and adaptation; Teunissen's
+// detection-identification-adaptation, from memory): once an alarm has
+// identified a hypothesis, the fit carries it as an extra parameter (one
+// more column of the design, its signature at the current state) for as
+// long as the alarm is active. The other members' w, the unknown loads and
+// the second search for causes come from the adapted fit, so one fault
+// raises one alarm and a further alarm needs a second significant
+// hypothesis. The global test reported in Result (and used by FitRejected)
+// stays that of the nominal model: the data do not fit the nominal model
+// while the fault persists; the adapted fit's own test is in
+// Result.Adapted.
+
+// MaxAdapted is the largest number of hypotheses carried at once.
+const MaxAdapted = 3
+
+// adaptedHypothesis is one carried hypothesis.
+type adaptedHypothesis struct {
+	label string // candidate label, e.g. "E A of D2"
+	keep  int    // gauged member row whose w stays nominal (-1: none)
+}
+
+// AdaptedFit is the fit with the carried hypotheses.
+type AdaptedFit struct {
+	// Hypotheses are the carried hypotheses with their sizes in the
+	// adapted fit.
+	Hypotheses []Cause
+	ChiSquare  float64
+	DOF        int
+	PValue     float64
+	Rejected   bool
+}
+
+// LoadShift flags an unknown-load estimate that left its recent
+// distribution when an alarm rose: it may be absorbing the fault.
+type LoadShift struct {
+	Pattern string
+	// Value is the estimate when the alarm rose, Mean and Std those of the
+	// recent epochs before it; Z = (Value - Mean) / sqrt(Std^2 + ThetaStd^2).
+	Value, Mean, Std, Z float64
+}
+
+// loadHistory keeps the recent unknown-load estimates of accepted epochs.
+type loadHistory struct {
+	n    int
+	ring [][]float64
+	pos  int
+	full bool
+}
+
+func (h *loadHistory) add(theta []float64) {
+	if h.n == 0 {
+		return
+	}
+	if h.ring == nil {
+		h.ring = make([][]float64, h.n)
+	}
+	h.ring[h.pos] = append(h.ring[h.pos][:0], theta...)
+	h.pos = (h.pos + 1) % h.n
+	if h.pos == 0 {
+		h.full = true
+	}
+}
+
+// shifts compares theta (with standard deviations std) against the
+// recent estimates: flagged where |Z| exceeds k.
+func (h *loadHistory) shifts(names []string, theta, std []float64, k float64) []LoadShift {
+	cnt := h.pos
+	if h.full {
+		cnt = h.n
+	}
+	if cnt < 2 {
+		return nil
+	}
+	var out []LoadShift
+	for j, name := range names {
+		if j >= len(theta) {
+			break
+		}
+		mean, m2 := 0.0, 0.0
+		for i := 0; i < cnt; i++ {
+			mean += h.ring[i][j]
+		}
+		mean /= float64(cnt)
+		for i := 0; i < cnt; i++ {
+			d := h.ring[i][j] - mean
+			m2 += d * d
+		}
+		sd := math.Sqrt(m2 / float64(cnt-1))
+		s := math.Sqrt(sd*sd + std[j]*std[j])
+		if s == 0 {
+			continue
+		}
+		z := (theta[j] - mean) / s
+		if math.Abs(z) > k {
+			out = append(out, LoadShift{Pattern: name, Value: theta[j], Mean: mean, Std: sd, Z: z})
+		}
+	}
+	return out
+}
+
+// Adapt makes the fit carry the hypothesis labelled label (a candidate
+// label of the causes, e.g. "gauge D2" or "E A of D2") from the next epoch
+// on; keepMember is a gauged member whose w stays that of the nominal fit
+// (the subject of the alarm that identified it; "" for none). A hypothesis
+// already carried, or beyond MaxAdapted, is ignored; it reports whether
+// the hypothesis was added.
+func (p *Processor) Adapt(label, keepMember string) bool {
+	if len(p.adapted) >= MaxAdapted {
+		return false
+	}
+	for _, a := range p.adapted {
+		if a.label == label {
+			return false
+		}
+	}
+	p.adapted = append(p.adapted, adaptedHypothesis{label: label, keep: indexOf(p.lm.names, keepMember)})
+	return true
+}
+
+// Unadapt drops every carried hypothesis (when no alarm is active).
+func (p *Processor) Unadapt() { p.adapted = p.adapted[:0] }
+
+// Adapted returns the labels of the carried hypotheses.
+func (p *Processor) Adapted() []string {
+	out := make([]string, len(p.adapted))
+	for i, a := range p.adapted {
+		out[i] = a.label
+	}
+	return out
+}
+
+// adaptedFit refits the epoch with the carried hypotheses as extra
+// columns (signatures from cands, at this epoch's state) and rewrites the
+// members' w (except the kept rows and the subjects of gauge hypotheses),
+// the unknown loads and the causes of res from it. It returns false (and
+// leaves res alone) when no carried hypothesis has a signature this epoch.
+func (p *Processor) adaptedFit(res *Result, s *reconcile.Solver, a *mat.Dense, cands []reconcile.Candidate, missing []string) bool {
+	byLabel := make(map[string]int, len(cands))
+	for i, c := range cands {
+		byLabel[c.Label] = i
+	}
+	rows, cols := a.Dims()
+	var extra []reconcile.Candidate
+	keep := map[int]bool{}
+	for _, h := range p.adapted {
+		i, ok := byLabel[h.label]
+		if !ok {
+			continue
+		}
+		extra = append(extra, cands[i])
+		if h.keep >= 0 {
+			keep[h.keep] = true
+		}
+		if k := cands[i].Kind; k == reconcile.GaugeFault || k == reconcile.ChannelBias {
+			if g := indexOf(p.lm.names, p.subjectMember(cands[i])); g >= 0 {
+				keep[g] = true
+			}
+		}
+	}
+	if len(extra) == 0 {
+		return false
+	}
+	ext := mat.NewDense(rows, cols+len(extra), nil)
+	ext.Slice(0, rows, 0, cols).(*mat.Dense).Copy(a)
+	for j, c := range extra {
+		for i := 0; i < rows; i++ {
+			ext.Set(i, cols+j, c.Signature[i])
+		}
+	}
+	opt := p.opt.Reconcile
+	opt.DropUnidentifiable = true
+	as, err := reconcile.NewSolver(ext, p.rowSigma, opt)
+	if err != nil {
+		return false
+	}
+	r, err := as.Epoch(p.y, p.yhat, p.avail)
+	if err != nil {
+		return false
+	}
+	fit := &AdaptedFit{ChiSquare: r.T, DOF: r.DOF, PValue: r.PValue, Rejected: r.Rejected}
+	for j, c := range extra {
+		x := r.Theta[cols+j]
+		sd := r.ThetaStd[cols+j]
+		scale, unit := c.Kind.Display()
+		size, std := x, sd
+		if c.Kappa != 0 {
+			size = x / (1 - c.Kappa*x)
+			std = sd / ((1 - c.Kappa*x) * (1 - c.Kappa*x))
+		}
+		fit.Hypotheses = append(fit.Hypotheses, Cause{Kind: c.Kind.String(), Subject: p.subjects[c.Label], Label: c.Label,
+			Size: size * scale, Std: std * scale, Unit: unit, Separable: r.Estimable[cols+j]})
+	}
+	res.Adapted = fit
+	for g := range res.Members {
+		mr := &res.Members[g]
+		mr.WNominal = mr.W
+		if keep[g] {
+			continue
+		}
+		mr.AdjustedN = r.Adjusted[g]
+		mr.W = r.W[g]
+		mr.Redundancy = r.Redundancy[g]
+		mr.MDBN = r.MDB[g]
+		mr.Checkable = r.Checkable[g]
+		if mr.Available {
+			mr.FittedN = mr.MeasuredN - mr.AdjustedN
+			mr.SigmaAdjustedN = 0
+			if mr.Redundancy > 0 {
+				mr.SigmaAdjustedN = p.sigma[g] * math.Sqrt(mr.Redundancy)
+			}
+		}
+	}
+	res.Loads = res.Loads[:0]
+	names := append(append([]string(nil), p.lm.unknown...), missing...)
+	for j, n := range names {
+		if j >= len(r.Theta) {
+			break
+		}
+		res.Loads = append(res.Loads, LoadEstimate{Pattern: n, Value: r.Theta[j], Std: r.ThetaStd[j], Estimable: r.Estimable[j]})
+	}
+	// A further cause: the causes of the adapted fit, when it rejects.
+	res.Causes = nil
+	if r.Rejected {
+		if id, err := r.Identify(cands, 0); err == nil {
+			res.Causes = convertGroups(id.Groups(id.Causes), p.subjects, p.opt.MaxCauses)
+		}
+	}
+	return true
+}
+
+// subjectMember is the gauged member of a gauge or channel hypothesis.
+func (p *Processor) subjectMember(c reconcile.Candidate) string {
+	for g, v := range c.Signature {
+		if g < len(p.lm.names) && v != 0 {
+			return p.lm.names[g]
+		}
+	}
+	return ""
+}
+
+// LoadShiftK is the number of combined standard deviations beyond which
+// an unknown-load estimate counts as having left its recent distribution
+// (Baarda's critical value 3.29 at alpha0 = 0.001).
+const LoadShiftK = 3.29
+
+// adaptAfter starts and ends adaptation from the alarms of an epoch: a
+// raised statistical alarm (MemberDiverging, FitRejected) makes the fit
+// carry the first cause of its first group (the causes of one group are
+// one direction in the residual space, so any of them adapts alike) and
+// flags the unknown loads that left their recent distribution; when no
+// statistical alarm is active any more the fit returns to the nominal
+// model.
+func adaptAfter(p *Processor, res *Result) {
+	for _, ev := range res.Events {
+		if ev.Kind != alerts.Raised || (ev.Rule != "MemberDiverging" && ev.Rule != "FitRejected") {
+			continue
+		}
+		if shifts := p.LoadShifts(res, LoadShiftK); len(shifts) > 0 {
+			res.LoadShifts = shifts
+		}
+		if len(res.Causes) > 0 {
+			keep := ""
+			if ev.Rule == "MemberDiverging" {
+				keep = ev.Subject
+			}
+			p.Adapt(res.Causes[0].Label, keep)
+		}
+	}
+	active := false
+	for _, a := range res.Active {
+		if a.Rule == "MemberDiverging" || a.Rule == "FitRejected" {
+			active = true
+		}
+	}
+	if !active && len(p.adapted) > 0 {
+		p.Unadapt()
+	}
+}
