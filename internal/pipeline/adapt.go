@@ -3,8 +3,6 @@ package pipeline
 import (
 	"math"
 
-	"gonum.org/v1/gonum/mat"
-
 	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/reconcile"
 )
@@ -145,12 +143,12 @@ func (p *Processor) Adapted() []string {
 // members' w (except the kept rows and the subjects of gauge hypotheses),
 // the unknown loads and the causes of res from it. It returns false (and
 // leaves res alone) when no carried hypothesis has a signature this epoch.
-func (p *Processor) adaptedFit(res *Result, s *reconcile.Solver, a *mat.Dense, cands []reconcile.Candidate, missing []string) bool {
+func (p *Processor) adaptedFit(res *Result, s *reconcile.Solver, cands []reconcile.Candidate, missing []string) bool {
 	byLabel := make(map[string]int, len(cands))
 	for i, c := range cands {
 		byLabel[c.Label] = i
 	}
-	rows, cols := a.Dims()
+	cols := s.Unknowns()
 	var extra []reconcile.Candidate
 	keep := map[int]bool{}
 	for _, h := range p.adapted {
@@ -171,16 +169,11 @@ func (p *Processor) adaptedFit(res *Result, s *reconcile.Solver, a *mat.Dense, c
 	if len(extra) == 0 {
 		return false
 	}
-	ext := mat.NewDense(rows, cols+len(extra), nil)
-	ext.Slice(0, rows, 0, cols).(*mat.Dense).Copy(a)
+	sigs := make([][]float64, len(extra))
 	for j, c := range extra {
-		for i := 0; i < rows; i++ {
-			ext.Set(i, cols+j, c.Signature[i])
-		}
+		sigs[j] = c.Signature
 	}
-	opt := p.opt.Reconcile
-	opt.DropUnidentifiable = true
-	as, err := reconcile.NewSolver(ext, p.rowSigma, opt)
+	as, err := s.Extend(sigs)
 	if err != nil {
 		return false
 	}

@@ -448,9 +448,7 @@ func (p *Processor) fill(res *Result, r *reconcile.Result, s *reconcile.Solver, 
 		res.Causes = convertGroups(id.Groups(id.Causes), p.subjects, p.opt.MaxCauses)
 	}
 	if len(p.adapted) > 0 {
-		if a, _, err := lm.design(missing); err == nil {
-			p.adaptedFit(res, s, a, cands, missing)
-		}
+		p.adaptedFit(res, s, cands, missing)
 	}
 	if !r.Rejected && res.Adapted == nil {
 		p.loadHist.add(theta)

@@ -990,12 +990,26 @@ func BenchmarkProcess(b *testing.B) {
 			f.run(b, scnOptions(b, 71, 64*time.Minute, time.Minute), func(g *simulate.Generator, s simulate.Step, values map[string]float64) {
 				epochs = append(epochs, epoch{s.Time, f.sm.Evaluate(values)})
 			})
-			b.ReportAllocs()
-			b.ResetTimer()
-			for i := 0; i < b.N; i++ {
-				e := epochs[i%len(epochs)]
-				p.Process(e.t, e.snap, nil)
-			}
+			b.Run("nominal", func(b *testing.B) {
+				b.ReportAllocs()
+				for i := 0; i < b.N; i++ {
+					e := epochs[i%len(epochs)]
+					p.Process(e.t, e.snap, nil)
+				}
+			})
+			// The same with one adapted hypothesis (a bias of the first
+			// gauged member) carried by the fit.
+			b.Run("adapted", func(b *testing.B) {
+				p.Adapt("gauge "+p.Gauged()[0], "")
+				defer p.Unadapt()
+				b.ReportAllocs()
+				for i := 0; i < b.N; i++ {
+					e := epochs[i%len(epochs)]
+					if r := p.Process(e.t, e.snap, nil); r.Adapted == nil && scnFitted(r) {
+						b.Fatal("no adapted fit")
+					}
+				}
+			})
 		})
 	}
 }

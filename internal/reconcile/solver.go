@@ -217,6 +217,34 @@ func NewSolver(A *mat.Dense, sigma []float64, opt Options) (*Solver, error) {
 	return s, nil
 }
 
+// Extend returns a solver for the design [A | cols]: the same gauges,
+// noise and options with extra unknowns (one column of G entries each),
+// for example hypotheses carried by an adapted fit. It reuses the critical
+// values instead of recomputing them. Unknowns the available gauges cannot
+// determine are dropped (DropUnidentifiable).
+func (s *Solver) Extend(cols [][]float64) (*Solver, error) {
+	p := s.p + len(cols)
+	out := &Solver{g: s.g, p: p, sigma: s.sigma, opt: s.opt, k: s.k, delta0: s.delta0, rhoMax: s.rhoMax,
+		chi: map[int]distuv.ChiSquared{}, cache: map[string]*plan{}, keyBuf: make([]byte, len(s.keyBuf)),
+		allAvail: s.allAvail}
+	out.opt.UnknownNames = nil
+	out.opt.DropUnidentifiable = true
+	out.a = make([]float64, s.g*p)
+	for i := 0; i < s.g; i++ {
+		copy(out.a[i*p:i*p+s.p], s.a[i*s.p:(i+1)*s.p])
+		for j, c := range cols {
+			if len(c) != s.g {
+				return nil, fmt.Errorf("reconcile: extra column %d has %d entries; want %d (one per gauged member)", j, len(c), s.g)
+			}
+			if !isFinite(c[i]) {
+				return nil, fmt.Errorf("reconcile: extra column %d at %s is %v; want finite", j, memberName(s.opt, i), c[i])
+			}
+			out.a[i*p+s.p+j] = c[i]
+		}
+	}
+	return out, nil
+}
+
 // Gauges returns G, the number of gauged members.
 func (s *Solver) Gauges() int { return s.g }
 
