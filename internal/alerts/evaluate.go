@@ -161,6 +161,7 @@ type structState struct {
 	fitHist  []sample
 	fitSeen  time.Time
 	meanKeep time.Duration // longest For or Hold of a mean rule
+	rules    []Rule        // the evaluator's rules (shared, read-only)
 }
 
 // NewEvaluator checks the rules and returns an evaluator that stores its
@@ -203,7 +204,7 @@ func (e *Evaluator) Observe(ctx context.Context, o Observation) ([]Event, error)
 	if s == nil {
 		s = &structState{members: map[string]Member{}, channels: map[string]time.Time{},
 			alarms: map[[2]string]*alarmState{}, firingCount: map[string]int{}, keep: e.keep,
-			wHist: map[string][]sample{}, wSeen: map[string]time.Time{}, meanKeep: e.meanKeep}
+			wHist: map[string][]sample{}, wSeen: map[string]time.Time{}, meanKeep: e.meanKeep, rules: e.rules}
 		e.st[o.Structure] = s
 	}
 	if s.seen && o.Time.Before(s.last) {
@@ -483,6 +484,25 @@ func (s *structState) evaluate(r Rule, o Observation, events []Event) []Event {
 	return events
 }
 
+// suppressed reports whether an alarm of r.SuppressedBy fires on subject
+// (same scope) or on any subject (different scopes).
+func (s *structState) suppressed(r Rule, subject string) bool {
+	var by *Rule
+	for i := range s.rules {
+		if s.rules[i].Name == r.SuppressedBy {
+			by = &s.rules[i]
+		}
+	}
+	if by == nil {
+		return false
+	}
+	if by.Signal.Scope() == r.Signal.Scope() {
+		a := s.alarms[[2]string{by.Name, subject}]
+		return a != nil && a.firing
+	}
+	return s.firingCount[by.Name] > 0
+}
+
 // evaluateMean advances the alarm states of a mean rule:
 //
 //	inactive -> firing    when mean over For > MeanThreshold(Raise, ZRaise, n)   (event "raised")
@@ -498,7 +518,7 @@ func (s *structState) evaluateMean(r Rule, o Observation, events []Event) []Even
 		a := s.alarms[key]
 		raise := in.ok && in.value > MeanThreshold(r.Raise, r.ZRaise, in.n)
 		if a == nil {
-			if sup := s.alarms[[2]string{r.SuppressedBy, in.subject}]; r.SuppressedBy != "" && sup != nil && sup.firing {
+			if r.SuppressedBy != "" && s.suppressed(r, in.subject) {
 				raise = false
 			}
 			if !raise {

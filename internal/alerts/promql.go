@@ -157,9 +157,28 @@ func meanExpr(r Rule, s string) string {
 	firing := fmt.Sprintf("ALERTS{alertname=%s, alertstate=\"firing\", structure=%s}", strconv.Quote(r.Name), strconv.Quote(s))
 	raise := cond(r.For, r.Raise, r.ZRaise)
 	if r.SuppressedBy != "" {
-		raise = fmt.Sprintf("(%s unless on(%s) ALERTS{alertname=%s, alertstate=\"firing\", structure=%s})", raise, on, strconv.Quote(r.SuppressedBy), strconv.Quote(s))
+		// Same scope: the same subject; otherwise any alarm of the structure.
+		son := on
+		if by, ok := ruleNamed(r.SuppressedBy); !ok || by.Signal.Scope() != r.Signal.Scope() {
+			son = "structure"
+		}
+		raise = fmt.Sprintf("(%s unless on(%s) ALERTS{alertname=%s, alertstate=\"firing\", structure=%s})", raise, son, strconv.Quote(r.SuppressedBy), strconv.Quote(s))
 	}
 	return fmt.Sprintf("%s\nor\n(%s and on(%s) %s)", raise, cond(r.Hold, r.Clear, r.ZClear), on, firing)
+}
+
+// ruleNamed returns the default rule of that name.
+func ruleNamed(name string) (Rule, bool) {
+	rules, err := DefaultRules()
+	if err != nil {
+		return Rule{}, false
+	}
+	for _, r := range rules {
+		if r.Name == name {
+			return r, true
+		}
+	}
+	return Rule{}, false
 }
 
 // Expr returns the PromQL expression of rule r for structure s.

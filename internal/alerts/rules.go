@@ -107,9 +107,9 @@ type Rule struct {
 	Mean           bool
 	ZRaise, ZClear float64
 	Hold           time.Duration
-	// SuppressedBy names a rule of the same signal whose firing alarm on a
-	// subject keeps this rule from raising on it (one alarm per fault: the
-	// window alarm is for faults the for-duration alarm does not see).
+	// SuppressedBy names a rule whose firing alarm keeps this rule from
+	// raising (one alarm per fault): on the same subject when both rules
+	// have the same scope, on any subject of the structure otherwise.
 	SuppressedBy string
 	// Summary and Description are the alert's annotations; they may use
 	// {{ $labels.structure }}, {{ $labels.member }}, {{ $labels.channel }}.
@@ -239,7 +239,8 @@ func MeanThreshold(floor, z float64, n int) float64 {
 //   - FitRejected: the mean fit score (SignalFitZ) over 2 minutes above
 //     MeanThreshold(Phi^-1(1 - 0.001) = 3.09, 5.20, n) (the global test at
 //     reconcile.DefaultAlphaGlobal); clears when the 10-minute mean is
-//     below Phi^-1(0.99) = 2.33.
+//     below Phi^-1(0.99) = 2.33. It does not raise while a MemberDiverging
+//     alarm of the structure fires (the fault is already alarmed).
 //   - MemberShifted: the mean w over an hour beyond MeanThreshold(1, 5.33,
 //     n): a small persistent fault that single epochs cannot show; clears
 //     when the hour's mean is within MeanThreshold(0.5, 3.29, n). It does
@@ -271,8 +272,9 @@ func DefaultRules() ([]Rule, error) {
 		{
 			Name: "FitRejected", Signal: SignalFitZ, Severity: "warning",
 			Raise: zFit, Clear: zFitClear, For: RejectedFor, Mean: true, ZRaise: zOne, Hold: HoldOff,
-			Summary:     "Measured member forces of {{ $labels.structure }} do not fit the model",
-			Description: "The mean over the for-duration of the global chi-square test's normal score exceeds its critical value; see the cause groups in the event log." + caution,
+			SuppressedBy: "MemberDiverging",
+			Summary:      "Measured member forces of {{ $labels.structure }} do not fit the model",
+			Description:  "The mean over the for-duration of the global chi-square test's normal score exceeds its critical value; see the cause groups in the event log." + caution,
 		},
 		{
 			Name: "MemberShifted", Signal: SignalAbsW, Severity: "warning",

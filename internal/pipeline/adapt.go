@@ -19,8 +19,10 @@ import (
 // while the fault persists; the adapted fit's own test is in
 // Result.Adapted.
 
-// MaxAdapted is the largest number of hypotheses carried at once.
-const MaxAdapted = 3
+// MaxAdapted is the largest number of hypotheses carried at once (the
+// causes of one group count one each: they are carried together, since
+// the gauges cannot tell which of them it is).
+const MaxAdapted = 8
 
 // adaptedHypothesis is one carried hypothesis.
 type adaptedHypothesis struct {
@@ -249,8 +251,7 @@ const LoadShiftK = 3.29
 
 // adaptAfter starts and ends adaptation from the alarms of an epoch: a
 // raised statistical alarm (MemberDiverging, FitRejected) makes the fit
-// carry the first cause of its first group (the causes of one group are
-// one direction in the residual space, so any of them adapts alike) and
+// carry the causes of its first group and
 // flags the unknown loads that left their recent distribution; when no
 // statistical alarm is active any more the fit returns to the nominal
 // model.
@@ -262,12 +263,18 @@ func adaptAfter(p *Processor, res *Result) {
 		if shifts := p.LoadShifts(res, LoadShiftK); len(shifts) > 0 {
 			res.LoadShifts = shifts
 		}
-		if len(res.Causes) > 0 {
-			keep := ""
-			if ev.Rule == "MemberDiverging" {
-				keep = ev.Subject
+		keep := ""
+		if ev.Rule == "MemberDiverging" {
+			keep = ev.Subject
+		}
+		// The whole first group: its causes are (nearly) one direction in
+		// the residual space, and carrying only one of them would leave
+		// the rest of the others' signatures in the other members' w. A
+		// channel's bias is its member's gauge-group bias, carried once.
+		for _, c := range res.Causes {
+			if c.Group == 1 && c.Kind != reconcile.ChannelBias.String() {
+				p.Adapt(c.Label, keep)
 			}
-			p.Adapt(res.Causes[0].Label, keep)
 		}
 	}
 	active := false

@@ -286,8 +286,15 @@ func (p *Pipeline) observation(t time.Time, res *Result) alerts.Observation {
 	for _, ch := range p.channels {
 		o.Channels = append(o.Channels, alerts.Channel{Channel: ch, LastReading: p.lastSeen[ch]})
 	}
+	fitObservation(&o, res)
+	return o
+}
+
+// fitObservation adds a fitted epoch's global test, members and causes to
+// an alarm observation (nothing for nil or an epoch that was not fitted).
+func fitObservation(o *alerts.Observation, res *Result) {
 	if res == nil || (res.Outcome != OutcomeAccepted && res.Outcome != OutcomeRejected) {
-		return o
+		return
 	}
 	o.Fit = &alerts.Fit{ChiSquare: res.ChiSquare, DOF: res.DOF, PValue: res.PValue}
 	// The evidence carries this epoch's ranking: its sizes are those of the
@@ -313,7 +320,6 @@ func (p *Pipeline) observation(t time.Time, res *Result) alerts.Observation {
 		}
 		o.Members = append(o.Members, alerts.Member{Member: m.Member, W: m.W, Checkable: m.Checkable, EstimatedBias: bias})
 	}
-	return o
 }
 
 // logOnce logs a problem at most once a minute per kind.

@@ -139,8 +139,12 @@ type ProcessorOptions struct {
 	// CauseWindow is the number of epochs of the sliding-window ranking
 	// (default 60).
 	CauseWindow int
-	// MaxCauses caps the ranked lists kept per epoch (default 10).
+	// MaxCauses caps the ranked lists kept per epoch (default 10 groups).
 	MaxCauses int
+	// CauseSpan is the span of epochs whose cause statistics are summed
+	// for the causes of a rejected epoch (default alerts.DivergingFor, the
+	// for-duration the alarms decide on).
+	CauseSpan time.Duration
 }
 
 // Processor reconciles one structure's epochs: snapshot in, Result out.
@@ -158,6 +162,7 @@ type Processor struct {
 	cands     *candidates
 	lastID    *reconcile.Identification // the latest epoch's, for grouping the window
 	adapted   []adaptedHypothesis
+	recent    *reconcile.RecentRanker
 	loadHist  loadHistory
 	fixed     []reconcile.Candidate // gauge, channel, settlement and nodal-load candidates
 	subjects  map[string]string     // candidate label -> subject
@@ -175,6 +180,9 @@ func NewProcessor(m *model.Model, sm *sensors.Map, opt ProcessorOptions) (*Proce
 	}
 	if opt.MaxCauses <= 0 {
 		opt.MaxCauses = 10
+	}
+	if opt.CauseSpan <= 0 {
+		opt.CauseSpan = alerts.DivergingFor
 	}
 	lm, err := newLinearModel(m, sm)
 	if err != nil {
@@ -203,6 +211,9 @@ func NewProcessor(m *model.Model, sm *sensors.Map, opt ProcessorOptions) (*Proce
 		return nil, err
 	}
 	if p.window, err = reconcile.NewWindowRanker(opt.CauseWindow); err != nil {
+		return nil, err
+	}
+	if p.recent, err = reconcile.NewRecentRanker(opt.CauseSpan); err != nil {
 		return nil, err
 	}
 	rows := len(p.rowSigma)
@@ -444,8 +455,12 @@ func (p *Processor) fill(res *Result, r *reconcile.Result, s *reconcile.Solver, 
 	}
 	p.lastID = id
 	p.window.Add(id.Causes)
+	p.recent.Add(res.Time, id.Causes)
 	if r.Rejected {
-		res.Causes = convertGroups(id.Groups(id.Causes), p.subjects, p.opt.MaxCauses)
+		// The causes summed over the epochs of the last CauseSpan (the
+		// epochs an alarm's decision rests on), grouped by this epoch's
+		// separability.
+		res.Causes = convertGroups(id.Groups(p.recent.Causes()), p.subjects, p.opt.MaxCauses)
 	}
 	if len(p.adapted) > 0 {
 		p.adaptedFit(res, s, cands, missing)

@@ -3,6 +3,7 @@ package reconcile
 import (
 	"math"
 	"testing"
+	"time"
 
 	"gonum.org/v1/gonum/mat"
 
@@ -524,5 +525,30 @@ func TestGroupsPlausibilityAndTestability(t *testing.T) {
 	c := id.Causes[1]
 	if math.Abs(c.Std-1) > 1e-12 || math.Abs(c.MDS-s.Delta0()) > 1e-12 {
 		t.Errorf("load near: std %v, MDS %v; want 1 and delta0 = %v", c.Std, c.MDS, s.Delta0())
+	}
+}
+
+// TestRecentRankerSums: the sums over the epochs of the last D equal the
+// window statistics (sum n)^2 / (sum d) of those epochs, and epochs older
+// than D drop out.
+func TestRecentRankerSums(t *testing.T) {
+	r, err := NewRecentRanker(2 * time.Minute)
+	if err != nil {
+		t.Fatal(err)
+	}
+	t0 := time.Date(2026, 6, 1, 0, 0, 0, 0, time.UTC)
+	mk := func(num, den float64) []Cause {
+		return []Cause{finishCandidate(Candidate{Kind: GaugeFault, Label: "gauge A"}, num, den, den, 1, 4.13)}
+	}
+	r.Add(t0, mk(100, 1))                   // dropped later
+	r.Add(t0.Add(2*time.Minute), mk(3, 1))  // kept (exactly D before the last)
+	r.Add(t0.Add(3*time.Minute), mk(5, 2))  // kept
+	r.Add(t0.Add(4*time.Minute), mk(-1, 1)) // kept
+	cs := r.Causes()
+	if len(cs) != 1 || r.Epochs() != 3 {
+		t.Fatalf("%d causes over %d epochs; want 1 over 3", len(cs), r.Epochs())
+	}
+	if c := cs[0]; math.Abs(c.T-49.0/4) > 1e-12 || math.Abs(c.Size-7.0/4) > 1e-12 || c.Epochs != 3 {
+		t.Errorf("T %v size %v epochs %d; want 12.25, 1.75, 3", c.T, c.Size, c.Epochs)
 	}
 }
