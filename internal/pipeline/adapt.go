@@ -22,7 +22,7 @@ import (
 // MaxAdapted is the largest number of hypotheses carried at once (the
 // causes of one group count one each: they are carried together, since
 // the gauges cannot tell which of them it is).
-const MaxAdapted = 8
+const MaxAdapted = 16
 
 // adaptedHypothesis is one carried hypothesis.
 type adaptedHypothesis struct {
@@ -128,8 +128,59 @@ func (p *Processor) Adapt(label, keepMember string) bool {
 	return true
 }
 
+// RecentCauses returns the causes summed over the epochs of the last
+// CauseSpan, grouped by the latest epoch's separability (nil before the
+// first fitted epoch).
+func (p *Processor) RecentCauses() []Cause {
+	if p.lastID == nil {
+		return nil
+	}
+	return convertGroups(p.lastID.Groups(p.recent.Causes()), p.subjects, p.opt.MaxCauses)
+}
+
 // Unadapt drops every carried hypothesis (when no alarm is active).
-func (p *Processor) Unadapt() { p.adapted = p.adapted[:0] }
+func (p *Processor) Unadapt() {
+	p.adapted = p.adapted[:0]
+	p.adaptedN = 0
+}
+
+// reidentify revises the carried hypotheses as the fault's epochs
+// accumulate: after 2, 4, 8, ... epochs of adaptation (up to the cause
+// window) the nominal causes summed over those epochs are grouped again,
+// and when their first group holds none of the carried hypotheses, that
+// group replaces them. An identification from the few epochs of a
+// for-duration at a slow sampling rate is thus corrected once more epochs
+// speak (the alarm's own member stays kept).
+func (p *Processor) reidentify() {
+	p.adaptedN++
+	n := p.adaptedN
+	if n < 2 || n&(n-1) != 0 || n > p.opt.CauseWindow || p.lastID == nil {
+		return
+	}
+	groups := p.lastID.Groups(p.window.RankedLast(n))
+	if len(groups) == 0 {
+		return
+	}
+	carried := map[string]bool{}
+	keep := ""
+	for _, a := range p.adapted {
+		carried[a.label] = true
+		if a.keep >= 0 {
+			keep = p.lm.names[a.keep]
+		}
+	}
+	for _, c := range groups[0].Causes {
+		if carried[c.Label] {
+			return
+		}
+	}
+	p.adapted = p.adapted[:0]
+	for _, c := range groups[0].Causes {
+		if c.Kind != reconcile.ChannelBias {
+			p.Adapt(c.Label, keep)
+		}
+	}
+}
 
 // Adapted returns the labels of the carried hypotheses.
 func (p *Processor) Adapted() []string {
@@ -146,6 +197,38 @@ func (p *Processor) Adapted() []string {
 // the unknown loads and the causes of res from it. It returns false (and
 // leaves res alone) when no carried hypothesis has a signature this epoch.
 func (p *Processor) adaptedFit(res *Result, s *reconcile.Solver, cands []reconcile.Candidate, missing []string) bool {
+	return p.adaptedFitWith(res, s, cands, missing, p.adapted, true)
+}
+
+// identifiedGroup returns the first group of res.Causes as hypotheses to
+// carry in this epoch when its largest test statistic is significant at
+// the local test size (T > k^2, chi-square(1)): detection by the global
+// test, identification of this group, adaptation of this epoch's fit, so
+// that the other members' w do not carry the fault before any alarm rose
+// (Teunissen's DIA, from memory).
+func (p *Processor) identifiedGroup(res *Result, k float64) []adaptedHypothesis {
+	var out []adaptedHypothesis
+	best := 0.0
+	for _, c := range res.Causes {
+		if c.Group != 1 {
+			break
+		}
+		best = math.Max(best, c.T)
+		if c.Kind != reconcile.ChannelBias.String() && len(out) < MaxAdapted {
+			out = append(out, adaptedHypothesis{label: c.Label, keep: -1})
+		}
+	}
+	if best <= k*k {
+		return nil
+	}
+	return out
+}
+
+// adaptedFitWith is adaptedFit for the given hypotheses; further tells
+// whether the causes of res are replaced by those of the adapted fit (the
+// search for a further hypothesis) or kept (the identification of this
+// epoch).
+func (p *Processor) adaptedFitWith(res *Result, s *reconcile.Solver, cands []reconcile.Candidate, missing []string, hyps []adaptedHypothesis, further bool) bool {
 	byLabel := make(map[string]int, len(cands))
 	for i, c := range cands {
 		byLabel[c.Label] = i
@@ -153,7 +236,7 @@ func (p *Processor) adaptedFit(res *Result, s *reconcile.Solver, cands []reconci
 	cols := s.Unknowns()
 	var extra []reconcile.Candidate
 	keep := map[int]bool{}
-	for _, h := range p.adapted {
+	for _, h := range hyps {
 		i, ok := byLabel[h.label]
 		if !ok {
 			continue
@@ -225,6 +308,9 @@ func (p *Processor) adaptedFit(res *Result, s *reconcile.Solver, cands []reconci
 		res.Loads = append(res.Loads, LoadEstimate{Pattern: n, Value: r.Theta[j], Std: r.ThetaStd[j], Estimable: r.Estimable[j]})
 	}
 	// A further cause: the causes of the adapted fit, when it rejects.
+	if !further {
+		return true
+	}
 	res.Causes = nil
 	if r.Rejected {
 		if id, err := r.Identify(cands, 0); err == nil {
@@ -271,7 +357,13 @@ func adaptAfter(p *Processor, res *Result) {
 		// the residual space, and carrying only one of them would leave
 		// the rest of the others' signatures in the other members' w. A
 		// channel's bias is its member's gauge-group bias, carried once.
-		for _, c := range res.Causes {
+		causes := res.Causes
+		if len(causes) == 0 {
+			// A member alarm in an epoch the global test accepted: the
+			// causes summed over the alarm's epochs.
+			causes = p.RecentCauses()
+		}
+		for _, c := range causes {
 			if c.Group == 1 && c.Kind != reconcile.ChannelBias.String() {
 				p.Adapt(c.Label, keep)
 			}

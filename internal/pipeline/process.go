@@ -162,6 +162,7 @@ type Processor struct {
 	cands     *candidates
 	lastID    *reconcile.Identification // the latest epoch's, for grouping the window
 	adapted   []adaptedHypothesis
+	adaptedN  int // epochs since the first hypothesis was carried
 	recent    *reconcile.RecentRanker
 	loadHist  loadHistory
 	fixed     []reconcile.Candidate // gauge, channel, settlement and nodal-load candidates
@@ -463,7 +464,12 @@ func (p *Processor) fill(res *Result, r *reconcile.Result, s *reconcile.Solver, 
 		res.Causes = convertGroups(id.Groups(p.recent.Causes()), p.subjects, p.opt.MaxCauses)
 	}
 	if len(p.adapted) > 0 {
+		p.reidentify()
 		p.adaptedFit(res, s, cands, missing)
+	} else if r.Rejected {
+		if hyps := p.identifiedGroup(res, r.Critical); len(hyps) > 0 {
+			p.adaptedFitWith(res, s, cands, missing, hyps, false)
+		}
 	}
 	if !r.Rejected && res.Adapted == nil {
 		p.loadHist.add(theta)

@@ -252,7 +252,11 @@ func (w *WindowRanker) Reset() {
 // Ranked returns the window statistics of every candidate seen in the
 // window, ranked as Result.Causes ranks (largest T first, non-separable
 // last, then by label).
-func (w *WindowRanker) Ranked() []Cause {
+func (w *WindowRanker) Ranked() []Cause { return w.RankedLast(w.n) }
+
+// RankedLast is Ranked over the last n epochs only (all held epochs when
+// fewer are held).
+func (w *WindowRanker) RankedLast(last int) []Cause {
 	type acc struct {
 		kind           Kind
 		num, den, sig2 float64
@@ -266,7 +270,11 @@ func (w *WindowRanker) Ranked() []Cause {
 	if w.full {
 		n = w.n
 	}
-	for k := 0; k < n; k++ {
+	skip := 0
+	if last < n {
+		skip = n - last
+	}
+	for k := skip; k < n; k++ {
 		idx := k
 		if w.full {
 			idx = (w.pos + k) % w.n // oldest first
