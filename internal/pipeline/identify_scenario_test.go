@@ -366,3 +366,57 @@ func TestScenarioIdentification(t *testing.T) {
 		t.Errorf("%d statistical alarms on clean data", cleanAlarms)
 	}
 }
+
+// TestScenarioCleanAlarms: 30 simulated days of clean data on each example
+// structure (10-minute epochs; 5 days under the race detector) through the
+// processor, the default rules and the adaptation, as in
+// TestScenarioIdentification. The statistical rules' false-alarm
+// probability per evaluation and subject is at most alerts.MeanFalseAlarm
+// = 1e-7 (see alerts.MeanThreshold), so over 4320 evaluations of about 20
+// members the expected count is below 0.01; the bound is 1 alarm
+// per 30 structure-days, here at most 1 per structure.
+func TestScenarioCleanAlarms(t *testing.T) {
+	t.Parallel()
+	days := 30
+	if scnRace {
+		days = 5
+	}
+	for i, name := range []string{"footbridge", "roof"} {
+		t.Run(name, func(t *testing.T) {
+			t.Parallel()
+			f := loadScnFixture(t, name)
+			p := f.processor(t, ProcessorOptions{})
+			rules, err := alerts.DefaultRules()
+			if err != nil {
+				t.Fatal(err)
+			}
+			ev, err := alerts.NewEvaluator(rules, nil)
+			if err != nil {
+				t.Fatal(err)
+			}
+			var raised []string
+			n := 0
+			f.run(t, scnOptions(t, uint64(900+i), time.Duration(days)*24*time.Hour, 10*time.Minute), func(g *simulate.Generator, s simulate.Step, values map[string]float64) {
+				res := p.Process(s.Time, f.sm.Evaluate(values), nil)
+				obs := alerts.Observation{Time: s.Time, Structure: f.st.Name}
+				fitObservation(&obs, res)
+				evs, err := ev.Observe(context.Background(), obs)
+				if err != nil {
+					t.Fatal(err)
+				}
+				res.Events, res.Active = evs, ev.Active(f.st.Name)
+				for _, e := range evs {
+					if e.Kind == alerts.Raised && statisticalRules[e.Rule] {
+						raised = append(raised, fmt.Sprintf("%s %s %s (value %.3g over %d epochs)", s.Time.Format(time.RFC3339), e.Rule, e.Subject, e.Evidence.Value, e.Evidence.Epochs))
+					}
+				}
+				adaptAfter(p, res)
+				n++
+			})
+			t.Logf("%s: %d epochs over %d days, %d statistical alarms %v", name, n, days, len(raised), raised)
+			if len(raised) > 1 {
+				t.Errorf("%s: %d statistical alarms in %d clean days; want at most 1 per 30 structure-days", name, len(raised), days)
+			}
+		})
+	}
+}
