@@ -174,7 +174,8 @@ func dashboardEvent(ev alerts.Event) dashboard.Event {
 	}
 	d.Message = fmt.Sprintf("%s %s %s: %s %.4g (threshold %.4g)", ev.Rule, ev.Subject, ev.Kind, ev.Evidence.Signal, ev.Evidence.Value, ev.Evidence.Threshold)
 	for _, c := range ev.Evidence.Causes {
-		d.Causes = append(d.Causes, dashboard.Cause{Kind: c.Kind, Subject: causeSubject(c.Label), T: c.T, Size: c.Size, Unit: c.Unit})
+		d.Causes = append(d.Causes, dashboard.Cause{Kind: c.Kind, Subject: causeSubject(c.Label), T: c.T, Size: c.Size, Unit: c.Unit,
+			Std: c.Std, Group: c.Group, Implausible: c.Implausible})
 	}
 	return d
 }
