@@ -221,6 +221,17 @@ func (p *Processor) identifiedGroup(res *Result, k float64) []adaptedHypothesis 
 	if best <= k*k {
 		return nil
 	}
+	// The member data snooping suspects first (the largest nominal |w|)
+	// keeps its own test: the identified group need not be its gauge.
+	big, bw := -1, 0.0
+	for g, m := range res.Members {
+		if m.Checkable && math.Abs(m.W) > bw {
+			big, bw = g, math.Abs(m.W)
+		}
+	}
+	if big >= 0 && len(out) > 0 {
+		out[0].keep = big
+	}
 	return out
 }
 

@@ -12,16 +12,14 @@ import (
 // W c_k summed over those epochs, T = (sum n_k)^2 / (sum d_k) is
 // chi-square(1) without the cause and size = (sum n_k) / (sum d_k) is the
 // least-squares estimate of a constant size (as WindowRanker, but over a
-// time span and updated incrementally, O(candidates) per epoch).
+// time span). The sums are formed afresh, oldest epoch first, when asked
+// for (no running sums), so that a replay of the same epochs gives the same
+// numbers to the last bit.
 // RecentRanker is not safe for concurrent use.
 type RecentRanker struct {
 	d     time.Duration
 	index map[string]int
 	proto []Cause // one per label: kind, label and constants
-	num   []float64
-	den   []float64
-	sig2  []float64
-	count []int
 	queue []recentEpoch
 }
 
@@ -49,30 +47,14 @@ func (r *RecentRanker) Add(t time.Time, causes []Cause) {
 		if !ok {
 			k = len(r.proto)
 			r.index[c.Label] = k
-			p := c
-			r.proto = append(r.proto, p)
-			r.num = append(r.num, 0)
-			r.den = append(r.den, 0)
-			r.sig2 = append(r.sig2, 0)
-			r.count = append(r.count, 0)
+			r.proto = append(r.proto, c)
 		}
 		e.idx[i], e.num[i], e.den[i], e.sig2[i] = k, c.Num, c.Den, c.sig2
-		r.num[k] += c.Num
-		r.den[k] += c.Den
-		r.sig2[k] += c.sig2
-		r.count[k]++
 	}
 	r.queue = append(r.queue, e)
 	from := t.Add(-r.d)
 	drop := 0
 	for drop < len(r.queue) && r.queue[drop].t.Before(from) {
-		old := r.queue[drop]
-		for i, k := range old.idx {
-			r.num[k] -= old.num[i]
-			r.den[k] -= old.den[i]
-			r.sig2[k] -= old.sig2[i]
-			r.count[k]--
-		}
 		drop++
 	}
 	if drop > 0 {
@@ -92,12 +74,23 @@ func (r *RecentRanker) Epochs() int { return len(r.queue) }
 // held epochs, in first-seen order (group them with
 // Identification.Groups).
 func (r *RecentRanker) Causes() []Cause {
-	out := make([]Cause, 0, len(r.proto))
+	n := len(r.proto)
+	num, den, sig2 := make([]float64, n), make([]float64, n), make([]float64, n)
+	count := make([]int, n)
+	for _, e := range r.queue {
+		for i, k := range e.idx {
+			num[k] += e.num[i]
+			den[k] += e.den[i]
+			sig2[k] += e.sig2[i]
+			count[k]++
+		}
+	}
+	out := make([]Cause, 0, n)
 	for k, p := range r.proto {
-		if r.count[k] == 0 {
+		if count[k] == 0 {
 			continue
 		}
-		c := finishCause(p.Kind, p.Label, r.num[k], r.den[k], r.sig2[k], r.count[k])
+		c := finishCause(p.Kind, p.Label, num[k], den[k], sig2[k], count[k])
 		c.info = p.info
 		c.finishSizes()
 		out = append(out, c)
