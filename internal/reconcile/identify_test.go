@@ -292,6 +292,12 @@ func TestExactStiffnessSizeDense(t *testing.T) {
 // applies the nodal forces and member temperatures of p, and returns the
 // member forces N = (E A / L) c . (u_j - u_i) - E A alpha dT.
 func denseForces(t *testing.T, st *model.Structure, k int, d float64, p model.Pattern) []float64 {
+	return denseForcesSpring(t, st, k, d, 1, p)
+}
+
+// denseForcesSpring is denseForces with every support spring scaled by
+// springScale.
+func denseForcesSpring(t *testing.T, st *model.Structure, k int, d, springScale float64, p model.Pattern) []float64 {
 	t.Helper()
 	dim, nn := st.Dim, len(st.Nodes)
 	nd := dim * nn
@@ -305,7 +311,7 @@ func denseForces(t *testing.T, st *model.Structure, k int, d float64, p model.Pa
 			fixed[sp.Node*dim+a] = sp.Fixed[a]
 			if sp.Spring[a] != 0 {
 				w := sp.Node*dim + a
-				K.SetSym(w, w, K.At(w, w)+sp.Spring[a])
+				K.SetSym(w, w, K.At(w, w)+springScale*sp.Spring[a])
 			}
 		}
 	}
@@ -551,4 +557,92 @@ func TestRecentRankerSums(t *testing.T) {
 	if c := cs[0]; math.Abs(c.T-49.0/4) > 1e-12 || math.Abs(c.Size-7.0/4) > 1e-12 || c.Epochs != 3 {
 		t.Errorf("T %v size %v epochs %d; want 12.25, 1.75, 3", c.T, c.Size, c.Epochs)
 	}
+}
+
+// TestExactSpringSizeDense: a 40 % loss of the footbridge's bearing spring
+// (L8 in x) changes every member force by -k u z_g d / (1 + kappa d)
+// (Sherman-Morrison for the rank-one change of the spring, u the bearing's
+// displacement, z_g the member's force per unit load there), checked
+// against a full dense re-solve to 1e-6 relative, and fitting the change
+// recovers d.
+func TestExactSpringSizeDense(t *testing.T) {
+	st, err := structfile.LoadFile("../../testdata/footbridge/structure.yaml")
+	if err != nil {
+		t.Fatal(err)
+	}
+	test := model.Pattern{Name: "spring-test"}
+	for _, p := range st.Patterns {
+		test.Forces = append(test.Forces, p.Forces...)
+	}
+	for e := range st.Members {
+		test.Temperatures = append(test.Temperatures, model.MemberTemperature{Member: e, DeltaK: 20})
+	}
+	st.Patterns = append(st.Patterns, test)
+	m, err := model.Analyze(st)
+	if err != nil {
+		t.Fatal(err)
+	}
+	springs := m.Springs()
+	if len(springs) != 1 || springs[0].Label != "L8 x" {
+		t.Fatalf("springs %+v; want the bearing L8 x", springs)
+	}
+	sp := springs[0]
+	disp, err := m.SpringInfluence(springs, []model.Input{{Kind: model.PatternInput, Name: test.Name}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	u := disp.At(0, 0)
+	nm := len(st.Members)
+	all := make([]int, nm)
+	for i := range all {
+		all[i] = i
+	}
+	sg, err := m.Signatures(all)
+	if err != nil {
+		t.Fatal(err)
+	}
+	labels, nodal := sg.NodalLoad()
+	j := -1
+	for i, l := range labels {
+		if l == sp.Label {
+			j = i
+		}
+	}
+	const d = -0.4
+	base := denseForcesSpring(t, st, -1, 0, 1, test)
+	changed := denseForcesSpring(t, st, -1, 0, 1+d, test)
+	sig := make([]float64, nm)
+	dy := make([]float64, nm)
+	scale, worst := 0.0, 0.0
+	for g := range sig {
+		sig[g] = -sp.Stiffness * u * nodal.At(g, j)
+		dy[g] = changed[g] - base[g]
+		scale = math.Max(scale, math.Abs(dy[g]))
+	}
+	for g := range sig {
+		worst = math.Max(worst, math.Abs(sig[g]*d/(1+sp.Kappa*d)-dy[g])/scale)
+	}
+	if scale < 1 || worst > 1e-6 {
+		t.Fatalf("largest change %.3g N; Sherman-Morrison differs from the dense re-solve by %.3g relative", scale, worst)
+	}
+	sigma := make([]float64, nm)
+	for i := range sigma {
+		sigma[i] = 1e3
+	}
+	s, err := NewSolver(nil, sigma, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	res, err := s.Epoch(dy, make([]float64, nm), nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	id, err := res.Identify([]Candidate{{Kind: SpringChange, Label: "spring " + sp.Label, Signature: sig, Kappa: sp.Kappa}}, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got := id.Causes[0].Size; math.Abs(got-d) > 1e-6*math.Abs(d) {
+		t.Errorf("spring size %.9f, want %v (kappa %.6f)", got, d, sp.Kappa)
+	}
+	t.Logf("spring L8 x: u = %.3g mm, kappa = %.4f, largest change %.0f N, worst relative error %.2e", u*1e3, sp.Kappa, scale, worst)
 }
