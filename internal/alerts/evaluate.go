@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"math"
 	"sort"
 	"sync"
 	"time"
@@ -83,6 +84,15 @@ type Cause struct {
 	T     float64 `json:"t"`
 	Size  float64 `json:"size"` // in Unit
 	Unit  string  `json:"unit"`
+	// Std is the standard deviation of Size and MDS the minimal detectable
+	// size, in Unit.
+	Std float64 `json:"std,omitempty"`
+	MDS float64 `json:"mds,omitempty"`
+	// Group numbers the separability group (from 1): causes of one group
+	// cannot be told apart by the gauges and carry no order.
+	Group int `json:"group,omitempty"`
+	// Implausible marks a size outside its plausible range.
+	Implausible bool `json:"implausible,omitempty"`
 }
 
 // Event kinds.
@@ -112,7 +122,11 @@ type Evidence struct {
 	PValue      float64   `json:"p_value,omitempty"`
 	ChiSquare   float64   `json:"chi_square,omitempty"`
 	DOF         int       `json:"dof,omitempty"`
-	Causes      []Cause   `json:"causes,omitempty"` // top three
+	Causes      []Cause   `json:"causes,omitempty"` // top three, or the whole first group
+	// Epochs is the number of epochs behind Value for a mean rule (Value
+	// is then the mean of the statistic over the for-duration, or over the
+	// hold-off for a cleared event).
+	Epochs int `json:"epochs,omitempty"`
 }
 
 // EventSink stores events (the store package, adapted by the caller).
@@ -130,11 +144,12 @@ type Alarm struct {
 // Evaluator evaluates rules over observations. It is safe for concurrent
 // use; observations of one structure must come in time order.
 type Evaluator struct {
-	rules []Rule
-	keep  time.Duration
-	sink  EventSink
-	mu    sync.Mutex
-	st    map[string]*structState
+	rules    []Rule
+	keep     time.Duration
+	meanKeep time.Duration
+	sink     EventSink
+	mu       sync.Mutex
+	st       map[string]*structState
 
 	sinkMu   sync.Mutex // serialises storing, guards unstored
 	unstored []Event    // events the sink refused, oldest first, retried
@@ -170,6 +185,15 @@ type structState struct {
 	alarms      map[[2]string]*alarmState // rule name, subject
 	firingCount map[string]int
 	keep        time.Duration // counter history kept: longest window + Lookback
+	// Per-epoch statistics of the mean rules: w of each member in the
+	// epochs where it was measured and checkable, the fit score of each
+	// fitted epoch, and when each was last measured at all.
+	wHist    map[string][]sample
+	wSeen    map[string]time.Time
+	fitHist  []sample
+	fitSeen  time.Time
+	meanKeep time.Duration // longest For or Hold of a mean rule
+	rules    []Rule        // the evaluator's rules (shared, read-only)
 }
 
 // NewEvaluator checks the rules and returns an evaluator that stores its
@@ -186,10 +210,14 @@ func NewEvaluator(rules []Rule, sink EventSink) (*Evaluator, error) {
 		seen[r.Name] = true
 	}
 	keep := Lookback
+	var meanKeep time.Duration
 	for _, r := range rules {
 		keep = max(keep, r.Window+Lookback)
+		if r.Mean {
+			meanKeep = max(meanKeep, r.For, r.Hold)
+		}
 	}
-	return &Evaluator{rules: append([]Rule(nil), rules...), keep: keep, sink: sink, st: map[string]*structState{}}, nil
+	return &Evaluator{rules: append([]Rule(nil), rules...), keep: keep, meanKeep: meanKeep, sink: sink, st: map[string]*structState{}}, nil
 }
 
 // Observe evaluates every rule at o.Time and returns the events (raised
@@ -210,7 +238,8 @@ func (e *Evaluator) Observe(ctx context.Context, o Observation) ([]Event, error)
 	s := e.st[o.Structure]
 	if s == nil {
 		s = &structState{members: map[string]Member{}, util: map[string]float64{}, channels: map[string]time.Time{}, watched: map[string]time.Time{},
-			alarms: map[[2]string]*alarmState{}, firingCount: map[string]int{}, keep: e.keep}
+			alarms: map[[2]string]*alarmState{}, firingCount: map[string]int{}, keep: e.keep,
+			wHist: map[string][]sample{}, wSeen: map[string]time.Time{}, meanKeep: e.meanKeep, rules: e.rules}
 		e.st[o.Structure] = s
 	}
 	if s.seen && o.Time.Before(s.last) {
@@ -335,6 +364,19 @@ func (s *structState) update(o Observation) {
 	if o.Causes != nil {
 		s.causes = o.Causes
 	}
+	if s.meanKeep > 0 {
+		oldest := o.Time.Add(-s.meanKeep)
+		for _, m := range o.Members {
+			s.wSeen[m.Member] = o.Time
+			if m.Checkable {
+				s.wHist[m.Member] = appendSample(s.wHist[m.Member], sample{o.Time, m.W}, oldest)
+			}
+		}
+		if o.Fit != nil && o.Fit.DOF > 0 {
+			s.fitSeen = o.Time
+			s.fitHist = appendSample(s.fitHist, sample{o.Time, FitScore(o.Fit.ChiSquare, o.Fit.DOF)}, oldest)
+		}
+	}
 	keep := s.keep
 	s.skew = appendSample(s.skew, sample{o.Time, float64(o.SkewCount)}, o.Time.Add(-keep))
 	s.rej = appendSample(s.rej, sample{o.Time, float64(o.RejectCount)}, o.Time.Add(-keep))
@@ -381,53 +423,110 @@ type instance struct {
 	subject string
 	value   float64
 	ok      bool // the signal has a value
+	// Mean rules: n epochs in the for-duration; hold is the mean over the
+	// hold-off with nHold epochs, measured whether the subject had any
+	// epoch at all in the hold-off.
+	n, nHold int
+	hold     float64
+	measured bool
+}
+
+// FitScore is the Wilson-Hilferty normal score of a chi-square statistic
+// t with dof degrees of freedom (see SignalFitZ).
+func FitScore(t float64, dof int) float64 {
+	nu := float64(dof)
+	v := 2 / (9 * nu)
+	return (math.Cbrt(t/nu) - (1 - v)) / math.Sqrt(v)
+}
+
+// windowMean returns the mean and count of the samples in [t - d, t]
+// (both ends included, as a Prometheus 2 range selector).
+func windowMean(h []sample, t time.Time, d time.Duration) (float64, int) {
+	from := t.Add(-d)
+	sum, n := 0.0, 0
+	for i := len(h) - 1; i >= 0 && !h[i].t.Before(from); i-- {
+		if h[i].t.After(t) {
+			continue
+		}
+		sum += h[i].v
+		n++
+	}
+	if n == 0 {
+		return 0, 0
+	}
+	return sum / float64(n), n
+}
+
+// meanInstance evaluates a mean rule's statistic for one subject.
+func meanInstance(r Rule, subject string, h []sample, seen time.Time, t time.Time) instance {
+	in := instance{subject: subject}
+	m, n := windowMean(h, t, r.For)
+	mh, nh := windowMean(h, t, r.Hold)
+	if r.Signal == SignalAbsW {
+		m, mh = math.Abs(m), math.Abs(mh)
+	}
+	in.value, in.n, in.ok = m, n, n > 0
+	in.hold, in.nHold = mh, nh
+	in.measured = !seen.IsZero() && !seen.Before(t.Add(-r.Hold))
+	return in
 }
 
 // instances lists the rule's subjects with their values: every subject
 // seen so far, plus those with an alarm state.
 func (s *structState) instances(r Rule, t time.Time) []instance {
 	var out []instance
-	switch r.Signal {
-	case SignalAbsW:
+	switch {
+	case r.Mean && r.Signal == SignalAbsW:
+		for name := range s.members {
+			out = append(out, meanInstance(r, name, s.wHist[name], s.wSeen[name], t))
+		}
+	case r.Mean && r.Signal == SignalFitZ:
+		if !s.fitSeen.IsZero() {
+			out = append(out, meanInstance(r, "", s.fitHist, s.fitSeen, t))
+		}
+	}
+	switch {
+	case r.Mean:
+	case r.Signal == SignalAbsW:
 		for name, m := range s.members {
 			w := m.W
 			if w < 0 {
 				w = -w
 			}
-			out = append(out, instance{name, w, m.Checkable})
+			out = append(out, instance{subject: name, value: w, ok: m.Checkable})
 		}
-	case SignalUtilisation:
+	case r.Signal == SignalUtilisation:
 		for name, u := range s.util {
-			out = append(out, instance{name, u, true})
+			out = append(out, instance{subject: name, value: u, ok: true})
 		}
-	case SignalSilence:
+	case r.Signal == SignalSilence:
 		// Since the last reading; for a channel without one, since it is
 		// watched (the PromQL: last reading "or" watched since).
 		for name, last := range s.channels {
-			out = append(out, instance{name, t.Sub(last).Seconds(), true})
+			out = append(out, instance{subject: name, value: t.Sub(last).Seconds(), ok: true})
 		}
 		for name, since := range s.watched {
 			if _, ok := s.channels[name]; !ok {
-				out = append(out, instance{name, t.Sub(since).Seconds(), true})
+				out = append(out, instance{subject: name, value: t.Sub(since).Seconds(), ok: true})
 			}
 		}
-	case SignalPValue:
+	case r.Signal == SignalPValue:
 		if s.fit != nil {
-			out = append(out, instance{"", s.fit.PValue, true})
+			out = append(out, instance{subject: "", value: s.fit.PValue, ok: true})
 		}
-	case SignalSkewIncrease:
-		out = append(out, instance{"", increase(s.skew, t, r.Window), true})
-	case SignalRejectIncrease:
-		out = append(out, instance{"", increase(s.rej, t, r.Window), true})
-	case SignalCommitFailIncrease:
-		out = append(out, instance{"", increase(s.commitFail, t, r.Window), true})
-	case SignalBrokerConnected:
+	case r.Signal == SignalSkewIncrease:
+		out = append(out, instance{subject: "", value: increase(s.skew, t, r.Window), ok: true})
+	case r.Signal == SignalRejectIncrease:
+		out = append(out, instance{subject: "", value: increase(s.rej, t, r.Window), ok: true})
+	case r.Signal == SignalCommitFailIncrease:
+		out = append(out, instance{subject: "", value: increase(s.commitFail, t, r.Window), ok: true})
+	case r.Signal == SignalBrokerConnected:
 		if s.broker != nil {
 			v := 0.0
 			if *s.broker {
 				v = 1
 			}
-			out = append(out, instance{"", v, true})
+			out = append(out, instance{subject: "", value: v, ok: true})
 		}
 	}
 	have := map[string]bool{}
@@ -451,6 +550,9 @@ func (s *structState) instances(r Rule, t time.Time) []instance {
 //	pending  -> firing    when raised(v) and t - activeAt >= For   (event "raised")
 //	firing   -> inactive  when neither raised(v) nor held(v)      (event "cleared")
 func (s *structState) evaluate(r Rule, o Observation, events []Event) []Event {
+	if r.Mean {
+		return s.evaluateMean(r, o, events)
+	}
 	t := o.Time
 	for _, in := range s.instances(r, t) {
 		key := [2]string{r.Name, in.subject}
@@ -487,6 +589,63 @@ func (s *structState) evaluate(r Rule, o Observation, events []Event) []Event {
 	return events
 }
 
+// suppressed reports whether an alarm of r.SuppressedBy fires on subject
+// (same scope) or on any subject (different scopes).
+func (s *structState) suppressed(r Rule, subject string) bool {
+	var by *Rule
+	for i := range s.rules {
+		if s.rules[i].Name == r.SuppressedBy {
+			by = &s.rules[i]
+		}
+	}
+	if by == nil {
+		return false
+	}
+	if by.Signal.Scope() == r.Signal.Scope() {
+		a := s.alarms[[2]string{by.Name, subject}]
+		return a != nil && a.firing
+	}
+	return s.firingCount[by.Name] > 0
+}
+
+// evaluateMean advances the alarm states of a mean rule:
+//
+//	inactive -> firing    when mean over For > MeanThreshold(Raise, ZRaise, n)   (event "raised")
+//	firing   -> inactive  when the subject was measured in the last Hold, and
+//	                      neither the raise condition holds nor the mean over
+//	                      Hold exceeds MeanThreshold(Clear, ZClear, nHold)        (event "cleared")
+//
+// A subject not measured at all in the last Hold keeps its alarm.
+func (s *structState) evaluateMean(r Rule, o Observation, events []Event) []Event {
+	t := o.Time
+	for _, in := range s.instances(r, t) {
+		key := [2]string{r.Name, in.subject}
+		a := s.alarms[key]
+		raise := in.ok && in.value > MeanThreshold(r.Raise, r.ZRaise, in.n)
+		if a == nil {
+			if r.SuppressedBy != "" && s.suppressed(r, in.subject) {
+				raise = false
+			}
+			if !raise {
+				continue
+			}
+			a = &alarmState{pending: true, activeAt: t.Add(-r.For)}
+			s.alarms[key] = a
+			a.firing, a.fired = true, t
+			s.firingCount[r.Name]++
+			events = append(events, s.event(r, o, in, Raised, a))
+			continue
+		}
+		hold := !in.measured || in.nHold > 0 && in.hold > MeanThreshold(r.Clear, r.ZClear, in.nHold)
+		if !raise && !hold {
+			events = append(events, s.event(r, o, in, Cleared, a))
+			delete(s.alarms, key)
+			s.firingCount[r.Name]--
+		}
+	}
+	return events
+}
+
 func (s *structState) event(r Rule, o Observation, in instance, kind string, a *alarmState) Event {
 	ev := Event{Structure: o.Structure, Rule: r.Name, Subject: in.subject, Kind: kind, Time: o.Time}
 	ev.Evidence = Evidence{Signal: r.Signal.String(), ActiveSince: a.activeAt, Threshold: r.Raise}
@@ -495,6 +654,14 @@ func (s *structState) event(r Rule, o Observation, in instance, kind string, a *
 	}
 	if in.ok {
 		ev.Evidence.Value = in.value
+	}
+	if r.Mean {
+		ev.Evidence.Epochs = in.n
+		ev.Evidence.Threshold = MeanThreshold(r.Raise, r.ZRaise, in.n)
+		if kind == Cleared {
+			ev.Evidence.Value, ev.Evidence.Epochs = in.hold, in.nHold
+			ev.Evidence.Threshold = MeanThreshold(r.Clear, r.ZClear, in.nHold)
+		}
 	}
 	causes := s.causes
 	switch r.Signal {
@@ -505,7 +672,7 @@ func (s *structState) event(r Rule, o Observation, in instance, kind string, a *
 		if len(m.Causes) > 0 {
 			causes = m.Causes
 		}
-	case SignalPValue:
+	case SignalPValue, SignalFitZ:
 		if s.fit != nil {
 			ev.Evidence.PValue = s.fit.PValue
 			ev.Evidence.ChiSquare = s.fit.ChiSquare
@@ -514,10 +681,13 @@ func (s *structState) event(r Rule, o Observation, in instance, kind string, a *
 	default:
 		causes = nil
 	}
-	if len(causes) > 3 {
-		causes = causes[:3]
+	// The top three causes, and the whole first group when it is larger
+	// (its causes cannot be told apart, so none of them may be cut).
+	n := min(len(causes), 3)
+	for n < len(causes) && causes[n].Group == 1 {
+		n++
 	}
-	ev.Evidence.Causes = append([]Cause(nil), causes...)
+	ev.Evidence.Causes = append([]Cause(nil), causes[:n]...)
 	return ev
 }
 
@@ -540,6 +710,8 @@ func (s Signal) String() string {
 		return "commit_failures_in_window"
 	case SignalBrokerConnected:
 		return "broker_connected"
+	case SignalFitZ:
+		return "fit_z"
 	}
 	return fmt.Sprintf("signal(%d)", int(s))
 }

@@ -4,9 +4,12 @@ import (
 	"context"
 	"encoding/json"
 	"errors"
+	"math"
 	"strings"
 	"testing"
 	"time"
+
+	"gonum.org/v1/gonum/stat/distuv"
 )
 
 type memorySink struct {
@@ -48,19 +51,36 @@ func TestMemberAlarmEvidenceAndHold(t *testing.T) {
 		}
 		return o
 	}
+	// MemberDiverging decides on the mean w over [t-2m, t]: one sample
+	// (4.5 < 5.33) at 0, two (4.5 > 5.33/sqrt 2 = 3.77) at 1: raised. The
+	// member is then unmeasured for 15 minutes, longer than the 10-minute
+	// hold-off: no clearing while unmeasured. At 17 it reports w = 0.5: the
+	// 2-minute mean 0.5 does not raise and the hold-off mean 0.5 <= 2.58
+	// clears.
 	steps := []struct {
 		min     int
 		w       float64
 		members bool
-		want    string // event kinds this step
+		want    string // MemberDiverging event kinds this step
 	}{
 		{0, 4.5, true, ""},
-		{1, 4.5, true, ""},
-		{2, 4.5, true, "raised"},
-		{3, 0, false, ""},  // member absent: last value (4.5) holds
-		{4, 2.9, true, ""}, // between clear and raise: held
-		{5, 2.0, true, "cleared"},
+		{1, 4.5, true, "raised"},
+		{2, 4.5, true, ""},
 	}
+	for m := 3; m <= 16; m++ {
+		steps = append(steps, struct {
+			min     int
+			w       float64
+			members bool
+			want    string
+		}{m, 0, false, ""})
+	}
+	steps = append(steps, struct {
+		min     int
+		w       float64
+		members bool
+		want    string
+	}{17, 0.5, true, "cleared"})
 	for _, s := range steps {
 		events, err := ev.Observe(ctx, obs(s.min, s.w, s.members))
 		if err != nil {
@@ -68,7 +88,9 @@ func TestMemberAlarmEvidenceAndHold(t *testing.T) {
 		}
 		var kinds []string
 		for _, e := range events {
-			kinds = append(kinds, e.Kind)
+			if e.Rule == "MemberDiverging" {
+				kinds = append(kinds, e.Kind)
+			}
 		}
 		if strings.Join(kinds, ",") != s.want {
 			t.Fatalf("minute %d: events %v, want %q", s.min, kinds, s.want)
@@ -79,23 +101,53 @@ func TestMemberAlarmEvidenceAndHold(t *testing.T) {
 			}
 		}
 	}
-	if len(sink.events) != 2 {
-		t.Fatalf("sink has %d events", len(sink.events))
+	var div []Event
+	for _, e := range sink.events {
+		if e.Rule == "MemberDiverging" {
+			div = append(div, e)
+		}
 	}
-	r := sink.events[0]
-	if r.Subject != "D2" || r.Rule != "MemberDiverging" || r.Evidence.W != 4.5 || r.Evidence.Bias != 8200 ||
-		len(r.Evidence.Causes) != 3 || r.Evidence.Causes[0].Label != "gauge D2" || !r.Evidence.ActiveSince.Equal(at(0)) || !r.Time.Equal(at(2)) {
+	if len(div) != 2 {
+		t.Fatalf("sink has %d MemberDiverging events", len(div))
+	}
+	r := div[0]
+	if r.Subject != "D2" || r.Evidence.W != 4.5 || r.Evidence.Bias != 8200 || r.Evidence.Value != 4.5 || r.Evidence.Epochs != 2 ||
+		len(r.Evidence.Causes) != 3 || r.Evidence.Causes[0].Label != "gauge D2" || !r.Time.Equal(at(1)) {
 		t.Errorf("raised event %+v", r)
 	}
-	if c := sink.events[1]; c.Evidence.Threshold < 2.57 || c.Evidence.Threshold > 2.58 || c.Evidence.Value != 2.0 {
+	if c := div[1]; c.Evidence.Threshold < 2.57 || c.Evidence.Threshold > 2.58 || c.Evidence.Value != 0.5 || c.Evidence.Epochs != 1 {
 		t.Errorf("cleared event %+v", c)
 	}
 	js, err := json.Marshal(r.Evidence)
 	if err != nil || !strings.Contains(string(js), `"causes"`) {
 		t.Errorf("evidence JSON %s %v", js, err)
 	}
-	if len(ev.Active("alder-creek")) != 0 || ev.FiringCount("alder-creek", "MemberDiverging") != 0 {
+	if n := ev.FiringCount("alder-creek", "MemberDiverging"); n != 0 {
 		t.Error("alarm still active after clearing")
+	}
+}
+
+// TestMeanThresholdFalseAlarm: the false-alarm probability of one
+// evaluation of MemberDiverging, 2 P(Z > max(3.29 sqrt(n), 5.33)), is at
+// most MeanFalseAlarm = 1e-7 whatever n, and equals it for n = 1 and 2
+// (standard normal tail, gonum's distuv as the reference computation).
+func TestMeanThresholdFalseAlarm(t *testing.T) {
+	rules, _ := DefaultRules()
+	r := rules[0]
+	for _, n := range []int{1, 2, 3, 13, 121} {
+		thr := MeanThreshold(r.Raise, r.ZRaise, n)
+		p := 2 * distuv.UnitNormal.Survival(thr*math.Sqrt(float64(n)))
+		if p > MeanFalseAlarm*(1+1e-9) {
+			t.Errorf("n = %d: threshold %.3f, false-alarm probability %.3g > %g", n, thr, p, MeanFalseAlarm)
+		}
+		if n <= 2 && math.Abs(p-MeanFalseAlarm) > 1e-12 {
+			t.Errorf("n = %d: false-alarm probability %.6g, want %g", n, p, MeanFalseAlarm)
+		}
+		// A bias of one MDB: mean w = delta0 = 4.13 exceeds the threshold
+		// once n >= 2 (Baarda 1968, from memory).
+		if n >= 2 && !(4.1321 > thr) {
+			t.Errorf("n = %d: threshold %.3f above delta0", n, thr)
+		}
 	}
 }
 
@@ -107,11 +159,9 @@ func TestEvaluatorErrors(t *testing.T) {
 		t.Fatal(err)
 	}
 	ctx := context.Background()
-	o := Observation{Time: at(0), Structure: "alder-creek", Fit: &Fit{PValue: 1e-9}}
-	ev.Observe(ctx, o)
-	o.Time = at(1)
-	ev.Observe(ctx, o)
-	o.Time = at(2)
+	// A fit far off (chi-square 200 at 13 degrees of freedom, score 11.5)
+	// raises FitRejected at once, even from a single epoch (> 5.20).
+	o := Observation{Time: at(0), Structure: "alder-creek", Fit: &Fit{ChiSquare: 200, DOF: 13, PValue: 1e-9}}
 	events, err := ev.Observe(ctx, o)
 	if err == nil || !strings.Contains(err.Error(), "disk full") || len(events) != 1 {
 		t.Errorf("sink failure: events %v err %v", events, err)
@@ -120,6 +170,8 @@ func TestEvaluatorErrors(t *testing.T) {
 		t.Error("state did not advance despite the sink failure")
 	}
 	o.Time = at(1)
+	ev.Observe(ctx, o)
+	o.Time = at(0)
 	if _, err := ev.Observe(ctx, o); err == nil || !strings.Contains(err.Error(), "time order") {
 		t.Errorf("out-of-order observation: %v", err)
 	}

@@ -15,7 +15,9 @@ import (
 // Each rule carries the label structure (equal to its series' label) so
 // that the groups of different structures are not duplicates to promtool.
 //
-// Translation of a rule (signal S, thresholds Raise and Clear, for F):
+// A mean rule becomes a recording rule of its per-epoch statistic and an
+// alert on its mean over the for-duration (see meanExpr). Translation of
+// any other rule (signal S, thresholds Raise and Clear, for F):
 //
 //	expr: (S) > Raise
 //	      or ((S) > Clear and on(<labels>) ALERTS{alertname="<rule>", alertstate="firing", structure="<s>"})
@@ -36,11 +38,12 @@ func PrometheusRulesFor(rules []Rule, structures []string) ([]byte, error) {
 		return nil, fmt.Errorf("alerts: no structure names given; the rules file needs at least one")
 	}
 	type rule struct {
-		Alert       string            `yaml:"alert"`
+		Record      string            `yaml:"record,omitempty"`
+		Alert       string            `yaml:"alert,omitempty"`
 		Expr        string            `yaml:"expr"`
 		For         string            `yaml:"for,omitempty"`
-		Labels      map[string]string `yaml:"labels"`
-		Annotations map[string]string `yaml:"annotations"`
+		Labels      map[string]string `yaml:"labels,omitempty"`
+		Annotations map[string]string `yaml:"annotations,omitempty"`
 	}
 	type group struct {
 		Name  string `yaml:"name"`
@@ -56,13 +59,21 @@ func PrometheusRulesFor(rules []Rule, structures []string) ([]byte, error) {
 		}
 		seen[s] = true
 		g := group{Name: "trussmonitor-" + s}
+		recorded := map[Signal]bool{}
+		for _, r := range rules {
+			if r.Mean && !recorded[r.Signal] {
+				recorded[r.Signal] = true
+				name, expr := recording(r.Signal, s)
+				g.Rules = append(g.Rules, rule{Record: name, Expr: expr})
+			}
+		}
 		for _, r := range rules {
 			if err := r.Validate(); err != nil {
 				return nil, err
 			}
 			pr := rule{Alert: r.Name, Expr: Expr(r, s), Labels: map[string]string{"severity": r.Severity, "structure": s},
 				Annotations: map[string]string{"summary": r.Summary, "description": r.Description}}
-			if r.For > 0 {
+			if r.For > 0 && !r.Mean {
 				pr.For = promDuration(r.For)
 			}
 			g.Rules = append(g.Rules, pr)
@@ -86,8 +97,85 @@ func PrometheusRulesFor(rules []Rule, structures []string) ([]byte, error) {
 	return buf.Bytes(), nil
 }
 
+// Recorded series of the mean rules: the per-epoch statistic that the
+// rules average over their windows.
+const (
+	// RecordedMemberW is w of each member while it is checkable.
+	RecordedMemberW = "shm:member_w:checkable"
+	// RecordedFitZ is the Wilson-Hilferty score of the global test
+	// (SignalFitZ).
+	RecordedFitZ = "shm:fit_z:wilson_hilferty"
+)
+
+// recording returns the recording rule of a mean rule's signal.
+func recording(sig Signal, s string) (name, expr string) {
+	sel := "{structure=" + strconv.Quote(s) + "}"
+	if sig == SignalFitZ {
+		chi, dof := metrics.FitChiSquare+sel, metrics.FitDOF+sel
+		return RecordedFitZ, fmt.Sprintf("((%s / %s) ^ (1 / 3) - (1 - 2 / (9 * %s))) / sqrt(2 / (9 * %s)) and %s > 0", chi, dof, dof, dof, dof)
+	}
+	return RecordedMemberW, fmt.Sprintf("%s%s and on(structure, member) %s%s == 1", metrics.MemberW, sel, metrics.MemberCheckable, sel)
+}
+
+// meanExpr is the PromQL of a mean rule: the mean of the recorded
+// statistic over the for-duration against MeanThreshold with n the number
+// of samples (count_over_time), and the hold branch over the hold-off.
+//
+// The one difference from the evaluator: Prometheus averages the samples
+// it scraped (the last epoch's value at each scrape), the evaluator every
+// epoch; they agree when the scrape interval equals the epoch interval, and
+// a scrape interval shorter than the epochs makes Prometheus count an
+// epoch more than once (a smaller threshold). Prometheus also clears a
+// member that stopped being checkable for the whole hold-off, where the
+// evaluator holds an alarm whose member was not measured at all (the
+// metrics keep an unmeasured member's last values, so Prometheus holds it
+// too).
+func meanExpr(r Rule, s string) string {
+	sel := "{structure=" + strconv.Quote(s) + "}"
+	rec := RecordedMemberW + sel
+	on := "structure, member"
+	abs := func(x string) string { return "abs(" + x + ")" }
+	if r.Signal == SignalFitZ {
+		rec = RecordedFitZ + sel
+		on = "structure"
+		abs = func(x string) string { return x }
+	}
+	cond := func(d time.Duration, floor, z float64) string {
+		rng := rec + "[" + promDuration(d) + "]"
+		return fmt.Sprintf("%s > clamp_min(%s / sqrt(count_over_time(%s)), %s)", abs("avg_over_time("+rng+")"), num(z), rng, num(floor))
+	}
+	firing := fmt.Sprintf("ALERTS{alertname=%s, alertstate=\"firing\", structure=%s}", strconv.Quote(r.Name), strconv.Quote(s))
+	raise := cond(r.For, r.Raise, r.ZRaise)
+	if r.SuppressedBy != "" {
+		// Same scope: the same subject; otherwise any alarm of the structure.
+		son := on
+		if by, ok := ruleNamed(r.SuppressedBy); !ok || by.Signal.Scope() != r.Signal.Scope() {
+			son = "structure"
+		}
+		raise = fmt.Sprintf("(%s unless on(%s) ALERTS{alertname=%s, alertstate=\"firing\", structure=%s})", raise, son, strconv.Quote(r.SuppressedBy), strconv.Quote(s))
+	}
+	return fmt.Sprintf("%s\nor\n(%s and on(%s) %s)", raise, cond(r.Hold, r.Clear, r.ZClear), on, firing)
+}
+
+// ruleNamed returns the default rule of that name.
+func ruleNamed(name string) (Rule, bool) {
+	rules, err := DefaultRules()
+	if err != nil {
+		return Rule{}, false
+	}
+	for _, r := range rules {
+		if r.Name == name {
+			return r, true
+		}
+	}
+	return Rule{}, false
+}
+
 // Expr returns the PromQL expression of rule r for structure s.
 func Expr(r Rule, s string) string {
+	if r.Mean {
+		return meanExpr(r, s)
+	}
 	sel := "{structure=" + strconv.Quote(s) + "}"
 	var sig, on string
 	switch r.Signal {

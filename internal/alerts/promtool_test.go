@@ -37,6 +37,7 @@ type scenario struct {
 	w         map[string][]float64 // member -> w
 	checkable map[string][]bool
 	pvalue    []float64
+	chi       []float64            // chi-square statistic of the fit (13 degrees of freedom)
 	lastRead  map[string][]float64 // channel -> last reading, seconds
 	skew      []float64            // cumulative
 	rejects   map[string][]float64 // reason -> cumulative; NaN = series absent
@@ -76,15 +77,25 @@ func buildScenario() scenario {
 	}
 	s.w["B4"], s.w["D2"] = b4, d2
 	s.checkable["B4"], s.checkable["D2"] = b4ok, d2ok
+	// The fit: chi-square 60 (Wilson-Hilferty score 5.22 at 13 degrees of
+	// freedom) in minutes 8..14, 35 (score 3.12) in 15 and 16, 13 (score
+	// 0.13) otherwise. Mean over [t-2m, t] above max(3.09, 5.20/sqrt(n)):
+	// at 8 (0.13, 0.13, 5.22) mean 1.83, no; at 9 mean 3.52, but B4's
+	// MemberDiverging fires (7..9), which suppresses it; at 10 (B4 cleared
+	// first) mean 5.22: raised; at 17
+	// (3.12, 3.12, 0.13) mean 2.12, no, but the 10-minute mean [7, 17] is
+	// 3.91 > 2.33: held (the hold-off), and 3.91, 3.45, 2.99, 2.52 at 18..21;
+	// at 22 it is 2.06: cleared.
 	s.pvalue = make([]float64, n)
+	s.chi = make([]float64, n)
 	for k := range s.pvalue {
 		switch {
 		case k >= 8 && k <= 14:
-			s.pvalue[k] = 0.0005 // fires at 10
+			s.pvalue[k], s.chi[k] = 1.4e-7, 60
 		case k == 15 || k == 16:
-			s.pvalue[k] = 0.005 // held
+			s.pvalue[k], s.chi[k] = 0.0015, 35
 		default:
-			s.pvalue[k] = 0.2 // clears at 17
+			s.pvalue[k], s.chi[k] = 0.45, 13
 		}
 	}
 	a := make([]float64, n)
@@ -165,24 +176,44 @@ var nan = func() float64 { var z float64; return z / z }()
 func isNaN(v float64) bool { return v != v }
 
 // expectedFiring are the alarms the scenario must fire, worked out by hand
-// from the rules (minute ranges, inclusive).
+// from the rules (minute ranges, inclusive; -1: still firing at the end).
+//
+// MemberDiverging decides on the mean w over [t-2m, t] (3 samples a minute
+// apart) against max(3.29, 5.33/sqrt(n)). B4: at 6 the mean of (0.3, 3.5,
+// 3.5) is 2.43, at 7 it is 3.5: raised; at 10 (3.5, 3.5, -3.0) gives 1.33
+// and the 10-minute mean 16/11 = 1.45 <= 2.58: cleared; at 16 (1, -4, -4)
+// gives |-2.33|, at 17 4.0: raised; at 21 (-4, -4, 0.3) gives 2.57 and the
+// 10-minute mean |-13.5/11| = 1.23: cleared. D2 is checkable only in
+// 25..30 (w = 5): at 25 one sample (5 < 5.33), at 26 two (5 > 3.77):
+// raised; from 32 on the 2-minute window holds at most one sample, but the
+// 10-minute mean stays 5 > 2.58 while the samples of 25..30 are in it (to
+// 40): held.
+//
+// MemberShifted decides on the mean over the last hour (all samples here)
+// against max(1, 5.33/sqrt(n)) and does not raise on a member whose
+// MemberDiverging alarm fires: B4 at 9 has 19/10 = 1.9 > 1.69 but
+// MemberDiverging fires; at 10 16/11 = 1.45 < 1.61, at 11 18/12 = 1.5 <
+// 1.54, at 12 21.6/13 = 1.66 > 1.48: raised; at 17 the mean is 14.2/18 =
+// 0.79, held above max(0.5, 3.29/sqrt(18)) = 0.775, at 18 10.2/19 = 0.54 <
+// 0.755: cleared. D2 never: its MemberDiverging alarm fires from 26 on.
 var expectedFiring = map[string][][2]int{
+	"MemberDiverging/B4": {{7, 9}, {17, 20}},
+	"MemberDiverging/D2": {{26, -1}},
+	"MemberShifted/B4":   {{12, 17}},
+	"FitRejected/":       {{10, 21}},
+	"ChannelSilent/B4_a": {{23, 29}},
+	"ClockSkew/":         {{12, 16}},
+	"IngestRejects/":     {{23, 30}},
 	// MemberUtilisationHigh: raise > 0.90 for 2 minutes, clear <= 0.85.
 	"MemberUtilisationHigh/T4": {{22, 26}},
-	"MemberDiverging/B4":       {{7, 10}, {17, 20}},
-	"MemberDiverging/D2":       {{27, 30}},
-	"FitRejected/":             {{10, 16}},
-	"ChannelSilent/B4_a":       {{23, 29}},
 	"ChannelSilent/B5_a":       {{3, 29}},
-	"ClockSkew/":               {{12, 16}},
-	"IngestRejects/":           {{23, 30}},
 	"CommitsFailing/":          {{33, 37}},
 	"BrokerDisconnected/":      {{35, 37}},
 }
 
 func (s scenario) observation(k int) Observation {
 	o := Observation{Time: time.Unix(int64(60*k), 0).UTC(), Structure: "alder-creek",
-		Fit: &Fit{PValue: s.pvalue[k], ChiSquare: 30, DOF: 13}, SkewCount: uint64(s.skew[k]),
+		Fit: &Fit{PValue: s.pvalue[k], ChiSquare: s.chi[k], DOF: 13}, SkewCount: uint64(s.skew[k]),
 		CommitFailures: uint64(s.commits[k]), BrokerConnected: &[]bool{s.connected[k] == 1}[0]}
 	for _, m := range sortedKeys(s.w) {
 		o.Members = append(o.Members, Member{Member: m, W: s.w[m][k], Checkable: s.checkable[m][k], EstimatedBias: 1000 * s.w[m][k]})
@@ -359,7 +390,13 @@ func promtoolTestFile(t *testing.T, rules []Rule, sc scenario, firing [][]Alarm)
 			series{fmt.Sprintf(`shm_member_w_statistic{%s, member=%q}`, st, m), seriesValues(sc.w[m])},
 			series{fmt.Sprintf(`shm_member_checkable{%s, member=%q}`, st, m), boolValues(sc.checkable[m])})
 	}
-	tc.Input = append(tc.Input, series{fmt.Sprintf(`shm_fit_p_value{%s}`, st), seriesValues(sc.pvalue)})
+	dof := make([]float64, len(sc.chi))
+	for i := range dof {
+		dof[i] = 13
+	}
+	tc.Input = append(tc.Input, series{fmt.Sprintf(`shm_fit_p_value{%s}`, st), seriesValues(sc.pvalue)},
+		series{fmt.Sprintf(`shm_fit_chi_square{%s}`, st), seriesValues(sc.chi)},
+		series{fmt.Sprintf(`shm_fit_degrees_of_freedom{%s}`, st), seriesValues(dof)})
 	for _, c := range sortedKeys(sc.lastRead) {
 		tc.Input = append(tc.Input, series{fmt.Sprintf(`shm_channel_last_reading_timestamp_seconds{%s, channel=%q}`, st, c), seriesValues(sc.lastRead[c])},
 			series{fmt.Sprintf(`shm_channel_watched_since_timestamp_seconds{%s, channel=%q}`, st, c), fmt.Sprintf("0+0x%d", sc.minutes-1)})

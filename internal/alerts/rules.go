@@ -11,6 +11,16 @@
 // hysteresis (a firing alarm stays while the signal is beyond Clear, a
 // looser threshold, and clears at the first evaluation where it is not).
 //
+// The statistical rules (Mean set) decide on the mean of the per-epoch
+// statistic over the for-duration instead, so that the decision does not
+// depend on the sampling rate (see MeanThreshold): the mean of n
+// independent standard normal statistics is N(0, 1/n) without a fault and
+// N(delta, 1/n) with one of non-centrality delta, so "mean over the
+// duration above k" alarms on the same faults (delta above k) at every
+// rate, with a noise that shrinks as the rate grows. They clear with
+// hysteresis over a longer hold-off window and never while their subject
+// is unmeasured.
+//
 // This is a monitoring aid: an alarm, or its absence, does not establish
 // that a structure is safe or unsafe; decisions rest with a licensed
 // engineer under local codes.
@@ -18,7 +28,10 @@ package alerts
 
 import (
 	"fmt"
+	"math"
 	"time"
+
+	"gonum.org/v1/gonum/stat/distuv"
 
 	"trussmonitor/internal/reconcile"
 )
@@ -51,10 +64,17 @@ const (
 	// SignalBrokerConnected is 1 while ingest is connected to the broker
 	// and subscribed, 0 while not (no value in replay).
 	SignalBrokerConnected
+	// SignalFitZ is the global test as a standard normal score: the
+	// Wilson-Hilferty transform of the epoch's chi-square statistic T with
+	// nu degrees of freedom, z = ((T/nu)^(1/3) - (1 - 2/(9 nu))) /
+	// sqrt(2/(9 nu)) (Wilson and Hilferty 1931, from memory), N(0, 1) to
+	// a good approximation without a fault, so that its mean over epochs
+	// can be tested like a w statistic's.
+	SignalFitZ
 )
 
 // lastSignal is the highest valid signal.
-const lastSignal = SignalBrokerConnected
+const lastSignal = SignalFitZ
 
 // Scope is what one instance of a rule is about.
 type Scope int
@@ -87,6 +107,7 @@ const (
 	RuleClockSkew       = "ClockSkew"
 	RuleIngestRejects   = "IngestRejects"
 	RuleCommitsFailing  = "CommitsFailing"
+	RuleMemberShifted   = "MemberShifted"
 	RuleBrokerDown      = "BrokerDisconnected"
 )
 
@@ -108,6 +129,20 @@ type Rule struct {
 	Clear  float64
 	For    time.Duration
 	Window time.Duration // counting window of the increase signals
+	// Mean makes the rule decide on the mean of the per-epoch signal (its
+	// absolute value for a w statistic) over the last For: raised when it
+	// exceeds MeanThreshold(Raise, ZRaise, n), n the number of epochs in
+	// [t - For, t]; a firing alarm is held while the mean over the last
+	// Hold exceeds MeanThreshold(Clear, ZClear, n), and while the subject
+	// had no epoch at all in the last Hold (no clearing while unmeasured).
+	// There is no pending state: the duration is inside the statistic.
+	Mean           bool
+	ZRaise, ZClear float64
+	Hold           time.Duration
+	// SuppressedBy names a rule whose firing alarm keeps this rule from
+	// raising (one alarm per fault): on the same subject when both rules
+	// have the same scope, on any subject of the structure otherwise.
+	SuppressedBy string
 	// Summary and Description are the alert's annotations; they may use
 	// {{ $labels.structure }}, {{ $labels.member }}, {{ $labels.channel }}.
 	Summary     string
@@ -149,6 +184,17 @@ func (r Rule) Validate() error {
 	if r.Signal.counting() && (r.Window <= 0 || r.Window%time.Second != 0) {
 		return fmt.Errorf("alerts: rule %s: counting window %v; want whole seconds > 0", r.Name, r.Window)
 	}
+	if r.Mean {
+		if r.Signal != SignalAbsW && r.Signal != SignalFitZ {
+			return fmt.Errorf("alerts: rule %s: a mean rule needs a per-epoch statistic (abs_w or fit_z)", r.Name)
+		}
+		if r.For <= 0 || r.Hold < r.For || r.Hold%time.Second != 0 || r.Below {
+			return fmt.Errorf("alerts: rule %s: a mean rule needs For > 0, a hold-off Hold >= For in whole seconds and an upper threshold", r.Name)
+		}
+		if r.ZRaise < 0 || r.ZClear < 0 || r.ZClear > r.ZRaise {
+			return fmt.Errorf("alerts: rule %s: ZRaise %v, ZClear %v; want 0 <= ZClear <= ZRaise", r.Name, r.ZRaise, r.ZClear)
+		}
+	}
 	if r.Below && r.Clear < r.Raise || !r.Below && r.Clear > r.Raise {
 		return fmt.Errorf("alerts: rule %s: clearing threshold %v is stricter than the raise threshold %v; hysteresis needs it looser (or equal)", r.Name, r.Clear, r.Raise)
 	}
@@ -186,19 +232,67 @@ const (
 	// before BrokerDisconnected fires, so that a reconnect after a broker
 	// restart (seconds) does not raise it (common practice).
 	DisconnectedFor = time.Minute
+	// HoldOff is the clearing window of the statistical rules: a firing
+	// alarm clears only when the mean of its statistic over the last 10
+	// minutes is back inside the clearing threshold, so a fault near the
+	// threshold does not clear and re-raise with every noisy epoch.
+	HoldOff = 10 * time.Minute
+	// ShiftWindow is the window of MemberShifted, the alarm for small
+	// persistent faults, and its hold-off.
+	ShiftWindow = time.Hour
+	// ShiftRaise and ShiftClear are the floors of MemberShifted: a
+	// persistent shift of a member's w by one standard deviation (a
+	// quarter of the minimal detectable bias) raises, given enough epochs
+	// to tell it from noise; it clears below half of that. The floor keeps
+	// the alarm from reacting to the small, slow model errors every real
+	// structure has (common practice).
+	ShiftRaise = 1.0
+	ShiftClear = 0.5
+	// MeanFalseAlarm is the largest false-alarm probability of one
+	// evaluation of one subject of a mean rule (two-sided for |w|,
+	// one-sided for the fit), whatever the number of epochs in the window:
+	// see MeanThreshold.
+	MeanFalseAlarm = 1e-7
 )
 
 // RuleUtilisationHigh is the name of the utilisation rule.
 const RuleUtilisationHigh = "MemberUtilisationHigh"
 
+// MeanThreshold returns the threshold on the mean of n epochs' standard
+// normal statistics: max(floor, z / sqrt(n)). Without a fault the mean is
+// N(0, 1/n) (independent epochs), so it exceeds the threshold with
+// probability P(|N(0,1)| > max(floor sqrt(n), z)) (one-sided for the fit
+// score), at most MeanFalseAlarm when z = Phi^-1(1 - MeanFalseAlarm/2)
+// (5.33; one-sided Phi^-1(1 - MeanFalseAlarm) = 5.20). With the floor k =
+// 3.29 of MemberDiverging and a 2-minute window, n = 3 at 60 s sampling
+// gives 2 P(Z > 5.70) = 1.2e-8 per evaluation (1.7e-5 per member-day), and
+// n = 13 (10 s) or 121 (1 s) give far less: the for-duration decision has
+// a false-alarm rate below 1e-4 per structure-day of 20 gauged members at
+// every rate, while a bias of one MDB (mean w = delta0 = 4.13 > 3.29) is
+// found at every rate (Baarda 1968 for delta0; from memory).
+func MeanThreshold(floor, z float64, n int) float64 {
+	if n <= 0 {
+		return math.Inf(1)
+	}
+	return math.Max(floor, z/math.Sqrt(float64(n)))
+}
+
 // DefaultRules returns the monitor's rules with the thresholds of the
 // reconcile defaults:
 //
-//   - MemberDiverging: |w| > k(alpha0 = 0.001) = 3.29 (Baarda's critical
-//     value) for 2 minutes; clears when |w| <= k(0.01) = 2.58, the member
-//     no longer significant at the 1 % level.
-//   - FitRejected: global test p-value < 0.001 (reconcile.DefaultAlphaGlobal)
-//     for 2 minutes; clears when p >= 0.01.
+//   - MemberDiverging: the mean w over 2 minutes beyond
+//     MeanThreshold(k(alpha0 = 0.001) = 3.29, 5.33, n) (Baarda's critical
+//     value); clears when the mean over the 10-minute hold-off is within
+//     k(0.01) = 2.58, the member no longer significant at the 1 % level.
+//   - FitRejected: the mean fit score (SignalFitZ) over 2 minutes above
+//     MeanThreshold(Phi^-1(1 - 0.001) = 3.09, 5.20, n) (the global test at
+//     reconcile.DefaultAlphaGlobal); clears when the 10-minute mean is
+//     below Phi^-1(0.99) = 2.33. It does not raise while a MemberDiverging
+//     alarm of the structure fires (the fault is already alarmed).
+//   - MemberShifted: the mean w over an hour beyond MeanThreshold(1, 5.33,
+//     n): a small persistent fault that single epochs cannot show; clears
+//     when the hour's mean is within MeanThreshold(0.5, 3.29, n). It does
+//     not raise on a member whose MemberDiverging alarm is firing.
 //   - ChannelSilent: no reading for more than 2 minutes.
 //   - ClockSkew: any skewed reading in the last 5 minutes.
 //   - IngestRejects: more than 10 rejections in 5 minutes; clears at <= 2.
@@ -217,19 +311,31 @@ func DefaultRules() ([]Rule, error) {
 	if err != nil {
 		return nil, err
 	}
+	zTwo := distuv.UnitNormal.Quantile(1 - MeanFalseAlarm/2)
+	zOne := distuv.UnitNormal.Quantile(1 - MeanFalseAlarm)
+	zFit := distuv.UnitNormal.Quantile(1 - reconcile.DefaultAlphaGlobal)
+	zFitClear := distuv.UnitNormal.Quantile(1 - 0.01)
 	caution := " This is a monitoring aid, not a safety verdict; decisions rest with a licensed engineer under local codes."
 	rules := []Rule{
 		{
 			Name: RuleMemberDiverging, Signal: SignalAbsW, Severity: "critical",
-			Raise: kRaise, Clear: kClear, For: DivergingFor,
+			Raise: kRaise, Clear: kClear, For: DivergingFor, Mean: true, ZRaise: zTwo, Hold: HoldOff,
 			Summary:     "Member {{ $labels.member }} of {{ $labels.structure }} strays from the model prediction",
-			Description: "Baarda's w statistic of the member's adjusted residual exceeds the critical value; a gauge fault, a stiffness change or an unmodelled load near the member. See the ranked causes in the event log." + caution,
+			Description: "The mean of Baarda's w statistic of the member's adjusted residual over the for-duration exceeds the critical value; a gauge fault, a stiffness change or an unmodelled load near the member. See the cause groups in the event log." + caution,
 		},
 		{
-			Name: RuleFitRejected, Signal: SignalPValue, Severity: "warning", Below: true,
-			Raise: reconcile.DefaultAlphaGlobal, Clear: 0.01, For: RejectedFor,
-			Summary:     "Measured member forces of {{ $labels.structure }} do not fit the model",
-			Description: "The global chi-square test of the weighted least-squares fit rejects; see the ranked causes in the event log." + caution,
+			Name: RuleFitRejected, Signal: SignalFitZ, Severity: "warning",
+			Raise: zFit, Clear: zFitClear, For: RejectedFor, Mean: true, ZRaise: zOne, Hold: HoldOff,
+			SuppressedBy: RuleMemberDiverging,
+			Summary:      "Measured member forces of {{ $labels.structure }} do not fit the model",
+			Description:  "The mean over the for-duration of the global chi-square test's normal score exceeds its critical value; see the cause groups in the event log." + caution,
+		},
+		{
+			Name: RuleMemberShifted, Signal: SignalAbsW, Severity: "warning",
+			Raise: ShiftRaise, Clear: ShiftClear, For: ShiftWindow, Mean: true, ZRaise: zTwo, ZClear: kRaise, Hold: ShiftWindow,
+			SuppressedBy: RuleMemberDiverging,
+			Summary:      "Member {{ $labels.member }} of {{ $labels.structure }} shows a small persistent shift",
+			Description:  "The mean of the member's w statistic over the last hour is shifted beyond what noise explains: a small persistent fault (a stiffness change in a redundant panel, a slowly drifting gauge) that single epochs do not show." + caution,
 		},
 		{
 			Name: RuleChannelSilent, Signal: SignalSilence, Severity: "warning",

@@ -256,4 +256,11 @@ type Cause struct {
 	Size float64
 	// Unit of Size, e.g. "N", "1" (relative EA change), "m".
 	Unit string
+	// Std is the standard deviation of Size (0: not given); Group the
+	// separability group from 1 (causes of one group cannot be told apart
+	// and carry no order; 0: not grouped); Implausible marks a size
+	// outside its plausible range.
+	Std         float64
+	Group       int
+	Implausible bool
 }

@@ -164,11 +164,14 @@ type eventJSON struct {
 }
 
 type causeJSON struct {
-	Kind    string `json:"kind"`
-	Subject string `json:"subject"`
-	T       num    `json:"t"`
-	Size    num    `json:"size"`
-	Unit    string `json:"unit"`
+	Kind        string `json:"kind"`
+	Subject     string `json:"subject"`
+	T           num    `json:"t"`
+	Size        num    `json:"size"`
+	Unit        string `json:"unit"`
+	Std         num    `json:"std,omitempty"`
+	Group       int    `json:"group,omitempty"`
+	Implausible bool   `json:"implausible,omitempty"`
 }
 
 // timeText formats t as RFC 3339 with nanoseconds in UTC.
@@ -252,7 +255,8 @@ func toEventJSON(e Event) eventJSON {
 		Causes: make([]causeJSON, 0, len(e.Causes)),
 	}
 	for _, c := range e.Causes {
-		out.Causes = append(out.Causes, causeJSON{Kind: c.Kind, Subject: c.Subject, T: n(c.T), Size: n(c.Size), Unit: c.Unit})
+		out.Causes = append(out.Causes, causeJSON{Kind: c.Kind, Subject: c.Subject, T: n(c.T), Size: n(c.Size), Unit: c.Unit,
+			Std: n(c.Std), Group: c.Group, Implausible: c.Implausible})
 	}
 	return out
 }

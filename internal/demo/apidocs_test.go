@@ -238,7 +238,7 @@ func TestAPIDocsMatchService(t *testing.T) {
 		ruleNames[r.Name] = true
 	}
 	causeKinds, causeUnits := map[string]bool{}, map[string]bool{}
-	for k := reconcile.GaugeFault; k <= reconcile.NodalLoad; k++ {
+	for k := reconcile.GaugeFault; k <= reconcile.ChannelBias; k++ {
 		causeKinds[k.String()] = true
 		_, u := k.Display()
 		causeUnits[u] = true

@@ -182,7 +182,8 @@ func dashboardEvent(ev alerts.Event) dashboard.Event {
 	}
 	d.Message = alerts.Message(ev)
 	for _, c := range ev.Evidence.Causes {
-		d.Causes = append(d.Causes, dashboard.Cause{Kind: c.Kind, Subject: causeSubject(c.Label), T: c.T, Size: c.Size, Unit: c.Unit})
+		d.Causes = append(d.Causes, dashboard.Cause{Kind: c.Kind, Subject: causeSubject(c.Label), T: c.T, Size: c.Size, Unit: c.Unit,
+			Std: c.Std, Group: c.Group, Implausible: c.Implausible})
 	}
 	return d
 }

@@ -47,6 +47,9 @@ type DetectReport struct {
 	InputRedundancy float64
 	// Suggestions are the best additional gauge locations, best first.
 	Suggestions []GaugeSuggestion
+	// Separability lists the causes the layout cannot tell apart and those
+	// it cannot test.
+	Separability *Separability
 }
 
 // Detectability computes the internal reliability of the gauge layout:
@@ -133,6 +136,9 @@ func Detectability(m *model.Model, sm *sensors.Map, opt reconcile.Options) (*Det
 		}
 		rep.Suggestions = append(rep.Suggestions, GaugeSuggestion{Member: o.Label, WeakestBefore: before, WeakestAfter: after})
 	}
+	if rep.Separability, err = separability(m, sm, lm, a, rowSigma, options, opt); err != nil {
+		return nil, fmt.Errorf("separability: %w", err)
+	}
 	sort.SliceStable(rep.Suggestions, func(i, j int) bool { return rep.Suggestions[i].WeakestAfter > rep.Suggestions[j].WeakestAfter })
 	if len(rep.Suggestions) > 5 {
 		rep.Suggestions = rep.Suggestions[:5]
@@ -195,5 +201,8 @@ func (r *DetectReport) Write(w io.Writer) {
 		for _, s := range r.Suggestions {
 			fmt.Fprintf(w, "    on %-10s weakest redundancy %.3f -> %.3f\n", s.Member, s.WeakestBefore, s.WeakestAfter)
 		}
+	}
+	if r.Separability != nil {
+		r.Separability.Write(w)
 	}
 }

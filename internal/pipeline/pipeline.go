@@ -298,6 +298,7 @@ func (p *Pipeline) process(ctx context.Context, e epoch.Epoch) {
 		}
 	}
 	res.Active = p.eval.Active(p.structure)
+	adaptAfter(p.proc, res)
 	st := p.asm.Stats()
 	res.SkewedReadings = uint64(st.Future + st.Past)
 	res.Took = time.Since(started)
@@ -324,19 +325,29 @@ func (p *Pipeline) observation(t time.Time, res *Result) alerts.Observation {
 	for _, ch := range p.channels {
 		o.Channels = append(o.Channels, alerts.Channel{Channel: ch, LastReading: p.lastSeen[ch], WatchedSince: p.watched})
 	}
+	fitObservation(&o, res)
+	return o
+}
+
+// fitObservation adds a fitted epoch's global test, members and causes to
+// an alarm observation (nothing for nil or an epoch that was not fitted).
+func fitObservation(o *alerts.Observation, res *Result) {
 	if res == nil || (res.Outcome != OutcomeAccepted && res.Outcome != OutcomeRejected) {
-		return o
+		return
 	}
 	o.Fit = &alerts.Fit{ChiSquare: res.ChiSquare, DOF: res.DOF, PValue: res.PValue}
 	// The evidence carries this epoch's ranking: its sizes are those of the
 	// fault as it is now, where a window that only began to fill would
 	// dilute them.
+	// The first group is kept whole (its causes carry no order), then
+	// further causes up to three.
 	causes := res.Causes
 	for i, c := range causes {
-		if i == 3 {
+		if i >= 3 && c.Group != 1 {
 			break
 		}
-		o.Causes = append(o.Causes, alerts.Cause{Label: c.Label, Kind: c.Kind, T: c.T, Size: c.Size, Unit: c.Unit})
+		o.Causes = append(o.Causes, alerts.Cause{Label: c.Label, Kind: c.Kind, T: c.T, Size: c.Size, Unit: c.Unit,
+			Std: c.Std, MDS: c.MDS, Group: c.Group, Implausible: c.Implausible})
 	}
 	for _, m := range res.Members {
 		if !m.Available {
@@ -349,7 +360,6 @@ func (p *Pipeline) observation(t time.Time, res *Result) alerts.Observation {
 		o.Members = append(o.Members, alerts.Member{Member: m.Member, W: m.W, Checkable: m.Checkable, EstimatedBias: bias})
 	}
 	o.Utilisation = utilisationObservations(res.State)
-	return o
 }
 
 // logOnce logs a problem at most once a minute per kind.

@@ -44,11 +44,14 @@ type MemberResult struct {
 	SigmaN, SigmaAdjustedN float64
 	// FittedN = PredictedN + the unknown loads' share: the model's best
 	// estimate of the member force change.
-	FittedN    float64
-	W          float64
-	Redundancy float64
-	MDBN       float64
-	Checkable  bool
+	FittedN float64
+	// W is Baarda's w; while the fit carries adapted hypotheses it comes
+	// from the adapted fit (except for the alarm's own member), and
+	// WNominal keeps that of the nominal fit.
+	W, WNominal float64
+	Redundancy  float64
+	MDBN        float64
+	Checkable   bool
 }
 
 // LoadEstimate is the estimated factor of one unknown load pattern.
@@ -70,6 +73,20 @@ type Cause struct {
 	Unit      string  // N, %, mm
 	Separable bool
 	Epochs    int
+	// Std is the standard deviation of Size and MDS the minimal detectable
+	// size (for a stiffness change, a loss), both in Unit.
+	Std, MDS float64
+	// Implausible marks a size outside the candidate's plausible range
+	// (reconcile.PlausibleRange); such groups are listed last.
+	Implausible bool
+	// Strain and StrainStd give a gauge fault as a mean strain of the
+	// member's gauges, in microstrain (0 for other kinds).
+	Strain, StrainStd float64
+	// Group numbers the separability groups from 1 in rank order; causes
+	// with the same Group cannot be told apart by these gauges and are
+	// listed in no particular order (by kind and label). GroupSize is the
+	// number of causes in the group.
+	Group, GroupSize int
 }
 
 // Result is everything computed for one epoch.
@@ -94,6 +111,13 @@ type Result struct {
 	// an alarm, and available from Processor.WindowCauses).
 	Causes []Cause
 	Window []Cause
+	// Adapted is the fit with the hypotheses carried while alarms are
+	// active (nil when none is carried); Members' w, Loads and Causes then
+	// come from it, ChiSquare and PValue stay those of the nominal model.
+	Adapted *AdaptedFit
+	// LoadShifts flags unknown-load estimates that left their recent
+	// distribution when an alarm rose (set by the Pipeline).
+	LoadShifts []LoadShift
 	// MissingChannels are the channels that did not report in the epoch.
 	MissingChannels []string
 	// Events are the alarm events this epoch raised or cleared, Active the
@@ -118,8 +142,12 @@ type ProcessorOptions struct {
 	// CauseWindow is the number of epochs of the sliding-window ranking
 	// (default 60).
 	CauseWindow int
-	// MaxCauses caps the ranked lists kept per epoch (default 10).
+	// MaxCauses caps the ranked lists kept per epoch (default 10 groups).
 	MaxCauses int
+	// CauseSpan is the span of epochs whose cause statistics are summed
+	// for the causes of a rejected epoch (default alerts.DivergingFor, the
+	// for-duration the alarms decide on).
+	CauseSpan time.Duration
 }
 
 // Processor reconciles one structure's epochs: snapshot in, Result out.
@@ -135,7 +163,13 @@ type Processor struct {
 	sigma     []float64
 	solvers   map[string]*reconcile.Solver // by the sorted list of missing measured patterns
 	window    *reconcile.WindowRanker
-	fixed     []reconcile.Candidate // gauge, settlement and nodal-load candidates
+	cands     *candidates
+	lastID    *reconcile.Identification // the latest epoch's, for grouping the window
+	adapted   []adaptedHypothesis
+	adaptedN  int // epochs since the first hypothesis was carried
+	recent    *reconcile.RecentRanker
+	loadHist  loadHistory
+	fixed     []reconcile.Candidate // gauge, channel, settlement and nodal-load candidates
 	subjects  map[string]string     // candidate label -> subject
 	kinds     map[string]string
 	y, yhat   []float64
@@ -152,11 +186,15 @@ func NewProcessor(m *model.Model, sm *sensors.Map, opt ProcessorOptions) (*Proce
 	if opt.MaxCauses <= 0 {
 		opt.MaxCauses = 10
 	}
+	if opt.CauseSpan <= 0 {
+		opt.CauseSpan = alerts.DivergingFor
+	}
 	lm, err := newLinearModel(m, sm)
 	if err != nil {
 		return nil, err
 	}
 	p := &Processor{
+		loadHist:  loadHistory{n: opt.CauseWindow},
 		structure: m.Structure().Name,
 		lm:        lm,
 		sm:        sm,
@@ -183,25 +221,14 @@ func NewProcessor(m *model.Model, sm *sensors.Map, opt ProcessorOptions) (*Proce
 	if p.window, err = reconcile.NewWindowRanker(opt.CauseWindow); err != nil {
 		return nil, err
 	}
+	if p.recent, err = reconcile.NewRecentRanker(opt.CauseSpan); err != nil {
+		return nil, err
+	}
 	rows := len(p.rowSigma)
-	for i, c := range reconcile.GaugeFaults(lm.names) {
-		c.Signature = pad(c.Signature, rows)
-		p.fixed = append(p.fixed, c)
-		p.subjects[c.Label] = lm.names[i]
+	if p.cands, err = newCandidates(lm); err != nil {
+		return nil, err
 	}
-	for j, l := range lm.settleLabels {
-		c := reconcile.Candidate{Kind: reconcile.SupportSettlement, Label: "settlement " + l, Signature: pad(column(lm.settle, j), rows)}
-		p.fixed = append(p.fixed, c)
-		p.subjects[c.Label] = l
-	}
-	for j, l := range lm.loadLabels {
-		c := reconcile.Candidate{Kind: reconcile.NodalLoad, Label: "load at " + l, Signature: pad(column(lm.nodal, j), rows)}
-		p.fixed = append(p.fixed, c)
-		p.subjects[c.Label] = l
-	}
-	for _, mb := range m.Structure().Members {
-		p.subjects["E A of "+mb.ID] = mb.ID
-	}
+	p.fixed, p.subjects = p.cands.fixedCandidates(lm, sm, rows)
 	p.y, p.yhat, p.avail = make([]float64, rows), make([]float64, rows), make([]bool, rows)
 	for i := len(lm.gauged); i < rows; i++ {
 		p.avail[i] = true // pseudo-observations of the inputs: always there, value 0
@@ -256,7 +283,12 @@ func column(a *mat.Dense, j int) []float64 {
 
 // WindowCauses returns the sliding-window ranking of the causes over the
 // last CauseWindow epochs (computed on demand: it costs more than an epoch).
-func (p *Processor) WindowCauses() []Cause { return p.convert(p.window.Ranked()) }
+func (p *Processor) WindowCauses() []Cause {
+	if p.lastID == nil {
+		return nil
+	}
+	return convertGroups(p.lastID.Groups(p.window.Ranked()), p.subjects, p.opt.MaxCauses)
+}
 
 // Gauged returns the gauged member ids in row order.
 func (p *Processor) Gauged() []string { return append([]string(nil), p.lm.names...) }
@@ -423,25 +455,49 @@ func (p *Processor) fill(res *Result, r *reconcile.Result, s *reconcile.Solver, 
 	}
 	state := lm.stateForces(loads, snap.Temperatures, theta)
 	res.State = p.memberStates(res, state, r, missing, snap)
-	stiff := lm.sig.Stiffness(state)
-	cands := append([]reconcile.Candidate(nil), p.fixed...)
-	members := lm.m.Structure().Members
-	for k := range members {
-		sig := column(stiff, k)
-		if !detectable(sig, p.sigma) {
-			continue
-		}
-		cands = append(cands, reconcile.Candidate{Kind: reconcile.StiffnessChange, Label: "E A of " + members[k].ID, Signature: pad(sig, len(p.rowSigma))})
-	}
-	causes, err := r.Causes(cands)
+	cands := append(append([]reconcile.Candidate(nil), p.fixed...),
+		p.cands.stateCandidates(lm, state, loads, snap.Temperatures, theta, p.sigma, len(p.rowSigma))...)
+	id, err := r.Identify(cands, 0)
 	if err != nil {
 		res.Reason = "cause ranking: " + err.Error()
 		return
 	}
-	p.window.Add(causes)
+	p.lastID = id
+	p.window.Add(id.Causes)
+	p.recent.Add(res.Time, id.Causes)
 	if r.Rejected {
-		res.Causes = p.convert(causes)
+		// The causes summed over the epochs of the last CauseSpan (the
+		// epochs an alarm's decision rests on), grouped by this epoch's
+		// separability.
+		res.Causes = convertGroups(id.Groups(p.recent.Causes()), p.subjects, p.opt.MaxCauses)
 	}
+	if len(p.adapted) > 0 {
+		p.reidentify()
+		p.adaptedFit(res, s, cands, missing)
+	} else if r.Rejected {
+		if hyps := p.identifiedGroup(res, r.Critical); len(hyps) > 0 {
+			p.adaptedFitWith(res, s, cands, missing, hyps, false)
+		}
+	}
+	if !r.Rejected && res.Adapted == nil {
+		p.loadHist.add(theta)
+	}
+}
+
+// LoadShifts returns the unknown-load estimates of res that left the
+// distribution of the recent accepted epochs by more than k combined
+// standard deviations (to be called when an alarm rises).
+func (p *Processor) LoadShifts(res *Result, k float64) []LoadShift {
+	theta := make([]float64, 0, len(p.lm.unknown))
+	std := make([]float64, 0, len(p.lm.unknown))
+	for j := range p.lm.unknown {
+		if j >= len(res.Loads) {
+			return nil
+		}
+		theta = append(theta, res.Loads[j].Value)
+		std = append(std, res.Loads[j].Std)
+	}
+	return p.loadHist.shifts(p.lm.unknown, theta, std, k)
 }
 
 // minStiffnessEffect is the least effect, in standard deviations of the
@@ -462,44 +518,4 @@ func detectable(sig, sigma []float64) bool {
 		}
 	}
 	return false
-}
-
-// plausibleFirst moves causes whose estimated size no structure can have
-// behind the others, keeping the order within each part: a stiffness change
-// below -100 % (negative E A) or above +100 % (a doubled member). Such sizes
-// come from members carrying almost no force, whose linearised signature can
-// be nearly parallel to a real cause's (common practice: physically
-// impossible hypotheses are not ranked as causes).
-func plausibleFirst(cs []reconcile.Cause) []reconcile.Cause {
-	implausible := func(c reconcile.Cause) bool {
-		return c.Kind == reconcile.StiffnessChange && (c.Size < -1 || c.Size > 1)
-	}
-	out := make([]reconcile.Cause, 0, len(cs))
-	var late []reconcile.Cause
-	for _, c := range cs {
-		if implausible(c) {
-			late = append(late, c)
-			continue
-		}
-		out = append(out, c)
-	}
-	return append(out, late...)
-}
-
-// convert turns reconcile causes into Result causes, keeping the first
-// MaxCauses.
-func (p *Processor) convert(cs []reconcile.Cause) []Cause {
-	cs = plausibleFirst(cs)
-	if len(cs) > p.opt.MaxCauses {
-		cs = cs[:p.opt.MaxCauses]
-	}
-	out := make([]Cause, 0, len(cs))
-	for _, c := range cs {
-		out = append(out, Cause{
-			Kind: c.Kind.String(), Subject: p.subjects[c.Label], Label: c.Label,
-			T: c.T, PValue: c.PValue, Size: c.DisplaySize, Unit: c.DisplayUnit,
-			Separable: c.Separable, Epochs: c.Epochs,
-		})
-	}
-	return out
 }

@@ -1,7 +1,6 @@
 package reconcile
 
 import (
-	"errors"
 	"fmt"
 	"math"
 	"sort"
@@ -25,7 +24,20 @@ const (
 	// NodalLoad is an unmodelled force at one node in one direction;
 	// signature in newtons per newton; size in newtons.
 	NodalLoad
+	// SpringChange is a relative change of one support spring's stiffness
+	// in one direction; signature in newtons per unit fraction; size as a
+	// fraction, shown in percent (exact by Sherman-Morrison, as a member's).
+	SpringChange
+	// ChannelBias is a bias of one gauge channel of a member; signature in
+	// newtons per unit strain of that channel (E A / number of gauges of
+	// the member); size as a strain, shown in microstrain.
+	ChannelBias
 )
+
+// rankOne reports whether the kind changes the stiffness matrix by a
+// rank-one term (member or spring), so that its size is exact by
+// Sherman-Morrison rather than linear.
+func (k Kind) rankOne() bool { return k == StiffnessChange || k == SpringChange }
 
 // String returns the kind's plain name.
 func (k Kind) String() string {
@@ -38,17 +50,24 @@ func (k Kind) String() string {
 		return "support_settlement"
 	case NodalLoad:
 		return "nodal_load"
+	case SpringChange:
+		return "spring_change"
+	case ChannelBias:
+		return "channel_bias"
 	}
 	return fmt.Sprintf("kind(%d)", int(k))
 }
 
 // Display returns the factor from the SI size to the displayed size and
-// the displayed unit: newtons for gauge faults and loads, percent of E A for
-// stiffness changes, millimetres for settlements.
+// the displayed unit: newtons for gauge faults and loads, percent for
+// stiffness changes of members and springs, millimetres for settlements,
+// microstrain for a channel bias.
 func (k Kind) Display() (scale float64, unit string) {
 	switch k {
-	case StiffnessChange:
+	case StiffnessChange, SpringChange:
 		return 100, "%"
+	case ChannelBias:
+		return 1e6, "µε"
 	case SupportSettlement:
 		return 1000, "mm"
 	default:
@@ -63,6 +82,17 @@ type Candidate struct {
 	Kind      Kind
 	Label     string // e.g. "gauge B4", "E A of D2", "settlement L8 y"
 	Signature []float64
+	// Kappa is, for a stiffness change, the member's self-flexibility
+	// (model.SelfFlexibility): the size follows exactly from the fitted
+	// multiple x of the first-order signature as d = x / (1 - Kappa x)
+	// (Sherman-Morrison). 0 for the other kinds (linear in the size).
+	Kappa float64
+	// Lower and Upper bound the plausible size (SI); equal means no bound.
+	// See PlausibleRange.
+	Lower, Upper float64
+	// EA is, for a gauge fault, the member's E A (N per unit strain), so
+	// that the bias is also given as a strain; 0 otherwise.
+	EA float64
 }
 
 // Cause is the test of one candidate in one epoch (or over a window):
@@ -86,6 +116,28 @@ type Cause struct {
 	Num, Den  float64
 	sig2      float64 // c^T W c over the available gauges
 	Epochs    int     // epochs accumulated (1 for a single epoch)
+	// Std is the standard deviation of Size (SI); for a stiffness change
+	// propagated through the exact (Sherman-Morrison) size.
+	Std float64
+	// MDS is the minimal detectable size (SI, magnitude): the size whose
+	// test has non-centrality delta0 (for a stiffness change, a loss).
+	MDS float64
+	// Testable is false when the candidate cannot be tested (null
+	// projected signature, or minimal detectable size beyond the plausible
+	// range); such candidates are never offered as causes.
+	Testable bool
+	// Implausible is true when Size lies outside the candidate's plausible
+	// range (Candidate.Lower, Upper).
+	Implausible bool
+	// Strain and StrainStd give a gauge fault's size as a mean strain of
+	// the member's gauges (Size / E A); 0 for other kinds.
+	Strain, StrainStd float64
+	info              candInfo
+}
+
+// candInfo carries the candidate's constants into window sums.
+type candInfo struct {
+	kappa, lower, upper, ea, delta0 float64
 }
 
 // SeparableTol is the fraction of a signature's weighted norm that must
@@ -99,55 +151,13 @@ func chi1Survival(t float64) float64 { return math.Erfc(math.Sqrt(t / 2)) }
 
 // Causes tests every candidate against this epoch's adjusted residuals and
 // returns them ranked (largest T_c first; non-separable ones last, in
-// input order).
+// input order). Sizes are exact (see Identify).
 func (r *Result) Causes(cands []Candidate) ([]Cause, error) {
-	if r.plan == nil {
-		return nil, errors.New("reconcile: Causes on a Result that did not come from Solver.Epoch")
+	id, err := r.Identify(cands, 0)
+	if err != nil {
+		return nil, err
 	}
-	g := len(r.plan.mask)
-	pl := r.plan
-	pe := len(pl.est)
-	out := make([]Cause, len(cands))
-	cw := make([]float64, len(pl.idx))
-	qtc := make([]float64, pe)
-	sigma := pl.sigma
-	for n, c := range cands {
-		if len(c.Signature) != g {
-			return nil, fmt.Errorf("reconcile: candidate %q has a signature of %d entries; want %d (one per gauged member)", c.Label, len(c.Signature), g)
-		}
-		// Whitened signature cw = W^1/2 c over available rows.
-		num, sig2 := 0.0, 0.0
-		for k, i := range pl.idx {
-			v := c.Signature[i]
-			if !isFinite(v) {
-				return nil, fmt.Errorf("reconcile: candidate %q: signature entry %d is %v; want finite", c.Label, i, v)
-			}
-			cw[k] = v / sigma[i]
-			sig2 += cw[k] * cw[k]
-			num += cw[k] * r.ew[i]
-		}
-		// Den = |(I - Q Q^T) cw|^2 = |cw|^2 - |Q^T cw|^2, computed as the
-		// norm of the projected vector for accuracy.
-		for b := range qtc {
-			qtc[b] = 0
-		}
-		for k := range pl.idx {
-			row := pl.q[k*pe : k*pe+pe]
-			for b, v := range row {
-				qtc[b] += v * cw[k]
-			}
-		}
-		den := 0.0
-		for k := range pl.idx {
-			row := pl.q[k*pe : k*pe+pe]
-			pv := cw[k]
-			for b, v := range row {
-				pv -= v * qtc[b]
-			}
-			den += pv * pv
-		}
-		out[n] = finishCause(c.Kind, c.Label, num, den, sig2, 1)
-	}
+	out := id.Causes
 	rankCauses(out)
 	return out, nil
 }
@@ -242,12 +252,17 @@ func (w *WindowRanker) Reset() {
 // Ranked returns the window statistics of every candidate seen in the
 // window, ranked as Result.Causes ranks (largest T first, non-separable
 // last, then by label).
-func (w *WindowRanker) Ranked() []Cause {
+func (w *WindowRanker) Ranked() []Cause { return w.RankedLast(w.n) }
+
+// RankedLast is Ranked over the last n epochs only (all held epochs when
+// fewer are held).
+func (w *WindowRanker) RankedLast(last int) []Cause {
 	type acc struct {
 		kind           Kind
 		num, den, sig2 float64
 		epochs         int
 		first          int
+		info           candInfo
 	}
 	sums := map[string]*acc{}
 	var labels []string
@@ -255,7 +270,11 @@ func (w *WindowRanker) Ranked() []Cause {
 	if w.full {
 		n = w.n
 	}
-	for k := 0; k < n; k++ {
+	skip := 0
+	if last < n {
+		skip = n - last
+	}
+	for k := skip; k < n; k++ {
 		idx := k
 		if w.full {
 			idx = (w.pos + k) % w.n // oldest first
@@ -263,7 +282,7 @@ func (w *WindowRanker) Ranked() []Cause {
 		for _, c := range w.ring[idx] {
 			a, ok := sums[c.Label]
 			if !ok {
-				a = &acc{kind: c.Kind, first: len(labels)}
+				a = &acc{kind: c.Kind, first: len(labels), info: c.info}
 				sums[c.Label] = a
 				labels = append(labels, c.Label)
 			}
@@ -276,7 +295,10 @@ func (w *WindowRanker) Ranked() []Cause {
 	out := make([]Cause, 0, len(labels))
 	for _, l := range labels {
 		a := sums[l]
-		out = append(out, finishCause(a.kind, l, a.num, a.den, a.sig2, a.epochs))
+		c := finishCause(a.kind, l, a.num, a.den, a.sig2, a.epochs)
+		c.info = a.info
+		c.finishSizes()
+		out = append(out, c)
 	}
 	sort.SliceStable(out, func(i, j int) bool {
 		if out[i].Separable != out[j].Separable {

@@ -138,6 +138,7 @@ type Solver struct {
 	opt      Options
 	k        float64 // critical value of the w-test
 	delta0   float64
+	rhoMax   float64 // RhoMax(alpha0, beta)
 	chi      map[int]distuv.ChiSquared
 	mu       sync.Mutex
 	cache    map[string]*plan
@@ -193,7 +194,11 @@ func NewSolver(A *mat.Dense, sigma []float64, opt Options) (*Solver, error) {
 	if err != nil {
 		return nil, err
 	}
-	s := &Solver{g: g, p: p, sigma: append([]float64(nil), sigma...), opt: opt, k: k, delta0: d0,
+	rm, err := RhoMax(opt.Alpha0, opt.Power)
+	if err != nil {
+		return nil, err
+	}
+	s := &Solver{g: g, p: p, sigma: append([]float64(nil), sigma...), opt: opt, k: k, delta0: d0, rhoMax: rm,
 		chi: map[int]distuv.ChiSquared{}, cache: map[string]*plan{}, keyBuf: make([]byte, (g+7)/8),
 		allAvail: make([]bool, g)}
 	for i := range s.allAvail {
@@ -212,6 +217,34 @@ func NewSolver(A *mat.Dense, sigma []float64, opt Options) (*Solver, error) {
 	return s, nil
 }
 
+// Extend returns a solver for the design [A | cols]: the same gauges,
+// noise and options with extra unknowns (one column of G entries each),
+// for example hypotheses carried by an adapted fit. It reuses the critical
+// values instead of recomputing them. Unknowns the available gauges cannot
+// determine are dropped (DropUnidentifiable).
+func (s *Solver) Extend(cols [][]float64) (*Solver, error) {
+	p := s.p + len(cols)
+	out := &Solver{g: s.g, p: p, sigma: s.sigma, opt: s.opt, k: s.k, delta0: s.delta0, rhoMax: s.rhoMax,
+		chi: map[int]distuv.ChiSquared{}, cache: map[string]*plan{}, keyBuf: make([]byte, len(s.keyBuf)),
+		allAvail: s.allAvail}
+	out.opt.UnknownNames = nil
+	out.opt.DropUnidentifiable = true
+	out.a = make([]float64, s.g*p)
+	for i := 0; i < s.g; i++ {
+		copy(out.a[i*p:i*p+s.p], s.a[i*s.p:(i+1)*s.p])
+		for j, c := range cols {
+			if len(c) != s.g {
+				return nil, fmt.Errorf("reconcile: extra column %d has %d entries; want %d (one per gauged member)", j, len(c), s.g)
+			}
+			if !isFinite(c[i]) {
+				return nil, fmt.Errorf("reconcile: extra column %d at %s is %v; want finite", j, memberName(s.opt, i), c[i])
+			}
+			out.a[i*p+s.p+j] = c[i]
+		}
+	}
+	return out, nil
+}
+
 // Gauges returns G, the number of gauged members.
 func (s *Solver) Gauges() int { return s.g }
 
@@ -220,6 +253,10 @@ func (s *Solver) Unknowns() int { return s.p }
 
 // Critical returns the critical value of the w-test (3.2905 at alpha0 = 0.001).
 func (s *Solver) Critical() float64 { return s.k }
+
+// RhoMax returns the correlation bound above which two candidates form one
+// group (0.917 at alpha0 = 0.001, beta = 0.80; see RhoMax).
+func (s *Solver) RhoMax() float64 { return s.rhoMax }
 
 // Delta0 returns the non-centrality delta0 used for the MDB (4.1321 at
 // alpha0 = 0.001, beta = 0.80).
@@ -263,8 +300,10 @@ type Result struct {
 	// the one data snooping would suspect first.
 	Largest int
 
-	plan *plan
-	ew   []float64 // whitened adjusted residuals over all G (0 if unavailable)
+	plan   *plan
+	delta0 float64   // the solver's delta0 (minimal detectable sizes)
+	rhoMax float64   // the solver's correlation bound (RhoMax)
+	ew     []float64 // whitened adjusted residuals over all G (0 if unavailable)
 }
 
 // plan holds everything that depends only on the availability mask.
@@ -527,6 +566,8 @@ func (s *Solver) apply(dst *Result, pl *plan, y, yhat []float64) {
 	dst.DOF = pl.dof
 	dst.Critical = s.k
 	dst.plan = pl
+	dst.delta0 = s.delta0
+	dst.rhoMax = s.rhoMax
 
 	// Whitened residual rw_k = (y_i - yhat_i) / sigma_i, kept in dst.ew at
 	// member index for now; qtr = Q^T rw.

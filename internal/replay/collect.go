@@ -120,7 +120,7 @@ func (c *collector) event(e alerts.Event) report.Event {
 	}
 	out.Message = alerts.Message(e)
 	for _, k := range ev.Causes {
-		out.Causes = append(out.Causes, report.Cause{Kind: k.Kind, Subject: c.subject(k.Label), T: k.T, Size: k.Size, Unit: k.Unit})
+		out.Causes = append(out.Causes, report.Cause{Kind: k.Kind, Subject: c.subject(k.Label), T: k.T, Size: k.Size, Std: k.Std, Unit: k.Unit, Group: k.Group, Implausible: k.Implausible})
 	}
 	return out
 }

@@ -265,7 +265,17 @@ func writeEventTable(sb *strings.Builder, r *Report) {
 				if i == maxCauses {
 					break
 				}
-				fmt.Fprintf(sb, "<li>%s %s: T = %s, size %s</li>", esc(strings.ReplaceAll(c.Kind, "_", " ")), esc(c.Subject), num(c.T, 1), esc(sizeText(c.Size, c.Unit)))
+				grp, size := "", sizeText(c.Size, c.Unit)
+				if c.Group > 0 {
+					grp = fmt.Sprintf("[group %d] ", c.Group)
+				}
+				if c.Std > 0 && !math.IsInf(c.Std, 0) {
+					size += " ± " + sizeText(c.Std, c.Unit)
+				}
+				if c.Implausible {
+					size += " (implausible size)"
+				}
+				fmt.Fprintf(sb, "<li>%s%s %s: T = %s, size %s</li>", esc(grp), esc(strings.ReplaceAll(c.Kind, "_", " ")), esc(c.Subject), num(c.T, 1), esc(size))
 			}
 			sb.WriteString("</ol>")
 		}

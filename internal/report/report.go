@@ -143,9 +143,15 @@ type Cause struct {
 	Kind, Subject string
 	// T is the test statistic (c^T W e)^2 / (c^T W Q_e W c).
 	T float64
-	// Size is the estimated size (c^T W e) / (c^T W Q_e W c) in Unit.
-	Size float64
-	Unit string
+	// Size is the estimated size (c^T W e) / (c^T W Q_e W c) in Unit
+	// (exact for a stiffness change), Std its standard deviation.
+	Size, Std float64
+	Unit      string
+	// Group numbers the separability group from 1 (0: not grouped):
+	// causes of one group cannot be told apart by the gauges.
+	Group int
+	// Implausible marks a size outside its plausible range.
+	Implausible bool
 }
 
 // File names written by Write.

@@ -635,8 +635,13 @@ function drawEvents(evs) {
     if (e.message) html('div', e.message, td);
     if (e.causes.length) {
       const ol = html('ol', null, td);
-      for (const c of e.causes.slice(0, 3)) {
-        html('li', `${c.kind.replace(/_/g, ' ')} ${c.subject}: T = ${fmtNum(c.t, 1)}, size ${fmtSize(c.size, c.unit)}`, ol);
+      for (const c of e.causes.filter((c, i) => i < 3 || c.group === 1)) {
+        // Causes of one group cannot be told apart by the gauges: shown
+        // with their group number, in no order of likelihood.
+        const grp = c.group ? `[group ${c.group}] ` : '';
+        const std = c.std ? ` ± ${fmtSize(c.std, c.unit)}` : '';
+        const odd = c.implausible ? ' (implausible size)' : '';
+        html('li', `${grp}${c.kind.replace(/_/g, ' ')} ${c.subject}: T = ${fmtNum(c.t, 1)}, size ${fmtSize(c.size, c.unit)}${std}${odd}`, ol);
       }
     }
   }

@@ -1,0 +1,422 @@
+package pipeline
+
+// Identification scenarios: faults on gauges, members (determinate and
+// indeterminate panels) and supports of both example structures at 1 s,
+// 10 s and 60 s sampling, through the per-epoch processor, the alarm
+// evaluator with the default rules and the adaptation, as Pipeline.process
+// wires them (minus epoch averaging). Sources, from memory: Baarda (1968)
+// for the w-test, delta0 = 4.13 and the MDB; Teunissen (2000), Testing
+// Theory, for detection-identification-adaptation; Sherman and Morrison
+// (1950) for the exact stiffness size. The true force change of every
+// member comes from the simulator's own re-analysed structure, run twice
+// with the same seed, with and without the fault.
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"sort"
+	"strings"
+	"sync"
+	"testing"
+	"time"
+
+	"trussmonitor/internal/alerts"
+	"trussmonitor/internal/simulate"
+)
+
+// idScenario is one seeded fault scenario.
+type idScenario struct {
+	structure string
+	kind      string // bias, stiffness, settlement, clean
+	target    string // member (bias, stiffness) or support node (settlement)
+	size      float64
+	truth     string // label of the true cause
+	seed      uint64
+	rate      time.Duration
+}
+
+// idOutcome is what a scenario showed.
+type idOutcome struct {
+	sc          idScenario
+	detected    bool
+	delay       time.Duration // from the fault to the first statistical alarm
+	firstGroup  []string      // labels of the first group at that alarm
+	inFirst     bool
+	finalGroup  []string // labels of the first group over the last cause window at the end
+	inFinal     bool
+	raises      int      // statistical alarms raised after the fault
+	early       int      // statistical alarms raised before the fault
+	smear       []string // member alarms on members whose true force change is below half their MDB
+	sizeErr     float64  // stiffness: |estimated - true| in percentage points (NaN: not sized)
+	shifts      int      // load-shift flags at raises
+	adaptedSize string
+}
+
+// idLengths returns the clean lead-in and the faulted length of a
+// scenario at a sampling rate.
+func idLengths(rate time.Duration) (lead, after time.Duration) {
+	switch {
+	case rate <= time.Second:
+		lead, after = 5*time.Minute, 15*time.Minute
+	case rate <= 10*time.Second:
+		lead, after = 20*time.Minute, time.Hour
+	default:
+		lead, after = time.Hour, 3*time.Hour
+	}
+	if scnRace {
+		lead, after = lead/2, after/3
+	}
+	return lead, after
+}
+
+// idDebug logs every alarm event of every scenario.
+const idDebug = false
+
+var statisticalRules = map[string]bool{"MemberDiverging": true, "FitRejected": true, "MemberShifted": true}
+
+// runIdScenario runs one scenario.
+func runIdScenario(t *testing.T, f *scnFixture, sc idScenario) idOutcome {
+	lead, after := idLengths(sc.rate)
+	out := idOutcome{sc: sc, sizeErr: math.NaN()}
+	var faults []string
+	switch sc.kind {
+	case "stiffness":
+		faults = []string{fmt.Sprintf("stiffness:%s:%s:%g", sc.target, lead, sc.size)}
+	case "settlement":
+		faults = []string{fmt.Sprintf("settlement:%s:%s:%g", sc.target, lead, sc.size)}
+	}
+	// The true member forces without the fault, step by step.
+	var clean [][]float64
+	f.run(t, scnOptions(t, sc.seed, lead+after, sc.rate), func(g *simulate.Generator, s simulate.Step, values map[string]float64) {
+		clean = append(clean, append([]float64(nil), s.Truth.Forces...))
+	})
+	p := f.processor(t, ProcessorOptions{})
+	probe := f.processor(t, ProcessorOptions{})
+	rules, err := alerts.DefaultRules()
+	if err != nil {
+		t.Fatal(err)
+	}
+	ev, err := alerts.NewEvaluator(rules, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	gi := scnMemberIndex(p, sc.target)
+	var chans []string
+	var ea, bias float64
+	if sc.kind == "bias" {
+		e, a, _, _ := f.st.MemberProperties(sc.target)
+		ea = e * a
+		chans = f.gaugeChannels(sc.target)
+	}
+	var mdb []float64
+	names := p.Gauged()
+	memberIdx := make([]int, len(names))
+	for i, n := range names {
+		memberIdx[i], _ = f.st.MemberIndex(n)
+	}
+	start := time.Time{}
+	step := 0
+	f.run(t, scnOptions(t, sc.seed, lead+after, sc.rate, faults...), func(g *simulate.Generator, s simulate.Step, values map[string]float64) {
+		if start.IsZero() {
+			start = s.Time
+		}
+		faulted := s.Time.Sub(start) >= lead
+		if mdb == nil {
+			r0 := probe.Process(s.Time, f.sm.Evaluate(values), nil)
+			mdb = make([]float64, len(r0.Members))
+			for i, m := range r0.Members {
+				mdb[i] = m.MDBN
+			}
+			if sc.kind == "bias" {
+				bias = sc.size * mdb[gi]
+			}
+		}
+		if sc.kind == "bias" && faulted {
+			for _, c := range chans {
+				values[c] += bias / ea
+			}
+		}
+		res := p.Process(s.Time, f.sm.Evaluate(values), nil)
+		obs := alerts.Observation{Time: s.Time, Structure: f.st.Name}
+		fitObservation(&obs, res)
+		evs, err := ev.Observe(context.Background(), obs)
+		if err != nil {
+			t.Fatal(err)
+		}
+		res.Events = evs
+		res.Active = ev.Active(f.st.Name)
+		if idDebug {
+			for _, e := range evs {
+				t.Logf("+%s %s %s %s value %.3g n %d adapted %v", s.Time.Sub(start)-lead, e.Kind, e.Rule, e.Subject, e.Evidence.Value, e.Evidence.Epochs, p.Adapted())
+			}
+		}
+		for _, e := range evs {
+			if e.Kind != alerts.Raised || !statisticalRules[e.Rule] {
+				continue
+			}
+			if !faulted {
+				out.early++
+				continue
+			}
+			out.raises++
+			if e.Rule == "MemberDiverging" || e.Rule == "MemberShifted" {
+				// The true force change of the alarmed member.
+				// The true change of what the member's gauges read: the
+				// force, or for the member that lost stiffness its strain
+				// times the nominal E A, N' / (1 - loss).
+				k := indexOf(names, e.Subject)
+				read := s.Truth.Forces[memberIdx[k]]
+				if sc.kind == "stiffness" && e.Subject == sc.target {
+					read /= 1 - sc.size
+				}
+				change := read - clean[step][memberIdx[k]]
+				own := sc.kind == "bias" && e.Subject == sc.target
+				if !own && math.Abs(change) < 0.5*mdb[k] {
+					out.smear = append(out.smear, fmt.Sprintf("%s %s at +%s (true change %.0f N, MDB %.0f N)", e.Rule, e.Subject, s.Time.Sub(start)-lead, change, mdb[k]))
+				}
+			}
+			if !out.detected && (e.Rule == "MemberDiverging" || e.Rule == "FitRejected") {
+				out.detected = true
+				out.delay = s.Time.Sub(start) - lead
+				causes := res.Causes
+				if len(causes) == 0 {
+					causes = p.RecentCauses()
+				}
+				for _, c := range causes {
+					if c.Group == 1 {
+						out.firstGroup = append(out.firstGroup, c.Label)
+						if c.Label == sc.truth {
+							out.inFirst = true
+						}
+					}
+				}
+			}
+		}
+		adaptAfter(p, res)
+		if len(res.LoadShifts) > 0 {
+			out.shifts++
+		}
+		if res.Adapted != nil && len(res.Adapted.Hypotheses) > 0 {
+			h := res.Adapted.Hypotheses[0]
+			out.adaptedSize = fmt.Sprintf("%s %.3g±%.2g %s", h.Label, h.Size, h.Std, h.Unit)
+		}
+		step++
+	})
+	if out.detected {
+		for _, c := range p.WindowCauses() {
+			if c.Group == 1 {
+				out.finalGroup = append(out.finalGroup, c.Label)
+				if c.Label == sc.truth {
+					out.inFinal = true
+				}
+			}
+			if sc.kind == "stiffness" && c.Label == sc.truth {
+				out.sizeErr = math.Abs(c.Size - (-100 * sc.size))
+			}
+		}
+	}
+	return out
+}
+
+// idScenarios lists the scenarios: per structure, faults at every rate,
+// each with its own seed.
+func idScenarios() []idScenario {
+	type fault struct {
+		structure, kind, target string
+		size                    float64
+		truth                   string
+	}
+	faults := []fault{
+		{"footbridge", "bias", "B4", 1, "gauge B4"},         // X-braced panel, quarter bridges
+		{"footbridge", "bias", "D6", 1, "gauge D6"},         // determinate panel, half bridges
+		{"footbridge", "bias", "T4", 2, "gauge T4"},         // vibrating wire
+		{"footbridge", "stiffness", "D2", 0.3, "E A of D2"}, // gauged diagonal of a determinate panel
+		{"footbridge", "stiffness", "D7", 0.3, "E A of D7"}, // the same on the other half
+		{"footbridge", "settlement", "L8", 0.005, "settlement L8 y"},
+		{"footbridge", "clean", "", 0, ""},
+		{"roof", "bias", "BY4_2", 1, "gauge BY4_2"},
+		{"roof", "bias", "TX4_3", 1, "gauge TX4_3"},
+		{"roof", "stiffness", "TY4_3", 0.3, "E A of TY4_3"}, // a top chord of the grid (indeterminate)
+		{"roof", "settlement", "T8_0", 0.005, "settlement T8_0 z"},
+		{"roof", "clean", "", 0, ""},
+		{"footbridge", "stiffness", "D2", 0.3, "E A of D2"}, // a second seed
+		{"footbridge", "bias", "V1", 1, "gauge V1"},
+	}
+	var out []idScenario
+	seed := uint64(800)
+	for _, fa := range faults {
+		for _, rate := range []time.Duration{time.Second, 10 * time.Second, time.Minute} {
+			seed++
+			out = append(out, idScenario{structure: fa.structure, kind: fa.kind, target: fa.target, size: fa.size, truth: fa.truth, seed: seed, rate: rate})
+		}
+	}
+	return out
+}
+
+// TestScenarioIdentification runs every scenario and checks the figures of
+// the issue: the true cause in the first group in at least 95 % of the
+// detected faults; a 30 % stiffness loss sized within 3 percentage points;
+// no member alarm on a member whose true force change is below half its
+// MDB; at most 2 raises per fault; a bias of 1 MDB alarmed within 10
+// minutes at every rate; no statistical alarm on clean data. The table of
+// figures is logged (and copied into the README).
+func TestScenarioIdentification(t *testing.T) {
+	t.Parallel()
+	all := idScenarios()
+	if scnRace {
+		var sub []idScenario
+		for i, sc := range all {
+			if i%4 == 0 {
+				sub = append(sub, sc)
+			}
+		}
+		all = sub
+	}
+	fixtures := map[string]*scnFixture{}
+	for _, name := range []string{"footbridge", "roof"} {
+		fixtures[name] = loadScnFixture(t, name)
+	}
+	var mu sync.Mutex
+	var outs []idOutcome
+	t.Run("run", func(t *testing.T) {
+		for _, sc := range all {
+			t.Run(fmt.Sprintf("%s/%s-%s/%s/%d", sc.structure, sc.kind, sc.target, sc.rate, sc.seed), func(t *testing.T) {
+				t.Parallel()
+				o := runIdScenario(t, fixtures[sc.structure], sc)
+				mu.Lock()
+				outs = append(outs, o)
+				mu.Unlock()
+			})
+		}
+	})
+	sort.Slice(outs, func(i, j int) bool { return outs[i].sc.seed < outs[j].sc.seed })
+	var table strings.Builder
+	table.WriteString("| structure | fault | rate | detected after | first group at the alarm | true cause in it | in the first group at the end | raises | early | smeared member alarms | stiffness size error |\n|---|---|---|---|---|---|---|---|---|---|---|\n")
+	var detected, hits, finalHits, faultsN, smeared, tooMany, slowBias, cleanAlarms, sized, badSize int
+	for _, o := range outs {
+		sc := o.sc
+		fault := sc.kind
+		if sc.target != "" {
+			fault += " " + sc.target
+		}
+		if sc.kind == "bias" {
+			fault += fmt.Sprintf(" %g MDB", sc.size)
+		}
+		det := "-"
+		if o.detected {
+			det = o.delay.String()
+		}
+		size := "-"
+		if !math.IsNaN(o.sizeErr) {
+			size = fmt.Sprintf("%.2f pp", o.sizeErr)
+		}
+		fmt.Fprintf(&table, "| %s | %s | %s | %s | %s | %v | %v | %d | %d | %d | %s |\n", sc.structure, fault, sc.rate, det,
+			strings.Join(o.firstGroup, " or "), o.inFirst, o.inFinal, o.raises, o.early, len(o.smear), size)
+		for _, s := range o.smear {
+			t.Logf("seed %d: smeared: %s", sc.seed, s)
+		}
+		if sc.kind == "clean" {
+			cleanAlarms += o.raises + o.early
+			continue
+		}
+		faultsN++
+		cleanAlarms += o.early
+		smeared += len(o.smear)
+		if o.raises > 2 {
+			tooMany++
+		}
+		if o.detected {
+			detected++
+			if o.inFirst {
+				hits++
+			}
+			if o.inFinal {
+				finalHits++
+			}
+		}
+		if sc.kind == "bias" && sc.size == 1 && (!o.detected || o.delay > 10*time.Minute) {
+			slowBias++
+		}
+		if sc.kind == "stiffness" && !math.IsNaN(o.sizeErr) {
+			sized++
+			if o.sizeErr > 3 {
+				badSize++
+			}
+		}
+	}
+	t.Logf("%d scenarios (%d faults): detected %d, true cause in the first group %d of %d at the alarm, %d of %d over the last cause window at the end; stiffness sized %d (off by more than 3 pp: %d); smeared member alarms %d; faults with more than 2 raises %d; 1 MDB biases not alarmed within 10 min %d; alarms on clean data or before the fault %d\n%s",
+		len(outs), faultsN, detected, hits, detected, finalHits, detected, sized, badSize, smeared, tooMany, slowBias, cleanAlarms, table.String())
+	if detected == 0 || float64(finalHits) < 0.95*float64(detected) {
+		t.Errorf("true cause in the first group (at the end, over the cause window) in %d of %d detected faults; want at least 95 %%", finalHits, detected)
+	}
+	if badSize > 0 {
+		t.Errorf("%d stiffness losses sized more than 3 percentage points off", badSize)
+	}
+	if smeared > 0 {
+		t.Errorf("%d member alarms on members whose true force change is below half their MDB", smeared)
+	}
+	if tooMany > 0 {
+		t.Errorf("%d faults raised more than 2 alarms", tooMany)
+	}
+	if slowBias > 0 {
+		t.Errorf("%d biases of 1 MDB not alarmed within 10 minutes", slowBias)
+	}
+	if cleanAlarms > 0 {
+		t.Errorf("%d statistical alarms on clean data", cleanAlarms)
+	}
+}
+
+// TestScenarioCleanAlarms: 30 simulated days of clean data on each example
+// structure (10-minute epochs; 5 days under the race detector) through the
+// processor, the default rules and the adaptation, as in
+// TestScenarioIdentification. The statistical rules' false-alarm
+// probability per evaluation and subject is at most alerts.MeanFalseAlarm
+// = 1e-7 (see alerts.MeanThreshold), so over 4320 evaluations of about 20
+// members the expected count is below 0.01; the issue's bound is 1 alarm
+// per 30 structure-days, here at most 1 per structure.
+func TestScenarioCleanAlarms(t *testing.T) {
+	t.Parallel()
+	days := 30
+	if scnRace {
+		days = 5
+	}
+	for i, name := range []string{"footbridge", "roof"} {
+		t.Run(name, func(t *testing.T) {
+			t.Parallel()
+			f := loadScnFixture(t, name)
+			p := f.processor(t, ProcessorOptions{})
+			rules, err := alerts.DefaultRules()
+			if err != nil {
+				t.Fatal(err)
+			}
+			ev, err := alerts.NewEvaluator(rules, nil)
+			if err != nil {
+				t.Fatal(err)
+			}
+			var raised []string
+			n := 0
+			f.run(t, scnOptions(t, uint64(900+i), time.Duration(days)*24*time.Hour, 10*time.Minute), func(g *simulate.Generator, s simulate.Step, values map[string]float64) {
+				res := p.Process(s.Time, f.sm.Evaluate(values), nil)
+				obs := alerts.Observation{Time: s.Time, Structure: f.st.Name}
+				fitObservation(&obs, res)
+				evs, err := ev.Observe(context.Background(), obs)
+				if err != nil {
+					t.Fatal(err)
+				}
+				res.Events, res.Active = evs, ev.Active(f.st.Name)
+				for _, e := range evs {
+					if e.Kind == alerts.Raised && statisticalRules[e.Rule] {
+						raised = append(raised, fmt.Sprintf("%s %s %s (value %.3g over %d epochs)", s.Time.Format(time.RFC3339), e.Rule, e.Subject, e.Evidence.Value, e.Evidence.Epochs))
+					}
+				}
+				adaptAfter(p, res)
+				n++
+			})
+			t.Logf("%s: %d epochs over %d days, %d statistical alarms %v", name, n, days, len(raised), raised)
+			if len(raised) > 1 {
+				t.Errorf("%s: %d statistical alarms in %d clean days; want at most 1 per 30 structure-days", name, len(raised), days)
+			}
+		})
+	}
+}

@@ -1,0 +1,99 @@
+package reconcile
+
+import (
+	"fmt"
+	"time"
+)
+
+// RecentRanker sums the cause statistics of the epochs of the last
+// duration D (for example the for-duration of the alarms), so that the
+// causes reported when an alarm rises are estimated over the epochs the
+// alarm's decision rests on: with n_k = c_k^T W e_k and d_k = c_k^T W Q_e,k
+// W c_k summed over those epochs, T = (sum n_k)^2 / (sum d_k) is
+// chi-square(1) without the cause and size = (sum n_k) / (sum d_k) is the
+// least-squares estimate of a constant size (as WindowRanker, but over a
+// time span). The sums are formed afresh, oldest epoch first, when asked
+// for (no running sums), so that a replay of the same epochs gives the same
+// numbers to the last bit.
+// RecentRanker is not safe for concurrent use.
+type RecentRanker struct {
+	d     time.Duration
+	index map[string]int
+	proto []Cause // one per label: kind, label and constants
+	queue []recentEpoch
+}
+
+type recentEpoch struct {
+	t              time.Time
+	idx            []int
+	num, den, sig2 []float64
+}
+
+// NewRecentRanker returns a ranker over the epochs of the last d.
+func NewRecentRanker(d time.Duration) (*RecentRanker, error) {
+	if d <= 0 {
+		return nil, fmt.Errorf("reconcile: cause span %v; want positive", d)
+	}
+	return &RecentRanker{d: d, index: map[string]int{}}, nil
+}
+
+// Add records the causes of the epoch at t (as Identification.Causes) and
+// forgets the epochs before t - D. Epochs must come in time order.
+func (r *RecentRanker) Add(t time.Time, causes []Cause) {
+	e := recentEpoch{t: t, idx: make([]int, len(causes)), num: make([]float64, len(causes)),
+		den: make([]float64, len(causes)), sig2: make([]float64, len(causes))}
+	for i, c := range causes {
+		k, ok := r.index[c.Label]
+		if !ok {
+			k = len(r.proto)
+			r.index[c.Label] = k
+			r.proto = append(r.proto, c)
+		}
+		e.idx[i], e.num[i], e.den[i], e.sig2[i] = k, c.Num, c.Den, c.sig2
+	}
+	r.queue = append(r.queue, e)
+	from := t.Add(-r.d)
+	drop := 0
+	for drop < len(r.queue) && r.queue[drop].t.Before(from) {
+		drop++
+	}
+	if drop > 0 {
+		r.queue = append(r.queue[:0], r.queue[drop:]...)
+	}
+}
+
+// Reset forgets every epoch.
+func (r *RecentRanker) Reset() {
+	*r = RecentRanker{d: r.d, index: map[string]int{}}
+}
+
+// Epochs returns the number of epochs held.
+func (r *RecentRanker) Epochs() int { return len(r.queue) }
+
+// Causes returns the summed statistics of every candidate seen in the
+// held epochs, in first-seen order (group them with
+// Identification.Groups).
+func (r *RecentRanker) Causes() []Cause {
+	n := len(r.proto)
+	num, den, sig2 := make([]float64, n), make([]float64, n), make([]float64, n)
+	count := make([]int, n)
+	for _, e := range r.queue {
+		for i, k := range e.idx {
+			num[k] += e.num[i]
+			den[k] += e.den[i]
+			sig2[k] += e.sig2[i]
+			count[k]++
+		}
+	}
+	out := make([]Cause, 0, n)
+	for k, p := range r.proto {
+		if count[k] == 0 {
+			continue
+		}
+		c := finishCause(p.Kind, p.Label, num[k], den[k], sig2[k], count[k])
+		c.info = p.info
+		c.finishSizes()
+		out = append(out, c)
+	}
+	return out
+}
