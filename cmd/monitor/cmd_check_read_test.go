@@ -144,7 +144,7 @@ func TestMechanismMessages(t *testing.T) {
 	path := writeTemp(t, "chain.yaml", b.String())
 	code, out, errs := runModelCmd(t, runCheck, path)
 	if code == 0 {
-		t.Fatalf("mechanism accepted:\n%s", out)
+		t.Fatalf("mechanism accepted:\n%s\n%s", out, errs)
 	}
 	if !strings.Contains(out, "free motion 1:") || !regexp.MustCompile(` moves \(-?1, 0\)`).MatchString(out) || strings.Contains(out, "1, 0, 0)") {
 		t.Errorf("free motion output (want two components per node):\n%s", out)

@@ -27,15 +27,6 @@ func (w *bitWriter) write(v uint64, n uint) {
 	}
 }
 
-// bit appends one bit.
-func (w *bitWriter) bit(b bool) {
-	if b {
-		w.write(1, 1)
-	} else {
-		w.write(0, 1)
-	}
-}
-
 // bitReader reads bits written by bitWriter.
 type bitReader struct {
 	buf []byte

@@ -132,12 +132,12 @@ func TestKillIngestMidStream(t *testing.T) {
 		}
 		pubDone <- nil
 	}()
-	atKill := waitCount(t, st, "alder-creek", n/3, 60*time.Second)
+	waitCount(t, st, "alder-creek", n/3, 60*time.Second)
 	if err := c1.cmd.Process.Signal(syscall.SIGKILL); err != nil {
 		t.Fatal(err)
 	}
 	c1.cmd.Wait()
-	atKill, _ = st.CountReadings(context.Background(), "alder-creek", time.Time{}, time.Time{})
+	atKill, _ := st.CountReadings(context.Background(), "alder-creek", time.Time{}, time.Time{})
 	sentAtKill := sent.Load()
 	time.Sleep(500 * time.Millisecond) // the stream goes on while no ingest runs
 
@@ -145,7 +145,7 @@ func TestKillIngestMidStream(t *testing.T) {
 	if err := <-pubDone; err != nil {
 		t.Fatal(err)
 	}
-	got := waitCount(t, st, "alder-creek", n, 60*time.Second)
+	waitCount(t, st, "alder-creek", n, 60*time.Second)
 	time.Sleep(300 * time.Millisecond)
 	c2.cmd.Process.Signal(syscall.SIGTERM)
 	var stats Stats
@@ -155,7 +155,7 @@ func TestKillIngestMidStream(t *testing.T) {
 		t.Fatal("restarted ingest did not report its stats after SIGTERM")
 	}
 	c2.cmd.Wait()
-	got, _ = st.CountReadings(context.Background(), "alder-creek", time.Time{}, time.Time{})
+	got, _ := st.CountReadings(context.Background(), "alder-creek", time.Time{}, time.Time{})
 	if got != n {
 		dl, _ := st.CountDeadLetters(context.Background())
 		t.Errorf("stored %d readings, want %d; %d sent and %d stored at the kill; broker dropped %d; restarted stats %+v; dead letters %v", got, n, sentAtKill, atKill, b.Dropped(), stats, dl)
@@ -210,12 +210,12 @@ func TestMosquittoRestartMidStream(t *testing.T) {
 	if err := <-pubDone; err != nil {
 		t.Fatal(err)
 	}
-	got := waitCount(t, st, "alder-creek", n, 60*time.Second)
+	waitCount(t, st, "alder-creek", n, 60*time.Second)
 	time.Sleep(300 * time.Millisecond)
 	if err := stop(); err != nil {
 		t.Fatal(err)
 	}
-	got, _ = st.CountReadings(context.Background(), "alder-creek", time.Time{}, time.Time{})
+	got, _ := st.CountReadings(context.Background(), "alder-creek", time.Time{}, time.Time{})
 	stats := in.Stats()
 	if got != n {
 		b, _ := os.ReadFile(m.log)

@@ -145,12 +145,12 @@ func TestEndToEnd(t *testing.T) {
 				t.Fatal(err)
 			}
 			want := int64(n + packs*10)
-			got := waitCount(t, st, "alder-creek", want, 60*time.Second)
+			waitCount(t, st, "alder-creek", want, 60*time.Second)
 			time.Sleep(200 * time.Millisecond)
 			if err := stop(); err != nil {
 				t.Fatal(err)
 			}
-			got, _ = st.CountReadings(context.Background(), "alder-creek", time.Time{}, time.Time{})
+			got, _ := st.CountReadings(context.Background(), "alder-creek", time.Time{}, time.Time{})
 			if got != want {
 				t.Fatalf("stored %d readings, want %d", got, want)
 			}

@@ -2,7 +2,6 @@ package pipeline
 
 import (
 	"math"
-	"sort"
 
 	"gonum.org/v1/gonum/mat"
 
@@ -231,15 +230,5 @@ func convertGroups(groups []reconcile.Group, subjects map[string]string, maxGrou
 			})
 		}
 	}
-	return out
-}
-
-// sortedLabels returns the labels of a group, sorted.
-func sortedLabels(cs []reconcile.Cause) []string {
-	out := make([]string, len(cs))
-	for i, c := range cs {
-		out[i] = c.Label
-	}
-	sort.Strings(out)
 	return out
 }

@@ -21,8 +21,7 @@ func (id *Identification) DesignGroups() (groups [][]Cause, untestable []string)
 	for i := range parent {
 		parent[i] = i
 	}
-	var find func(int) int
-	find = func(i int) int {
+	find := func(i int) int {
 		for parent[i] != i {
 			parent[i] = parent[parent[i]]
 			i = parent[i]

@@ -572,7 +572,7 @@ func (s *Solver) apply(dst *Result, pl *plan, y, yhat []float64) {
 	// Whitened residual rw_k = (y_i - yhat_i) / sigma_i, kept in dst.ew at
 	// member index for now; qtr = Q^T rw.
 	var qtrBuf [8]float64
-	qtr := qtrBuf[:0]
+	var qtr []float64
 	if pe <= len(qtrBuf) {
 		qtr = qtrBuf[:pe]
 	} else {

@@ -459,23 +459,3 @@ func (s *Store) pruneBlocks(ctx context.Context, ch, ts int64) (int64, error) {
 	}
 	return n, nil
 }
-
-// lastBlockTimes returns, per channel id of structure, the time of the
-// latest block reading.
-func (s *Store) lastBlockTimes(ctx context.Context, structure string) (map[int64]int64, error) {
-	rows, err := s.db.QueryContext(ctx,
-		`SELECT channel, max(last) FROM reading_blocks WHERE channel IN (SELECT id FROM channels WHERE structure = ?) GROUP BY channel`, structure)
-	if err != nil {
-		return nil, fmt.Errorf("store: last block readings of %q: %w", structure, err)
-	}
-	defer rows.Close()
-	out := map[int64]int64{}
-	for rows.Next() {
-		var ch, last int64
-		if err := rows.Scan(&ch, &last); err != nil {
-			return nil, fmt.Errorf("store: last block readings of %q: %w", structure, err)
-		}
-		out[ch] = last
-	}
-	return out, rows.Err()
-}
