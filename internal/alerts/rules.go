@@ -381,3 +381,23 @@ func DefaultRules() ([]Rule, error) {
 	}
 	return rules, nil
 }
+
+// GlobalTestSize returns the size (false-alarm probability) alpha of the
+// global test that the FitRejected rule among rules applies to one epoch:
+// its p-value threshold, or for the normal score of the chi-square
+// statistic (SignalFitZ) the upper tail beyond its threshold,
+// 1 - Phi(Raise). Without such a rule it is reconcile.DefaultAlphaGlobal.
+func GlobalTestSize(rules []Rule) float64 {
+	for _, r := range rules {
+		if r.Name != RuleFitRejected {
+			continue
+		}
+		switch r.Signal {
+		case SignalPValue:
+			return r.Raise
+		case SignalFitZ:
+			return distuv.UnitNormal.Survival(r.Raise)
+		}
+	}
+	return reconcile.DefaultAlphaGlobal
+}

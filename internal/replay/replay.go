@@ -25,7 +25,6 @@ import (
 	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/model"
 	"trussmonitor/internal/pipeline"
-	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/report"
 	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/settings"
@@ -223,7 +222,7 @@ func Run(ctx context.Context, opt Options) (*Summary, error) {
 	rep.ModelVersion = mdl.hash
 	rep.From, rep.To = sum.From, sum.To
 	rep.CriticalValue = proc.Critical()
-	rep.Alpha = alphaGlobal(opt.Rules)
+	rep.Alpha = alerts.GlobalTestSize(opt.Rules)
 	rep.Caution = report.Caution
 	rep.MemberSummaries = col.totals.summaries(proc.Resistances())
 	if mdl.st.Design != nil {
@@ -297,17 +296,6 @@ func (opt *Options) check() error {
 		opt.Batch = DefaultBatch
 	}
 	return nil
-}
-
-// alphaGlobal is the global test size of the FitRejected rule, or the
-// reconcile default.
-func alphaGlobal(rules []alerts.Rule) float64 {
-	for _, r := range rules {
-		if r.Name == alerts.RuleFitRejected {
-			return r.Raise
-		}
-	}
-	return reconcile.DefaultAlphaGlobal
 }
 
 // feed reads the stored readings in time order on one goroutine and hands

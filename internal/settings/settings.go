@@ -15,7 +15,6 @@ import (
 
 	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/config"
-	"trussmonitor/internal/reconcile"
 )
 
 // Settings are the computing and alarming settings of one configuration.
@@ -26,8 +25,8 @@ type Settings struct {
 	// missing in an epoch into an unknown to estimate (false: skip the
 	// epoch).
 	EstimateMissingLoads bool
-	// AlphaGlobal is the size of the global chi-square test: the raise
-	// threshold of the FitRejected rule.
+	// AlphaGlobal is the size of the global chi-square test that the
+	// FitRejected rule applies to one epoch (alerts.GlobalTestSize).
 	AlphaGlobal float64
 	// Rules are the alarm rules with the configuration's limits applied.
 	Rules []alerts.Rule
@@ -74,13 +73,8 @@ func FromConfig(c *config.Config) (Settings, error) {
 		Window:               c.Epochs.Window.D(),
 		MaxLateness:          c.Epochs.MaxLateness.D(),
 		EstimateMissingLoads: c.Epochs.MissingLoad == "estimate",
-		AlphaGlobal:          reconcile.DefaultAlphaGlobal,
 		Rules:                rules,
 	}
-	for _, r := range rules {
-		if r.Name == alerts.RuleFitRejected {
-			s.AlphaGlobal = r.Raise
-		}
-	}
+	s.AlphaGlobal = alerts.GlobalTestSize(rules)
 	return s, nil
 }

@@ -65,8 +65,8 @@ func TestFromConfigAppliesLimits(t *testing.T) {
 			if rej.Raise != tc.wantRejects || rej.Clear != tc.wantClear {
 				t.Errorf("IngestRejects raise %v clear %v, want %v and %v", rej.Raise, rej.Clear, tc.wantRejects, tc.wantClear)
 			}
-			if s.AlphaGlobal != ruleByName(t, s.Rules, alerts.RuleFitRejected).Raise {
-				t.Errorf("alpha %v is not the FitRejected threshold", s.AlphaGlobal)
+			if s.AlphaGlobal != alerts.GlobalTestSize(s.Rules) {
+				t.Errorf("alpha %v is not the size of the FitRejected rule's test", s.AlphaGlobal)
 			}
 		})
 	}
@@ -129,5 +129,19 @@ func TestDeployedRulesUpToDate(t *testing.T) {
 		if out, err := exec.Command(bin, "check", "rules", f).CombinedOutput(); err != nil {
 			t.Errorf("promtool check rules %s: %v\n%s", f, err, out)
 		}
+	}
+}
+
+// TestAlphaIsAProbability: the global test size shown beside the chi-square
+// test is a probability, 0.001 for the default rules (the one-sided upper
+// tail of the FitRejected rule's normal-score threshold; it read 3.09,
+// the threshold itself, on the dashboard before).
+func TestAlphaIsAProbability(t *testing.T) {
+	s, err := Defaults()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if d := s.AlphaGlobal - 0.001; d > 1e-12 || d < -1e-12 {
+		t.Errorf("alpha %v, want 0.001", s.AlphaGlobal)
 	}
 }
