@@ -8,8 +8,6 @@ import (
 	"io"
 	"math"
 	"os"
-	"sort"
-	"strings"
 	"text/tabwriter"
 	"time"
 
@@ -48,31 +46,7 @@ func runFatigue(ctx context.Context, args []string, stdout, stderr io.Writer) in
 		}
 		return 2
 	}
-	var problems []string
-	if fs.NArg() > 0 {
-		problems = append(problems, fmt.Sprintf("unexpected argument %q (all inputs are flags)", fs.Arg(0)))
-	}
-	var missing []string
-	for name, v := range map[string]string{"--db": *dbPath, "--from": *fromText, "--to": *toText, "--sensors": *sensorPath} {
-		if v == "" {
-			missing = append(missing, name)
-		}
-	}
-	sort.Strings(missing)
-	if len(missing) > 0 {
-		problems = append(problems, "missing "+strings.Join(missing, ", "))
-	}
-	from, err := parseReplayTime("--from", *fromText)
-	if err != nil {
-		problems = append(problems, err.Error())
-	}
-	to, err := parseReplayTime("--to", *toText)
-	if err != nil {
-		problems = append(problems, err.Error())
-	}
-	if !from.IsZero() && !to.IsZero() && !to.After(from) {
-		problems = append(problems, fmt.Sprintf("--to %s is not after --from %s; the period is [from, to)", *toText, *fromText))
-	}
+	from, to, problems := periodFlags(fs, map[string]string{"--db": *dbPath, "--from": *fromText, "--to": *toText, "--sensors": *sensorPath}, *fromText, *toText)
 	if len(problems) > 0 {
 		for _, p := range problems {
 			fmt.Fprintf(stderr, "monitor fatigue: %s\n", p)

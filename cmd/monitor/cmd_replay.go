@@ -57,31 +57,7 @@ func runReplay(ctx context.Context, args []string, stdout, stderr io.Writer) int
 		}
 		return 2
 	}
-	var problems []string
-	if fs.NArg() > 0 {
-		problems = append(problems, fmt.Sprintf("unexpected argument %q (all inputs are flags)", fs.Arg(0)))
-	}
-	var missing []string
-	for name, v := range map[string]string{"--db": *dbPath, "--from": *fromText, "--to": *toText, "--sensors": *sensorPath} {
-		if v == "" {
-			missing = append(missing, name)
-		}
-	}
-	sort.Strings(missing)
-	if len(missing) > 0 {
-		problems = append(problems, "missing "+strings.Join(missing, ", "))
-	}
-	from, err := parseReplayTime("--from", *fromText)
-	if err != nil {
-		problems = append(problems, err.Error())
-	}
-	to, err := parseReplayTime("--to", *toText)
-	if err != nil {
-		problems = append(problems, err.Error())
-	}
-	if !from.IsZero() && !to.IsZero() && !to.After(from) {
-		problems = append(problems, fmt.Sprintf("--to %s is not after --from %s; the period is [from, to)", *toText, *fromText))
-	}
+	from, to, problems := periodFlags(fs, map[string]string{"--db": *dbPath, "--from": *fromText, "--to": *toText, "--sensors": *sensorPath}, *fromText, *toText)
 	if *window <= 0 {
 		problems = append(problems, fmt.Sprintf("--window %v: give a positive duration such as 1s or 60s", *window))
 	}

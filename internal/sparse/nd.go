@@ -278,20 +278,7 @@ func (d *dissector) newLabel(vs []int32) int32 {
 // breadth-first order, with d.level set to their levels (reset by the
 // caller through resetLevels).
 func (d *dissector) bfs(root int32, id int32) []int32 {
-	g := d.g
-	q := d.queue[:0]
-	q = append(q, root)
-	d.level[root] = 0
-	for h := 0; h < len(q); h++ {
-		v := q[h]
-		for _, w := range g.adj[g.xadj[v]:g.xadj[v+1]] {
-			if d.label[w] == id && d.level[w] < 0 {
-				d.level[w] = d.level[v] + 1
-				q = append(q, w)
-			}
-		}
-	}
-	d.queue = q
+	q := d.levels(root, id)
 	out := append([]int32(nil), q...)
 	for _, v := range q {
 		d.level[v] = -1
