@@ -98,7 +98,10 @@ type Summary struct {
 	// events (raised and cleared).
 	Raised map[string]int
 	Events int
-	// Report is the report (also when OutDir is empty).
+	// Report is the report (also when OutDir is empty) without its
+	// epochs: they were streamed to epochs.csv as they came and are not
+	// kept (Report.Epochs is empty), so that memory does not grow with
+	// the period.
 	Report *report.Report
 	// OutDir is the folder written ("" when none).
 	OutDir string
