@@ -5,6 +5,10 @@ import (
 	"flag"
 	"os"
 	"path/filepath"
+	"runtime"
+	"runtime/debug"
+	"strconv"
+	"strings"
 	"sync"
 	"syscall"
 	"testing"
@@ -132,7 +136,10 @@ func generateDay(hours int, fault bool, sensorsPath string) (string, int64, erro
 // stiffness loss of D2 half-way (every epoch after it is rejected and
 // ranks causes over the window), and "intact" without a fault.
 // Target (issue): 8.64 million readings (100 channels for a day at 1 Hz) in
-// under a minute on two cores, >= 144,000 readings/s.
+// under a minute on two cores, >= 144,000 readings/s. It also reports the
+// replay's peak heap (HeapInuse sampled every 10 ms) and peak RSS, which
+// stay flat in the period (issue 14: under 200 MB for any period; run
+// -bench-hours 720 for 30 days).
 func BenchmarkReplayDay(b *testing.B) {
 	b.Run("d2-loss", func(b *testing.B) { benchReplay(b, &benchStores.fault, true, sensorsFile) })
 	b.Run("intact", func(b *testing.B) { benchReplay(b, &benchStores.intact, false, sensorsFile) })
@@ -156,6 +163,13 @@ func benchReplay(b *testing.B, bs *benchStore, fault bool, sensorsPath string) {
 		DB: bs.path, From: from, To: from.Add(time.Duration(*benchHours) * time.Hour),
 		SensorsFile: sensorsPath, OutDir: b.TempDir(),
 	}
+	// Peak memory of the replay alone: the heap in use sampled every 10 ms
+	// (runtime.ReadMemStats), and the process's peak resident set (VmHWM)
+	// after resetting it (clear_refs 5) once the store is generated.
+	runtime.GC()
+	debug.FreeOSMemory()
+	rssReset := os.WriteFile("/proc/self/clear_refs", []byte("5"), 0) == nil
+	stop, peakHeap := sampleHeap()
 	cpu0 := cpuTime()
 	b.ResetTimer()
 	var sum *replay.Summary
@@ -167,6 +181,11 @@ func benchReplay(b *testing.B, bs *benchStore, fault bool, sensorsPath string) {
 	}
 	b.StopTimer()
 	cpu := cpuTime() - cpu0
+	stop()
+	b.ReportMetric(float64(*peakHeap)/(1<<20), "peak-heap-MB")
+	if hwm, ok := peakRSS(); ok && rssReset {
+		b.ReportMetric(float64(hwm)/(1<<20), "peak-rss-MB")
+	}
 	b.ReportMetric(float64(sum.Readings)*float64(b.N)/b.Elapsed().Seconds(), "readings/s")
 	// The machine is shared: CPU time per reading is the steadier figure
 	// (user + system time of the whole process, both goroutines and GC).
@@ -181,4 +200,46 @@ func cpuTime() time.Duration {
 		return 0
 	}
 	return time.Duration(ru.Utime.Nano() + ru.Stime.Nano())
+}
+
+// sampleHeap samples HeapInuse every 10 ms until stop is called and keeps
+// the largest value.
+func sampleHeap() (stop func(), peak *uint64) {
+	peak = new(uint64)
+	done := make(chan struct{})
+	finished := make(chan struct{})
+	go func() {
+		defer close(finished)
+		tick := time.NewTicker(10 * time.Millisecond)
+		defer tick.Stop()
+		var ms runtime.MemStats
+		for {
+			runtime.ReadMemStats(&ms)
+			if ms.HeapInuse > *peak {
+				*peak = ms.HeapInuse
+			}
+			select {
+			case <-done:
+				return
+			case <-tick.C:
+			}
+		}
+	}()
+	return func() { close(done); <-finished }, peak
+}
+
+// peakRSS returns the process's peak resident set size (VmHWM of
+// /proc/self/status) in bytes.
+func peakRSS() (uint64, bool) {
+	data, err := os.ReadFile("/proc/self/status")
+	if err != nil {
+		return 0, false
+	}
+	for _, line := range strings.Split(string(data), "\n") {
+		if f := strings.Fields(line); len(f) >= 2 && f[0] == "VmHWM:" {
+			kb, err := strconv.ParseUint(f[1], 10, 64)
+			return kb << 10, err == nil
+		}
+	}
+	return 0, false
 }

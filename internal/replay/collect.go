@@ -1,36 +1,75 @@
 package replay
 
 import (
+	"fmt"
 	"math"
 	"sort"
 	"strings"
-	"time"
 
 	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/pipeline"
 	"trussmonitor/internal/report"
+	"trussmonitor/internal/sensors"
 )
 
-// collector is the pipeline sink of a replay: it keeps every fitted
-// epoch and every alarm event, in the pipeline's order, for the report.
+// collector is the pipeline sink of a replay: it hands every fitted
+// epoch to the report's stream as it comes (epochs.csv row by row, the
+// plots as bounded summaries) and keeps only what does not grow with the
+// period's length: the alarm events (few), the pipeline's cause subjects,
+// every member's running totals and which pattern columns were used.
 // Nothing measured on the wall clock (Result.Took) is kept.
 type collector struct {
-	epochs   []epochRow
+	stream   *report.Stream
 	events   []alerts.Event
 	subjects map[string]string // cause label -> subject, from the pipeline's causes
 	totals   memberTotals      // every member's total state (members.go)
-}
-
-// epochRow is one fitted epoch before the report's columns are fixed.
-type epochRow struct {
-	time    time.Time
+	// col maps a load pattern to its report column; scale is the column's
+	// reference load (1: a bare factor); used marks the columns some
+	// epoch gave an estimate (estimable or not) for.
+	col   map[string]int
+	scale []float64
+	used  []bool
+	// members and loads are the row buffers handed to the stream.
 	members []report.MemberResult
-	fit     report.Fit
-	loads   []pipeline.LoadEstimate
+	loads   []report.LoadEstimate
+	err     error
 }
 
-func newCollector() *collector {
-	return &collector{subjects: map[string]string{}}
+// reportPatterns is the report's pattern column order: the structure's
+// unknown patterns, then (when missing loads are estimated) every measured
+// pattern a load channel of the sensor map feeds, sorted; a measured
+// pattern's columns stay in epochs.csv only if some epoch estimated it.
+func reportPatterns(unknown []string, sm *sensors.Map, estimateMissing bool) []string {
+	out := append([]string(nil), unknown...)
+	if !estimateMissing {
+		return out
+	}
+	seen := map[string]bool{}
+	for _, p := range unknown {
+		seen[p] = true
+	}
+	var extra []string
+	for _, ch := range sm.Channels() {
+		if ch.Kind == sensors.KindLoad && ch.Pattern != "" && !seen[ch.Pattern] {
+			seen[ch.Pattern] = true
+			extra = append(extra, ch.Pattern)
+		}
+	}
+	sort.Strings(extra)
+	return append(out, extra...)
+}
+
+// newCollector streams into s, whose head lists the columns; scale holds
+// each pattern column's reference load (referenceUnits).
+func newCollector(s *report.Stream, head *report.Report, scale []float64) *collector {
+	c := &collector{stream: s, subjects: map[string]string{}, col: map[string]int{}, scale: scale}
+	for j, p := range head.Patterns {
+		c.col[p.Name] = j
+	}
+	c.used = make([]bool, len(head.Patterns))
+	c.members = make([]report.MemberResult, len(head.Members))
+	c.loads = make([]report.LoadEstimate, len(head.Patterns))
+	return c
 }
 
 // Epoch implements pipeline.Sink.
@@ -47,12 +86,14 @@ func (c *collector) Epoch(r *pipeline.Result) {
 		return
 	}
 	c.totals.add(r)
-	row := epochRow{
-		time:    r.Time,
-		members: make([]report.MemberResult, len(r.Members)),
-		fit:     report.Fit{ChiSquare: r.ChiSquare, DOF: r.DOF, PValue: r.PValue, Rejected: r.Rejected},
-		loads:   append([]pipeline.LoadEstimate(nil), r.Loads...),
+	if c.err != nil {
+		return
 	}
+	if len(r.Members) != len(c.members) {
+		c.err = fmt.Errorf("epoch %s has %d member results for the report's %d gauged members", r.Time.UTC().Format("2006-01-02T15:04:05.999999999Z07:00"), len(r.Members), len(c.members))
+		return
+	}
+	clear(c.members)
 	for i, m := range r.Members {
 		if !m.Available {
 			continue
@@ -60,54 +101,43 @@ func (c *collector) Epoch(r *pipeline.Result) {
 		// Predicted includes the estimated unknown loads (FittedN), so
 		// that Measured - Predicted is the adjusted residual e and the
 		// acceptance band is Predicted +- k sqrt((Q_e)_ii).
-		row.members[i] = report.MemberResult{
+		c.members[i] = report.MemberResult{
 			Present: true, Measured: m.MeasuredN, Predicted: m.FittedN,
 			SigmaResidual: m.SigmaAdjustedN, W: m.W, Checkable: m.Checkable,
 		}
 	}
-	c.epochs = append(c.epochs, row)
+	clear(c.loads)
+	for _, l := range r.Loads {
+		j, ok := c.col[l.Pattern]
+		if !ok {
+			c.err = fmt.Errorf("epoch %s estimates load pattern %q, which is neither an unknown pattern nor a measured pattern of the sensor map", r.Time.UTC().Format("2006-01-02T15:04:05.999999999Z07:00"), l.Pattern)
+			return
+		}
+		c.used[j] = true
+		if l.Estimable {
+			c.loads[j] = report.LoadEstimate{Present: true, Value: l.Value * c.scale[j], StdDev: l.Std * c.scale[j]}
+		}
+	}
+	c.err = c.stream.Add(report.Epoch{Time: r.Time, Members: c.members, Fit: report.Fit{ChiSquare: r.ChiSquare, DOF: r.DOF, PValue: r.PValue, Rejected: r.Rejected}, Loads: c.loads})
 }
 
-// report builds the report's tables: members in the processor's row
-// order, patterns the structure's unknown patterns followed by any measured
-// pattern estimated in some epoch (a missing load channel), sorted.
-func (c *collector) report(members, unknown []string) *report.Report {
-	patterns := append([]string(nil), unknown...)
-	seen := map[string]bool{}
-	for _, p := range unknown {
-		seen[p] = true
+// keep says which pattern columns stay: every unknown pattern (the first
+// nUnknown) and the measured patterns some epoch estimated.
+func (c *collector) keep(nUnknown int) []bool {
+	out := append([]bool(nil), c.used...)
+	for j := 0; j < nUnknown && j < len(out); j++ {
+		out[j] = true
 	}
-	var extra []string
-	for _, e := range c.epochs {
-		for _, l := range e.loads {
-			if !seen[l.Pattern] {
-				seen[l.Pattern] = true
-				extra = append(extra, l.Pattern)
-			}
-		}
-	}
-	sort.Strings(extra)
-	patterns = append(patterns, extra...)
-	col := make(map[string]int, len(patterns))
-	rep := &report.Report{Members: append([]string(nil), members...)}
-	for i, p := range patterns {
-		col[p] = i
-		rep.Patterns = append(rep.Patterns, report.Pattern{Name: p, Unit: "1"})
-	}
-	rep.Epochs = make([]report.Epoch, len(c.epochs))
-	for i, e := range c.epochs {
-		loads := make([]report.LoadEstimate, len(patterns))
-		for _, l := range e.loads {
-			if l.Estimable {
-				loads[col[l.Pattern]] = report.LoadEstimate{Present: true, Value: l.Value, StdDev: l.Std}
-			}
-		}
-		rep.Epochs[i] = report.Epoch{Time: e.time, Members: e.members, Fit: e.fit, Loads: loads}
-	}
+	return out
+}
+
+// reportEvents turns the alarm events into report rows.
+func (c *collector) reportEvents() []report.Event {
+	var out []report.Event
 	for _, ev := range c.events {
-		rep.Events = append(rep.Events, c.event(ev))
+		out = append(out, c.event(ev))
 	}
-	return rep
+	return out
 }
 
 // event turns an alarm event into a report row.

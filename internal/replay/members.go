@@ -67,12 +67,16 @@ func (a *memberTotals) summaries(res []capacity.Resistance) []report.MemberSumma
 	return out
 }
 
-// referenceLoads shows the estimated unknown loads in each pattern's
+// referenceUnits shows the estimated unknown loads in each pattern's
 // engineering unit (factor times its reference load) where the structure
-// declares one; the others stay pattern factors (unit "1").
-func referenceLoads(rep *report.Report, st *model.Structure) {
-	for j := range rep.Patterns {
-		i, ok := st.PatternIndex(rep.Patterns[j].Name)
+// declares one: it sets the patterns' Unit and Reference and returns each
+// pattern's scale (the reference load; 1 for the others, which stay
+// pattern factors, unit "1").
+func referenceUnits(patterns []report.Pattern, st *model.Structure) []float64 {
+	scale := make([]float64, len(patterns))
+	for j := range patterns {
+		scale[j] = 1
+		i, ok := st.PatternIndex(patterns[j].Name)
 		if !ok {
 			continue
 		}
@@ -81,11 +85,8 @@ func referenceLoads(rep *report.Report, st *model.Structure) {
 		if !ok {
 			continue
 		}
-		rep.Patterns[j].Unit, rep.Patterns[j].Reference = unit, v
-		for e := range rep.Epochs {
-			l := &rep.Epochs[e].Loads[j]
-			l.Value *= v
-			l.StdDev *= v
-		}
+		patterns[j].Unit, patterns[j].Reference = unit, v
+		scale[j] = v
 	}
+	return scale
 }

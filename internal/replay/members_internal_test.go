@@ -16,7 +16,12 @@ import (
 // caution; the member aggregates keep the extremes and the time of the
 // largest utilisation; loads with a reference load are shown in its unit.
 func TestUtilisationEventAndTotals(t *testing.T) {
-	c := newCollector()
+	head := &report.Report{From: time.Date(2026, 6, 1, 0, 0, 0, 0, time.UTC), To: time.Date(2026, 6, 2, 0, 0, 0, 0, time.UTC)}
+	s, err := report.NewStream("", head)
+	if err != nil {
+		t.Fatal(err)
+	}
+	c := newCollector(s, head, nil)
 	t0 := time.Date(2026, 6, 1, 12, 0, 0, 0, time.UTC)
 	ev := c.event(alerts.Event{Rule: alerts.RuleUtilisationHigh, Subject: "D2", Kind: alerts.Raised, Time: t0,
 		Evidence: alerts.Evidence{Signal: alerts.SignalUtilisation.String(), Value: 0.93, Threshold: 0.9, ActiveSince: t0.Add(-2 * time.Minute)}})
@@ -39,13 +44,12 @@ func TestUtilisationEventAndTotals(t *testing.T) {
 	}
 
 	st := &model.Structure{Patterns: []model.Pattern{{Name: "crowd", ReferenceValue: 2.5, ReferenceUnit: "kN/m"}, {Name: "drift"}}}
-	rep := &report.Report{Patterns: []report.Pattern{{Name: "crowd", Unit: "1"}, {Name: "drift", Unit: "1"}},
-		Epochs: []report.Epoch{{Loads: []report.LoadEstimate{{Present: true, Value: 0.4, StdDev: 0.1}, {Present: true, Value: 2, StdDev: 1}}}}}
-	referenceLoads(rep, st)
-	if p := rep.Patterns[0]; p.Unit != "kN/m" || p.Reference != 2.5 || rep.Epochs[0].Loads[0].Value != 1 || rep.Epochs[0].Loads[0].StdDev != 0.25 {
-		t.Errorf("crowd %+v %+v", p, rep.Epochs[0].Loads[0])
+	pats := []report.Pattern{{Name: "crowd", Unit: "1"}, {Name: "drift", Unit: "1"}}
+	scale := referenceUnits(pats, st)
+	if p := pats[0]; p.Unit != "kN/m" || p.Reference != 2.5 || scale[0] != 2.5 {
+		t.Errorf("crowd %+v scale %v", p, scale[0])
 	}
-	if p := rep.Patterns[1]; p.Unit != "1" || rep.Epochs[0].Loads[1].Value != 2 {
-		t.Errorf("drift %+v %+v", p, rep.Epochs[0].Loads[1])
+	if p := pats[1]; p.Unit != "1" || scale[1] != 1 {
+		t.Errorf("drift %+v scale %v", p, scale[1])
 	}
 }

@@ -97,7 +97,10 @@ type Summary struct {
 	// events (raised and cleared).
 	Raised map[string]int
 	Events int
-	// Report is the report (also when OutDir is empty).
+	// Report is the report (also when OutDir is empty) without its
+	// epochs: they were streamed to epochs.csv as they came and are not
+	// kept (Report.Epochs is empty), so that memory does not grow with
+	// the period.
 	Report *report.Report
 	// OutDir is the folder written ("" when none).
 	OutDir string
@@ -192,7 +195,16 @@ func Run(ctx context.Context, opt Options) (*Summary, error) {
 	}
 	sum.Total = total
 
-	col := newCollector()
+	// The report's head: its columns, period and test figures are known
+	// before the first epoch; the rest is filled in after the replay.
+	rep := &report.Report{
+		Structure: mdl.name, Title: mdl.st.Title, ModelVersion: mdl.hash,
+		From: sum.From, To: sum.To, Alpha: alerts.GlobalTestSize(opt.Rules), Caution: report.Caution,
+	}
+	if mdl.st.Design != nil {
+		rep.Design = mdl.st.Design.Standard.String()
+	}
+	col := &collector{}
 	pl, err := pipeline.New(m, sm, pipeline.Config{
 		Window: opt.Window, MaxLateness: opt.MaxLateness,
 		Processor: pipeline.ProcessorOptions{EstimateMissingLoads: opt.EstimateMissingLoads},
@@ -201,6 +213,10 @@ func Run(ctx context.Context, opt Options) (*Summary, error) {
 	if err != nil {
 		return nil, err
 	}
+	if err := col.start(opt, rep, pl.Processor(), sm, mdl.st); err != nil {
+		return nil, err
+	}
+	defer col.stream.Abort()
 	prog := newProgress(opt.Progress, mdl.name, total)
 	fed, err := feed(ctx, db, pl, mdl.name, opt, prog)
 	prog.done()
@@ -215,20 +231,12 @@ func Run(ctx context.Context, opt Options) (*Summary, error) {
 	sum.Late = int64(st.Assembler.Late)
 	sum.Epochs = st.Epochs
 	sum.ByOutcome = st.ByOutcome
-	proc := pl.Processor()
-	rep := col.report(proc.Gauged(), proc.Unknown())
-	rep.Structure = mdl.name
-	rep.Title = mdl.st.Title
-	rep.ModelVersion = mdl.hash
-	rep.From, rep.To = sum.From, sum.To
-	rep.CriticalValue = proc.Critical()
-	rep.Alpha = alerts.GlobalTestSize(opt.Rules)
-	rep.Caution = report.Caution
-	rep.MemberSummaries = col.totals.summaries(proc.Resistances())
-	if mdl.st.Design != nil {
-		rep.Design = mdl.st.Design.Standard.String()
+	if col.err != nil {
+		return nil, fmt.Errorf("replay report: %w", col.err)
 	}
-	referenceLoads(rep, mdl.st)
+	proc := pl.Processor()
+	rep.Events = col.reportEvents()
+	rep.MemberSummaries = col.totals.summaries(proc.Resistances())
 	if rep.Fatigue, err = fatigueFigures(ctx, db, mdl.name, sm, opt.From, opt.To); err != nil {
 		return nil, err
 	}
@@ -242,12 +250,10 @@ func Run(ctx context.Context, opt Options) (*Summary, error) {
 	if sum.ConvertErrors > 0 {
 		sum.Warnings = append(sum.Warnings, fmt.Sprintf("%d stored readings could not be converted with sensor map %s (channel not in the map, or a value out of range); they were left out", sum.ConvertErrors, opt.SensorsFile))
 	}
-	if opt.OutDir != "" {
-		if err := report.Write(opt.OutDir, rep); err != nil {
-			return nil, err
-		}
-		sum.OutDir = opt.OutDir
+	if err := col.stream.Finish(col.keep(len(proc.Unknown()))); err != nil {
+		return nil, err
 	}
+	sum.OutDir = opt.OutDir
 	sum.Elapsed = time.Since(started)
 	return sum, nil
 }
@@ -536,4 +542,23 @@ func short(h string) string {
 		return h[:12]
 	}
 	return h
+}
+
+// start starts the report's stream in opt.OutDir (none: no files) with
+// the columns of the pipeline's processor: the gauged members in its row
+// order, the patterns of reportPatterns in their reference units, and the
+// critical value of the w-test.
+func (c *collector) start(opt Options, rep *report.Report, proc *pipeline.Processor, sm *sensors.Map, st *model.Structure) error {
+	rep.Members = proc.Gauged()
+	rep.CriticalValue = proc.Critical()
+	for _, p := range reportPatterns(proc.Unknown(), sm, opt.EstimateMissingLoads) {
+		rep.Patterns = append(rep.Patterns, report.Pattern{Name: p, Unit: "1"})
+	}
+	scale := referenceUnits(rep.Patterns, st)
+	s, err := report.NewStream(opt.OutDir, rep)
+	if err != nil {
+		return err
+	}
+	*c = *newCollector(s, rep, scale)
+	return nil
 }

@@ -44,6 +44,13 @@ var (
 // starts. It returns the store path.
 func importDay(t testing.TB, storeModel bool) string {
 	t.Helper()
+	return importDayWithout(t, storeModel, nil)
+}
+
+// importDayWithout is importDay leaving out the readings drop reports true
+// for (nil keeps every reading).
+func importDayWithout(t testing.TB, storeModel bool, drop func(store.Reading) bool) string {
+	t.Helper()
 	st, err := structfile.LoadFile(structureFile)
 	if err != nil {
 		t.Fatal(err)
@@ -81,7 +88,9 @@ func importDay(t testing.TB, storeModel bool) string {
 		if err := sm.Validate(r.Channel, r.Unit, r.Value); err != nil {
 			return err
 		}
-		batch = append(batch, store.Reading{Channel: r.Channel, Time: r.Time, Value: r.Value})
+		if rd := (store.Reading{Channel: r.Channel, Time: r.Time, Value: r.Value}); drop == nil || !drop(rd) {
+			batch = append(batch, rd)
+		}
 		if len(batch) >= 5000 {
 			return commit()
 		}

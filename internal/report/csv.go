@@ -31,38 +31,6 @@ func epochsHeader(r *Report) []string {
 	return h
 }
 
-func writeEpochsCSV(buf *bytes.Buffer, r *Report) error {
-	w := csv.NewWriter(buf)
-	if err := w.Write(epochsHeader(r)); err != nil {
-		return err
-	}
-	row := make([]string, 0, 5+5*len(r.Members)+2*len(r.Patterns))
-	for _, e := range r.Epochs {
-		row = append(row[:0], timeText(e.Time), floatText(e.Fit.ChiSquare), strconv.Itoa(e.Fit.DOF),
-			floatText(e.Fit.PValue), boolText(e.Fit.Rejected))
-		for _, m := range e.Members {
-			if !m.Present {
-				row = append(row, "", "", "", "", "")
-				continue
-			}
-			row = append(row, floatText(m.Measured), floatText(m.Predicted), floatText(m.SigmaResidual),
-				floatText(m.W), boolText(m.Checkable))
-		}
-		for _, l := range e.Loads {
-			if !l.Present {
-				row = append(row, "", "")
-				continue
-			}
-			row = append(row, floatText(l.Value), floatText(l.StdDev))
-		}
-		if err := w.Write(row); err != nil {
-			return err
-		}
-	}
-	w.Flush()
-	return w.Error()
-}
-
 // maxCauses is the number of ranked causes written per event.
 const maxCauses = 3
 

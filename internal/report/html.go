@@ -69,28 +69,28 @@ tr.raised td:nth-child(2){color:#b3141c;font-weight:bold}`
 
 // writeHTML writes the self-contained report page. The markup is also
 // well-formed XML, so it can be checked with an XML parser.
-func writeHTML(buf *bytes.Buffer, r *Report) error {
+func writeHTML(buf *bytes.Buffer, r *Report, sum *epochSummary) error {
 	var sb strings.Builder
 	title := r.Title
 	if title == "" {
 		title = r.Structure
 	}
-	tr := newTimeRange(r)
+	tr := sum.tr
 	sb.WriteString("<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\"/>\n")
 	fmt.Fprintf(&sb, "<title>Replay report: %s</title>\n<style>\n%s\n</style>\n</head>\n<body>\n", esc(title), css+fatigueStyle(r))
 	fmt.Fprintf(&sb, "<header id=\"header\">\n<h1>Replay report: %s</h1>\n", esc(title))
 	fmt.Fprintf(&sb, "<p class=\"meta\">Structure <code>%s</code>; period %s to %s (UTC); %d epochs; model version <code id=\"model-version\">%s</code>.</p>\n",
-		esc(r.Structure), esc(timeText(time.Unix(0, tr.t0))), esc(timeText(time.Unix(0, tr.t1))), len(r.Epochs), esc(r.ModelVersion))
+		esc(r.Structure), esc(timeText(time.Unix(0, tr.t0))), esc(timeText(time.Unix(0, tr.t1))), sum.n, esc(r.ModelVersion))
 	sb.WriteString("</header>\n")
 	fmt.Fprintf(&sb, "<p class=\"caution\" id=\"caution\">%s</p>\n", esc(r.caution()))
 
-	writeSummary(&sb, r)
-	writeTimeline(&sb, r, tr)
+	writeSummary(&sb, r, sum)
+	writeTimeline(&sb, r, sum)
 	writeEventTable(&sb, r)
-	writeFitPlot(&sb, r, tr)
-	writeLoadPlots(&sb, r, tr)
+	writeFitPlot(&sb, r, sum)
+	writeLoadPlots(&sb, r, sum)
 	writeMemberTotals(&sb, r)
-	writeMemberPlots(&sb, r, tr)
+	writeMemberPlots(&sb, r, sum)
 	writeFatigue(&sb, r)
 
 	sb.WriteString("<footer id=\"footer\">\n<h2>Data and model</h2>\n")
@@ -101,13 +101,8 @@ func writeHTML(buf *bytes.Buffer, r *Report) error {
 	return nil
 }
 
-func writeSummary(sb *strings.Builder, r *Report) {
-	rejected := 0
-	for _, e := range r.Epochs {
-		if e.Fit.Rejected {
-			rejected++
-		}
-	}
+func writeSummary(sb *strings.Builder, r *Report, sum *epochSummary) {
+	rejected := sum.rejected
 	raised := 0
 	for _, e := range r.Events {
 		if e.Kind == "raised" {
@@ -116,34 +111,17 @@ func writeSummary(sb *strings.Builder, r *Report) {
 	}
 	sb.WriteString("<section id=\"summary\">\n<h2>Summary</h2>\n<table id=\"summary-table\">\n<tbody>\n")
 	share := 0.0
-	if len(r.Epochs) > 0 {
-		share = 100 * float64(rejected) / float64(len(r.Epochs))
+	if sum.n > 0 {
+		share = 100 * float64(rejected) / float64(sum.n)
 	}
-	fmt.Fprintf(sb, "<tr><th>epochs</th><td class=\"num\">%d</td></tr>\n", len(r.Epochs))
+	fmt.Fprintf(sb, "<tr><th>epochs</th><td class=\"num\">%d</td></tr>\n", sum.n)
 	fmt.Fprintf(sb, "<tr><th>epochs rejected by the global test</th><td class=\"num\">%d (%s %%)</td></tr>\n", rejected, num(share, 2))
 	fmt.Fprintf(sb, "<tr><th>alarms raised</th><td class=\"num\">%d</td></tr>\n", raised)
 	sb.WriteString("</tbody>\n</table>\n")
 	sb.WriteString("<table id=\"member-summary\">\n<thead><tr><th>member</th><th>epochs measured</th><th>epochs checkable</th><th>largest |w|</th><th>epochs with |w| above k</th></tr></thead>\n<tbody>\n")
 	for i, m := range r.Members {
-		present, checkable, over := 0, 0, 0
-		maxW := math.NaN()
-		for _, e := range r.Epochs {
-			mr := e.Members[i]
-			if !mr.Present {
-				continue
-			}
-			present++
-			if !mr.Checkable || math.IsNaN(mr.W) {
-				continue
-			}
-			checkable++
-			if a := math.Abs(mr.W); math.IsNaN(maxW) || a > maxW {
-				maxW = a
-			}
-			if math.Abs(mr.W) > r.CriticalValue {
-				over++
-			}
-		}
+		mf := sum.members[i]
+		present, checkable, over, maxW := mf.present, mf.checkable, mf.over, mf.maxW
 		fmt.Fprintf(sb, "<tr data-member=\"%s\"><td>%s</td><td class=\"num\">%d</td><td class=\"num\">%d</td><td class=\"num\">%s</td><td class=\"num\">%d</td></tr>\n",
 			esc(m), esc(m), present, checkable, num(maxW, 2), over)
 	}
@@ -187,7 +165,8 @@ func alarmRows(r *Report, tr timeRange) (keys []string, rows map[string][]interv
 	return keys, rows
 }
 
-func writeTimeline(sb *strings.Builder, r *Report, tr timeRange) {
+func writeTimeline(sb *strings.Builder, r *Report, sum *epochSummary) {
+	tr := sum.tr
 	keys, rows := alarmRows(r, tr)
 	const rowH = 28
 	h := float64(padT + padB + rowH*(len(keys)+1))
@@ -207,23 +186,7 @@ func writeTimeline(sb *strings.Builder, r *Report, tr timeRange) {
 	// interval, and runs closer than a pixel are merged.
 	y := padT
 	fmt.Fprintf(sb, `<text class="row-label" x="%d" y="%d">global test rejected</text>`+"\n", padL+4, y+10)
-	step := tr.step
-	if step <= 0 {
-		step = int64(time.Second)
-	}
-	var rej []interval
-	for _, e := range r.Epochs {
-		if !e.Fit.Rejected {
-			continue
-		}
-		s := e.Time.UnixNano()
-		if n := len(rej); n > 0 && f.x(s)-f.x(rej[n-1].to) < 1 {
-			rej[n-1].to = s + step
-			continue
-		}
-		rej = append(rej, interval{s, s + step})
-	}
-	for _, iv := range rej {
+	for _, iv := range sum.rejectedIntervals(f) {
 		x0 := math.Max(f.x(iv.from), padL)
 		x1 := math.Min(f.x(iv.to), plotW-padR)
 		fmt.Fprintf(sb, `<rect class="reject" x="%s" y="%d" width="%s" height="%d"/>`+"\n", px(x0), y+13, px(math.Max(x1-x0, 1)), rowH-16)
@@ -287,16 +250,12 @@ func writeEventTable(sb *strings.Builder, r *Report) {
 // pFloor is the smallest p-value drawn; smaller ones are drawn at it.
 const pFloor = 1e-30
 
-func writeFitPlot(sb *strings.Builder, r *Report, tr timeRange) {
+func writeFitPlot(sb *strings.Builder, r *Report, sum *epochSummary) {
+	tr := sum.tr
 	sb.WriteString("<section id=\"fit\">\n<h2>Global test</h2>\n")
 	fmt.Fprintf(sb, "<p>p-value of the chi-square test of every epoch, log scale, with the significance level alpha = %s. p-values below %s are drawn at %s.</p>\n",
 		esc(floatText(r.Alpha)), floatText(pFloor), floatText(pFloor))
-	env := reduce(r, tr, func(e Epoch) (float64, bool) {
-		if math.IsNaN(e.Fit.PValue) {
-			return 0, false
-		}
-		return math.Log10(math.Max(e.Fit.PValue, pFloor)), true
-	})
+	env := sum.fit
 	lo, _, ok := limits(env)
 	if !ok {
 		lo = -4
@@ -326,7 +285,8 @@ func writeFitPlot(sb *strings.Builder, r *Report, tr timeRange) {
 	sb.WriteString("</section>\n")
 }
 
-func writeLoadPlots(sb *strings.Builder, r *Report, tr timeRange) {
+func writeLoadPlots(sb *strings.Builder, r *Report, sum *epochSummary) {
+	tr := sum.tr
 	sb.WriteString("<section id=\"loads\">\n<h2>Estimated unknown loads</h2>\n")
 	if len(r.Patterns) == 0 {
 		sb.WriteString("<p>No unknown load magnitudes were estimated.</p>\n</section>\n")
@@ -334,13 +294,7 @@ func writeLoadPlots(sb *strings.Builder, r *Report, tr timeRange) {
 	}
 	sb.WriteString("<p>Estimated magnitude of each unknown load pattern with ± one standard deviation.</p>\n")
 	for j, pat := range r.Patterns {
-		get := func(sign float64) envelope {
-			return reduce(r, tr, func(e Epoch) (float64, bool) {
-				l := e.Loads[j]
-				return l.Value + sign*l.StdDev, l.Present
-			})
-		}
-		val, low, high := get(0), get(-1), get(1)
+		val, low, high := sum.loads[j].val, sum.loads[j].low, sum.loads[j].high
 		lo, hi, ok := limits(val, low, high)
 		if !ok {
 			lo, hi = 0, 1
@@ -370,23 +324,15 @@ func writeLoadPlots(sb *strings.Builder, r *Report, tr timeRange) {
 	sb.WriteString("</section>\n")
 }
 
-func writeMemberPlots(sb *strings.Builder, r *Report, tr timeRange) {
+func writeMemberPlots(sb *strings.Builder, r *Report, sum *epochSummary) {
+	tr := sum.tr
 	sb.WriteString("<section id=\"members\">\n<h2>Gauged members</h2>\n")
 	fmt.Fprintf(sb, "<p>Measured and predicted change of the axial force since the gauges were zeroed (tension positive; the total force is in the table above) with the acceptance band, predicted ± %s σ of the residual; below it Baarda's w with the critical value ± %s. Epochs where the member cannot be checked are left out of the w plot.</p>\n",
 		num(r.CriticalValue, 2), num(r.CriticalValue, 2))
 	k := r.CriticalValue
 	for i, m := range r.Members {
-		get := func(v func(MemberResult) float64, checkableOnly bool) envelope {
-			return reduce(r, tr, func(e Epoch) (float64, bool) {
-				mr := e.Members[i]
-				return v(mr), mr.Present && (!checkableOnly || mr.Checkable)
-			})
-		}
-		meas := get(func(m MemberResult) float64 { return m.Measured }, false)
-		pred := get(func(m MemberResult) float64 { return m.Predicted }, false)
-		bandLo := get(func(m MemberResult) float64 { return m.Predicted - k*m.SigmaResidual }, false)
-		bandHi := get(func(m MemberResult) float64 { return m.Predicted + k*m.SigmaResidual }, false)
-		w := get(func(m MemberResult) float64 { return m.W }, true)
+		me := sum.force[i]
+		meas, pred, bandLo, bandHi, w := me.meas, me.pred, me.bandLo, me.bandHi, me.w
 
 		fmt.Fprintf(sb, "<div class=\"member\" id=\"member-%s\" data-member=\"%s\">\n<h3>Member %s</h3>\n", idPart(m), esc(m), esc(m))
 		lo, hi, ok := limits(meas, pred, bandLo, bandHi)

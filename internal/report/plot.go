@@ -3,7 +3,6 @@ package report
 import (
 	"fmt"
 	"math"
-	"sort"
 	"strconv"
 	"strings"
 	"time"
@@ -58,9 +57,10 @@ type timeRange struct {
 	step int64
 }
 
-// newTimeRange takes the period from the report (or its epochs) and the gap
-// threshold as five times the median epoch interval.
-func newTimeRange(r *Report) timeRange {
+// periodRange takes the period drawn from the report's From and To, or
+// when they do not give one from its epochs' first and last time. The
+// step and gap threshold are set by setStep once the epochs are seen.
+func periodRange(r *Report) timeRange {
 	var tr timeRange
 	switch {
 	case !r.From.IsZero() && r.To.After(r.From):
@@ -72,49 +72,22 @@ func newTimeRange(r *Report) timeRange {
 		tr.t0 -= int64(time.Second)
 		tr.t1 = tr.t0 + 2*int64(time.Second)
 	}
-	if len(r.Epochs) > 1 {
-		d := make([]int64, 0, len(r.Epochs)-1)
-		for i := 1; i < len(r.Epochs); i++ {
-			d = append(d, r.Epochs[i].Time.UnixNano()-r.Epochs[i-1].Time.UnixNano())
-		}
-		sort.Slice(d, func(i, j int) bool { return d[i] < d[j] })
-		tr.step = d[len(d)/2]
-		tr.maxGap = 5 * tr.step
-	}
+	return tr
+}
+
+// setStep sets the median interval between epochs (0: fewer than two
+// epochs) and the gap threshold: five times the median interval, at least
+// two pixel columns.
+func (tr *timeRange) setStep(median int64) {
+	tr.step, tr.maxGap = median, 5*median
 	if col := (tr.t1 - tr.t0) / plotCs; tr.maxGap < 2*col {
 		tr.maxGap = 2 * col
 	}
-	return tr
 }
 
 func (tr timeRange) column(t int64) int {
 	c := int(float64(t-tr.t0) * plotCs / float64(tr.t1-tr.t0))
 	return min(max(c, 0), plotCs-1)
-}
-
-// reduce builds the min/max envelope of value over the epochs; value
-// returns ok false for epochs without a value. Non-finite values are left out.
-func reduce(r *Report, tr timeRange, value func(Epoch) (float64, bool)) envelope {
-	env := make(envelope, plotCs)
-	for _, e := range r.Epochs {
-		v, ok := value(e)
-		if !ok || math.IsNaN(v) || math.IsInf(v, 0) {
-			continue
-		}
-		t := e.Time.UnixNano()
-		if t < tr.t0 || t > tr.t1 {
-			continue
-		}
-		b := &env[tr.column(t)]
-		if b.n == 0 {
-			*b = bucket{lo: v, hi: v, first: t, last: t, n: 1}
-			continue
-		}
-		b.lo, b.hi = math.Min(b.lo, v), math.Max(b.hi, v)
-		b.last = t
-		b.n++
-	}
-	return env
 }
 
 // limits returns the smallest and largest value of the envelopes.

@@ -6,14 +6,15 @@
 // same float64), times as UTC RFC 3339 with nanoseconds, and nothing depends
 // on the wall clock or on map order. Long periods are reduced for the plots
 // (minimum and maximum per pixel column) so a day at 1 Hz stays small; the
-// CSV files keep every epoch.
+// CSV files keep every epoch. A report is written while its epochs arrive
+// (Stream): epochs.csv row by row, the page from bounded summaries, so
+// memory does not grow with the period.
 //
 // The report is a monitoring aid, not a safety verdict: decisions rest with a
 // licensed engineer under local codes.
 package report
 
 import (
-	"bytes"
 	"errors"
 	"fmt"
 	"os"
@@ -161,47 +162,33 @@ const (
 	EventsFile = "events.csv"
 )
 
-// Write writes index.html, epochs.csv and events.csv into dir, creating it
-// if needed. Each file is written to a temporary name and renamed, so a
-// reader never sees half a file.
+// Write writes index.html, epochs.csv, events.csv (and members.csv when
+// the report has member summaries) into dir, creating it if needed, from
+// a report that holds its epochs in Epochs. It goes through the same
+// Stream as a replay does, so both give the same files. Each file is
+// written to a temporary name and renamed, so a reader never sees half a
+// file.
 func Write(dir string, r *Report) error {
 	if r == nil {
 		return errors.New("report: nothing to write (nil report)")
 	}
-	if err := r.validate(); err != nil {
-		return fmt.Errorf("report for %q: %w", r.Structure, err)
+	head := *r
+	head.Epochs = nil
+	s, err := newStream(dir, &head, periodRange(r))
+	if err != nil {
+		return err
 	}
-	if err := os.MkdirAll(dir, 0o755); err != nil {
-		return fmt.Errorf("report: creating folder %s: %w", dir, err)
-	}
-	files := []struct {
-		name  string
-		write func(*bytes.Buffer, *Report) error
-	}{
-		{EpochsFile, writeEpochsCSV},
-		{EventsFile, writeEventsCSV},
-		{HTMLFile, writeHTML},
-	}
-	if len(r.MemberSummaries) > 0 {
-		files = append(files, struct {
-			name  string
-			write func(*bytes.Buffer, *Report) error
-		}{MembersFile, writeMembersCSV})
-	}
-	for _, f := range files {
-		var buf bytes.Buffer
-		if err := f.write(&buf, r); err != nil {
-			return fmt.Errorf("report: %s: %w", f.name, err)
-		}
-		if err := writeFileAtomic(filepath.Join(dir, f.name), buf.Bytes()); err != nil {
-			return fmt.Errorf("report: %w", err)
+	for _, e := range r.Epochs {
+		if err := s.Add(e); err != nil {
+			s.Abort()
+			return err
 		}
 	}
-	return nil
+	return s.Finish(nil)
 }
 
-// validate checks that every epoch's rows line up with the column lists.
-func (r *Report) validate() error {
+// validateColumns checks the member ids of the report's columns.
+func (r *Report) validateColumns() error {
 	seen := make(map[string]bool, len(r.Members))
 	for _, m := range r.Members {
 		if m == "" {
@@ -211,20 +198,6 @@ func (r *Report) validate() error {
 			return fmt.Errorf("member %q is listed twice in Members", m)
 		}
 		seen[m] = true
-	}
-	for i, e := range r.Epochs {
-		if len(e.Members) != len(r.Members) {
-			return fmt.Errorf("epoch %d (%s) has %d member results for %d members; give one per Report.Members entry",
-				i, timeText(e.Time), len(e.Members), len(r.Members))
-		}
-		if len(e.Loads) != len(r.Patterns) {
-			return fmt.Errorf("epoch %d (%s) has %d load estimates for %d patterns; give one per Report.Patterns entry",
-				i, timeText(e.Time), len(e.Loads), len(r.Patterns))
-		}
-		if i > 0 && e.Time.Before(r.Epochs[i-1].Time) {
-			return fmt.Errorf("epoch %d (%s) is earlier than epoch %d (%s); epochs must be oldest first",
-				i, timeText(e.Time), i-1, timeText(r.Epochs[i-1].Time))
-		}
 	}
 	return nil
 }
@@ -257,6 +230,9 @@ func writeFileAtomic(path string, data []byte) error {
 
 // timeText formats t as UTC RFC 3339 with nanoseconds.
 func timeText(t time.Time) string { return t.UTC().Format(time.RFC3339Nano) }
+
+// timeOf is the time of unix nanoseconds ns.
+func timeOf(ns int64) time.Time { return time.Unix(0, ns).UTC() }
 
 func (r *Report) caution() string {
 	if r.Caution != "" {

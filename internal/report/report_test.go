@@ -370,17 +370,21 @@ func TestDaySizeBound(t *testing.T) {
 }
 
 func TestReduceMinMax(t *testing.T) {
-	r := &Report{From: t0, To: t0.Add(time.Duration(plotCs) * time.Second), Members: []string{}}
+	r := &Report{From: t0, To: t0.Add(time.Duration(plotCs) * time.Second), Members: []string{}, Patterns: []Pattern{{Name: "crowd"}}}
+	sum := newEpochSummary(periodRange(r), 3.29, 0, 1)
 	// four epochs per pixel column alternating +v and -v, then a gap
 	for i := 0; i < 40; i++ {
 		v := float64(i / 4)
 		if i%2 == 1 {
 			v = -v
 		}
-		r.Epochs = append(r.Epochs, Epoch{Time: t0.Add(time.Duration(i) * 250 * time.Millisecond), Fit: Fit{PValue: v}})
+		sum.add(Epoch{Time: t0.Add(time.Duration(i) * 250 * time.Millisecond), Loads: []LoadEstimate{{Present: true, Value: v}}})
 	}
-	tr := newTimeRange(r)
-	env := reduce(r, tr, func(e Epoch) (float64, bool) { return e.Fit.PValue, true })
+	sum.finish(nil)
+	if sum.tr.step != int64(250*time.Millisecond) {
+		t.Errorf("median step %v, want 250ms", time.Duration(sum.tr.step))
+	}
+	env := sum.loads[0].val
 	for c := 0; c < 10; c++ {
 		b := env[c]
 		if b.n != 4 || b.lo != -float64(c) || b.hi != float64(c) {
@@ -466,10 +470,15 @@ func ExampleWrite() {
 // (8 members, one unknown load).
 func BenchmarkWriteHTMLDay(b *testing.B) {
 	r := dayReport()
+	sum := newEpochSummary(periodRange(r), r.CriticalValue, len(r.Members), len(r.Patterns))
+	for _, e := range r.Epochs {
+		sum.add(e)
+	}
+	sum.finish(nil)
 	var buf bytes.Buffer
 	for b.Loop() {
 		buf.Reset()
-		if err := writeHTML(&buf, r); err != nil {
+		if err := writeHTML(&buf, r, sum); err != nil {
 			b.Fatal(err)
 		}
 	}
