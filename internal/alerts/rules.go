@@ -29,6 +29,7 @@ package alerts
 import (
 	"fmt"
 	"math"
+	"strconv"
 	"time"
 
 	"gonum.org/v1/gonum/stat/distuv"
@@ -396,7 +397,14 @@ func GlobalTestSize(rules []Rule) float64 {
 		case SignalPValue:
 			return r.Raise
 		case SignalFitZ:
-			return distuv.UnitNormal.Survival(r.Raise)
+			// Rounded to 10 significant digits: the round trip through
+			// the normal quantile leaves the last bits of the size the
+			// threshold was derived from (0.001 came back 0.0010000000000000009).
+			a := distuv.UnitNormal.Survival(r.Raise)
+			if v, err := strconv.ParseFloat(strconv.FormatFloat(a, 'g', 10, 64), 64); err == nil {
+				a = v
+			}
+			return a
 		}
 	}
 	return reconcile.DefaultAlphaGlobal

@@ -141,7 +141,7 @@ func TestAlphaIsAProbability(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if d := s.AlphaGlobal - 0.001; d > 1e-12 || d < -1e-12 {
+	if s.AlphaGlobal != 0.001 {
 		t.Errorf("alpha %v, want 0.001", s.AlphaGlobal)
 	}
 }
