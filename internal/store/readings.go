@@ -4,10 +4,12 @@ import (
 	"cmp"
 	"context"
 	"database/sql"
+	"database/sql/driver"
 	"fmt"
 	"math"
 	"slices"
 	"sort"
+	"strconv"
 	"strings"
 	"time"
 
@@ -143,7 +145,22 @@ func (s *Store) Commit(ctx context.Context, b Batch) (CommitResult, error) {
 		res.New[g] = make([]bool, len(grp.Readings))
 		total += len(grp.Readings)
 	}
-	tx, err := s.db.BeginTx(ctx, nil)
+	// The readings' foreign key (channel -> channels.id) would be checked
+	// by SQLite once per row, a fifth of the insert's time; the ids come
+	// from the channels table, so this transaction checks each distinct
+	// channel once instead (checkChannels), on a connection whose
+	// per-row check is off for the transaction and on again before the
+	// connection returns to the pool. No other table written here has a
+	// foreign key.
+	conn, err := s.db.Conn(ctx)
+	if err != nil {
+		return CommitResult{}, fmt.Errorf("store: begin: %w", err)
+	}
+	defer restoreForeignKeys(conn)
+	if _, err := conn.ExecContext(ctx, "PRAGMA foreign_keys = OFF"); err != nil {
+		return CommitResult{}, fmt.Errorf("store: begin: %w", err)
+	}
+	tx, err := conn.BeginTx(ctx, nil)
 	if err != nil {
 		return CommitResult{}, fmt.Errorf("store: begin: %w", err)
 	}
@@ -151,6 +168,9 @@ func (s *Store) Commit(ctx context.Context, b Batch) (CommitResult, error) {
 
 	rows, newIDs, err := s.batchRows(ctx, tx, b, total)
 	if err != nil {
+		return CommitResult{}, err
+	}
+	if err := checkChannels(ctx, tx, rows); err != nil {
 		return CommitResult{}, err
 	}
 	// Insert in key order: consecutive rows then land on the same B-tree
@@ -277,6 +297,45 @@ func (s *Store) batchRows(ctx context.Context, tx *sql.Tx, b Batch, total int) (
 		rows[j].key.ch = id
 	}
 	return rows, newIDs, nil
+}
+
+// restoreForeignKeys turns the foreign-key checks of conn back on and
+// returns it to the pool; a connection where that fails is discarded, never
+// reused without the checks.
+func restoreForeignKeys(conn *sql.Conn) {
+	if _, err := conn.ExecContext(context.Background(), "PRAGMA foreign_keys = ON"); err != nil {
+		conn.Raw(func(any) error { return driver.ErrBadConn })
+	}
+	conn.Close()
+}
+
+// checkChannels is the readings' foreign key, checked once per distinct
+// channel of the batch: every channel id must be a row of channels.
+func checkChannels(ctx context.Context, tx *sql.Tx, rows []batchRow) error {
+	ids := map[int64]bool{}
+	var list []byte
+	list = append(list, '[')
+	for _, r := range rows {
+		if !ids[r.key.ch] {
+			if len(ids) > 0 {
+				list = append(list, ',')
+			}
+			ids[r.key.ch] = true
+			list = strconv.AppendInt(list, r.key.ch, 10)
+		}
+	}
+	if len(ids) == 0 {
+		return nil
+	}
+	list = append(list, ']')
+	var n int
+	if err := tx.QueryRowContext(ctx, `SELECT count(*) FROM channels WHERE id IN (SELECT value FROM json_each(?))`, string(list)).Scan(&n); err != nil {
+		return fmt.Errorf("store: checking the batch's channels: %w", err)
+	}
+	if n != len(ids) {
+		return fmt.Errorf("store: commit: %d of the batch's %d channel ids are not in the channels table (FOREIGN KEY constraint of readings.channel)", len(ids)-n, len(ids))
+	}
+	return nil
 }
 
 // sortRows orders rows (given in batch order) by key, keeping batch order

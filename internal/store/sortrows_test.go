@@ -2,9 +2,12 @@ package store
 
 import (
 	"cmp"
+	"context"
+	"database/sql"
 	"math/rand/v2"
 	"slices"
 	"testing"
+	"time"
 )
 
 // TestSortRows checks the counting sort of a batch's rows against a plain
@@ -41,5 +44,53 @@ func TestSortRows(t *testing.T) {
 				t.Fatalf("order differs from a stable sort by (channel, time)")
 			}
 		})
+	}
+}
+
+// TestCommitKeepsForeignKeys checks the two halves of the readings' foreign
+// key under Commit: a channel id that is not in the channels table is
+// refused (the once-per-channel check), and the connection Commit used
+// returns to the pool with SQLite's own checks on (SQLite documents
+// foreign_keys as a per-connection setting, off by default).
+func TestCommitKeepsForeignKeys(t *testing.T) {
+	s := openTemp(t)
+	ctx := context.Background()
+	t0 := time.Date(2026, 12, 1, 0, 0, 0, 0, time.UTC)
+	if _, err := s.Commit(ctx, Batch{Groups: []Group{{Structure: "bridge", Readings: []Reading{{Channel: "g1", Time: t0, Value: 1}}}}}); err != nil {
+		t.Fatal(err)
+	}
+	// The connection just used is the pool's most recent; take several.
+	conns := make([]*sql.Conn, 3)
+	for i := range conns {
+		c, err := s.db.Conn(ctx)
+		if err != nil {
+			t.Fatal(err)
+		}
+		conns[i] = c
+		var fk int
+		if err := c.QueryRowContext(ctx, "PRAGMA foreign_keys").Scan(&fk); err != nil {
+			t.Fatal(err)
+		}
+		if fk != 1 {
+			t.Errorf("connection %d: foreign_keys=%d after Commit, want 1", i, fk)
+		}
+	}
+	for _, c := range conns {
+		c.Close()
+	}
+	tx, err := s.db.BeginTx(ctx, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer tx.Rollback()
+	var id int64
+	if err := tx.QueryRowContext(ctx, `SELECT id FROM channels WHERE name = 'g1'`).Scan(&id); err != nil {
+		t.Fatal(err)
+	}
+	if err := checkChannels(ctx, tx, []batchRow{{key: rowKey{id, 1}}, {key: rowKey{id, 2}}}); err != nil {
+		t.Errorf("stored channel refused: %v", err)
+	}
+	if err := checkChannels(ctx, tx, []batchRow{{key: rowKey{id, 1}}, {key: rowKey{id + 1000, 2}}}); err == nil {
+		t.Error("channel id not in the channels table accepted")
 	}
 }
