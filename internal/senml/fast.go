@@ -14,7 +14,7 @@ import (
 // record the RFC or this receiver refuses, ...): the caller then runs
 // decodeGeneral, which accepts or rejects the pack with its own messages.
 // So decodeFast never decides an error, and on the packs it accepts its
-// records equal decodeGeneral's (FuzzDecodeFast checks both).
+// records equal decodeGeneral's (FuzzFastPath checks both).
 //
 // trimmed is the payload without surrounding white space, starting with '['.
 func decodeFast(trimmed []byte, now time.Time) ([]Record, bool) {

@@ -217,12 +217,12 @@ func FuzzDecode(f *testing.F) {
 	})
 }
 
-// FuzzDecodeFast checks the hand-written fast path against the general
+// FuzzFastPath checks the hand-written fast path against the general
 // decoder (encoding/json, the reference): whenever the fast path accepts a
 // pack, its records are exactly the general decoder's (names, units, value
 // bits, times), and Decode as a whole gives the general decoder's result and
 // error text for every input.
-func FuzzDecodeFast(f *testing.F) {
+func FuzzFastPath(f *testing.F) {
 	for _, s := range []string{
 		`[{"bn":"x:","bt":1.7e9,"bu":"Hz","v":800},{"n":"y","t":-1,"v":801}]`,
 		`[{"bn":"","bt":1780000000.25,"bu":"/","n":"g00","v":7},{"n":"g01","v":-7.5e-3},{"n":"g02","v":0}]`,
