@@ -124,6 +124,20 @@ func Decode(payload []byte, now time.Time) ([]Record, error) {
 	if trimmed[0] != '[' {
 		return nil, errf(ReasonMalformedJSON, -1, "", "payload is not a JSON array; a SenML pack is an array of records, e.g. [{\"v\":1.5}]")
 	}
+	// The common shape (numbers, plain strings, the fields a monitoring
+	// logger sends) takes a single hand-written scan; anything else, and
+	// every error, goes through the general decoder below, so results and
+	// error messages are those of one definition (see decodeFast).
+	if recs, ok := decodeFast(trimmed, now); ok {
+		return recs, nil
+	}
+	return decodeGeneral(trimmed, now)
+}
+
+// decodeGeneral is the reference decoder: encoding/json into maps of raw
+// fields, every label and every error of RFC 8428 handled. trimmed starts
+// with '['.
+func decodeGeneral(trimmed []byte, now time.Time) ([]Record, error) {
 	// One scan into maps of raw fields; when an element is not an object,
 	// decode element by element to name the record.
 	var fieldsList []map[string]json.RawMessage

@@ -1,7 +1,9 @@
 package senml
 
 import (
+	"bytes"
 	"errors"
+	"fmt"
 	"math"
 	"testing"
 	"time"
@@ -210,6 +212,110 @@ func FuzzDecode(f *testing.F) {
 			}
 			if r.Time.Year() < 1970 || r.Time.Year() > 9999 {
 				t.Fatalf("record %d: time %v out of range", i, r.Time)
+			}
+		}
+	})
+}
+
+// FuzzFastPath checks the hand-written fast path against the general
+// decoder (encoding/json, the reference): whenever the fast path accepts a
+// pack, its records are exactly the general decoder's (names, units, value
+// bits, times), and Decode as a whole gives the general decoder's result and
+// error text for every input.
+func FuzzFastPath(f *testing.F) {
+	for _, s := range []string{
+		`[{"bn":"x:","bt":1.7e9,"bu":"Hz","v":800},{"n":"y","t":-1,"v":801}]`,
+		`[{"bn":"","bt":1780000000.25,"bu":"/","n":"g00","v":7},{"n":"g01","v":-7.5e-3},{"n":"g02","v":0}]`,
+		`[{"bt":1780000000,"u":"/","v":1}]`,
+		` [ {"v" : 1 , "t" : 2 } ] `,
+		`[{"v":1,"v":2}]`,
+		`[{"v":01}]`,
+		`[{"v":1e400}]`,
+		`[{"n":"a\u0062","v":1}]`,
+		`[{"bver":10,"v":1}]`,
+		`[{"v":1},null]`,
+		`[{"bv":1e308,"v":1e308}]`,
+		`[]`,
+		`[{}]`,
+		`[{"n":"-x","v":1}]`,
+		`[{"v":-0,"t":-0.5}]`,
+		`[{"v":1}] x`,
+	} {
+		f.Add([]byte(s))
+	}
+	f.Fuzz(func(t *testing.T, payload []byte) {
+		trimmed := bytes.TrimSpace(payload)
+		if len(trimmed) == 0 || trimmed[0] != '[' {
+			return
+		}
+		want, wantErr := decodeGeneral(trimmed, now)
+		if fast, ok := decodeFast(trimmed, now); ok {
+			if wantErr != nil {
+				t.Fatalf("fast path accepted a pack the general decoder refuses (%v): %q", wantErr, payload)
+			}
+			sameRecords(t, fast, want)
+		}
+		got, err := Decode(payload, now)
+		switch {
+		case (err == nil) != (wantErr == nil):
+			t.Fatalf("Decode error %v, general decoder %v", err, wantErr)
+		case err != nil && err.Error() != wantErr.Error():
+			t.Fatalf("Decode error %q, general decoder %q", err, wantErr)
+		case err == nil:
+			sameRecords(t, got, want)
+		}
+	})
+}
+
+func sameRecords(t *testing.T, got, want []Record) {
+	t.Helper()
+	if len(got) != len(want) || (got == nil) != (want == nil) {
+		t.Fatalf("got %d records (nil %v), want %d (nil %v)", len(got), got == nil, len(want), want == nil)
+	}
+	for i := range got {
+		g, w := got[i], want[i]
+		if g.Name != w.Name || g.Unit != w.Unit || math.Float64bits(g.Value) != math.Float64bits(w.Value) ||
+			!g.Time.Equal(w.Time) || g.Time.Location() != w.Time.Location() {
+			t.Fatalf("record %d: got %+v, want %+v", i, g, w)
+		}
+	}
+}
+
+// loggerPack is a pack of n readings of one time in the shape a logger
+// sends on shm/<structure> (base time and unit, channels named by n).
+func loggerPack(n int) []byte {
+	b := []byte(`[{"bn":"","bt":1780000000.125,"bu":"/","n":"g00","v":-12.5}`)
+	for c := 1; c < n; c++ {
+		b = fmt.Appendf(b, `,{"n":"g%02d","v":%d.25}`, c, c*37)
+	}
+	return append(b, ']')
+}
+
+// TestFastPathTaken checks that the logger's usual packs take the fast path
+// (the fuzz test shows it agrees with the general decoder where it does).
+func TestFastPathTaken(t *testing.T) {
+	for _, p := range [][]byte{loggerPack(1), loggerPack(50), []byte(`[{"bt":1780000000,"u":"/","v":3}]`), []byte(`[]`)} {
+		if _, ok := decodeFast(bytes.TrimSpace(p), now); !ok {
+			t.Errorf("fast path refused %s", p)
+		}
+	}
+}
+
+// BenchmarkDecodePack compares the fast path with the general decoder on a
+// pack of 50 readings; one op is one pack.
+func BenchmarkDecodePack(b *testing.B) {
+	p := loggerPack(50)
+	b.Run("Decode", func(b *testing.B) {
+		for range b.N {
+			if _, err := Decode(p, now); err != nil {
+				b.Fatal(err)
+			}
+		}
+	})
+	b.Run("general", func(b *testing.B) {
+		for range b.N {
+			if _, err := decodeGeneral(p, now); err != nil {
+				b.Fatal(err)
 			}
 		}
 	})

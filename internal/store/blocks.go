@@ -256,14 +256,18 @@ func (s *Store) loadBlockHorizons(ctx context.Context) error {
 	return rows.Err()
 }
 
-// blockedBefore reports whether a reading of channel ch at ts may fall in a
-// period that already has a block. Called inside a write transaction, after
-// the lock is taken, so a concurrent Compact has either finished (and
-// noted its block) or not started.
-func (s *Store) blockedBefore(ch, ts int64) bool {
+// blockedBefore reports, per row, whether its reading may fall in a period
+// that already has a block. Called inside a write transaction, after the
+// lock is taken, so a concurrent Compact has either finished (and noted its
+// block) or not started.
+func (s *Store) blockedBefore(rows []batchRow) []bool {
+	blocked := make([]bool, len(rows))
 	s.mu.Lock()
 	defer s.mu.Unlock()
-	return ts < s.blockedUntil[ch]
+	for j, r := range rows {
+		blocked[j] = r.key.ts < s.blockedUntil[r.key.ch]
+	}
+	return blocked
 }
 
 // blockCache holds decoded blocks during one commit.
