@@ -62,7 +62,9 @@ func lowerRows(a *Sym, perm, ip []int) ([]int, []int32) {
 }
 
 // postorder returns a depth-first postorder of the forest parent: every
-// node comes after all of its descendants, children in increasing order.
+// node comes after all of its descendants, children in increasing order
+// (the non-recursive postorder of T. A. Davis, "Direct Methods for Sparse
+// Linear Systems", SIAM 2006, section 4.3; from memory).
 func postorder(parent []int) []int {
 	n := len(parent)
 	head := make([]int, n) // first child not yet visited
