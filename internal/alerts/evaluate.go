@@ -626,6 +626,11 @@ func (s *structState) evaluateMean(r Rule, o Observation, events []Event) []Even
 			if r.SuppressedBy != "" && s.suppressed(r, in.subject) {
 				raise = false
 			}
+			if r.DeferAbove > 0 && r.Signal == SignalAbsW {
+				if m, ok := s.members[in.subject]; ok && m.Checkable && math.Abs(m.W) > r.DeferAbove {
+					raise = false
+				}
+			}
 			if !raise {
 				continue
 			}

@@ -154,6 +154,9 @@ func meanExpr(r Rule, s string) string {
 		}
 		raise = fmt.Sprintf("(%s unless on(%s) ALERTS{alertname=%s, alertstate=\"firing\", structure=%s})", raise, son, strconv.Quote(r.SuppressedBy), strconv.Quote(s))
 	}
+	if r.DeferAbove > 0 && r.Signal == SignalAbsW {
+		raise = fmt.Sprintf("(%s unless on(%s) %s > %s)", raise, on, abs(rec), num(r.DeferAbove))
+	}
 	return fmt.Sprintf("%s\nor\n(%s and on(%s) %s)", raise, cond(r.Hold, r.Clear, r.ZClear), on, firing)
 }
 

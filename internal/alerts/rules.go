@@ -144,6 +144,13 @@ type Rule struct {
 	// raising (one alarm per fault): on the same subject when both rules
 	// have the same scope, on any subject of the structure otherwise.
 	SuppressedBy string
+	// DeferAbove, when positive, keeps a mean rule over a member's |w| from
+	// raising while the member's latest |w| exceeds it: a deviation that
+	// large is the business of the rule with the short window (SuppressedBy),
+	// which raises within its for-duration; without this the long window's
+	// mean, crossing its low floor within seconds of a large step, raised
+	// first and the fault showed as two alarms.
+	DeferAbove float64
 	// Summary and Description are the alert's annotations; they may use
 	// {{ $labels.structure }}, {{ $labels.member }}, {{ $labels.channel }}.
 	Summary     string
@@ -334,7 +341,7 @@ func DefaultRules() ([]Rule, error) {
 		{
 			Name: RuleMemberShifted, Signal: SignalAbsW, Severity: "warning",
 			Raise: ShiftRaise, Clear: ShiftClear, For: ShiftWindow, Mean: true, ZRaise: zTwo, ZClear: kRaise, Hold: ShiftWindow,
-			SuppressedBy: RuleMemberDiverging,
+			SuppressedBy: RuleMemberDiverging, DeferAbove: kRaise,
 			Summary:      "Member {{ $labels.member }} of {{ $labels.structure }} shows a small persistent shift",
 			Description:  "The mean of the member's w statistic over the last hour is shifted beyond what noise explains: a small persistent fault (a stiffness change in a redundant panel, a slowly drifting gauge) that single epochs do not show." + caution,
 		},

@@ -93,7 +93,51 @@ func (r *RecentRanker) Causes() []Cause {
 		c := finishCause(p.Kind, p.Label, num[k], den[k], sig2[k], count[k])
 		c.info = p.info
 		c.finishSizes()
+		if sn, sd, ok := r.onsetSums(k); ok && c.Separable {
+			// The size (and its spread) is estimated over the epochs since
+			// the cause's estimated onset; T and the grouping stay those
+			// of the whole span.
+			sized := c
+			sized.Num, sized.Den = sn, sd
+			sized.finishSizes()
+			c.Size, c.DisplaySize, c.Std, c.Implausible = sized.Size, sized.DisplaySize, sized.Std, sized.Implausible
+			c.Strain, c.StrainStd = sized.Strain, sized.StrainStd
+		}
 		out = append(out, c)
 	}
 	return out
+}
+
+// onsetSums returns the sums of n_k and d_k of candidate k over the epochs
+// since its estimated onset, when that is later than the span's first
+// epoch. A cause that began within the span (a step fault seen for part of
+// the for-duration) would otherwise have its size diluted by the epochs
+// before it. The onset is the maximum-likelihood change point of a shift
+// of unknown size in the epochs' numerators: the start j maximising
+// (sum_{i>=j} n_i)^2 / (sum_{i>=j} d_i), the generalised likelihood ratio
+// of a step at j (Hinkley, "Inference about the change-point from
+// cumulative sum tests", Biometrika 58, 1971; from memory). For a cause
+// present over the whole span the first epoch wins and nothing changes.
+func (r *RecentRanker) onsetSums(k int) (num, den float64, ok bool) {
+	var sn, sd, best float64
+	bestAt := -1
+	var bn, bd float64
+	for q := len(r.queue) - 1; q >= 0; q-- {
+		e := r.queue[q]
+		for i, idx := range e.idx {
+			if idx == k {
+				sn += e.num[i]
+				sd += e.den[i]
+			}
+		}
+		if sd > 0 {
+			if g := sn * sn / sd; bestAt < 0 || g > best {
+				best, bestAt, bn, bd = g, q, sn, sd
+			}
+		}
+	}
+	if bestAt <= 0 {
+		return 0, 0, false
+	}
+	return bn, bd, true
 }
