@@ -342,8 +342,8 @@ func DefaultRules() ([]Rule, error) {
 			Name: RuleMemberShifted, Signal: SignalAbsW, Severity: "warning",
 			Raise: ShiftRaise, Clear: ShiftClear, For: ShiftWindow, Mean: true, ZRaise: zTwo, ZClear: kRaise, Hold: ShiftWindow,
 			SuppressedBy: RuleMemberDiverging, DeferAbove: kRaise,
-			Summary:      "Member {{ $labels.member }} of {{ $labels.structure }} shows a small persistent shift",
-			Description:  "The mean of the member's w statistic over the last hour is shifted beyond what noise explains: a small persistent fault (a stiffness change in a redundant panel, a slowly drifting gauge) that single epochs do not show." + caution,
+			Summary:     "Member {{ $labels.member }} of {{ $labels.structure }} shows a small persistent shift",
+			Description: "The mean of the member's w statistic over the last hour is shifted beyond what noise explains: a small persistent fault (a stiffness change in a redundant panel, a slowly drifting gauge) that single epochs do not show." + caution,
 		},
 		{
 			Name: RuleChannelSilent, Signal: SignalSilence, Severity: "warning",
