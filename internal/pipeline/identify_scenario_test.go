@@ -64,7 +64,7 @@ func idLengths(rate time.Duration) (lead, after time.Duration) {
 	default:
 		lead, after = time.Hour, 3*time.Hour
 	}
-	if scnRace {
+	if raceDetector {
 		lead, after = lead/2, after/3
 	}
 	return lead, after
@@ -264,7 +264,7 @@ func idScenarios() []idScenario {
 func TestScenarioIdentification(t *testing.T) {
 	t.Parallel()
 	all := idScenarios()
-	if scnRace {
+	if raceDetector {
 		var sub []idScenario
 		for i, sc := range all {
 			if i%4 == 0 {
@@ -378,7 +378,7 @@ func TestScenarioIdentification(t *testing.T) {
 func TestScenarioCleanAlarms(t *testing.T) {
 	t.Parallel()
 	days := 30
-	if scnRace {
+	if raceDetector {
 		days = 5
 	}
 	for i, name := range []string{"footbridge", "roof"} {
