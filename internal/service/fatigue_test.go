@@ -11,7 +11,6 @@ import (
 	"testing"
 	"time"
 
-	"trussmonitor/internal/config"
 	"trussmonitor/internal/fatigue"
 	"trussmonitor/internal/simulate"
 	"trussmonitor/internal/simulate/publish"
@@ -23,23 +22,13 @@ import (
 // metrics; a second service on the same store restores the same damage.
 func TestServiceFatigue(t *testing.T) {
 	dir := t.TempDir()
-	cfg := config.Defaults()
-	cfg.File = "(test)"
-	cfg.Database = dir + "/monitor.db"
-	cfg.HTTP.Listen = "127.0.0.1:0"
-	cfg.Broker.Embedded = true
-	cfg.Broker.Listen = "127.0.0.1:0"
-	cfg.Broker.ClientID = "service-fatigue-test"
-	cfg.Structures = []config.Structure{{Structure: "../../testdata/footbridge/structure.yaml", Sensors: "../../testdata/footbridge/sensors.yaml"}}
-	if err := cfg.Validate(); err != nil {
-		t.Fatal(err)
-	}
+	cfg := testConfig(t, dir, "service-fatigue-test")
 	mon, err := LoadStructure(cfg.Structures[0].Structure, cfg.Structures[0].Sensors)
 	if err != nil {
 		t.Fatal(err)
 	}
 	log := slog.New(slog.NewTextHandler(io.Discard, nil))
-	svc, err := New(&cfg, Options{Logger: log})
+	svc, err := New(cfg, Options{Logger: log})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -141,7 +130,7 @@ func TestServiceFatigue(t *testing.T) {
 
 	// A restart restores every counter and the accumulated damage (summed
 	// per stored hour instead of per commit: equal to rounding).
-	svc2, err := New(&cfg, Options{Logger: log})
+	svc2, err := New(cfg, Options{Logger: log})
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -12,7 +12,6 @@ import (
 
 	mqtt "github.com/eclipse/paho.mqtt.golang"
 
-	"trussmonitor/internal/config"
 	"trussmonitor/internal/simulate"
 	"trussmonitor/internal/simulate/publish"
 )
@@ -24,23 +23,13 @@ import (
 // service shuts down cleanly when its context ends.
 func TestServiceEndToEnd(t *testing.T) {
 	dir := t.TempDir()
-	cfg := config.Defaults()
-	cfg.File = "(test)"
-	cfg.Database = dir + "/monitor.db"
-	cfg.HTTP.Listen = "127.0.0.1:0"
-	cfg.Broker.Embedded = true
-	cfg.Broker.Listen = "127.0.0.1:0"
-	cfg.Broker.ClientID = "service-test"
-	cfg.Structures = []config.Structure{{Structure: "../../testdata/footbridge/structure.yaml", Sensors: "../../testdata/footbridge/sensors.yaml"}}
-	if err := cfg.Validate(); err != nil {
-		t.Fatal(err)
-	}
+	cfg := testConfig(t, dir, "service-test")
 	mon, err := LoadStructure(cfg.Structures[0].Structure, cfg.Structures[0].Sensors)
 	if err != nil {
 		t.Fatal(err)
 	}
 	log := slog.New(slog.NewTextHandler(io.Discard, nil))
-	svc, err := New(&cfg, Options{Logger: log})
+	svc, err := New(cfg, Options{Logger: log})
 	if err != nil {
 		t.Fatal(err)
 	}
