@@ -52,7 +52,7 @@ func TestSolveZeroStateForTotals(t *testing.T) {
 		if mb.ID != st.Members[k].ID {
 			t.Fatalf("member %d is %s, want %s", k, mb.ID, st.Members[k].ID)
 		}
-		if d := math.Abs(mb.ForceN-zero.Forces[k]); d > 1e-12*math.Max(math.Abs(zero.Forces[k]), 1e3) {
+		if d := math.Abs(mb.ForceN - zero.Forces[k]); d > 1e-12*math.Max(math.Abs(zero.Forces[k]), 1e3) {
 			t.Errorf("%s: monitor solve %.17g N, zero state of the member state %.17g N", mb.ID, mb.ForceN, zero.Forces[k])
 		}
 		if math.Abs(mb.ForceN) > 1e3 {
