@@ -10,7 +10,6 @@ import (
 	"strings"
 
 	"trussmonitor/internal/model"
-	"trussmonitor/internal/pipeline"
 	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/structfile"
@@ -65,7 +64,7 @@ func runCheck(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 		rep.Extra = append(rep.Extra, sec) // check_capacity.go
 	}
 	if sm != nil && rep.Model != nil {
-		det, err := pipeline.Detectability(rep.Model, sm, reconcile.Options{})
+		det, err := reconcile.LayoutDetectability(rep.Model, sm, reconcile.Options{})
 		if err != nil {
 			fmt.Fprintf(stderr, "monitor check: %s: %v\n", *sensorsPath, err)
 			return 1

@@ -1,4 +1,4 @@
-package pipeline
+package reconcile
 
 import (
 	"fmt"
@@ -9,7 +9,6 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"trussmonitor/internal/model"
-	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/sensors"
 )
 
@@ -52,13 +51,13 @@ type DetectReport struct {
 	Separability *Separability
 }
 
-// Detectability computes the internal reliability of the gauge layout:
+// LayoutDetectability computes the internal reliability of the gauge layout:
 // redundancy numbers r_i and minimal detectable biases MDB_i = sigma_i
 // delta0 / sqrt(r_i) of every gauged member (DESIGN.md, Reconciliation),
 // the members that cannot be checked, and, for the weakest member, the
 // ungauged members where one more gauge pair (with the layout's median
 // gauge noise) would raise its redundancy most.
-func Detectability(m *model.Model, sm *sensors.Map, opt reconcile.Options) (*DetectReport, error) {
+func LayoutDetectability(m *model.Model, sm *sensors.Map, opt Options) (*DetectReport, error) {
 	lm, err := newLinearModel(m, sm)
 	if err != nil {
 		return nil, err
@@ -77,7 +76,7 @@ func Detectability(m *model.Model, sm *sensors.Map, opt reconcile.Options) (*Det
 	for _, in := range lm.inputs {
 		rowSigma = append(rowSigma, in.Sigma)
 	}
-	d, err := reconcile.Detect(a, rowSigma, opt)
+	d, err := Detect(a, rowSigma, opt)
 	if err != nil {
 		return nil, err
 	}
@@ -99,7 +98,7 @@ func Detectability(m *model.Model, sm *sensors.Map, opt reconcile.Options) (*Det
 	for _, g := range lm.gauged {
 		gauged[g] = true
 	}
-	var options []reconcile.GaugeOption
+	var options []GaugeOption
 	members := m.Structure().Members
 	_, cols := a.Dims()
 	p := len(lm.unknown)
@@ -114,7 +113,7 @@ func Detectability(m *model.Model, sm *sensors.Map, opt reconcile.Options) (*Det
 		for j, in := range lm.inputs {
 			row[p+j] = in.All[k]
 		}
-		options = append(options, reconcile.GaugeOption{Label: mb.ID, Row: row, Sigma: mb.E * mb.A * noise / math.Sqrt2})
+		options = append(options, GaugeOption{Label: mb.ID, Row: row, Sigma: mb.E * mb.A * noise / math.Sqrt2})
 	}
 	// Each option as one more row of the design; the weakest redundancy is
 	// taken over the existing gauge rows (not the inputs' pseudo-rows).
@@ -126,7 +125,7 @@ func Detectability(m *model.Model, sm *sensors.Map, opt reconcile.Options) (*Det
 	for _, o := range options {
 		ext.SetRow(rows, o.Row)
 		extSigma[rows] = o.Sigma
-		dd, err := reconcile.Detect(ext, extSigma, opt)
+		dd, err := Detect(ext, extSigma, opt)
 		if err != nil {
 			return nil, fmt.Errorf("detectability with a gauge on %s: %w", o.Label, err)
 		}

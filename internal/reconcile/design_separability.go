@@ -1,4 +1,4 @@
-package pipeline
+package reconcile
 
 import (
 	"fmt"
@@ -8,7 +8,6 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"trussmonitor/internal/model"
-	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/sensors"
 )
 
@@ -59,7 +58,7 @@ func designState(m *model.Model, sm *sensors.Map) (string, *model.Result, error)
 // for the layout of lm with design a (rows: gauges, then input pseudo-
 // observations) and row standard deviations rowSigma; options are the
 // extra gauges of Detectability (one per ungauged member, by id).
-func separability(m *model.Model, sm *sensors.Map, lm *linearModel, a *mat.Dense, rowSigma []float64, options []reconcile.GaugeOption, opt reconcile.Options) (*Separability, error) {
+func separability(m *model.Model, sm *sensors.Map, lm *linearModel, a *mat.Dense, rowSigma []float64, options []GaugeOption, opt Options) (*Separability, error) {
 	c, err := newCandidates(lm)
 	if err != nil {
 		return nil, err
@@ -87,7 +86,7 @@ func separability(m *model.Model, sm *sensors.Map, lm *linearModel, a *mat.Dense
 	for j, l := range loadLabels {
 		entries["load at "+l] = column(nodal, j)
 	}
-	cands := append([]reconcile.Candidate(nil), fixed...)
+	cands := append([]Candidate(nil), fixed...)
 	gather := func(v []float64) []float64 {
 		out := make([]float64, rows)
 		for r, k := range lm.gauged {
@@ -105,7 +104,7 @@ func separability(m *model.Model, sm *sensors.Map, lm *linearModel, a *mat.Dense
 		}
 		label := "E A of " + mb.ID
 		entries[label] = v
-		cands = append(cands, c.bounded(reconcile.Candidate{Kind: reconcile.StiffnessChange, Label: label, Signature: sig, Kappa: c.kappa[k]}))
+		cands = append(cands, c.bounded(Candidate{Kind: StiffnessChange, Label: label, Signature: sig, Kappa: c.kappa[k]}))
 	}
 	for _, s := range c.springs {
 		j := indexOf(loadLabels, s.Label)
@@ -123,9 +122,9 @@ func separability(m *model.Model, sm *sensors.Map, lm *linearModel, a *mat.Dense
 		}
 		label := "spring " + s.Label
 		entries[label] = v
-		cands = append(cands, c.bounded(reconcile.Candidate{Kind: reconcile.SpringChange, Label: label, Signature: sig, Kappa: s.Kappa}))
+		cands = append(cands, c.bounded(Candidate{Kind: SpringChange, Label: label, Signature: sig, Kappa: s.Kappa}))
 	}
-	solver, err := reconcile.NewSolver(a, rowSigma, withDrop(opt))
+	solver, err := NewSolver(a, rowSigma, withDrop(opt))
 	if err != nil {
 		return nil, err
 	}
@@ -140,11 +139,11 @@ func separability(m *model.Model, sm *sensors.Map, lm *linearModel, a *mat.Dense
 	}
 	groups, untestable := id.DesignGroups()
 	out := &Separability{State: name, RhoMax: solver.RhoMax(), Untestable: untestable}
-	byLabel := map[string]reconcile.Candidate{}
+	byLabel := map[string]Candidate{}
 	for _, cd := range cands {
 		byLabel[cd.Label] = cd
 	}
-	extras := make([]reconcile.ExtraGauge, 0, len(options))
+	extras := make([]ExtraGauge, 0, len(options))
 	for _, o := range options {
 		k, ok := st.MemberIndex(o.Label)
 		if !ok {
@@ -154,21 +153,21 @@ func separability(m *model.Model, sm *sensors.Map, lm *linearModel, a *mat.Dense
 		for l, v := range entries {
 			e[l] = v[k]
 		}
-		extras = append(extras, reconcile.ExtraGauge{Label: o.Label, Row: o.Row, Sigma: o.Sigma, Entries: e})
+		extras = append(extras, ExtraGauge{Label: o.Label, Row: o.Row, Sigma: o.Sigma, Entries: e})
 	}
 	for _, grp := range groups {
 		cg := CauseGroup{}
-		var gc []reconcile.Candidate
+		var gc []Candidate
 		for _, cs := range grp {
 			cg.Labels = append(cg.Labels, cs.Label)
 			// A channel's bias moves only its member's force, exactly as
 			// the member's gauge-group bias does: no gauge on another member
 			// separates the two, so channels are left out of the search.
-			if cs.Kind != reconcile.ChannelBias {
+			if cs.Kind != ChannelBias {
 				gc = append(gc, byLabel[cs.Label])
 			}
 		}
-		best, ok, err := reconcile.SeparatingGauge(a, rowSigma, gc, extras, withDrop(opt))
+		best, ok, err := SeparatingGauge(a, rowSigma, gc, extras, withDrop(opt))
 		if err != nil {
 			return nil, fmt.Errorf("separating %s: %w", strings.Join(cg.Labels, ", "), err)
 		}
@@ -180,7 +179,7 @@ func separability(m *model.Model, sm *sensors.Map, lm *linearModel, a *mat.Dense
 	return out, nil
 }
 
-func withDrop(o reconcile.Options) reconcile.Options {
+func withDrop(o Options) Options {
 	o.DropUnidentifiable = true
 	return o
 }

@@ -1,4 +1,4 @@
-package pipeline
+package reconcile
 
 import (
 	"bytes"
@@ -9,7 +9,6 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"trussmonitor/internal/model"
-	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/structfile"
 )
@@ -38,7 +37,7 @@ func loadExample(t *testing.T, dir string) (*model.Model, *sensors.Map) {
 // delta0 = 4.1321 for alpha0 = 0.001, beta = 0.80.
 func TestDetectabilityFootbridge(t *testing.T) {
 	m, sm := loadExample(t, "footbridge")
-	rep, err := Detectability(m, sm, reconcile.Options{})
+	rep, err := LayoutDetectability(m, sm, Options{})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -90,7 +89,7 @@ func TestDetectabilityFootbridge(t *testing.T) {
 // residual is always zero.
 func TestDetectabilityUncheckable(t *testing.T) {
 	a := mat.NewDense(3, 1, []float64{0, 0, 5})
-	d, err := reconcile.Detect(a, []float64{1, 1, 1}, reconcile.Options{})
+	d, err := Detect(a, []float64{1, 1, 1}, Options{})
 	if err != nil {
 		t.Fatal(err)
 	}
