@@ -6,8 +6,6 @@ import (
 	"math"
 	"sort"
 
-	"gonum.org/v1/gonum/mat"
-
 	"trussmonitor/internal/model"
 	"trussmonitor/internal/sensors"
 )
@@ -20,14 +18,6 @@ type MemberDetectability struct {
 	Redundancy float64 // r_i
 	MDBN       float64 // minimal detectable bias (Baarda), newtons
 	Checkable  bool
-}
-
-// GaugeSuggestion is one ungauged member where an additional gauge pair
-// would raise the weakest member's redundancy.
-type GaugeSuggestion struct {
-	Member        string
-	WeakestBefore float64
-	WeakestAfter  float64
 }
 
 // DetectReport is the detectability report of a structure with its sensor
@@ -44,8 +34,9 @@ type DetectReport struct {
 	// of the noisy inputs (temperatures, loads): the members' numbers sum
 	// to DOF minus it.
 	InputRedundancy float64
-	// Suggestions are the best additional gauge locations, best first.
-	Suggestions []GaugeSuggestion
+	// Suggestions are the best additional gauge locations (one gauge pair
+	// on an ungauged member, by member id), best first.
+	Suggestions []Placement
 	// Separability lists the causes the layout cannot tell apart and those
 	// it cannot test.
 	Separability *Separability
@@ -117,28 +108,12 @@ func LayoutDetectability(m *model.Model, sm *sensors.Map, opt Options) (*DetectR
 	}
 	// Each option as one more row of the design; the weakest redundancy is
 	// taken over the existing gauge rows (not the inputs' pseudo-rows).
-	rows, _ := a.Dims()
-	before := rep.Members[rep.Weakest].Redundancy
-	ext := mat.NewDense(rows+1, cols, nil)
-	ext.Slice(0, rows, 0, cols).(*mat.Dense).Copy(a)
-	extSigma := append(append([]float64(nil), rowSigma...), 0)
-	for _, o := range options {
-		ext.SetRow(rows, o.Row)
-		extSigma[rows] = o.Sigma
-		dd, err := Detect(ext, extSigma, opt)
-		if err != nil {
-			return nil, fmt.Errorf("detectability with a gauge on %s: %w", o.Label, err)
-		}
-		after := math.Inf(1)
-		for i := 0; i < g; i++ {
-			after = math.Min(after, dd.Redundancy[i])
-		}
-		rep.Suggestions = append(rep.Suggestions, GaugeSuggestion{Member: o.Label, WeakestBefore: before, WeakestAfter: after})
+	if rep.Suggestions, err = SuggestGauge(a, rowSigma, g, options, opt); err != nil {
+		return nil, fmt.Errorf("gauge suggestions: %w", err)
 	}
 	if rep.Separability, err = separability(m, sm, lm, a, rowSigma, options, opt); err != nil {
 		return nil, fmt.Errorf("separability: %w", err)
 	}
-	sort.SliceStable(rep.Suggestions, func(i, j int) bool { return rep.Suggestions[i].WeakestAfter > rep.Suggestions[j].WeakestAfter })
 	if len(rep.Suggestions) > 5 {
 		rep.Suggestions = rep.Suggestions[:5]
 	}
@@ -198,7 +173,7 @@ func (r *DetectReport) Write(w io.Writer) {
 	if len(r.Suggestions) > 0 {
 		fmt.Fprintln(w, "  one additional gauge pair that raises the weakest redundancy most:")
 		for _, s := range r.Suggestions {
-			fmt.Fprintf(w, "    on %-10s weakest redundancy %.3f -> %.3f\n", s.Member, s.WeakestBefore, s.WeakestAfter)
+			fmt.Fprintf(w, "    on %-10s weakest redundancy %.3f -> %.3f\n", s.Label, s.WeakestBefore, s.WeakestAfter)
 		}
 	}
 	if r.Separability != nil {
