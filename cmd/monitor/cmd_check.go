@@ -69,7 +69,7 @@ func runCheck(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 			fmt.Fprintf(stderr, "monitor check: %s: %v\n", *sensorsPath, err)
 			return 1
 		}
-		rep.Extra = append(rep.Extra, func(w io.Writer) { fmt.Fprintln(w); det.Write(w) })
+		rep.Extra = append(rep.Extra, func(w io.Writer) { fmt.Fprintln(w); writeDetectability(w, det) })
 	}
 	rep.Write(stdout)
 	if rep.Mechanism != nil {

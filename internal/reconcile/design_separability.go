@@ -2,7 +2,6 @@ package reconcile
 
 import (
 	"fmt"
-	"io"
 	"strings"
 
 	"gonum.org/v1/gonum/mat"
@@ -182,28 +181,4 @@ func separability(m *model.Model, sm *sensors.Map, lm *linearModel, a *mat.Dense
 func withDrop(o Options) Options {
 	o.DropUnidentifiable = true
 	return o
-}
-
-// Write prints the groups and untestable candidates.
-func (s *Separability) Write(w io.Writer) {
-	fmt.Fprintf(w, "separability of the candidate causes (stiffness signatures at %s; one group when |rho| >= %.3f, the w correlation at which two causes of minimal detectable size are ranked right with less than the test's power):\n", s.State, s.RhoMax)
-	if len(s.Groups) == 0 {
-		fmt.Fprintln(w, "  every testable cause can be told apart from every other")
-	}
-	for _, g := range s.Groups {
-		fmt.Fprintf(w, "  cannot be told apart: %s\n", strings.Join(g.Labels, " | "))
-		switch {
-		case g.Gauge == "":
-			fmt.Fprintln(w, "    no single additional gauge pair found")
-		case g.Separates:
-			fmt.Fprintf(w, "    a gauge pair on %s separates them (largest |rho| %.3f)\n", g.Gauge, g.MaxRho)
-		case g.MaxRho > 0.9999:
-			fmt.Fprintln(w, "    no single additional gauge pair separates them")
-		default:
-			fmt.Fprintf(w, "    no single additional gauge pair separates them (best: %s, largest |rho| %.3f)\n", g.Gauge, g.MaxRho)
-		}
-	}
-	if len(s.Untestable) > 0 {
-		fmt.Fprintf(w, "  untestable in one epoch (null projected signature, or minimal detectable size beyond the plausible range; never offered per epoch, still summed over the window), %d: %s\n", len(s.Untestable), strings.Join(s.Untestable, ", "))
-	}
 }

@@ -2,7 +2,6 @@ package reconcile
 
 import (
 	"fmt"
-	"io"
 	"math"
 	"sort"
 
@@ -144,39 +143,4 @@ func medianStrainNoise(sm *sensors.Map, st *model.Structure, names []string, sig
 		return 2e-6
 	}
 	return v[len(v)/2]
-}
-
-// Write prints the report as a readable table.
-func (r *DetectReport) Write(w io.Writer) {
-	fmt.Fprintf(w, "detectability (all gauges reporting; unknown loads estimated: %v; degrees of freedom %d; delta0 %.4f):\n", r.Unknown, r.DOF, r.Delta0)
-	fmt.Fprintf(w, "  %-10s %12s %11s %12s  %s\n", "member", "sigma [kN]", "redundancy", "MDB [kN]", "checkable")
-	var unchecked []string
-	for _, m := range r.Members {
-		check := "yes"
-		mdb := fmt.Sprintf("%12.2f", m.MDBN/1e3)
-		if !m.Checkable {
-			check = "no: redundancy near zero, never alarms"
-			mdb = fmt.Sprintf("%12s", "-")
-			unchecked = append(unchecked, m.Member)
-		}
-		fmt.Fprintf(w, "  %-10s %12.2f %11.3f %s  %s\n", m.Member, m.SigmaN/1e3, m.Redundancy, mdb, check)
-	}
-	if len(unchecked) == 0 {
-		fmt.Fprintln(w, "  every gauged member can be checked")
-	} else {
-		fmt.Fprintf(w, "  cannot be checked: %v\n", unchecked)
-	}
-	if len(r.Members) > 0 {
-		weak := r.Members[r.Weakest]
-		fmt.Fprintf(w, "  weakest member: %s (redundancy %.3f)\n", weak.Member, weak.Redundancy)
-	}
-	if len(r.Suggestions) > 0 {
-		fmt.Fprintln(w, "  one additional gauge pair that raises the weakest redundancy most:")
-		for _, s := range r.Suggestions {
-			fmt.Fprintf(w, "    on %-10s weakest redundancy %.3f -> %.3f\n", s.Label, s.WeakestBefore, s.WeakestAfter)
-		}
-	}
-	if r.Separability != nil {
-		r.Separability.Write(w)
-	}
 }

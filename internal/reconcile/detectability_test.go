@@ -1,9 +1,7 @@
 package reconcile
 
 import (
-	"bytes"
 	"math"
-	"strings"
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
@@ -72,13 +70,6 @@ func TestDetectabilityFootbridge(t *testing.T) {
 	}
 	if best := rep.Suggestions[0]; best.WeakestAfter < best.WeakestBefore-1e-12 {
 		t.Errorf("an extra gauge lowered the weakest redundancy: %+v", best)
-	}
-	var buf bytes.Buffer
-	rep.Write(&buf)
-	for _, want := range []string{"redundancy", "MDB", "weakest member", "additional gauge"} {
-		if !strings.Contains(buf.String(), want) {
-			t.Errorf("report lacks %q:\n%s", want, buf.String())
-		}
 	}
 }
 
