@@ -8,6 +8,7 @@ import (
 
 	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/pipeline"
+	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/report"
 	"trussmonitor/internal/sensors"
 )
@@ -74,7 +75,7 @@ func newCollector(s *report.Stream, head *report.Report, scale []float64) *colle
 
 // Epoch implements pipeline.Sink.
 func (c *collector) Epoch(r *pipeline.Result) {
-	for _, cs := range [][]pipeline.Cause{r.Causes, r.Window} {
+	for _, cs := range [][]reconcile.RankedCause{r.Causes, r.Window} {
 		for _, k := range cs {
 			if k.Subject != "" {
 				c.subjects[k.Label] = k.Subject
@@ -82,7 +83,7 @@ func (c *collector) Epoch(r *pipeline.Result) {
 		}
 	}
 	c.events = append(c.events, r.Events...)
-	if r.Outcome != pipeline.OutcomeAccepted && r.Outcome != pipeline.OutcomeRejected {
+	if r.Outcome != reconcile.OutcomeAccepted && r.Outcome != reconcile.OutcomeRejected {
 		return
 	}
 	c.totals.add(r)
