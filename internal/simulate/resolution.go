@@ -41,14 +41,19 @@ func LoggerResolution(unit string) (decimals int, ok bool) {
 	return d, ok
 }
 
-// quantise rounds v to the nearest multiple of 10^-decimals and returns the
+// Quantise rounds v to the nearest multiple of 10^-decimals and returns the
 // float64 a correctly rounding parser gives for that decimal (n / 10^d with
 // n and 10^d exact in float64, so the division rounds to the same nearest
 // float64 as parsing the digits): what a logger printing that many
-// decimals sends.
-func quantise(v float64, decimals int) float64 {
+// decimals sends. A value that rounds to zero is +0: a logger prints
+// "0.000", not a negative zero.
+func Quantise(v float64, decimals int) float64 {
 	p := math.Pow10(decimals)
-	return math.Round(v*p) / p
+	q := math.Round(v*p) / p
+	if q == 0 {
+		return 0
+	}
+	return q
 }
 
 // resolutionOf returns the decimals of a channel's unit for Options.Quantise.

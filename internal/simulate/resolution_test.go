@@ -10,7 +10,8 @@ import (
 // TestQuantise checks Options.Quantise on both example structures: every
 // reading is the float64 of a decimal with its unit's number of decimals
 // (printing it with that many decimals and parsing it back gives the same
-// bits), it is the unquantised reading of the same seed rounded to the
+// bits, and a reading that rounds to zero is +0, as a logger prints it),
+// it is the unquantised reading of the same seed rounded to the
 // nearest step, and the step is finer than the channel's noise (estimated
 // from the differences of successive readings at 1 s at night, when
 // nothing but noise and the slow temperature moves them).
@@ -60,6 +61,9 @@ func TestQuantise(t *testing.T) {
 					back, err := strconv.ParseFloat(s, 64)
 					if err != nil || math.Float64bits(back) != math.Float64bits(q.Value) {
 						t.Fatalf("step %d channel %s: %v printed with %d decimals is %s, parsed back %v", k, q.Channel, q.Value, d, s, back)
+					}
+					if q.Value == 0 && math.Signbit(q.Value) {
+						t.Fatalf("step %d channel %s: quantised %v to a negative zero; a logger prints 0", k, q.Channel, p.Value)
 					}
 					step := math.Pow10(-d)
 					if math.Abs(q.Value-p.Value) > step/2*(1+1e-9) {

@@ -177,7 +177,7 @@ func (r *run) step(k int) (Step, error) {
 			raw = math.Max(0, math.Round(raw))
 		}
 		if g.opt.Quantise {
-			raw = quantise(raw, c.decimals)
+			raw = Quantise(raw, c.decimals)
 		}
 		if !c.stuckAt.IsZero() && !t.Before(c.stuckAt) {
 			if !r.stuckSet[i] {

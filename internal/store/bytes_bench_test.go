@@ -213,7 +213,7 @@ func recordedDay(b *testing.B, quantise bool) (string, []store.Reading, map[stri
 	}
 	sc := bufio.NewScanner(zr)
 	sc.Buffer(nil, 1<<20)
-	var header, units []string
+	var header []string
 	var rs []store.Reading
 	decimals := map[string]int{}
 	for line := 1; sc.Scan(); line++ {
@@ -223,7 +223,6 @@ func recordedDay(b *testing.B, quantise bool) (string, []store.Reading, map[stri
 			header = cells
 			continue
 		case 2:
-			units = cells
 			for i := 1; i < len(cells); i++ {
 				d, ok := simulate.LoggerResolution(cells[i])
 				if !ok {
@@ -243,8 +242,7 @@ func recordedDay(b *testing.B, quantise bool) (string, []store.Reading, map[stri
 				b.Fatalf("recorded day line %d column %s: %v", line, header[i], err)
 			}
 			if quantise {
-				p := math.Pow10(decimals[header[i]])
-				v = math.Round(v*p) / p
+				v = simulate.Quantise(v, decimals[header[i]])
 			}
 			rs = append(rs, store.Reading{Channel: header[i], Time: t, Value: v})
 		}
@@ -252,7 +250,6 @@ func recordedDay(b *testing.B, quantise bool) (string, []store.Reading, map[stri
 	if err := sc.Err(); err != nil {
 		b.Fatal(err)
 	}
-	_ = units
 	return "alder-creek", rs, decimals
 }
 
