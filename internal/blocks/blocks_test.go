@@ -6,6 +6,7 @@ import (
 	"math/rand/v2"
 	"strconv"
 	"testing"
+	"time"
 )
 
 // same reports whether two point slices are equal bit for bit.
@@ -288,16 +289,36 @@ func BenchmarkEncode(b *testing.B) {
 	b.ReportMetric(float64(b.N*len(pts))/b.Elapsed().Seconds(), "readings/s")
 }
 
+// BenchmarkDecode decodes the same hour with format versions 1 and 2 in
+// turn, in each iteration, so that both see the same load of the shared
+// machine, and reports the rate of each and their ratio (the replay reads
+// every block through DecodeAppend).
 func BenchmarkDecode(b *testing.B) {
-	blk, err := Encode(benchPoints())
+	pts := benchPoints()
+	b1, err := encodeV1(pts)
+	if err != nil {
+		b.Fatal(err)
+	}
+	b2, err := Encode(pts)
 	if err != nil {
 		b.Fatal(err)
 	}
 	var dst []Point
+	var t1, t2 time.Duration
 	for b.Loop() {
-		if dst, err = DecodeAppend(dst[:0], blk); err != nil {
+		start := time.Now()
+		if dst, err = DecodeAppend(dst[:0], b1); err != nil {
 			b.Fatal(err)
 		}
+		mid := time.Now()
+		if dst, err = DecodeAppend(dst[:0], b2); err != nil {
+			b.Fatal(err)
+		}
+		t1 += mid.Sub(start)
+		t2 += time.Since(mid)
 	}
-	b.ReportMetric(float64(b.N*len(dst))/b.Elapsed().Seconds(), "readings/s")
+	n := float64(b.N * len(pts))
+	b.ReportMetric(n/t1.Seconds(), "v1-readings/s")
+	b.ReportMetric(n/t2.Seconds(), "v2-readings/s")
+	b.ReportMetric(t1.Seconds()/t2.Seconds(), "v2/v1-speed")
 }

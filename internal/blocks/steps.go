@@ -196,16 +196,9 @@ func decodeDecimalSteps(r *bitReader, pts []Point, n0 int64, p float64, sig int)
 			if n != 0 {
 				k = stepOf(n, sig)
 			}
-			ones := 0
-			for ones < 3 {
-				b, err := r.bit()
-				if err != nil {
-					return fmt.Errorf("step of reading %d: %w", j, err)
-				}
-				if !b {
-					break
-				}
-				ones++
+			ones, err := r.unary(3)
+			if err != nil {
+				return fmt.Errorf("step of reading %d: %w", j, err)
 			}
 			switch ones {
 			case 1:
@@ -213,7 +206,6 @@ func decodeDecimalSteps(r *bitReader, pts []Point, n0 int64, p float64, sig int)
 			case 2:
 				k++
 			case 3:
-				var err error
 				if k, err = r.read(4); err != nil {
 					return fmt.Errorf("step of reading %d: %w", j, err)
 				}
@@ -224,19 +216,12 @@ func decodeDecimalSteps(r *bitReader, pts []Point, n0 int64, p float64, sig int)
 		}
 		m := pow10i[k]
 		rp := st.param(m)
-		q := uint64(0)
-		if j == 1 {
-			q = riceEscape // the first residual is written in full
-		}
-		for q < riceEscape {
-			b, err := r.bit()
-			if err != nil {
+		q := uint64(riceEscape) // the first residual is written in full
+		if j > 1 {
+			var err error
+			if q, err = r.unary(riceEscape); err != nil {
 				return fmt.Errorf("value of reading %d: %w", j, err)
 			}
-			if !b {
-				break
-			}
-			q++
 		}
 		var z uint64
 		if q < riceEscape {
