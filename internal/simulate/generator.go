@@ -6,6 +6,10 @@
 // injected fault (gauge drift, a stuck gauge, a stiffness loss of a member,
 // a support settlement).
 //
+// By default a reading is the full float64 of the noisy value; with
+// Options.Quantise the logger reports it at its unit's fixed resolution
+// (LoggerResolution), as a real logger does.
+//
 // The generator is pure computation: it yields one Step per time stamp with
 // the readings (channel, raw value, unit) and the truth behind them, and
 // does no I/O. Package publish sends the steps to an MQTT broker and package
