@@ -56,3 +56,20 @@ func ExampleGenerator_All() {
 	// 00:01 46 readings, first B2_a in / - faults active: 0
 	// 00:02 46 readings, first B2_a in / - faults active: 1
 }
+
+// A strain logger reports 0.1 microstrain: a noisy strain of
+// 1.234567891e-05 is sent as 1.23e-05, the float64 of the text
+// "0.0000123". A reading that rounds to zero is sent as 0, never -0.
+func ExampleQuantise() {
+	d, ok := simulate.LoggerResolution("/")
+	fmt.Println(d, ok)
+	fmt.Println(simulate.Quantise(1.234567891e-05, d))
+	fmt.Println(simulate.Quantise(-3e-9, d))
+	_, ok = simulate.LoggerResolution("kPa")
+	fmt.Println(ok)
+	// Output:
+	// 7 true
+	// 1.23e-05
+	// 0
+	// false
+}
