@@ -23,6 +23,7 @@ import (
 	"time"
 
 	"trussmonitor/internal/alerts"
+	"trussmonitor/internal/instrumented"
 	"trussmonitor/internal/model"
 	"trussmonitor/internal/pipeline"
 	"trussmonitor/internal/report"
@@ -177,7 +178,7 @@ func Run(ctx context.Context, opt Options) (*Summary, error) {
 		From: opt.From.UTC(), To: opt.To.UTC(), Warnings: mdl.warnings,
 		Raised: map[string]int{},
 	}
-	sm, err := sensors.Parse(opt.SensorsFile, sensorData, mdl.st)
+	sm, err := instrumented.SensorsFor(opt.SensorsFile, sensorData, mdl.st, mdl.source)
 	if err != nil {
 		return nil, err
 	}
@@ -452,7 +453,7 @@ func resolveModel(ctx context.Context, db *store.Store, opt Options, sensorData 
 			return nil, err
 		}
 		if name != "" && name != structSt.Name {
-			return nil, &sensors.MismatchError{SensorsPath: opt.SensorsFile, MapStructure: name, StructurePath: opt.StructureFile, Structure: structSt.Name}
+			return nil, &instrumented.MismatchError{SensorsPath: opt.SensorsFile, MapStructure: name, StructurePath: opt.StructureFile, Structure: structSt.Name}
 		}
 		name = structSt.Name
 	}
