@@ -387,7 +387,7 @@ func emptyPeriod(ctx context.Context, db *store.Store, opt Options, structure st
 	if e.First, err = firstReading(ctx, db, structure, time.Time{}); err != nil {
 		return err
 	}
-	if e.Last, err = lastReading(ctx, db, structure, e.First); err != nil {
+	if e.Last, _, err = db.LastReading(ctx, structure); err != nil {
 		return err
 	}
 	return e
@@ -407,28 +407,6 @@ func firstReading(ctx context.Context, db *store.Store, structure string, from t
 		return time.Time{}, err
 	}
 	return t, nil
-}
-
-// lastReading finds the time of the last reading of structure (at or after
-// first, which is a reading's time) by bisection on "is there a reading at
-// or after t": about 64 probes, each a few indexed look-ups.
-func lastReading(ctx context.Context, db *store.Store, structure string, first time.Time) (time.Time, error) {
-	// Invariant: a reading exists at lo and none at or after hi.
-	lo := first.UnixNano()
-	hi := time.Date(2262, 1, 1, 0, 0, 0, 0, time.UTC).UnixNano() // the store's nanosecond column ends before 2262
-	for hi-lo > 1 {
-		mid := lo + (hi-lo)/2
-		t, err := firstReading(ctx, db, structure, time.Unix(0, mid))
-		if err != nil {
-			return time.Time{}, err
-		}
-		if t.IsZero() {
-			hi = mid
-		} else {
-			lo = t.UnixNano()
-		}
-	}
-	return time.Unix(0, lo).UTC(), nil
 }
 
 // resolved is the model chosen for a replay.
