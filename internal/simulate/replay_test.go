@@ -15,6 +15,7 @@ import (
 	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/simulate"
 	"trussmonitor/internal/simulate/loggercsv"
+	"trussmonitor/internal/simulate/loggercsv/loggercsvtest"
 	"trussmonitor/internal/structfile"
 )
 
@@ -96,7 +97,7 @@ func TestReplayDay(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if line, ok := loggercsv.SameWithin(got, want.Bytes(), 1e-6); !ok {
+	if line, ok := loggercsvtest.SameWithin(got, want.Bytes(), 1e-6); !ok {
 		t.Fatalf("%s differs from the generator beyond rounding at line %d; regenerate with -update if the change is intended", replayFile, line)
 	}
 
