@@ -231,10 +231,6 @@ func (d *Demo) URL() string { return "http://" + d.svc.HTTPAddr() + "/" }
 // Service is the running service.
 func (d *Demo) Service() *service.Service { return d.svc }
 
-// Faults are the injected faults, FaultTime the simulated time of the
-// first.
-func (d *Demo) Faults() []simulate.Fault { return d.faults }
-
 // FaultTime returns when the first injected fault starts (simulated time).
 func (d *Demo) FaultTime() time.Time {
 	if len(d.faults) == 0 {

@@ -197,9 +197,6 @@ func (s *Service) addStructure(mon *instrumented.Structure) error {
 	return nil
 }
 
-// Registry returns the Prometheus registry of the service.
-func (s *Service) Registry() *prometheus.Registry { return s.reg }
-
 // Store returns the service's store.
 func (s *Service) Store() *store.Store { return s.store }
 

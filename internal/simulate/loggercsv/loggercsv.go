@@ -103,9 +103,6 @@ func (cw *Writer) Flush() error {
 	return nil
 }
 
-// Rows returns the number of rows written.
-func (cw *Writer) Rows() int { return cw.rows }
-
 // WriteAll writes the header and every step of steps, then flushes.
 func WriteAll(w io.Writer, cols []Column, digits int, steps iter.Seq2[simulate.Step, error]) (int, error) {
 	cw, err := NewWriter(w, cols, digits)
