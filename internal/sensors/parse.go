@@ -126,31 +126,26 @@ func (p *parser) quantity(n *yaml.Node, channel, field string, dims ...units.Dim
 }
 
 func (p *parser) numList(n *yaml.Node, channel, field string) ([]float64, bool) {
-	if n.Kind != yaml.SequenceNode {
-		p.fail(n.Line, channel, field, "expected a list of numbers, got %s", yamlfile.KindName(n))
-		return nil, false
-	}
-	out := make([]float64, 0, len(n.Content))
-	ok := true
-	for _, c := range n.Content {
-		v, good := p.num(c, channel, field)
-		ok = ok && good
-		out = append(out, v)
-	}
-	return out, ok
+	return readList(p, n, channel, field, "a list of numbers", p.num)
 }
 
 func (p *parser) strList(n *yaml.Node, channel, field string) ([]string, bool) {
+	return readList(p, n, channel, field, "a list", p.str)
+}
+
+// readList reads the list n with read for every item; what says what was
+// expected when n is no list.
+func readList[T any](p *parser, n *yaml.Node, channel, field, what string, read func(*yaml.Node, string, string) (T, bool)) ([]T, bool) {
 	if n.Kind != yaml.SequenceNode {
-		p.fail(n.Line, channel, field, "expected a list, got %s", yamlfile.KindName(n))
+		p.fail(n.Line, channel, field, "expected %s, got %s", what, yamlfile.KindName(n))
 		return nil, false
 	}
-	out := make([]string, 0, len(n.Content))
+	out := make([]T, 0, len(n.Content))
 	ok := true
 	for _, c := range n.Content {
-		s, good := p.str(c, channel, field)
+		v, good := read(c, channel, field)
 		ok = ok && good
-		out = append(out, s)
+		out = append(out, v)
 	}
 	return out, ok
 }

@@ -105,22 +105,13 @@ func (r *reader) sectionBuckling(s *state, sec *section, m map[string]*yaml.Node
 		return
 	}
 	if hasR {
-		if v, ok := r.quantity(rn, f+".radius_of_gyration", units.Length); ok {
-			if !(v > 0) {
-				r.Errorf(rn, f+".radius_of_gyration", "radius of gyration must be positive, got %s", rn.Value)
-			} else {
-				sec.radius = v
-			}
+		if v, ok := r.positiveQuantity(rn, f+".radius_of_gyration", units.Length, "radius of gyration"); ok {
+			sec.radius = v
 		}
 	}
 	if hasI {
-		if v, ok := r.quantity(in, f+".second_moment", units.SecondMoment); ok {
-			switch {
-			case !(v > 0):
-				r.Errorf(in, f+".second_moment", "second moment of area must be positive, got %s", in.Value)
-			case sec.area > 0:
-				sec.radius = math.Sqrt(v / sec.area)
-			}
+		if v, ok := r.positiveQuantity(in, f+".second_moment", units.SecondMoment, "second moment of area"); ok && sec.area > 0 {
+			sec.radius = math.Sqrt(v / sec.area)
 		}
 	}
 	if cn, ok := m["buckling_curve"]; ok {
@@ -161,12 +152,8 @@ func (r *reader) memberBuckling(s *state, mem *model.Member, sec *section, mat *
 	if hasL && hasK {
 		r.Errorf(it, f, "give either buckling_length or buckling_factor, not both")
 	} else if hasL {
-		if v, ok := r.quantity(ln, f+".buckling_length", units.Length); ok {
-			if !(v > 0) {
-				r.Errorf(ln, f+".buckling_length", "buckling length must be positive, got %s", ln.Value)
-			} else {
-				mem.BucklingLength = v
-			}
+		if v, ok := r.positiveQuantity(ln, f+".buckling_length", units.Length, "buckling length"); ok {
+			mem.BucklingLength = v
 		}
 	} else if hasK {
 		if v, ok := r.Number(kn, f+".buckling_factor"); ok {

@@ -96,6 +96,17 @@ func (r *reader) quantity(n *yaml.Node, field string, dim units.Dimension) (floa
 	return v, true
 }
 
+// positiveQuantity is quantity for a value that must be positive; what
+// names it in the message.
+func (r *reader) positiveQuantity(n *yaml.Node, field string, dim units.Dimension, what string) (float64, bool) {
+	v, ok := r.quantity(n, field, dim)
+	if ok && !(v > 0) {
+		r.Errorf(n, field, "%s must be positive, got %s", what, n.Value)
+		return v, false
+	}
+	return v, ok
+}
+
 // example gives a sample quantity of a dimension for messages.
 func example(dim units.Dimension) string {
 	switch dim {

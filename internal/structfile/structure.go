@@ -243,13 +243,7 @@ func (r *reader) nodes(s *state, n *yaml.Node) {
 		r.Errorf(n, "nodes", "no nodes declared")
 	}
 	for i, it := range items {
-		m, id, f, ok := r.entry(it, "nodes", "node", "id", i, func(id string) (int, bool) {
-			prev, dup := s.nodes[id]
-			if !dup {
-				return 0, false
-			}
-			return s.st.Nodes[prev].Line, true
-		}, "id", "at")
+		m, id, f, ok := r.entry(it, "nodes", "node", "id", i, firstDeclared(s.nodes, func(i int) int { return s.st.Nodes[i].Line }), "id", "at")
 		if !ok {
 			continue
 		}
@@ -321,19 +315,26 @@ func (r *reader) entry(it *yaml.Node, kind, noun, key string, i int, firstLine f
 	return m, id, f, true
 }
 
+// firstDeclared is the look-up entry takes for a list whose entries are
+// indexed by id in index: the line on which id was first declared (line
+// gives it for an indexed value), and whether it was.
+func firstDeclared[T any](index map[string]T, line func(T) int) func(id string) (int, bool) {
+	return func(id string) (int, bool) {
+		v, dup := index[id]
+		if !dup {
+			return 0, false
+		}
+		return line(v), true
+	}
+}
+
 func (r *reader) materials(s *state, n *yaml.Node) {
 	items, ok := r.seq(n, "materials")
 	if !ok {
 		return
 	}
 	for i, it := range items {
-		m, id, f, ok := r.entry(it, "materials", "material", "id", i, func(id string) (int, bool) {
-			prev, dup := s.materials[id]
-			if !dup {
-				return 0, false
-			}
-			return prev.line, true
-		}, "id", "modulus", "thermal_coefficient", "density", "description", "yield_strength")
+		m, id, f, ok := r.entry(it, "materials", "material", "id", i, firstDeclared(s.materials, func(m *material) int { return m.line }), "id", "modulus", "thermal_coefficient", "density", "description", "yield_strength")
 		if !ok {
 			continue
 		}
@@ -343,12 +344,7 @@ func (r *reader) materials(s *state, n *yaml.Node) {
 			r.Str(d, f+".description")
 		}
 		if v, ok := r.Need(m, it, f, "modulus"); ok {
-			if e, ok := r.quantity(v, f+".modulus", units.Stress); ok {
-				if e <= 0 {
-					r.Errorf(v, f+".modulus", "modulus of elasticity must be positive, got %s", v.Value)
-				}
-				mat.e = e
-			}
+			mat.e, _ = r.positiveQuantity(v, f+".modulus", units.Stress, "modulus of elasticity")
 		}
 		if v, ok := m["thermal_coefficient"]; ok {
 			if a, ok := r.quantity(v, f+".thermal_coefficient", units.ThermalCoefficient); ok {
@@ -373,13 +369,7 @@ func (r *reader) sections(s *state, n *yaml.Node) {
 		return
 	}
 	for i, it := range items {
-		m, id, f, ok := r.entry(it, "sections", "section", "id", i, func(id string) (int, bool) {
-			prev, dup := s.sections[id]
-			if !dup {
-				return 0, false
-			}
-			return prev.line, true
-		}, "id", "area", "material", "description", "radius_of_gyration", "second_moment", "buckling_curve")
+		m, id, f, ok := r.entry(it, "sections", "section", "id", i, firstDeclared(s.sections, func(m *section) int { return m.line }), "id", "area", "material", "description", "radius_of_gyration", "second_moment", "buckling_curve")
 		if !ok {
 			continue
 		}
@@ -389,12 +379,7 @@ func (r *reader) sections(s *state, n *yaml.Node) {
 			r.Str(d, f+".description")
 		}
 		if v, ok := r.Need(m, it, f, "area"); ok {
-			if a, ok := r.quantity(v, f+".area", units.Area); ok {
-				if a <= 0 {
-					r.Errorf(v, f+".area", "cross-section area must be positive, got %s", v.Value)
-				}
-				sec.area = a
-			}
+			sec.area, _ = r.positiveQuantity(v, f+".area", units.Area, "cross-section area")
 		}
 		if v, ok := r.Need(m, it, f, "material"); ok {
 			if mid, ok := r.id(v, f+".material"); ok {
@@ -518,13 +503,7 @@ func (r *reader) members(s *state, n *yaml.Node) {
 		r.Errorf(n, "members", "no members declared")
 	}
 	for i, it := range items {
-		m, id, f, ok := r.entry(it, "members", "member", "id", i, func(id string) (int, bool) {
-			prev, dup := s.members[id]
-			if !dup {
-				return 0, false
-			}
-			return s.st.Members[prev].Line, true
-		}, "id", "from", "to", "section", "groups", "buckling_length", "buckling_factor", "buckling_curve")
+		m, id, f, ok := r.entry(it, "members", "member", "id", i, firstDeclared(s.members, func(i int) int { return s.st.Members[i].Line }), "id", "from", "to", "section", "groups", "buckling_length", "buckling_factor", "buckling_curve")
 		if !ok {
 			continue
 		}
@@ -650,12 +629,8 @@ func (r *reader) supports(s *state, n *yaml.Node) {
 						continue
 					}
 					sf := f + ".spring." + axisNames[ax]
-					k, ok := r.quantity(sv, sf, units.Stiffness)
+					k, ok := r.positiveQuantity(sv, sf, units.Stiffness, "spring stiffness")
 					if !ok {
-						continue
-					}
-					if k <= 0 {
-						r.Errorf(sv, sf, "spring stiffness must be positive, got %s", sv.Value)
 						continue
 					}
 					if sup.Fixed[ax] {
@@ -707,10 +682,7 @@ func (r *reader) patterns(s *state, n *yaml.Node) {
 	}
 	seen := map[string]int{}
 	for i, it := range items {
-		m, name, f, ok := r.entry(it, "patterns", "pattern", "name", i, func(id string) (int, bool) {
-			l, dup := seen[id]
-			return l, dup
-		}, "name", "description", "self_weight", "forces", "temperatures", "settlements", "unknown", "reference_load")
+		m, name, f, ok := r.entry(it, "patterns", "pattern", "name", i, firstDeclared(seen, func(line int) int { return line }), "name", "description", "self_weight", "forces", "temperatures", "settlements", "unknown", "reference_load")
 		if !ok {
 			continue
 		}
@@ -772,21 +744,8 @@ func (r *reader) forces(s *state, p *model.Pattern, n *yaml.Node, field string) 
 	}
 	for i, it := range items {
 		f := fmt.Sprintf("%s[%d]", field, i)
-		m, ok := r.Fields(it, f, "node", "x", "y", "z")
+		m, nid, ni, ok := r.atNode(s, it, f, "load on", "node", "x", "y", "z")
 		if !ok {
-			continue
-		}
-		nn, ok := r.Need(m, it, f, "node")
-		if !ok {
-			continue
-		}
-		nid, ok := r.id(nn, f+".node")
-		if !ok {
-			continue
-		}
-		ni, found := s.nodes[nid]
-		if !found {
-			r.Errorf(nn, f+".node", "load on unknown node %q; declare it under nodes: or correct the id", nid)
 			continue
 		}
 		nf := model.NodalForce{Node: ni, Line: it.Line}
@@ -799,6 +758,29 @@ func (r *reader) forces(s *state, p *model.Pattern, n *yaml.Node, field string) 
 			p.Forces = append(p.Forces, nf)
 		}
 	}
+}
+
+// atNode reads an entry it (field f) with the fields allowed, one of them
+// the required id of a declared node: the entry's fields, the node's id
+// and index. what names the entry in the message for an unknown node
+// ("load on", "settlement of").
+func (r *reader) atNode(s *state, it *yaml.Node, f, what string, allowed ...string) (m map[string]*yaml.Node, nid string, ni int, ok bool) {
+	if m, ok = r.Fields(it, f, allowed...); !ok {
+		return nil, "", 0, false
+	}
+	nn, ok := r.Need(m, it, f, "node")
+	if !ok {
+		return nil, "", 0, false
+	}
+	if nid, ok = r.id(nn, f+".node"); !ok {
+		return nil, "", 0, false
+	}
+	ni, found := s.nodes[nid]
+	if !found {
+		r.Errorf(nn, f+".node", "%s unknown node %q; declare it under nodes: or correct the id", what, nid)
+		return nil, "", 0, false
+	}
+	return m, nid, ni, true
 }
 
 // components reads the x, y, z entries of m as quantities of dim into out,
@@ -904,26 +886,13 @@ func (r *reader) settlements(s *state, p *model.Pattern, n *yaml.Node, field str
 	}
 	for i, it := range items {
 		f := fmt.Sprintf("%s[%d]", field, i)
-		m, ok := r.Fields(it, f, "node", "x", "y", "z", "normal")
+		m, nid, ni, ok := r.atNode(s, it, f, "settlement of", "node", "x", "y", "z", "normal")
 		if !ok {
-			continue
-		}
-		nn, ok := r.Need(m, it, f, "node")
-		if !ok {
-			continue
-		}
-		nid, ok := r.id(nn, f+".node")
-		if !ok {
-			continue
-		}
-		ni, found := s.nodes[nid]
-		if !found {
-			r.Errorf(nn, f+".node", "settlement of unknown node %q", nid)
 			continue
 		}
 		si, supported := s.supports[ni]
 		if !supported {
-			r.Errorf(nn, f+".node", "node %q has no support; a prescribed displacement needs a restraint in that direction", nid)
+			r.Errorf(m["node"], f+".node", "node %q has no support; a prescribed displacement needs a restraint in that direction", nid)
 			continue
 		}
 		sup := s.st.Supports[si]
@@ -963,10 +932,7 @@ func (r *reader) cases(s *state, n *yaml.Node) {
 	}
 	seen := map[string]int{}
 	for i, it := range items {
-		m, name, f, ok := r.entry(it, "cases", "case", "name", i, func(id string) (int, bool) {
-			l, dup := seen[id]
-			return l, dup
-		}, "name", "description", "combine")
+		m, name, f, ok := r.entry(it, "cases", "case", "name", i, firstDeclared(seen, func(line int) int { return line }), "name", "description", "combine")
 		if !ok {
 			continue
 		}
