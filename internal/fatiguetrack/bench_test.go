@@ -13,11 +13,11 @@ import (
 	"trussmonitor/internal/broker"
 	"trussmonitor/internal/fatiguetrack"
 	"trussmonitor/internal/ingest"
+	"trussmonitor/internal/instrumented"
 	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/simulate"
 	"trussmonitor/internal/simulate/publish"
 	"trussmonitor/internal/store"
-	"trussmonitor/internal/structfile"
 )
 
 // BenchmarkIngest20Gauges200Hz: 20 footbridge gauges sampled at 200 Hz
@@ -32,14 +32,11 @@ import (
 //	go test -run XXX -bench Ingest20 -benchtime 10x ./internal/fatiguetrack/
 func BenchmarkIngest20Gauges200Hz(b *testing.B) {
 	root := filepath.Join("..", "..", "testdata", "footbridge")
-	st, err := structfile.LoadFile(filepath.Join(root, "structure.yaml"))
+	pair, err := instrumented.Load(filepath.Join(root, "structure.yaml"), filepath.Join(root, "sensors.yaml"))
 	if err != nil {
 		b.Fatal(err)
 	}
-	sm, err := sensors.LoadFile(filepath.Join(root, "sensors.yaml"), st)
-	if err != nil {
-		b.Fatal(err)
-	}
+	st, sm := pair.Structure, pair.Sensors
 	// 20 gauges, each counting fatigue on the detail of the first fatigue
 	// gauge of the map.
 	detail := sm.FatigueGauges()[0].Fatigue

@@ -12,7 +12,6 @@ import (
 	"log/slog"
 	"net"
 	"net/http"
-	"os"
 	"sync"
 	"sync/atomic"
 	"time"
@@ -26,46 +25,14 @@ import (
 	"trussmonitor/internal/dashboard"
 	"trussmonitor/internal/fatiguetrack"
 	"trussmonitor/internal/ingest"
+	"trussmonitor/internal/instrumented"
 	"trussmonitor/internal/livestate"
 	"trussmonitor/internal/metrics"
-	"trussmonitor/internal/model"
 	"trussmonitor/internal/pipeline"
 	"trussmonitor/internal/reconcile"
-	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/settings"
 	"trussmonitor/internal/store"
-	"trussmonitor/internal/structfile"
 )
-
-// Monitored is one structure ready to monitor: its model and sensor map.
-type Monitored struct {
-	Structure *model.Structure
-	Model     *model.Model
-	Sensors   *sensors.Map
-	// Content is the structure file's bytes (stored as a model version).
-	Content []byte
-}
-
-// LoadStructure reads and checks one structure and its sensor map.
-func LoadStructure(structurePath, sensorsPath string) (*Monitored, error) {
-	content, err := os.ReadFile(structurePath)
-	if err != nil {
-		return nil, fmt.Errorf("structure file: %w", err)
-	}
-	st, err := structfile.Parse(structurePath, content)
-	if err != nil {
-		return nil, err
-	}
-	m, err := model.Analyze(st)
-	if err != nil {
-		return nil, fmt.Errorf("%s: %w", structurePath, err)
-	}
-	sm, err := sensors.LoadFor(sensorsPath, st, st.Name, structurePath)
-	if err != nil {
-		return nil, err
-	}
-	return &Monitored{Structure: st, Model: m, Sensors: sm, Content: content}, nil
-}
 
 // Service is the running monitor.
 type Service struct {
@@ -104,7 +71,7 @@ type Options struct {
 	Clock func() time.Time
 	// Structures, when set, are used instead of loading the configuration's
 	// structure files (the demo passes its embedded examples).
-	Structures []*Monitored
+	Structures []*instrumented.Structure
 	// ClockNote, when set, is shown on the dashboard beside the epoch time
 	// (the demo says its time is simulated and at what speed).
 	ClockNote string
@@ -126,7 +93,7 @@ func New(cfg *config.Config, opt Options) (*Service, error) {
 	mons := opt.Structures
 	if mons == nil {
 		for i, f := range cfg.Structures {
-			mon, err := LoadStructure(f.Structure, f.Sensors)
+			mon, err := instrumented.Load(f.Structure, f.Sensors)
 			if err != nil {
 				return nil, fmt.Errorf("%s: structures[%d]: %w", cfg.File, i, err)
 			}
@@ -166,7 +133,7 @@ func New(cfg *config.Config, opt Options) (*Service, error) {
 	return s, nil
 }
 
-func (s *Service) addStructure(mon *Monitored) error {
+func (s *Service) addStructure(mon *instrumented.Structure) error {
 	name := mon.Structure.Name
 	if _, dup := s.pipes[name]; dup {
 		return fmt.Errorf("structure %q is configured twice", name)
@@ -230,9 +197,6 @@ func (s *Service) addStructure(mon *Monitored) error {
 	s.order = append(s.order, name)
 	return nil
 }
-
-// Registry returns the Prometheus registry of the service.
-func (s *Service) Registry() *prometheus.Registry { return s.reg }
 
 // Store returns the service's store.
 func (s *Service) Store() *store.Store { return s.store }

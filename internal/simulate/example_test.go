@@ -4,9 +4,8 @@ import (
 	"fmt"
 	"time"
 
-	"trussmonitor/internal/sensors"
+	"trussmonitor/internal/instrumented"
 	"trussmonitor/internal/simulate"
-	"trussmonitor/internal/structfile"
 )
 
 func ExampleParseFault() {
@@ -24,16 +23,12 @@ func ExampleParseFault() {
 }
 
 func ExampleGenerator_All() {
-	st, err := structfile.LoadFile("../../testdata/footbridge/structure.yaml")
+	pair, err := instrumented.Load("../../testdata/footbridge/structure.yaml", "../../testdata/footbridge/sensors.yaml")
 	if err != nil {
 		fmt.Println(err)
 		return
 	}
-	sm, err := sensors.LoadFile("../../testdata/footbridge/sensors.yaml", st)
-	if err != nil {
-		fmt.Println(err)
-		return
-	}
+	st, sm := pair.Structure, pair.Sensors
 	opt := simulate.DefaultOptions()
 	opt.Duration, opt.Rate, opt.BadRate = 3*time.Minute, time.Minute, 0
 	f, _ := simulate.ParseFault("stiffness:D2:2m:0.3")
