@@ -61,7 +61,9 @@ func BenchmarkIngest20Gauges200Hz(b *testing.B) {
 	defer db.Close()
 	tr := fatiguetrack.New(nil)
 	tr.Add(st.Name, sm, gauges)
-	in, err := ingest.New(ingest.Config{Broker: "tcp://" + brk.Addr(), ClientID: "bench-ingest"},
+	// The simulated record is dated 2026-06-01 (a fixed morning peak), so
+	// the backlog bound is off (MaxBehind < 0), as in the end-to-end test.
+	in, err := ingest.New(ingest.Config{Broker: "tcp://" + brk.Addr(), ClientID: "bench-ingest", MaxBehind: -1},
 		ingest.Deps{Store: db, Registries: map[string]ingest.Registry{st.Name: sm}, Fatigue: tr})
 	if err != nil {
 		b.Fatal(err)
