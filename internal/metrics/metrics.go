@@ -46,6 +46,11 @@ const (
 	CommitFailures       = "shm_ingest_commit_failures_total"
 	BrokerConnected      = "shm_broker_connected"
 	BrokerReconnects     = "shm_broker_reconnects_total"
+	// ReconcileQueueDepth and ReconcileQueueDropped are the readings
+	// waiting in the reconciliation queue and those left out of live
+	// reconciliation because it was full.
+	ReconcileQueueDepth   = "shm_reconcile_queue_readings"
+	ReconcileQueueDropped = "shm_reconcile_queue_dropped_readings_total"
 )
 
 // Epoch outcomes for Metrics.Epoch (common values; any string is accepted).
@@ -71,6 +76,8 @@ type Metrics struct {
 	deadDropped                                              prometheus.Counter
 	commitFailures, reconnects                               *prometheus.CounterVec
 	connected                                                *prometheus.GaugeVec
+	queueDepth                                               *prometheus.GaugeVec
+	queueDropped                                             *prometheus.CounterVec
 
 	cMessages, cReadings, cRejections, cEpochs, cSkew *children[prometheus.Counter]
 	cLatency                                          *children[prometheus.Observer]
@@ -135,6 +142,8 @@ func New(reg prometheus.Registerer) (*Metrics, error) {
 		commitFailures: c(CommitFailures, "Failed store commits of received messages (each retried; nothing is acknowledged before its commit), counted for every structure of the instance.", st),
 		reconnects:     c(BrokerReconnects, "Connections to the MQTT broker after the first (each follows a lost connection), for every structure of the instance.", st),
 		connected:      g(BrokerConnected, "1 while the ingest of the structure's instance is connected to the MQTT broker and subscribed, else 0.", st),
+		queueDepth:     g(ReconcileQueueDepth, "Committed readings waiting in the queue between the ingest's commits and the structure's reconciliation.", st),
+		queueDropped:   c(ReconcileQueueDropped, "Committed readings left out of live reconciliation because the reconciliation queue was full; they are stored, and monitor replay recomputes their epochs.", st),
 	}
 	two := func(v *prometheus.CounterVec) *children[prometheus.Counter] {
 		return newChildren(func(a, b string) prometheus.Counter { return v.WithLabelValues(a, b) })
@@ -148,7 +157,8 @@ func New(reg prometheus.Registerer) (*Metrics, error) {
 	})
 	for _, col := range append([]prometheus.Collector{m.measured, m.predicted, m.residual, m.w, m.mdb, m.redund, m.checkable,
 		m.chi2, m.dof, m.pvalue, m.load, m.loadStd, m.epochs, m.messages, m.readings, m.rejections, m.skew,
-		m.lastReading, m.watchedSince, m.latency, m.alarms, m.dropped, m.deadDropped, m.commitFailures, m.reconnects, m.connected}, append(m.state.collectors(), m.loads.collectors()...)...) {
+		m.lastReading, m.watchedSince, m.latency, m.alarms, m.dropped, m.deadDropped, m.commitFailures, m.reconnects, m.connected,
+		m.queueDepth, m.queueDropped}, append(m.state.collectors(), m.loads.collectors()...)...) {
 		if err := reg.Register(col); err != nil {
 			return nil, fmt.Errorf("metrics: registering collectors: %w (is a second Metrics registered on the same registry?)", err)
 		}
@@ -245,6 +255,22 @@ func (m *Metrics) IngestOf(structure string) {
 	m.commitFailures.WithLabelValues(structure)
 	m.reconnects.WithLabelValues(structure)
 	m.connected.WithLabelValues(structure).Set(0)
+	m.queueDepth.WithLabelValues(structure).Set(0)
+	m.queueDropped.WithLabelValues(structure)
+}
+
+// ReconcileQueue sets the number of readings of structure waiting for
+// reconciliation.
+func (m *Metrics) ReconcileQueue(structure string, n int) {
+	m.queueDepth.WithLabelValues(structure).Set(float64(n))
+}
+
+// ReconcileDropped counts n readings of structure left out of live
+// reconciliation because its queue was full.
+func (m *Metrics) ReconcileDropped(structure string, n int) {
+	if n > 0 {
+		m.queueDropped.WithLabelValues(structure).Add(float64(n))
+	}
 }
 
 // CommitFailed counts one failed store commit for structure (one ingest

@@ -75,6 +75,7 @@ type Service struct {
 	met       *metrics.Metrics
 	live      *livestate.Live
 	pipes     map[string]*pipeline.Pipeline
+	feeds     map[string]*feeder // the reconciliation queue of each pipeline
 	order     []string
 	results   *resultSink
 	ingester  *ingest.Ingester
@@ -115,7 +116,7 @@ type Options struct {
 // New builds the service: it opens the store, loads every structure and
 // prepares the pipelines, but starts nothing.
 func New(cfg *config.Config, opt Options) (*Service, error) {
-	s := &Service{cfg: cfg, log: opt.Logger, clock: opt.Clock, clockNote: opt.ClockNote, httpIdle: opt.HTTPIdleTimeout, pipes: map[string]*pipeline.Pipeline{}, rejects: map[string]*atomic.Uint64{}}
+	s := &Service{cfg: cfg, log: opt.Logger, clock: opt.Clock, clockNote: opt.ClockNote, httpIdle: opt.HTTPIdleTimeout, pipes: map[string]*pipeline.Pipeline{}, feeds: map[string]*feeder{}, rejects: map[string]*atomic.Uint64{}}
 	if s.log == nil {
 		s.log = slog.Default()
 	}
@@ -226,6 +227,11 @@ func (s *Service) addStructure(mon *Monitored) error {
 		state: s.met.MemberState(name, proc.Members()), loads: loads})
 	p.AddSink(s.results)
 	s.pipes[name] = p
+	limit := s.cfg.Epochs.QueueReadings
+	if limit <= 0 {
+		limit = config.DefaultQueueReadings
+	}
+	s.feeds[name] = newFeeder(p, limit, start, s.log, s.met)
 	s.order = append(s.order, name)
 	return nil
 }
@@ -364,18 +370,17 @@ func (s *Service) epochStall() time.Duration {
 	return max(4*(s.cfg.Epochs.Window.D()+s.cfg.Epochs.MaxLateness.D()), 30*time.Second)
 }
 
-// committed feeds newly stored readings to their structure's pipeline.
+// committed hands newly stored readings to their structure's
+// reconciliation queue. It runs on the ingest's commit goroutine after the
+// commit, with the messages' acknowledgements already queued, and never
+// waits for reconciliation (see feeder).
 func (s *Service) committed(structure string, rs []store.Reading) {
-	p := s.pipes[structure]
-	if p == nil {
+	f := s.feeds[structure]
+	if f == nil {
 		return
 	}
 	s.connected.Store(true)
-	in := make([]pipeline.Reading, len(rs))
-	for i, r := range rs {
-		in[i] = pipeline.Reading{Channel: r.Channel, Time: r.Time, Value: r.Value}
-	}
-	p.Feed(context.Background(), in)
+	f.offer(rs)
 }
 
 // ready is the readiness of the present moment: ingest connected to the
@@ -447,6 +452,11 @@ func (s *Service) Run(ctx context.Context) error {
 	}
 	var wg sync.WaitGroup
 	var ingestErr error
+	// The feeders outlive ctx: on shutdown they feed what ingest committed.
+	feedCtx := context.WithoutCancel(ctx)
+	for _, name := range s.order {
+		go s.feeds[name].run(feedCtx)
+	}
 	ingCtx, stopIngest := context.WithCancel(context.Background())
 	wg.Add(1)
 	go func() { defer wg.Done(); ingestErr = s.ingester.Run(ingCtx) }()
@@ -460,7 +470,7 @@ loop:
 			break loop
 		case <-tick.C:
 			for _, name := range s.order {
-				s.pipes[name].Tick(ctx)
+				s.feeds[name].ticked()
 			}
 			s.trackFlows(s.clock())
 			s.results.flush()
@@ -474,7 +484,8 @@ loop:
 	stopIngest()
 	wg.Wait()
 	for _, name := range s.order {
-		s.pipes[name].Flush(context.Background())
+		s.feeds[name].close() // feeds what was committed
+		s.pipes[name].Flush(feedCtx)
 	}
 	s.results.flush()
 	return errors.Join(ingestErr, s.Close())

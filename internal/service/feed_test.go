@@ -1,0 +1,282 @@
+package service
+
+import (
+	"context"
+	"log/slog"
+	"strings"
+	"sync"
+	"testing"
+	"time"
+
+	mqtt "github.com/eclipse/paho.mqtt.golang"
+	dto "github.com/prometheus/client_model/go"
+
+	"trussmonitor/internal/broker"
+	"trussmonitor/internal/metrics"
+	"trussmonitor/internal/pipeline"
+	"trussmonitor/internal/simulate"
+	"trussmonitor/internal/simulate/publish"
+)
+
+// gateSink is a pipeline sink that blocks every epoch until released: a
+// reconciliation that takes as long as the test wants.
+type gateSink struct {
+	once    sync.Once
+	entered chan struct{} // closed at the first epoch
+	release chan struct{} // closed to let every epoch through
+}
+
+func newGateSink() *gateSink {
+	return &gateSink{entered: make(chan struct{}), release: make(chan struct{})}
+}
+
+// Epoch blocks until the gate is released.
+func (g *gateSink) Epoch(*pipeline.Result) {
+	g.once.Do(func() { close(g.entered) })
+	<-g.release
+}
+
+// isEntered reports whether an epoch reached the gate.
+func (g *gateSink) isEntered() bool {
+	select {
+	case <-g.entered:
+		return true
+	default:
+		return false
+	}
+}
+
+// feedRig is a service on a broker of the test's own whose in-flight window
+// is small: a message the monitor does not acknowledge holds one of its few
+// places, and once they are all held the broker drops further messages
+// (counted in Dropped) instead of delivering them.
+type feedRig struct {
+	t      *testing.T
+	brk    *broker.Broker
+	svc    *Service
+	stop   func() error
+	gate   *gateSink
+	pub    mqtt.Client
+	steps  []simulate.Step
+	next   int
+	sent   int64 // readings published and stored so far
+	from   time.Time
+	logs   *syncBuffer
+	name   string
+	window int // the broker's in-flight window
+}
+
+// newFeedRig starts the rig; queueSteps > 0 bounds the reconciliation
+// queue to that many simulated seconds of readings (0: the default).
+func newFeedRig(t *testing.T, clientID string, queueSteps int) *feedRig {
+	t.Helper()
+	const window = 8
+	brk, err := broker.Start(broker.Config{Address: "127.0.0.1:0", AllowAnonymous: true, MaxInflight: window})
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { brk.Close() })
+	cfg := testConfig(t, t.TempDir(), clientID)
+	cfg.Broker.Embedded = false
+	cfg.Broker.URL = "tcp://" + brk.Addr()
+	mon, err := LoadStructure(cfg.Structures[0].Structure, cfg.Structures[0].Sensors)
+	if err != nil {
+		t.Fatal(err)
+	}
+	cfg.Epochs.QueueReadings = queueSteps * len(mon.Sensors.Channels())
+	if err := cfg.Validate(); err != nil {
+		t.Fatal(err)
+	}
+	logs := &syncBuffer{}
+	svc, stop := startService(t, cfg, slog.New(slog.NewTextHandler(logs, nil)))
+	gate := newGateSink()
+	svc.Pipeline(mon.Structure.Name).AddSink(gate)
+	// Released at the end whatever happens, so that shutdown can drain.
+	t.Cleanup(func() {
+		select {
+		case <-gate.release:
+		default:
+			close(gate.release)
+		}
+	})
+	waitSubscribedNow(t, svc)
+
+	opt := simulate.DefaultOptions()
+	opt.Seed = 11
+	opt.Start = time.Now().UTC().Add(-30 * time.Minute).Truncate(time.Second)
+	opt.Duration = 2 * time.Minute
+	opt.Rate = time.Second
+	opt.BadRate = 0
+	gen, err := simulate.New(mon.Structure, mon.Sensors, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var steps []simulate.Step
+	for st, err := range gen.All() {
+		if err != nil {
+			t.Fatal(err)
+		}
+		steps = append(steps, st)
+	}
+	pub := mqtt.NewClient(mqtt.NewClientOptions().AddBroker("tcp://" + brk.Addr()).SetClientID(clientID + "-logger"))
+	if tok := pub.Connect(); !tok.WaitTimeout(30*time.Second) || tok.Error() != nil {
+		t.Fatalf("logger connect: %v", tok.Error())
+	}
+	t.Cleanup(func() { pub.Disconnect(100) })
+	return &feedRig{t: t, brk: brk, svc: svc, stop: stop, gate: gate, pub: pub, steps: steps, from: opt.Start,
+		logs: logs, name: mon.Structure.Name, window: window}
+}
+
+// publishStep publishes the next simulated second as one pack and waits
+// until the service has stored it (it waits on progress: see waitStored).
+func (r *feedRig) publishStep() {
+	r.t.Helper()
+	if r.next >= len(r.steps) {
+		r.t.Fatalf("all %d simulated steps published", len(r.steps))
+	}
+	st := r.steps[r.next]
+	r.next++
+	tok := r.pub.Publish(publish.Topic(r.name), 1, false, publish.AppendPack(nil, st.Time, st.Readings))
+	if !tok.WaitTimeout(30*time.Second) || tok.Error() != nil {
+		r.t.Fatalf("publish: %v", tok.Error())
+	}
+	r.sent += int64(len(st.Readings))
+	waitStored(r.t, r.svc, r.name, r.from, r.from.Add(time.Hour), r.sent)
+}
+
+// blockReconciliation publishes seconds until an epoch is held at the gate.
+func (r *feedRig) blockReconciliation() {
+	r.t.Helper()
+	for !r.gate.isEntered() {
+		r.publishStep()
+	}
+}
+
+// counter is the value of a structure's series of a metric (0 if absent).
+func (r *feedRig) metric(name string) float64 {
+	r.t.Helper()
+	mfs, err := r.svc.Registry().Gather()
+	if err != nil {
+		r.t.Fatal(err)
+	}
+	for _, mf := range mfs {
+		if mf.GetName() != name {
+			continue
+		}
+		for _, m := range mf.GetMetric() {
+			if labelOf(m, "structure") != r.name {
+				continue
+			}
+			if c := m.GetCounter(); c != nil {
+				return c.GetValue()
+			}
+			return m.GetGauge().GetValue()
+		}
+	}
+	return 0
+}
+
+func labelOf(m *dto.Metric, name string) string {
+	for _, l := range m.GetLabel() {
+		if l.GetName() == name {
+			return l.GetValue()
+		}
+	}
+	return ""
+}
+
+// waitFed releases the gate and waits until every stored reading was fed
+// to the pipeline or counted as dropped, and the queue is empty.
+func (r *feedRig) waitFed() (fed, dropped int64) {
+	r.t.Helper()
+	close(r.gate.release)
+	var last int64 = -1
+	lastChange := time.Now()
+	for {
+		fed = r.svc.Pipeline(r.name).Stats().Readings
+		dropped = int64(r.metric(metrics.ReconcileQueueDropped))
+		if fed+dropped >= r.sent && r.metric(metrics.ReconcileQueueDepth) == 0 {
+			return fed, dropped
+		}
+		if fed != last {
+			last, lastChange = fed, time.Now()
+		}
+		if time.Since(lastChange) > time.Minute {
+			r.t.Fatalf("%d readings fed and %d dropped of %d stored; no progress for a minute", fed, dropped, r.sent)
+		}
+		time.Sleep(20 * time.Millisecond)
+	}
+}
+
+// TestAcknowledgementDoesNotWaitForReconciliation holds the reconciliation
+// of one epoch (a sink that blocks) and publishes three times the broker's
+// in-flight window, one message at a time, each once the previous is
+// stored: they are all committed, and all acknowledged (else the broker,
+// its window full, would have dropped the later ones and they would never
+// be stored). Before the reconciliation queue the commit goroutine itself
+// fed the pipeline, and the first message after the block was never
+// committed.
+func TestAcknowledgementDoesNotWaitForReconciliation(t *testing.T) {
+	r := newFeedRig(t, "ack-test", 0)
+	r.blockReconciliation()
+	before := r.sent
+	for range 3 * r.window {
+		r.publishStep()
+	}
+	if d := r.brk.Dropped(); d != 0 {
+		t.Fatalf("the broker dropped %d messages: acknowledgements were withheld", d)
+	}
+	if depth := r.metric(metrics.ReconcileQueueDepth); depth <= 0 {
+		t.Errorf("queue depth %g while reconciliation is held and %d readings were committed since", depth, r.sent-before)
+	}
+	fed, dropped := r.waitFed()
+	if dropped != 0 || fed != r.sent {
+		t.Errorf("fed %d and dropped %d of %d readings; want all fed (the default queue holds them)", fed, dropped, r.sent)
+	}
+	if err := r.stop(); err != nil {
+		t.Fatal(err)
+	}
+	t.Logf("%d readings committed while one epoch's reconciliation was held; all %d fed after its release", r.sent-before, fed)
+}
+
+// TestFullReconcileQueueDropsAndCounts makes the queue hold two seconds of
+// readings and holds reconciliation: the readings that find it full are
+// still stored and acknowledged, are left out of live reconciliation,
+// counted in shm_reconcile_queue_dropped_readings_total and logged with
+// their time range; every stored reading is either fed or counted.
+func TestFullReconcileQueueDropsAndCounts(t *testing.T) {
+	r := newFeedRig(t, "drop-test", 2)
+	perStep := len(r.steps[0].Readings)
+	r.blockReconciliation()
+	for range 10 {
+		r.publishStep()
+	}
+	if d := r.brk.Dropped(); d != 0 {
+		t.Fatalf("the broker dropped %d messages: acknowledgements were withheld", d)
+	}
+	if depth := r.metric(metrics.ReconcileQueueDepth); depth > float64(2*perStep) {
+		t.Errorf("queue depth %g above its bound %d", depth, 2*perStep)
+	}
+	stored, err := r.svc.Store().CountReadings(context.Background(), r.name, r.from, r.from.Add(time.Hour))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if stored != r.sent {
+		t.Fatalf("%d readings stored of %d published: a full queue must not lose readings from the store", stored, r.sent)
+	}
+	fed, dropped := r.waitFed()
+	if dropped < int64(8*perStep) {
+		t.Errorf("%d readings dropped; ten seconds of %d readings met a queue of two seconds held, want at least %d", dropped, perStep, 8*perStep)
+	}
+	if fed+dropped != r.sent {
+		t.Errorf("fed %d + dropped %d != stored %d", fed, dropped, r.sent)
+	}
+	if err := r.stop(); err != nil {
+		t.Fatal(err)
+	}
+	logs := r.logs.String()
+	if !strings.Contains(logs, "reconciliation queue full") || !strings.Contains(logs, "monitor replay") {
+		t.Errorf("no log line on the drop naming the replay; log:\n%s", logs)
+	}
+	t.Logf("queue of %d readings: %d fed, %d dropped (counted), %d stored", 2*perStep, fed, dropped, stored)
+}
