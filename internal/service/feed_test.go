@@ -11,11 +11,13 @@ import (
 	mqtt "github.com/eclipse/paho.mqtt.golang"
 	dto "github.com/prometheus/client_model/go"
 
+	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/broker"
 	"trussmonitor/internal/metrics"
 	"trussmonitor/internal/pipeline"
 	"trussmonitor/internal/simulate"
 	"trussmonitor/internal/simulate/publish"
+	"trussmonitor/internal/store"
 )
 
 // gateSink is a pipeline sink that blocks every epoch until released: a
@@ -185,6 +187,21 @@ func labelOf(m *dto.Metric, name string) string {
 	return ""
 }
 
+// raised reports whether an event raising rule is stored.
+func (r *feedRig) raised(rule string) bool {
+	r.t.Helper()
+	evs, err := r.svc.Store().Events(context.Background(), r.name, time.Time{}, time.Time{})
+	if err != nil {
+		r.t.Fatal(err)
+	}
+	for _, e := range evs {
+		if e.Rule == rule && e.Kind == store.Raised {
+			return true
+		}
+	}
+	return false
+}
+
 // waitFed releases the gate and waits until every stored reading was fed
 // to the pipeline or counted as dropped, and the queue is empty.
 func (r *feedRig) waitFed() (fed, dropped int64) {
@@ -270,6 +287,15 @@ func TestFullReconcileQueueDropsAndCounts(t *testing.T) {
 	}
 	if fed+dropped != r.sent {
 		t.Errorf("fed %d + dropped %d != stored %d", fed, dropped, r.sent)
+	}
+	// The in-process evaluator raises ReconcileDropping at the first epoch
+	// reconciled after the drop, and stores the event.
+	deadline := time.Now().Add(2 * time.Minute) // generous: only ends a hung test
+	for !r.raised(alerts.RuleReconcileDrops) {
+		if time.Now().After(deadline) {
+			t.Fatalf("no %s event stored after %d readings were dropped", alerts.RuleReconcileDrops, dropped)
+		}
+		time.Sleep(20 * time.Millisecond)
 	}
 	if err := r.stop(); err != nil {
 		t.Fatal(err)

@@ -189,8 +189,10 @@ func (s *Service) addStructure(mon *Monitored) error {
 			in := s.ingesterNow()
 			return in != nil && in.Health().Live
 		},
-		Observer: s.met,
-		Logger:   s.log,
+		// The feeder is made below, before any goroutine runs.
+		ReconcileDropped: func() uint64 { return s.feeds[name].dropped() },
+		Observer:         s.met,
+		Logger:           s.log,
 	}
 	p, err := pipeline.New(mon.Model, mon.Sensors, cfg)
 	if err != nil {
