@@ -38,8 +38,9 @@ type Observation struct {
 	CommitFailures  uint64
 	BrokerConnected *bool
 	// ReconcileDropped is the cumulative count of committed readings left
-	// out of live reconciliation because its queue was full
-	// (shm_reconcile_queue_dropped_readings_total; 0 in replay).
+	// out of live reconciliation: its queue was full and reading them back
+	// from the store failed (shm_reconcile_queue_dropped_readings_total;
+	// 0 in replay).
 	ReconcileDropped uint64
 	// Causes are the epoch's top-ranked causes (most likely first).
 	Causes []Cause

@@ -73,8 +73,8 @@ const (
 	// can be tested like a w statistic's.
 	SignalFitZ
 	// SignalReconcileDropIncrease is the number of committed readings left
-	// out of live reconciliation (the reconciliation queue was full)
-	// counted in the last Window.
+	// out of live reconciliation (the reconciliation queue was full and
+	// reading them back from the store failed) counted in the last Window.
 	SignalReconcileDropIncrease
 )
 
@@ -316,9 +316,9 @@ func MeanThreshold(floor, z float64, n int) float64 {
 //     its commit succeeds).
 //   - BrokerDisconnected: ingest not connected and subscribed for 1 minute.
 //   - ReconcileDropping: any committed reading left out of live
-//     reconciliation in the last 5 minutes (its reconciliation queue was
-//     full): live results and alarms miss those epochs until monitor
-//     replay recomputes them.
+//     reconciliation in the last 5 minutes (its queue was full and reading
+//     it back from the store failed): live results and alarms miss those
+//     epochs until monitor replay recomputes them.
 func DefaultRules() ([]Rule, error) {
 	kRaise, err := reconcile.CriticalW(reconcile.DefaultAlpha0)
 	if err != nil {
@@ -394,7 +394,7 @@ func DefaultRules() ([]Rule, error) {
 			Name: RuleReconcileDrops, Signal: SignalReconcileDropIncrease, Severity: "critical",
 			Raise: 0, Clear: 0, Window: CountWindow,
 			Summary:     "Live reconciliation of {{ $labels.structure }} leaves readings out",
-			Description: "Committed readings found the reconciliation queue full in the counting window: they are stored and acknowledged, but their epochs were not reconciled live and no alarm could be raised from them. The service log names their time range; recompute it with monitor replay, and raise epochs.queue_readings or find what slows reconciliation.",
+			Description: "Committed readings that found the reconciliation queue full could not be read back from the store in the counting window: they are stored and acknowledged, but their epochs were not reconciled live and no alarm could be raised from them. The service log names their time range and the store's error; recompute the range with monitor replay once the store reads again.",
 		},
 	}
 	for _, r := range rules {

@@ -98,13 +98,12 @@ type Epochs struct {
 	// MissingLoad is "skip" (an epoch with a missing load channel is not
 	// reconciled) or "estimate" (that pattern becomes an unknown).
 	MissingLoad string `yaml:"missing_load"`
-	// QueueReadings bounds, per structure, the committed readings waiting
-	// for reconciliation (the queue between the ingest's commits and the
-	// pipeline). Readings that find it full stay stored but are left out
-	// of live reconciliation (counted in
-	// shm_reconcile_queue_dropped_readings_total; monitor replay
-	// recomputes their epochs). 0 takes the default,
-	// DefaultQueueReadings.
+	// QueueReadings bounds, per structure, the committed readings held in
+	// memory waiting for reconciliation (the queue between the ingest's
+	// commits and the pipeline). Readings that find it full are counted
+	// (shm_reconcile_queue_overflow_readings_total) and read back from the
+	// store when reconciliation reaches them; the acknowledgement never
+	// waits. 0 takes the default, DefaultQueueReadings.
 	QueueReadings int `yaml:"queue_readings"`
 }
 

@@ -62,7 +62,8 @@ type Config struct {
 	CommitFailures  func() uint64
 	BrokerConnected func() bool
 	// ReconcileDropped returns the cumulative count of readings left out
-	// of live reconciliation (a full queue in front of Feed); nil: none.
+	// of live reconciliation by the queue in front of Feed (live only);
+	// nil: none.
 	ReconcileDropped func() uint64
 	// Observer receives late-reading counts; may be nil.
 	Observer epoch.Observer

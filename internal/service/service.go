@@ -190,7 +190,7 @@ func (s *Service) addStructure(mon *Monitored) error {
 			return in != nil && in.Health().Live
 		},
 		// The feeder is made below, before any goroutine runs.
-		ReconcileDropped: func() uint64 { return s.feeds[name].dropped() },
+		ReconcileDropped: func() uint64 { return s.feeds[name].droppedTotal() },
 		Observer:         s.met,
 		Logger:           s.log,
 	}
@@ -233,7 +233,7 @@ func (s *Service) addStructure(mon *Monitored) error {
 	if limit <= 0 {
 		limit = config.DefaultQueueReadings
 	}
-	s.feeds[name] = newFeeder(p, limit, start, s.log, s.met)
+	s.feeds[name] = newFeeder(p, s.store, limit, start, s.log, s.met)
 	s.order = append(s.order, name)
 	return nil
 }
