@@ -560,8 +560,8 @@ func (o *observer) Rejected(structure, reason string) {
 type deadLetterSource struct{ st *store.Store }
 
 // DeadLetters lists dead letters first received in [from, to).
-func (d deadLetterSource) DeadLetters(from, to time.Time, reason string, limit int) ([]dashboard.DeadLetter, error) {
-	ds, err := d.st.ListDeadLetters(context.Background(), store.DeadLetterFilter{From: from, To: to, Reason: reason, Limit: limit})
+func (d deadLetterSource) DeadLetters(ctx context.Context, from, to time.Time, reason string, limit int) ([]dashboard.DeadLetter, error) {
+	ds, err := d.st.ListDeadLetters(ctx, store.DeadLetterFilter{From: from, To: to, Reason: reason, Limit: limit})
 	if err != nil {
 		return nil, err
 	}
