@@ -264,7 +264,8 @@ func (s *Service) BrokerAddr() string {
 }
 
 // Start starts the embedded broker (if configured), the HTTP server and
-// the ingest. It returns once they listen.
+// the ingest. It returns once they listen; ctx bounds the start (the
+// listener's set-up), not the running service (see Run).
 func (s *Service) Start(ctx context.Context) error {
 	if s.cfg.Broker.Embedded {
 		users := map[string]string{}
@@ -277,7 +278,7 @@ func (s *Service) Start(ctx context.Context) error {
 		}
 		s.brk = b
 	}
-	ln, err := net.Listen("tcp", s.cfg.HTTP.Listen)
+	ln, err := new(net.ListenConfig).Listen(ctx, "tcp", s.cfg.HTTP.Listen)
 	if err != nil {
 		return fmt.Errorf("%s: http.listen: %w", s.cfg.File, err)
 	}
@@ -478,7 +479,7 @@ loop:
 			s.results.flush()
 			if now := s.clock(); now.Sub(lastRetention) > time.Hour {
 				lastRetention = now
-				s.applyRetention(now)
+				s.applyRetention(ctx, now)
 			}
 		}
 	}
@@ -493,12 +494,14 @@ loop:
 	return errors.Join(ingestErr, s.Close())
 }
 
-func (s *Service) applyRetention(now time.Time) {
+// applyRetention deletes what the retention settings let go and compacts
+// closed hours into blocks; ctx (Run's) ends them at shutdown.
+func (s *Service) applyRetention(ctx context.Context, now time.Time) {
 	r := store.Retention{Readings: s.cfg.Retention.Readings.D(), Results: s.cfg.Retention.Results.D(), DeadLetters: s.cfg.Retention.DeadLetters.D()}
-	if _, err := s.store.ApplyRetention(context.Background(), now, r); err != nil {
+	if _, err := s.store.ApplyRetention(ctx, now, r); err != nil {
 		s.log.Warn("retention", "error", err)
 	}
-	if cs, err := s.store.Compact(context.Background(), now.Add(-store.CompactAfter)); err != nil {
+	if cs, err := s.store.Compact(ctx, now.Add(-store.CompactAfter)); err != nil {
 		s.log.Warn("compacting readings into blocks; they stay as rows until the next try", "error", err)
 	} else if cs.Blocks > 0 {
 		s.log.Info("compacted readings into blocks", "blocks", cs.Blocks, "readings", cs.Readings)
