@@ -15,8 +15,8 @@ import (
 	"trussmonitor/internal/store"
 )
 
-// BenchmarkFeed compares the footbridge's readings (one pack of 46 a
-// second) fed to its pipeline on the calling goroutine, as the commit
+// BenchmarkFeed compares the footbridge's simulated readings (one pack of
+// 46 a second, b.N seconds) fed to its pipeline on the calling goroutine, as the commit
 // goroutine did before the reconciliation queue, with the same readings
 // offered to the queue and fed by the feeder's goroutine: "offer" is the
 // time the commit goroutine spends per pack now, "queued" the whole
@@ -26,32 +26,26 @@ func BenchmarkFeed(b *testing.B) {
 	if err != nil {
 		b.Fatal(err)
 	}
-	opt := simulate.DefaultOptions()
-	opt.Seed, opt.Start, opt.Duration, opt.Rate, opt.BadRate = 9, time.Date(2026, 6, 1, 0, 0, 0, 0, time.UTC), 10*time.Minute, time.Second, 0
-	gen, err := simulate.New(mon.Structure, mon.Sensors, opt)
-	if err != nil {
-		b.Fatal(err)
-	}
-	var steps [][]store.Reading
-	for s, err := range gen.All() {
+	// packs simulates n seconds of the footbridge (one pack a second).
+	packs := func(b *testing.B, n int) [][]store.Reading {
+		opt := simulate.DefaultOptions()
+		opt.Seed, opt.Start, opt.Duration, opt.Rate, opt.BadRate = 9, time.Date(2026, 6, 1, 0, 0, 0, 0, time.UTC), time.Duration(n)*time.Second, time.Second, 0
+		gen, err := simulate.New(mon.Structure, mon.Sensors, opt)
 		if err != nil {
 			b.Fatal(err)
 		}
-		rs := make([]store.Reading, len(s.Readings))
-		for i, r := range s.Readings {
-			rs[i] = store.Reading{Channel: r.Channel, Time: s.Time, Value: r.Value}
+		var out [][]store.Reading
+		for s, err := range gen.All() {
+			if err != nil {
+				b.Fatal(err)
+			}
+			rs := make([]store.Reading, len(s.Readings))
+			for i, r := range s.Readings {
+				rs[i] = store.Reading{Channel: r.Channel, Time: s.Time, Value: r.Value}
+			}
+			out = append(out, rs)
 		}
-		steps = append(steps, rs)
-	}
-	// pack k is step k mod len(steps), later by whole periods.
-	pack := func(k int) []store.Reading {
-		src := steps[k%len(steps)]
-		shift := time.Duration(k/len(steps)) * opt.Duration
-		out := make([]store.Reading, len(src))
-		for i, r := range src {
-			out[i] = store.Reading{Channel: r.Channel, Time: r.Time.Add(shift), Value: r.Value}
-		}
-		return out
+		return out[:n]
 	}
 	newPipe := func(b *testing.B) *pipeline.Pipeline {
 		p, err := pipeline.New(mon.Model, mon.Sensors, pipeline.Config{Window: time.Second, MaxLateness: 5 * time.Second})
@@ -60,21 +54,21 @@ func BenchmarkFeed(b *testing.B) {
 		}
 		return p
 	}
-	perPack := float64(len(steps[0]))
+	perPack := float64(len(mon.Sensors.Channels()))
 	report := func(b *testing.B) {
 		b.ReportMetric(perPack*float64(b.N)/b.Elapsed().Seconds(), "readings/s")
 	}
 	b.Run("direct", func(b *testing.B) {
 		p := newPipe(b)
-		packs := make([][]pipeline.Reading, b.N)
-		for k := range packs {
-			for _, r := range pack(k) {
-				packs[k] = append(packs[k], pipeline.Reading{Channel: r.Channel, Time: r.Time, Value: r.Value})
+		in := make([][]pipeline.Reading, b.N)
+		for k, rs := range packs(b, b.N) {
+			for _, r := range rs {
+				in[k] = append(in[k], pipeline.Reading{Channel: r.Channel, Time: r.Time, Value: r.Value})
 			}
 		}
 		b.ResetTimer()
 		for k := range b.N {
-			p.Feed(context.Background(), packs[k])
+			p.Feed(context.Background(), in[k])
 		}
 		report(b)
 	})
@@ -92,26 +86,20 @@ func BenchmarkFeed(b *testing.B) {
 	}
 	b.Run("offer", func(b *testing.B) {
 		f := newFeed(b) // not running: measures the commit goroutine's share
-		packs := make([][]store.Reading, b.N)
-		for k := range packs {
-			packs[k] = pack(k)
-		}
+		in := packs(b, b.N)
 		b.ResetTimer()
 		for k := range b.N {
-			f.offer(packs[k])
+			f.offer(in[k])
 		}
 		report(b)
 	})
 	b.Run("queued", func(b *testing.B) {
 		f := newFeed(b)
-		packs := make([][]store.Reading, b.N)
-		for k := range packs {
-			packs[k] = pack(k)
-		}
+		in := packs(b, b.N)
 		go f.run(context.Background())
 		b.ResetTimer()
 		for k := range b.N {
-			f.offer(packs[k])
+			f.offer(in[k])
 		}
 		f.close()
 		report(b)
