@@ -162,7 +162,7 @@ func (f *feeder) offer(rs []store.Reading) {
 	}
 	g.n += len(rs)
 	f.gapped += len(rs)
-	depth := f.pending + f.gapped
+	depth, from := f.pending+f.gapped, g.from
 	logNow := time.Since(f.logged) >= fullLogEvery
 	if logNow {
 		f.logged = time.Now()
@@ -172,7 +172,7 @@ func (f *feeder) offer(rs []store.Reading) {
 	f.met.ReconcileQueue(f.name, depth)
 	if logNow {
 		f.log.Warn("reconciliation queue full: later readings are read back from the store when reconciliation reaches them (they are stored and acknowledged); raise epochs.queue_readings if reconciliation is often this far behind",
-			"structure", f.name, "queue_readings", f.limit, "from", g.from.UTC().Format(time.RFC3339Nano))
+			"structure", f.name, "queue_readings", f.limit, "from", from.UTC().Format(time.RFC3339Nano))
 	}
 	f.signal()
 }
