@@ -342,15 +342,21 @@ type flow struct {
 	readingsAt, epochsAt time.Time
 }
 
-// trackFlows notes the pipelines' progress (each tick).
+// trackFlows notes the pipelines' progress (each second, on a goroutine
+// of its own: a pipeline busy with a long epoch delays it, never Run's
+// loop nor readiness, which reads the flows under flowMu only).
 func (s *Service) trackFlows(now time.Time) {
+	stats := make([]pipeline.Stats, len(s.order))
+	for i, name := range s.order {
+		stats[i] = s.pipes[name].Stats()
+	}
 	s.flowMu.Lock()
 	defer s.flowMu.Unlock()
 	if s.flows == nil {
 		s.flows = map[string]*flow{}
 	}
-	for _, name := range s.order {
-		st := s.pipes[name].Stats()
+	for i, name := range s.order {
+		st := stats[i]
 		f := s.flows[name]
 		if f == nil {
 			f = &flow{readingsAt: now, epochsAt: now}
@@ -463,6 +469,20 @@ func (s *Service) Run(ctx context.Context) error {
 	ingCtx, stopIngest := context.WithCancel(context.Background())
 	wg.Add(1)
 	go func() { defer wg.Done(); ingestErr = s.ingester.Run(ingCtx) }()
+	flowsDone := make(chan struct{})
+	go func() {
+		defer close(flowsDone)
+		t := time.NewTicker(time.Second)
+		defer t.Stop()
+		for {
+			select {
+			case <-ctx.Done():
+				return
+			case <-t.C:
+				s.trackFlows(s.clock())
+			}
+		}
+	}()
 	tick := time.NewTicker(time.Second)
 	defer tick.Stop()
 	lastRetention := time.Time{}
@@ -475,7 +495,6 @@ loop:
 			for _, name := range s.order {
 				s.feeds[name].ticked()
 			}
-			s.trackFlows(s.clock())
 			s.results.flush()
 			if now := s.clock(); now.Sub(lastRetention) > time.Hour {
 				lastRetention = now
@@ -490,6 +509,7 @@ loop:
 		s.feeds[name].close() // feeds what was committed
 		s.pipes[name].Flush(feedCtx)
 	}
+	<-flowsDone
 	s.results.flush()
 	return errors.Join(ingestErr, s.Close())
 }
