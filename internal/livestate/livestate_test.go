@@ -1,6 +1,7 @@
 package livestate
 
 import (
+	"context"
 	"errors"
 	"math"
 	"testing"
@@ -84,7 +85,7 @@ func TestLiveState(t *testing.T) {
 	if len(ser.Points) != 3 || ser.Points[0].W != 2 || ser.Points[2].W != 4 || !ser.Points[2].Alarm {
 		t.Errorf("series: %+v", ser.Points)
 	}
-	evs, err := l.Events("alder-creek", t0, t0.Add(time.Minute))
+	evs, err := l.Events(context.Background(), "alder-creek", t0, t0.Add(time.Minute))
 	if err != nil || len(evs) != 1 || evs[0].Subject != "B2" || len(evs[0].Causes) != 1 || evs[0].Causes[0].Subject != "B2" || evs[0].Causes[0].Kind != "gauge_fault" {
 		t.Errorf("events: %+v, %v", evs, err)
 	}
