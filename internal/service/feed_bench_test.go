@@ -9,6 +9,7 @@ import (
 
 	"github.com/prometheus/client_golang/prometheus"
 
+	"trussmonitor/internal/instrumented"
 	"trussmonitor/internal/metrics"
 	"trussmonitor/internal/pipeline"
 	"trussmonitor/internal/simulate"
@@ -22,7 +23,7 @@ import (
 // time the commit goroutine spends per pack now, "queued" the whole
 // throughput through the queue (offer and feed, drained at the end).
 func BenchmarkFeed(b *testing.B) {
-	mon, err := LoadStructure("../../testdata/footbridge/structure.yaml", "../../testdata/footbridge/sensors.yaml")
+	mon, err := instrumented.Load("../../testdata/footbridge/structure.yaml", "../../testdata/footbridge/sensors.yaml")
 	if err != nil {
 		b.Fatal(err)
 	}

@@ -8,6 +8,7 @@ import (
 	"sync"
 	"testing"
 	"time"
+	"trussmonitor/internal/instrumented"
 
 	mqtt "github.com/eclipse/paho.mqtt.golang"
 	"github.com/prometheus/client_golang/prometheus"
@@ -83,7 +84,7 @@ func newFeedRig(t *testing.T, clientID string, queueSteps int) *feedRig {
 	cfg := testConfig(t, t.TempDir(), clientID)
 	cfg.Broker.Embedded = false
 	cfg.Broker.URL = "tcp://" + brk.Addr()
-	mon, err := LoadStructure(cfg.Structures[0].Structure, cfg.Structures[0].Sensors)
+	mon, err := instrumented.Load(cfg.Structures[0].Structure, cfg.Structures[0].Sensors)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -159,7 +160,7 @@ func (r *feedRig) blockReconciliation() {
 // counter is the value of a structure's series of a metric (0 if absent).
 func (r *feedRig) metric(name string) float64 {
 	r.t.Helper()
-	mfs, err := r.svc.Registry().Gather()
+	mfs, err := r.svc.reg.Gather()
 	if err != nil {
 		r.t.Fatal(err)
 	}
@@ -320,7 +321,7 @@ func TestFullReconcileQueueReadsBack(t *testing.T) {
 // running yet, with a queue of three messages.
 func queueScenario(t *testing.T) (f *feeder, p *pipeline.Pipeline, st *store.Store, total int, inQueue int) {
 	t.Helper()
-	mon, err := LoadStructure("../../testdata/footbridge/structure.yaml", "../../testdata/footbridge/sensors.yaml")
+	mon, err := instrumented.Load("../../testdata/footbridge/structure.yaml", "../../testdata/footbridge/sensors.yaml")
 	if err != nil {
 		t.Fatal(err)
 	}
