@@ -4,12 +4,10 @@ import (
 	"cmp"
 	"context"
 	"database/sql"
-	"database/sql/driver"
 	"fmt"
 	"math"
 	"slices"
 	"sort"
-	"strconv"
 	"strings"
 	"time"
 
@@ -146,22 +144,12 @@ func (s *Store) Commit(ctx context.Context, b Batch) (CommitResult, error) {
 		res.New[g] = make([]bool, len(grp.Readings))
 		total += len(grp.Readings)
 	}
-	// The readings' foreign key (channel -> channels.id) would be checked
-	// by SQLite once per row, a fifth of the insert's time; the ids come
-	// from the channels table, so this transaction checks each distinct
-	// channel once instead (checkChannels), on a connection whose
-	// per-row check is off for the transaction and on again before the
-	// connection returns to the pool. No other table written here has a
-	// foreign key.
-	conn, err := s.db.Conn(ctx)
-	if err != nil {
-		return CommitResult{}, fmt.Errorf("store: begin: %w", err)
-	}
-	defer restoreForeignKeys(conn)
-	if _, err := conn.ExecContext(ctx, "PRAGMA foreign_keys = OFF"); err != nil {
-		return CommitResult{}, fmt.Errorf("store: begin: %w", err)
-	}
-	tx, err := conn.BeginTx(ctx, nil)
+	// SQLite checks the foreign keys of keyed and staged rows itself: a
+	// staged row is one check for a whole run. (Switching foreign_keys off
+	// for the transaction, as an earlier version did, expires every
+	// prepared statement of the connection, and each commit re-prepared
+	// them.)
+	tx, err := s.db.BeginTx(ctx, nil)
 	if err != nil {
 		return CommitResult{}, fmt.Errorf("store: begin: %w", err)
 	}
@@ -169,9 +157,6 @@ func (s *Store) Commit(ctx context.Context, b Batch) (CommitResult, error) {
 
 	rows, newIDs, err := s.batchRows(ctx, tx, b, total)
 	if err != nil {
-		return CommitResult{}, err
-	}
-	if err := checkChannels(ctx, tx, rows); err != nil {
 		return CommitResult{}, err
 	}
 	// Key order: each channel's readings become one time-ordered run,
@@ -272,45 +257,6 @@ func (s *Store) batchRows(ctx context.Context, tx *sql.Tx, b Batch, total int) (
 	return rows, newIDs, nil
 }
 
-// restoreForeignKeys turns the foreign-key checks of conn back on and
-// returns it to the pool; a connection where that fails is discarded, never
-// reused without the checks.
-func restoreForeignKeys(conn *sql.Conn) {
-	if _, err := conn.ExecContext(context.Background(), "PRAGMA foreign_keys = ON"); err != nil {
-		conn.Raw(func(any) error { return driver.ErrBadConn })
-	}
-	conn.Close()
-}
-
-// checkChannels is the readings' foreign key, checked once per distinct
-// channel of the batch: every channel id must be a row of channels.
-func checkChannels(ctx context.Context, tx *sql.Tx, rows []batchRow) error {
-	ids := map[int64]bool{}
-	var list []byte
-	list = append(list, '[')
-	for _, r := range rows {
-		if !ids[r.key.ch] {
-			if len(ids) > 0 {
-				list = append(list, ',')
-			}
-			ids[r.key.ch] = true
-			list = strconv.AppendInt(list, r.key.ch, 10)
-		}
-	}
-	if len(ids) == 0 {
-		return nil
-	}
-	list = append(list, ']')
-	var n int
-	if err := tx.QueryRowContext(ctx, `SELECT count(*) FROM channels WHERE id IN (SELECT value FROM json_each(?))`, string(list)).Scan(&n); err != nil {
-		return fmt.Errorf("store: checking the batch's channels: %w", err)
-	}
-	if n != len(ids) {
-		return fmt.Errorf("store: commit: %d of the batch's %d channel ids are not in the channels table (FOREIGN KEY constraint of readings.channel)", len(ids)-n, len(ids))
-	}
-	return nil
-}
-
 // sortRows orders rows (given in batch order) by key, keeping batch order
 // among equal keys. Channel ids are small integers, so the rows are first
 // distributed by channel (a stable counting sort), then each channel's run
@@ -378,6 +324,7 @@ func (s *Store) writeRuns(ctx context.Context, tx *sql.Tx, rows []batchRow, res 
 	var keyed []batchRow
 	var fresh []int // rows of the current run that are new
 	var pts []blocks.Point
+	var staged []stagedRow
 	touched := false
 	i := 0
 	for _, cr := range ranges {
@@ -422,9 +369,10 @@ func (s *Store) writeRuns(ctx context.Context, tx *sql.Tx, rows []batchRow, res 
 		for _, j := range fresh {
 			pts = append(pts, blocks.Point{Time: rows[j].key.ts, Value: rows[j].val})
 		}
-		if err := s.stageRun(ctx, tx, cr.ch, pts); err != nil {
-			return err
-		}
+		staged = appendRuns(staged, cr.ch, pts)
+	}
+	if err := s.insertStaged(ctx, tx, staged); err != nil {
+		return err
 	}
 	if err := s.insertRows(ctx, tx, keyed); err != nil {
 		return err
@@ -454,9 +402,12 @@ func channelID(ctx context.Context, tx *sql.Tx, k chanKey) (int64, error) {
 // insertStatement builds an n-row INSERT into the keyed row table. The
 // commit has checked every key first (writeRuns), so a constraint error
 // means the file was changed under the write lock and fails the commit.
+// OR FAIL: such an error fails the transaction anyway, so SQLite need not
+// keep a statement journal to undo a part of the statement (a temporary
+// file written for every multi-row statement that may abort).
 func insertStatement(n int) string {
 	var sb strings.Builder
-	sb.WriteString("INSERT INTO readings (channel, ts, value) VALUES ")
+	sb.WriteString("INSERT OR FAIL INTO readings (channel, ts, value) VALUES ")
 	for i := range n {
 		if i > 0 {
 			sb.WriteByte(',')

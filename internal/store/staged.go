@@ -249,14 +249,16 @@ func (s *Store) prepared(ctx context.Context, query string) (*sql.Stmt, error) {
 	return st, nil
 }
 
-// stageRun writes the new points of one channel (time-ordered) as one
-// staged row per block period they touch.
-func (s *Store) stageRun(ctx context.Context, tx *sql.Tx, ch int64, pts []blocks.Point) error {
-	st, err := s.prepared(ctx, `INSERT INTO staged_readings (channel, first, last, n, data) VALUES (?, ?, ?, ?, ?)`)
-	if err != nil {
-		return err
-	}
-	tst := tx.StmtContext(ctx, st)
+// stagedRow is one row of staged_readings to insert.
+type stagedRow struct {
+	ch, first, last int64
+	n               int
+	data            []byte
+}
+
+// appendRuns appends the rows that stage the new points of channel ch
+// (time-ordered): one per StageSpan period they touch.
+func appendRuns(dst []stagedRow, ch int64, pts []blocks.Point) []stagedRow {
 	for len(pts) > 0 {
 		end := stageEnd(pts[0].Time)
 		k := len(pts)
@@ -264,10 +266,45 @@ func (s *Store) stageRun(ctx context.Context, tx *sql.Tx, ch int64, pts []blocks
 			k = sort.Search(len(pts), func(i int) bool { return pts[i].Time >= end })
 		}
 		part := pts[:k]
-		if _, err := tst.ExecContext(ctx, ch, part[0].Time, part[k-1].Time, k, encodeRun(part)); err != nil {
-			return fmt.Errorf("store: staging %d readings of channel id %d from %s: %w", k, ch, time.Unix(0, part[0].Time).UTC().Format(time.RFC3339Nano), err)
-		}
+		dst = append(dst, stagedRow{ch: ch, first: part[0].Time, last: part[k-1].Time, n: k, data: encodeRun(part)})
 		pts = pts[k:]
+	}
+	return dst
+}
+
+// stagedPerStatement is the most staged rows one INSERT writes.
+const stagedPerStatement = 64
+
+// insertStaged writes staged rows, up to stagedPerStatement per statement
+// (statements of a handful of sizes, prepared once; see chunkSize).
+func (s *Store) insertStaged(ctx context.Context, tx *sql.Tx, rows []stagedRow) error {
+	for len(rows) > 0 {
+		n := stagedPerStatement
+		if len(rows) < n {
+			n = 1
+			for n*2 <= len(rows) {
+				n *= 2
+			}
+		}
+		q := make([]byte, 0, 80+12*n)
+		// OR FAIL: see insertStatement.
+		q = append(q, "INSERT OR FAIL INTO staged_readings (channel, first, last, n, data) VALUES "...)
+		args := make([]any, 0, 5*n)
+		for i, r := range rows[:n] {
+			if i > 0 {
+				q = append(q, ',')
+			}
+			q = append(q, "(?,?,?,?,?)"...)
+			args = append(args, r.ch, r.first, r.last, r.n, r.data)
+		}
+		st, err := s.prepared(ctx, string(q))
+		if err != nil {
+			return err
+		}
+		if _, err := tx.StmtContext(ctx, st).ExecContext(ctx, args...); err != nil {
+			return fmt.Errorf("store: staging %d runs from channel id %d at %s: %w", n, rows[0].ch, time.Unix(0, rows[0].first).UTC().Format(time.RFC3339Nano), err)
+		}
+		rows = rows[n:]
 	}
 	return nil
 }
