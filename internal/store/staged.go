@@ -291,8 +291,12 @@ func appendRuns(dst []stagedRow, ch int64, pts []blocks.Point) []stagedRow {
 const stagedPerStatement = 64
 
 // insertStaged writes staged rows, up to stagedPerStatement per statement
-// (statements of a handful of sizes, prepared once; see chunkSize).
+// (statements of a handful of sizes, prepared once; see chunkSize), after
+// checking that every channel id is a row of channels (the foreign key).
 func (s *Store) insertStaged(ctx context.Context, tx *sql.Tx, rows []stagedRow) error {
+	if err := checkChannels(ctx, tx, rows); err != nil {
+		return err
+	}
 	for len(rows) > 0 {
 		n := stagedPerStatement
 		if len(rows) < n {
@@ -320,6 +324,35 @@ func (s *Store) insertStaged(ctx context.Context, tx *sql.Tx, rows []stagedRow) 
 			return fmt.Errorf("store: staging %d runs from channel id %d at %s: %w", n, rows[0].ch, time.Unix(0, rows[0].first).UTC().Format(time.RFC3339Nano), err)
 		}
 		rows = rows[n:]
+	}
+	return nil
+}
+
+// checkChannels is the foreign key of staged rows, checked once per
+// distinct channel: every channel id must be a row of channels.
+func checkChannels(ctx context.Context, tx *sql.Tx, rows []stagedRow) error {
+	ids := map[int64]bool{}
+	list := []byte{'['}
+	for j, r := range rows {
+		if j > 0 && rows[j-1].ch == r.ch || ids[r.ch] {
+			continue
+		}
+		if len(ids) > 0 {
+			list = append(list, ',')
+		}
+		ids[r.ch] = true
+		list = strconv.AppendInt(list, r.ch, 10)
+	}
+	if len(ids) == 0 {
+		return nil
+	}
+	list = append(list, ']')
+	var n int
+	if err := tx.QueryRowContext(ctx, `SELECT count(*) FROM channels WHERE id IN (SELECT value FROM json_each(?))`, string(list)).Scan(&n); err != nil {
+		return fmt.Errorf("store: checking the staged runs' channels: %w", err)
+	}
+	if n != len(ids) {
+		return fmt.Errorf("store: commit: %d of the %d channel ids of the staged runs are not in the channels table (foreign key of staged_readings.channel)", len(ids)-n, len(ids))
 	}
 	return nil
 }

@@ -46,6 +46,7 @@ type Store struct {
 	channels map[chanKey]int64     // committed channel ids
 	stmts    map[stmtKey]*sql.Stmt // prepared inserts by row count
 	named    map[string]*sql.Stmt  // other statements prepared once, by text
+	rowBufs  sync.Pool             // *[2][]batchRow, Commit's row buffers
 	// blockedUntil is, per channel id, the end of its latest block
 	// period: a reading before it may be in a block (blocks.go).
 	blockedUntil map[int64]int64
