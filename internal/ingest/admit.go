@@ -76,6 +76,14 @@ const (
 // absurd_magnitude (before the sensor map's own range check).
 const DefaultMaxAbsValue = 1e12
 
+// safeYearsFrom and safeYearsTo are the Unix seconds of 1971-01-02 and
+// 2261-12-31 (UTC), a day inside the years 1971..2261 that Admit accepts,
+// so that a time between them is in range in every time zone.
+const (
+	safeYearsFrom = 31622400
+	safeYearsTo   = 9214560000
+)
+
 // Limits are the acceptance rules of one reading, apart from the sensor
 // map's own (units, ranges).
 type Limits struct {
@@ -109,7 +117,9 @@ func Admit(l Limits, reg Registry, channel, unit string, t time.Time, value floa
 	if l.MaxAbsValue > 0 && math.Abs(value) > l.MaxAbsValue {
 		return reject(ReasonAbsurdMagnitude, "|value| %g exceeds max_abs_value %g", value, l.MaxAbsValue)
 	}
-	if t.Year() < 1971 || t.Year() > 2261 {
+	// Year() computes the calendar date; a time a day inside the range
+	// (in any time zone) is in range without it.
+	if sec := t.Unix(); (sec < safeYearsFrom || sec > safeYearsTo) && (t.Year() < 1971 || t.Year() > 2261) {
 		return reject(ReasonTimeRange, "time %s outside 1971..2261, the range the store keeps", t.Format(time.RFC3339))
 	}
 	t = t.Round(TimeResolution).UTC()

@@ -294,7 +294,7 @@ const stagedPerStatement = 64
 // (statements of a handful of sizes, prepared once; see chunkSize), after
 // checking that every channel id is a row of channels (the foreign key).
 func (s *Store) insertStaged(ctx context.Context, tx *sql.Tx, rows []stagedRow) error {
-	if err := checkChannels(ctx, tx, rows); err != nil {
+	if err := s.checkChannels(ctx, tx, rows); err != nil {
 		return err
 	}
 	for len(rows) > 0 {
@@ -330,7 +330,7 @@ func (s *Store) insertStaged(ctx context.Context, tx *sql.Tx, rows []stagedRow) 
 
 // checkChannels is the foreign key of staged rows, checked once per
 // distinct channel: every channel id must be a row of channels.
-func checkChannels(ctx context.Context, tx *sql.Tx, rows []stagedRow) error {
+func (s *Store) checkChannels(ctx context.Context, tx *sql.Tx, rows []stagedRow) error {
 	ids := map[int64]bool{}
 	list := []byte{'['}
 	for j, r := range rows {
@@ -347,8 +347,12 @@ func checkChannels(ctx context.Context, tx *sql.Tx, rows []stagedRow) error {
 		return nil
 	}
 	list = append(list, ']')
+	st, err := s.prepared(ctx, `SELECT count(*) FROM channels WHERE id IN (SELECT value FROM json_each(?))`)
+	if err != nil {
+		return err
+	}
 	var n int
-	if err := tx.QueryRowContext(ctx, `SELECT count(*) FROM channels WHERE id IN (SELECT value FROM json_each(?))`, string(list)).Scan(&n); err != nil {
+	if err := tx.StmtContext(ctx, st).QueryRowContext(ctx, string(list)).Scan(&n); err != nil {
 		return fmt.Errorf("store: checking the staged runs' channels: %w", err)
 	}
 	if n != len(ids) {
