@@ -13,8 +13,9 @@ import (
 )
 
 type memorySink struct {
-	events []Event
-	fail   error
+	events    []Event
+	revisions []Event
+	fail      error
 }
 
 func (m *memorySink) PutEvent(ctx context.Context, e Event) error {
@@ -22,6 +23,14 @@ func (m *memorySink) PutEvent(ctx context.Context, e Event) error {
 		return m.fail
 	}
 	m.events = append(m.events, e)
+	return nil
+}
+
+func (m *memorySink) ReviseEvent(ctx context.Context, e Event) error {
+	if m.fail != nil {
+		return m.fail
+	}
+	m.revisions = append(m.revisions, e)
 	return nil
 }
 

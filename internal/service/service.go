@@ -571,3 +571,15 @@ func (e eventSink) PutEvent(ctx context.Context, ev alerts.Event) error {
 	}
 	return e.st.PutEvent(ctx, store.Event{Structure: ev.Structure, Rule: ev.Rule, Subject: ev.Subject, Kind: ev.Kind, Time: ev.Time, Evidence: evidence})
 }
+
+// ReviseEvent replaces the evidence of a stored raised event (its causes
+// revised while the alarm is active); a row removed by retention is left
+// alone.
+func (e eventSink) ReviseEvent(ctx context.Context, ev alerts.Event) error {
+	evidence, err := json.Marshal(ev.Evidence)
+	if err != nil {
+		return err
+	}
+	_, err = e.st.ReviseEvent(ctx, store.Event{Structure: ev.Structure, Rule: ev.Rule, Subject: ev.Subject, Kind: ev.Kind, Time: ev.Time, Evidence: evidence})
+	return err
+}
