@@ -284,7 +284,13 @@ func (p *Pipeline) process(ctx context.Context, e epoch.Epoch) {
 	if t.Before(p.lastEval) {
 		p.stats.AlarmOutOfOrder++
 	} else {
-		evs, err := p.eval.Observe(ctx, p.observation(t, res))
+		obs := p.observation(t, res)
+		if res.Outcome == OutcomeAccepted || res.Outcome == OutcomeRejected {
+			// An alarm rising now carries the unknown loads that left
+			// their recent distribution (they may absorb the fault).
+			obs.LoadShifts = alertLoadShifts(p.proc.LoadShifts(res, LoadShiftK))
+		}
+		evs, err := p.eval.Observe(ctx, obs)
 		if err != nil {
 			p.logOnce("alarm", "alarm evaluation", "structure", p.structure, "error", err)
 		}
@@ -295,6 +301,9 @@ func (p *Pipeline) process(ctx context.Context, e epoch.Epoch) {
 				res.Window = p.proc.WindowCauses()
 				break
 			}
+		}
+		if err := p.reviseAlarms(ctx, res); err != nil {
+			p.logOnce("alarm", "alarm causes not stored yet; retrying", "structure", p.structure, "error", err)
 		}
 	}
 	res.Active = p.eval.Active(p.structure)
@@ -342,13 +351,11 @@ func fitObservation(o *alerts.Observation, res *Result) {
 	// The first group is kept whole (its causes carry no order), then
 	// further causes up to three.
 	causes := res.Causes
-	for i, c := range causes {
-		if i >= 3 && c.Group != 1 {
-			break
-		}
-		o.Causes = append(o.Causes, alerts.Cause{Label: c.Label, Kind: c.Kind, T: c.T, Size: c.Size, Unit: c.Unit,
-			Std: c.Std, MDS: c.MDS, Group: c.Group, Implausible: c.Implausible})
+	n := 0
+	for n < len(causes) && (n < 3 || causes[n].Group == 1) {
+		n++
 	}
+	o.Causes = alertCauses(causes[:n])
 	for _, m := range res.Members {
 		if !m.Available {
 			continue
