@@ -145,10 +145,11 @@ type Evidence struct {
 	// is then the mean of the statistic over the for-duration, or over the
 	// hold-off for a cleared event).
 	Epochs int `json:"epochs,omitempty"`
-	// CausesAt is the epoch time of the latest revision of Causes while the
-	// alarm was active (see Evaluator.Revise): their sizes are then
-	// estimated over the epochs from the fault's onset to CausesAt. Zero
-	// when the causes are those of the raising epoch.
+	// CausesAt is, for a raised event of a statistical rule, the epoch
+	// time its Causes are estimated as of: the raise, or the latest
+	// revision while the alarm was active (see Evaluator.Revise), their
+	// sizes then estimated over the epochs from the fault's onset to
+	// CausesAt. Zero for the other events.
 	CausesAt time.Time `json:"causes_at,omitzero"`
 	// LoadShifts flags the unknown-load estimates that left their recent
 	// distribution when the alarm rose.
@@ -174,7 +175,7 @@ type Alarm struct {
 	// carry identified causes (and whose causes Revise updates).
 	Identifies bool
 	// Causes are the alarm's causes: those of its raised event, or their
-	// latest revision (at CausesAt, zero when not revised).
+	// latest revision, as of CausesAt (zero for a rule without causes).
 	Causes   []Cause
 	CausesAt time.Time
 	// LoadShifts are the unknown loads flagged when the alarm rose.
@@ -354,7 +355,7 @@ func (e *Evaluator) Revise(ctx context.Context, structure, rule, subject string,
 	a.raised.Evidence.CausesAt = t
 	a.causesAt = t
 	var pending []pendingEvent
-	if a.storedAt.IsZero() && t.Sub(a.fired) >= ReviseEvery || !a.storedAt.IsZero() && t.Sub(a.storedAt) >= ReviseEvery {
+	if t.Sub(a.storedAt) >= ReviseEvery {
 		a.storedAt = t
 		pending = append(pending, pendingEvent{ev: a.raised.clone(), revise: true})
 	}
@@ -727,6 +728,7 @@ func (s *structState) evaluate(r Rule, o Observation, events []Event) []Event {
 			a.firing, a.fired = true, t
 			s.firingCount[r.Name]++
 			a.raised = s.event(r, o, in, Raised, a)
+			a.causesAt, a.storedAt = a.raised.Evidence.CausesAt, a.raised.Evidence.CausesAt
 			events = append(events, a.raised.clone())
 		}
 	}
@@ -794,6 +796,7 @@ func (s *structState) evaluateMean(r Rule, o Observation, events []Event) []Even
 			a.firing, a.fired = true, t
 			s.firingCount[r.Name]++
 			a.raised = s.event(r, o, in, Raised, a)
+			a.causesAt, a.storedAt = a.raised.Evidence.CausesAt, a.raised.Evidence.CausesAt
 			events = append(events, a.raised.clone())
 			continue
 		}
@@ -843,8 +846,11 @@ func (s *structState) event(r Rule, o Observation, in instance, kind string, a *
 		causes = nil
 	}
 	ev.Evidence.Causes = cutCauses(causes)
-	if kind == Raised && r.Signal.identifies() && len(o.LoadShifts) > 0 {
-		ev.Evidence.LoadShifts = append([]LoadShift(nil), o.LoadShifts...)
+	if kind == Raised && r.Signal.identifies() {
+		ev.Evidence.CausesAt = o.Time
+		if len(o.LoadShifts) > 0 {
+			ev.Evidence.LoadShifts = append([]LoadShift(nil), o.LoadShifts...)
+		}
 	}
 	return ev
 }
