@@ -182,13 +182,13 @@ type eventsJSON struct {
 }
 
 type eventJSON struct {
-	Time     string      `json:"time"`
-	Rule     string      `json:"rule"`
-	Subject  string      `json:"subject"`
-	Kind     string      `json:"kind"`
-	W        num         `json:"w"`
-	Size     num         `json:"size"`
-	SizeUnit string      `json:"size_unit"`
+	Time       string          `json:"time"`
+	Rule       string          `json:"rule"`
+	Subject    string          `json:"subject"`
+	Kind       string          `json:"kind"`
+	W          num             `json:"w"`
+	Size       num             `json:"size"`
+	SizeUnit   string          `json:"size_unit"`
 	Message    string          `json:"message"`
 	Causes     []causeJSON     `json:"causes"`
 	CausesAt   *string         `json:"causes_at"`
