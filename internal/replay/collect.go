@@ -19,13 +19,13 @@ import (
 // every member's running totals and which pattern columns were used.
 // Nothing measured on the wall clock (Result.Took) is kept.
 type collector struct {
-	stream   *report.Stream
-	events   []alerts.Event
+	stream *report.Stream
+	events []alerts.Event
 	// raised indexes the raised events of identifying alarms by rule,
 	// subject and time; adapted holds each one's carried hypotheses at
 	// its latest epoch active.
-	raised  map[alarmKey]int
-	adapted map[int][]pipeline.Cause
+	raised   map[alarmKey]int
+	adapted  map[int][]pipeline.Cause
 	subjects map[string]string // cause label -> subject, from the pipeline's causes
 	totals   memberTotals      // every member's total state (members.go)
 	// col maps a load pattern to its report column; scale is the column's
