@@ -223,7 +223,7 @@ func (s *Service) addStructure(mon *Monitored) error {
 		return fmt.Errorf("structure %q: %w", name, err)
 	}
 	p.AddSink(&metricsSink{m: s.met, sm: s.met.Structure(name, proc.Gauged(), proc.Unknown()), name: name, rules: s.rules, last: map[string]int{},
-		state: s.met.MemberState(name, proc.Members()), loads: loads})
+		state: s.met.MemberState(name, proc.Members()), loads: loads, adapt: s.met.Adaptation(name, proc.Gauged(), proc.Unknown()), unknown: proc.Unknown()})
 	p.AddSink(s.results)
 	s.pipes[name] = p
 	s.order = append(s.order, name)
