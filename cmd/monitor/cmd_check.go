@@ -10,7 +10,6 @@ import (
 	"strings"
 
 	"trussmonitor/internal/model"
-	"trussmonitor/internal/pipeline"
 	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/structfile"
@@ -53,11 +52,12 @@ func runCheck(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 			return 1
 		}
 	}
-	rep, err := checkStructure(s)
+	chk, err := model.CheckStructure(s)
 	if err != nil {
 		fmt.Fprintf(stderr, "monitor check: %v\n", err)
 		return 1
 	}
+	rep := &checkReport{StructureCheck: chk}
 	if sec, err := capacitySection(rep); err != nil {
 		fmt.Fprintf(stderr, "monitor check: %v\n", err)
 		return 1
@@ -65,34 +65,23 @@ func runCheck(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 		rep.Extra = append(rep.Extra, sec) // check_capacity.go
 	}
 	if sm != nil && rep.Model != nil {
-		det, err := pipeline.Detectability(rep.Model, sm, reconcile.Options{})
+		det, err := reconcile.LayoutDetectability(rep.Model, sm, reconcile.Options{})
 		if err != nil {
 			fmt.Fprintf(stderr, "monitor check: %s: %v\n", *sensorsPath, err)
 			return 1
 		}
-		rep.Extra = append(rep.Extra, func(w io.Writer) { fmt.Fprintln(w); det.Write(w) })
+		rep.Extra = append(rep.Extra, func(w io.Writer) { fmt.Fprintln(w); writeDetectability(w, det) })
 	}
 	rep.Write(stdout)
 	if rep.Mechanism != nil {
 		fmt.Fprintf(stderr, "monitor check: %v\n", rep.Mechanism)
 		return 1
 	}
-	if bad := rep.equilibriumFailures(); len(bad) > 0 {
+	if bad := rep.EquilibriumFailures(); len(bad) > 0 {
 		fmt.Fprintf(stderr, "monitor check: equilibrium FAILED in %s: the solution is not the exact solution of any nearby problem (backward error above %.1e); report the structure file with this output\n", strings.Join(bad, ", "), rep.Cases[0].Equilibrium.Limit)
 		return 1
 	}
 	return 0
-}
-
-// equilibriumFailures names the solved cases whose equilibrium check failed.
-func (r *checkReport) equilibriumFailures() []string {
-	var bad []string
-	for _, c := range r.Cases {
-		if c.Err == nil && !c.Equilibrium.OK() {
-			bad = append(bad, c.Name)
-		}
-	}
-	return bad
 }
 
 // parseInterspersed parses flags that may come before or after the
@@ -112,134 +101,13 @@ func parseInterspersed(fs *flag.FlagSet, args []string) ([]string, error) {
 	}
 }
 
-// checkReport is the content of "monitor check": each part is filled by
-// checkStructure and printed by Write. Further sections (for example
-// detectability per member from a sensor map) are appended to Extra.
+// checkReport is the content of "monitor check": the analysis of the
+// structure (model.CheckStructure) and further sections (for example
+// detectability per member from a sensor map) appended to Extra.
 type checkReport struct {
-	Structure *model.Structure
-	// Model is nil when the truss is a mechanism.
-	Model       *model.Model
-	Mechanism   *model.MechanismError
-	Determinacy model.Determinacy
-	// Geometry is the size summary with its plausibility warnings.
-	Geometry model.Geometry
-	Cases    []caseSummary
-	// Joints is the method-of-joints cross-check; JointsNote says why it
-	// was not run when Joints is empty.
-	Joints     []jointsCheck
-	JointsNote string
+	*model.StructureCheck
 	// Extra sections are printed after the built-in ones.
 	Extra []func(w io.Writer)
-}
-
-// caseSummary holds the extreme member forces of one load case.
-type caseSummary struct {
-	Name                 string
-	Factors              []model.Factor
-	MaxTension           float64
-	MaxTensionMember     string
-	MaxCompression       float64
-	MaxCompressionMember string
-	Equilibrium          model.Equilibrium
-	Err                  error
-}
-
-// jointsCheck compares the stiffness solution of one case with the method
-// of joints.
-type jointsCheck struct {
-	Case      string
-	MaxDiffN  float64
-	Member    string
-	MaxForceN float64
-	ResidualN float64
-	Err       error
-}
-
-// checkStructure analyses s and gathers the report. It returns an error
-// only for a structure that cannot be analysed at all (invalid input);
-// a mechanism is part of the report.
-func checkStructure(s *model.Structure) (*checkReport, error) {
-	rep := &checkReport{Structure: s, Geometry: model.Measure(s)}
-	m, err := model.Analyze(s)
-	var me *model.MechanismError
-	switch {
-	case errors.As(err, &me):
-		rep.Mechanism = me
-		rep.Determinacy = me.Determinacy
-		return rep, nil
-	case err != nil:
-		return nil, err
-	}
-	rep.Model = m
-	rep.Determinacy = m.Determinacy()
-	cases := s.Cases
-	if len(cases) == 0 {
-		for _, p := range s.Patterns {
-			cases = append(cases, model.Case{Name: "pattern " + p.Name, Factors: []model.Factor{{Pattern: p.Name, Factor: 1}}})
-		}
-	}
-	springs := false
-	for _, sp := range s.Supports {
-		springs = springs || sp.Spring != [3]float64{}
-	}
-	runJoints := s.Dim == 2 && rep.Determinacy.ByRank == 0 && !springs
-	switch {
-	case s.Dim != 2:
-		rep.JointsNote = "not applicable: space truss (the method of joints here is for plane trusses)"
-	case springs:
-		rep.JointsNote = "not applicable: spring supports make the forces depend on stiffness"
-	case rep.Determinacy.ByRank != 0:
-		rep.JointsNote = fmt.Sprintf("not applicable: statically indeterminate (degree %d)", rep.Determinacy.ByRank)
-	}
-	for _, c := range cases {
-		cs := caseSummary{Name: c.Name, Factors: c.Factors}
-		r, err := m.SolveFactors(c.Factors)
-		if err != nil {
-			cs.Err = err
-			rep.Cases = append(rep.Cases, cs)
-			continue
-		}
-		cs.Equilibrium = r.Equilibrium
-		cs.MaxTension, cs.MaxTensionMember, cs.MaxCompression, cs.MaxCompressionMember = memberForceExtremes(s, r.Forces)
-		rep.Cases = append(rep.Cases, cs)
-		if !runJoints {
-			continue
-		}
-		jc := jointsCheck{Case: c.Name}
-		j, err := model.SolveByJoints(s, c.Factors)
-		if err != nil {
-			jc.Err = err
-		} else {
-			jc.ResidualN = j.MaxResidualN
-			for e := range r.Forces {
-				jc.MaxForceN = math.Max(jc.MaxForceN, math.Abs(r.Forces[e]))
-				if d := math.Abs(r.Forces[e] - j.Forces[e]); d > jc.MaxDiffN || jc.Member == "" {
-					jc.MaxDiffN, jc.Member = d, s.Members[e].ID
-				}
-			}
-		}
-		rep.Joints = append(rep.Joints, jc)
-	}
-	return rep, nil
-}
-
-// memberForceExtremes returns the largest tension and compression and their members.
-// Of members equal to rounding (symmetric trusses) the first in file order
-// is named, so the output does not depend on the solver's rounding.
-func memberForceExtremes(s *model.Structure, forces []float64) (maxT float64, idT string, maxC float64, idC string) {
-	for _, n := range forces {
-		maxT, maxC = math.Max(maxT, n), math.Min(maxC, n)
-	}
-	tol := 1e-9 * math.Max(maxT, -maxC)
-	for e, n := range forces {
-		if idT == "" && n >= maxT-tol {
-			idT = s.Members[e].ID
-		}
-		if idC == "" && n <= maxC+tol {
-			idC = s.Members[e].ID
-		}
-	}
-	return maxT, idT, maxC, idC
 }
 
 // Write prints the report.
@@ -301,7 +169,7 @@ func (r *checkReport) Write(w io.Writer) {
 		limit = c.Equilibrium.Limit
 	}
 	verdict := "ok"
-	if len(r.equilibriumFailures()) > 0 {
+	if len(r.EquilibriumFailures()) > 0 {
 		verdict = "FAILED: not the exact solution of any nearby problem"
 	}
 	fmt.Fprintf(w, "equilibrium largest backward error over all cases %.1e (limit 10 n u = %.1e, n = %d free DOFs, u = 2^-53): %s\n", worst, limit, r.Model.FreeDOFs(), verdict)

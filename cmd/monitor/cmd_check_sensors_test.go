@@ -20,7 +20,7 @@ func TestCheckWithSensors(t *testing.T) {
 	// The separability section: D2 is a gauged diagonal of a determinate
 	// panel, so its gauge fault and its stiffness change form one group
 	// (the hand-truss case of reconcile.TestSeparabilityHandTruss).
-	for _, want := range []string{"detectability", "B4 ", "C5 ", "weakest member:", "additional gauge pair", "not a safety verdict",
+	for _, want := range []string{"detectability", "redundancy", "MDB [kN]", "B4 ", "C5 ", "weakest member:", "additional gauge pair", "not a safety verdict",
 		"separability of the candidate causes", "cannot be told apart: gauge D2 | E A of D2 |", "untestable in one epoch"} {
 		if !strings.Contains(s, want) {
 			t.Errorf("output lacks %q", want)

@@ -1,8 +1,6 @@
 package main
 
 import (
-	"bufio"
-	"compress/gzip"
 	"context"
 	"errors"
 	"flag"
@@ -10,7 +8,6 @@ import (
 	"io"
 	"os"
 	"sort"
-	"strconv"
 	"strings"
 	"time"
 
@@ -27,33 +24,6 @@ import (
 // importBatch is how many readings go into one store transaction; PROBES.md
 // measured ~135k rows/s at 10000 rows per transaction and 85k at 1000.
 const importBatch = 5000
-
-// importCounts is the tally of one import.
-type importCounts struct {
-	read, stored, duplicates int
-	rejected                 map[string]int
-	first                    time.Time // earliest accepted reading
-}
-
-func (c *importCounts) add(o importCounts) {
-	c.read += o.read
-	c.stored += o.stored
-	c.duplicates += o.duplicates
-	if !o.first.IsZero() && (c.first.IsZero() || o.first.Before(c.first)) {
-		c.first = o.first
-	}
-	for k, v := range o.rejected {
-		c.rejected[k] += v
-	}
-}
-
-func (c importCounts) rejectedTotal() int {
-	n := 0
-	for _, v := range c.rejected {
-		n += v
-	}
-	return n
-}
 
 // runImport implements "monitor import --db FILE --structure FILE --sensors
 // FILE CSVFILE...": it validates every value of the logger CSV files against
@@ -138,13 +108,22 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) int
 			return 1
 		}
 	}
-	total := importCounts{rejected: map[string]int{}}
+	total := csvimport.Counts{Rejected: map[string]int{}}
 	failed := 0
-	lim := ingest.Limits{MaxAbsValue: ingest.DefaultMaxAbsValue, MaxAhead: ingest.DefaultMaxAhead, MaxBehind: *maxAge}
+	im := &csvimport.Importer{
+		Store: db, Sensors: m, Fatigue: tr, Batch: *batch,
+		Limits: ingest.Limits{MaxAbsValue: ingest.DefaultMaxAbsValue, MaxAhead: ingest.DefaultMaxAhead, MaxBehind: *maxAge},
+	}
 	for _, path := range files {
-		c, err := importFile(ctx, db, m, lim, tr, path, *batch, progress)
-		total.add(c)
-		fmt.Fprintf(stdout, "%s: %s\n", path, c.summary())
+		var size int64
+		if fi, err := os.Stat(path); err == nil {
+			size = fi.Size()
+		}
+		bar := newProgressBar(progress, path, size)
+		c, err := im.File(ctx, path, bar.update)
+		bar.done()
+		total.Add(c)
+		fmt.Fprintf(stdout, "%s: %s\n", path, importSummary(c))
 		if err != nil {
 			fmt.Fprintf(stderr, "monitor import: %s: %v\n", path, err)
 			failed++
@@ -154,19 +133,19 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) int
 		}
 	}
 	if len(files) > 1 {
-		fmt.Fprintf(stdout, "total: %s\n", total.summary())
+		fmt.Fprintf(stdout, "total: %s\n", importSummary(total))
 	}
 	// The model the readings were imported against, in force from the
 	// earliest of them: monitor replay of this store finds it and needs
 	// no --structure.
-	if !total.first.IsZero() {
-		hash, err := db.PutModel(context.WithoutCancel(ctx), st.Name, content, total.first)
+	if !total.First.IsZero() {
+		hash, err := db.PutModel(context.WithoutCancel(ctx), st.Name, content, total.First)
 		if err != nil {
 			fmt.Fprintf(stderr, "monitor import: storing the model version: %v\n", err)
 			return 1
 		}
 		fmt.Fprintf(stdout, "model: %s of %s (%s) stored as in force from %s; monitor replay of this store needs no --structure\n",
-			hash[:12], st.Name, *structPath, total.first.UTC().Format(time.RFC3339))
+			hash[:12], st.Name, *structPath, total.First.UTC().Format(time.RFC3339))
 	}
 	// Readings of closed hours go into compressed blocks now, as the
 	// service would do within the hour.
@@ -192,146 +171,22 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) int
 	return 0
 }
 
-func (c importCounts) summary() string {
-	s := fmt.Sprintf("read %d, stored %d, duplicates %d, rejected %d", c.read, c.stored, c.duplicates, c.rejectedTotal())
-	if len(c.rejected) > 0 {
-		keys := make([]string, 0, len(c.rejected))
-		for k := range c.rejected {
+// importSummary is the one-line tally of an import.
+func importSummary(c csvimport.Counts) string {
+	s := fmt.Sprintf("read %d, stored %d, duplicates %d, rejected %d", c.Read, c.Stored, c.Duplicates, c.RejectedTotal())
+	if len(c.Rejected) > 0 {
+		keys := make([]string, 0, len(c.Rejected))
+		for k := range c.Rejected {
 			keys = append(keys, k)
 		}
 		sort.Strings(keys)
 		parts := make([]string, len(keys))
 		for i, k := range keys {
-			parts[i] = fmt.Sprintf("%s %d", k, c.rejected[k])
+			parts[i] = fmt.Sprintf("%s %d", k, c.Rejected[k])
 		}
 		s += " (" + strings.Join(parts, ", ") + ")"
 	}
 	return s
-}
-
-// importFile streams one CSV file into the store. Readings accepted before
-// an error in the file are committed.
-// Every reading goes through ingest.Admit, the decision MQTT ingest makes,
-// with the same reason codes.
-func importFile(ctx context.Context, db *store.Store, m *sensors.Map, lim ingest.Limits, tr *fatiguetrack.Tracker, path string, batch int, progress io.Writer) (importCounts, error) {
-	c := importCounts{rejected: map[string]int{}}
-	f, err := os.Open(path)
-	if err != nil {
-		return c, err
-	}
-	defer f.Close()
-	var size int64
-	if fi, err := f.Stat(); err == nil {
-		size = fi.Size()
-	}
-	cr := &countingReader{r: f}
-	bar := newProgressBar(progress, path, size)
-	// A gzip file (as the recorded day ships) is read through gunzip,
-	// recognised by its magic bytes 1f 8b (RFC 1952 section 2.3.1).
-	br := bufio.NewReader(cr)
-	var src io.Reader = br
-	if magic, _ := br.Peek(2); len(magic) == 2 && magic[0] == 0x1f && magic[1] == 0x8b {
-		zr, err := gzip.NewReader(br)
-		if err != nil {
-			return c, fmt.Errorf("gzip: %w", err)
-		}
-		defer zr.Close()
-		src = zr
-	}
-
-	readings := make([]store.Reading, 0, batch)
-	var lines []int // CSV line of each reading
-	var dead []store.DeadLetter
-	topic := "import:" + path
-	flush := func() error {
-		if len(readings) == 0 && len(dead) == 0 {
-			return nil
-		}
-		// Commit even when ctx is cancelled: readings already accepted
-		// must not be lost on an interrupt.
-		b := store.Batch{
-			Groups:      []store.Group{{Structure: m.StructureName(), Readings: readings}},
-			DeadLetters: dead,
-			OnConflict: func(_ int, cs []store.Conflict) store.DeadLetter {
-				parts := make([]string, 0, min(len(cs), 5))
-				for _, k := range cs[:min(len(cs), 5)] {
-					r := readings[k.Index]
-					parts = append(parts, fmt.Sprintf("line %d: channel %q at %s: value %g, stored %g", lines[k.Index], r.Channel, r.Time.Format(time.RFC3339Nano), r.Value, k.Stored))
-				}
-				return store.DeadLetter{Topic: topic, Received: time.Now().UTC(), Reason: string(ingest.ReasonConflicting),
-					Detail:  fmt.Sprintf("%d readings conflict with a stored reading of the same channel and time: %s", len(cs), strings.Join(parts, "; ")),
-					Payload: []byte(parts[0])}
-			},
-		}
-		var applyFatigue func()
-		if tr != nil {
-			b.Fatigue = func(r store.CommitResult) ([]store.FatigueUpdate, error) {
-				ups, apply, err := tr.Stage(b.Groups, r)
-				applyFatigue = apply
-				return ups, err
-			}
-		}
-		res, err := db.Commit(context.WithoutCancel(ctx), b)
-		if err != nil {
-			return fmt.Errorf("storing readings: %w", err)
-		}
-		if applyFatigue != nil {
-			applyFatigue()
-		}
-		conflicts := len(res.Conflicts[0])
-		if conflicts > 0 {
-			c.rejected[string(ingest.ReasonConflicting)] += conflicts
-		}
-		c.stored += res.Inserted[0]
-		c.duplicates += len(readings) - res.Inserted[0] - conflicts
-		readings, lines, dead = readings[:0], lines[:0], dead[:0]
-		bar.update(cr.n, c.read)
-		return nil
-	}
-	_, readErr := csvimport.Read(src, func(r csvimport.Record) error {
-		c.read++
-		now := time.Now().UTC()
-		rd, rej := ingest.Admit(lim, m, r.Channel, r.Unit, r.Time, r.Value, now)
-		if rej != nil {
-			c.rejected[string(rej.Reason)]++
-			dead = append(dead, store.DeadLetter{
-				Topic: topic, Received: now, Reason: string(rej.Reason),
-				Detail:  fmt.Sprintf("line %d: %s", r.Line, rej.Detail),
-				Payload: []byte(r.Channel + "," + r.Unit + "," + r.Time.Format(time.RFC3339Nano) + "," + strconv.FormatFloat(r.Value, 'g', -1, 64)),
-			})
-		} else {
-			readings = append(readings, rd)
-			lines = append(lines, r.Line)
-			if c.first.IsZero() || rd.Time.Before(c.first) {
-				c.first = rd.Time
-			}
-		}
-		if len(readings)+len(dead) >= batch {
-			if err := ctx.Err(); err != nil {
-				return fmt.Errorf("interrupted: %w", err)
-			}
-			return flush()
-		}
-		return nil
-	})
-	flushErr := flush()
-	bar.done()
-	if readErr != nil {
-		return c, readErr
-	}
-	return c, flushErr
-}
-
-// countingReader counts the bytes read, for the progress bar.
-type countingReader struct {
-	r io.Reader
-	n int64
-}
-
-func (c *countingReader) Read(p []byte) (int, error) {
-	n, err := c.r.Read(p)
-	c.n += int64(n)
-	return n, err
 }
 
 // progressBar draws one line on a terminal, at most five times a second; it

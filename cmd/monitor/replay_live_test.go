@@ -16,6 +16,7 @@ import (
 	"trussmonitor/internal/config"
 	"trussmonitor/internal/csvimport"
 	"trussmonitor/internal/pipeline"
+	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/report"
 	"trussmonitor/internal/service"
 	"trussmonitor/internal/settings"
@@ -123,7 +124,7 @@ func TestReplayConfigMatchesLive(t *testing.T) {
 	p, err := pipeline.New(mon.Model, mon.Sensors, pipeline.Config{
 		Window: set.Window, MaxLateness: set.MaxLateness,
 		Clock: func() time.Time { return now }, MaxFuture: 10 * time.Minute, MaxPast: 7 * 24 * time.Hour,
-		Processor: pipeline.ProcessorOptions{EstimateMissingLoads: set.EstimateMissingLoads},
+		Processor: reconcile.ProcessorOptions{EstimateMissingLoads: set.EstimateMissingLoads},
 		Rules:     set.Rules,
 	})
 	if err != nil {

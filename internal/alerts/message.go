@@ -32,7 +32,7 @@ func Message(e Event) string {
 		if raised {
 			return fmt.Sprintf("utilisation %.3g above %.3g%s (%s)", ev.Value, ev.Threshold, since, capacity.Caution)
 		}
-		return fmt.Sprintf("utilisation %.3g, at or below %.3g", ev.Value, ev.Threshold)
+		return fmt.Sprintf("utilisation %.3g, at or below %.3g (%s)", ev.Value, ev.Threshold, capacity.Caution)
 	case "seconds_since_last_reading":
 		if raised {
 			return fmt.Sprintf("no reading for %.0f s (limit %.0f s)", ev.Value, ev.Threshold)

@@ -34,6 +34,7 @@ import (
 
 	"gonum.org/v1/gonum/stat/distuv"
 
+	"trussmonitor/internal/capacity"
 	"trussmonitor/internal/reconcile"
 )
 
@@ -373,7 +374,7 @@ func DefaultRules() ([]Rule, error) {
 			Name: RuleUtilisationHigh, Signal: SignalUtilisation, Severity: "warning",
 			Raise: UtilisationRaise, Clear: UtilisationClear, For: UtilisationFor,
 			Summary:     "Member {{ $labels.member }} of {{ $labels.structure }} is near its design resistance",
-			Description: "The member's total axial force (zero-state force plus the measured change, or the reconciled prediction) exceeds the stated share of its design resistance (EN 1993-1-1 or AISC 360-16, tension or flexural buckling). Utilisation is a monitoring estimate, not a design check or an assessment; assessment rests with a licensed engineer under local codes.",
+			Description: "The member's total axial force (zero-state force plus the measured change, or the reconciled prediction) exceeds the stated share of its design resistance (EN 1993-1-1 or AISC 360-16, tension or flexural buckling). " + capacity.Caution,
 		},
 		{
 			Name: RuleCommitsFailing, Signal: SignalCommitFailIncrease, Severity: "critical",

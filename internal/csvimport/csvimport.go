@@ -1,4 +1,5 @@
-// Package csvimport reads logger CSV files: one row per logger scan, a
+// Package csvimport reads logger CSV files (Read) and stores their
+// readings as MQTT ingest would (Importer): one row per logger scan, a
 // timestamp in the first column and one column per channel.
 //
 // The format (see docs/payloads.md):

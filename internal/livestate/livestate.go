@@ -19,6 +19,7 @@ import (
 	"trussmonitor/internal/dashboard"
 	"trussmonitor/internal/model"
 	"trussmonitor/internal/pipeline"
+	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/store"
 )
 
@@ -73,7 +74,7 @@ func New(events EventStore, history int) *Live {
 }
 
 // Register adds a structure and returns the sink its pipeline feeds.
-func (l *Live) Register(s *model.Structure, proc *pipeline.Processor, alphaGlobal float64) pipeline.Sink {
+func (l *Live) Register(s *model.Structure, proc *reconcile.Processor, alphaGlobal float64) pipeline.Sink {
 	e := &entry{name: s.Name, title: s.Title, hash: s.Hash, gauged: proc.Gauged(), unknown: proc.Unknown(),
 		critical: proc.Critical(), alpha: alphaGlobal, gaugedIndex: map[string]int{}}
 	for i, g := range e.gauged {
@@ -124,7 +125,7 @@ func (l *Live) add(name string, r *pipeline.Result) {
 	if len(e.recent) > 1000 {
 		e.recent = append([]dashboard.Event(nil), e.recent[len(e.recent)-1000:]...)
 	}
-	if r.Outcome != pipeline.OutcomeAccepted && r.Outcome != pipeline.OutcomeRejected {
+	if r.Outcome != reconcile.OutcomeAccepted && r.Outcome != reconcile.OutcomeRejected {
 		// Not fitted: keep the last fitted state on screen, with the
 		// alarms as they are now.
 		if e.latest != nil {
@@ -161,7 +162,7 @@ func alarmSet(active []alerts.Alarm) map[string]bool {
 
 func nan() float64 { return math.NaN() }
 
-func seriesPoint(t time.Time, m pipeline.MemberResult, alarm bool) dashboard.SeriesPoint {
+func seriesPoint(t time.Time, m reconcile.MemberResult, alarm bool) dashboard.SeriesPoint {
 	sp := dashboard.SeriesPoint{Time: t, Measured: nan(), Predicted: nan(), SigmaResidual: nan(), W: nan(), Checkable: m.Checkable, Alarm: alarm}
 	if m.Available {
 		sp.Measured, sp.Predicted, sp.SigmaResidual, sp.W = m.MeasuredN, m.FittedN, m.SigmaAdjustedN, m.W

@@ -12,12 +12,13 @@ import (
 	"trussmonitor/internal/dashboard"
 	"trussmonitor/internal/model"
 	"trussmonitor/internal/pipeline"
+	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/store"
 	"trussmonitor/internal/structfile"
 )
 
-func footbridge(t *testing.T) (*model.Structure, *pipeline.Processor) {
+func footbridge(t *testing.T) (*model.Structure, *reconcile.Processor) {
 	t.Helper()
 	st, err := structfile.LoadFile("../../testdata/footbridge/structure.yaml")
 	if err != nil {
@@ -31,17 +32,17 @@ func footbridge(t *testing.T) (*model.Structure, *pipeline.Processor) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	p, err := pipeline.NewProcessor(m, sm, pipeline.ProcessorOptions{})
+	p, err := reconcile.NewProcessor(m, sm, reconcile.ProcessorOptions{CauseSpan: alerts.DivergingFor})
 	if err != nil {
 		t.Fatal(err)
 	}
 	return st, p
 }
 
-func result(p *pipeline.Processor, t time.Time, w float64, active []alerts.Alarm) *pipeline.Result {
-	r := &pipeline.Result{Structure: "alder-creek", Time: t, Outcome: pipeline.OutcomeAccepted, PValue: 0.5, DOF: 17, Active: active}
+func result(p *reconcile.Processor, t time.Time, w float64, active []alerts.Alarm) *pipeline.Result {
+	r := &pipeline.Result{EpochResult: &reconcile.EpochResult{Structure: "alder-creek", Time: t, Outcome: reconcile.OutcomeAccepted, PValue: 0.5, DOF: 17}, Active: active}
 	for _, g := range p.Gauged() {
-		r.Members = append(r.Members, pipeline.MemberResult{Member: g, Available: true, MeasuredN: 1000, FittedN: 900, SigmaAdjustedN: 50, W: w, Checkable: true})
+		r.Members = append(r.Members, reconcile.MemberResult{Member: g, Available: true, MeasuredN: 1000, FittedN: 900, SigmaAdjustedN: 50, W: w, Checkable: true})
 	}
 	r.Members[1].Available = false
 	return r
@@ -67,7 +68,7 @@ func TestLiveState(t *testing.T) {
 		sink.Epoch(r)
 	}
 	// A skipped epoch keeps the last fitted state.
-	sink.Epoch(&pipeline.Result{Structure: "alder-creek", Time: t0.Add(5 * time.Second), Outcome: pipeline.OutcomeSkipped, Active: []alerts.Alarm{{Rule: "MemberDiverging", Subject: "B2"}}})
+	sink.Epoch(&pipeline.Result{EpochResult: &reconcile.EpochResult{Structure: "alder-creek", Time: t0.Add(5 * time.Second), Outcome: reconcile.OutcomeSkipped}, Active: []alerts.Alarm{{Rule: "MemberDiverging", Subject: "B2"}}})
 	s, err := l.State("alder-creek")
 	if err != nil {
 		t.Fatal(err)
@@ -137,7 +138,7 @@ func TestLiveAlarmRevision(t *testing.T) {
 		later := t0.Add(time.Hour)
 		r = result(p, later, 0.5, []alerts.Alarm{{Rule: raised.Rule, Subject: "D2", Since: t0.Add(-2 * time.Minute), FiredAt: t0, Identifies: true,
 			Causes: revised, CausesAt: later, LoadShifts: shift}})
-		r.Adapted = &pipeline.AdaptedFit{Hypotheses: []pipeline.Cause{{Kind: "stiffness_change", Subject: "D2", Label: "E A of D2", Size: -29.8, Std: 0.4, Unit: "%"}}, ChiSquare: 15, DOF: 16, PValue: 0.52}
+		r.Adapted = &reconcile.AdaptedFit{Hypotheses: []reconcile.RankedCause{{Kind: "stiffness_change", Subject: "D2", Label: "E A of D2", Size: -29.8, Std: 0.4, Unit: "%"}}, ChiSquare: 15, DOF: 16, PValue: 0.52}
 		for i := range r.Members {
 			r.Members[i].WNominal = 7
 		}

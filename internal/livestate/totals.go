@@ -4,7 +4,7 @@ import (
 	"trussmonitor/internal/capacity"
 	"trussmonitor/internal/dashboard"
 	"trussmonitor/internal/model"
-	"trussmonitor/internal/pipeline"
+	"trussmonitor/internal/reconcile"
 )
 
 // presentation returns what the state needs of the structure to present
@@ -24,7 +24,7 @@ func presentation(s *model.Structure) (map[string]model.Pattern, *dashboard.Desi
 
 // loadEstimate presents an estimated pattern factor in the pattern's
 // engineering unit (its reference load), with the factor beside.
-func loadEstimate(pats map[string]model.Pattern, ld pipeline.LoadEstimate) dashboard.LoadEstimate {
+func loadEstimate(pats map[string]model.Pattern, ld reconcile.LoadEstimate) dashboard.LoadEstimate {
 	out := dashboard.LoadEstimate{Pattern: ld.Pattern, Value: ld.Value, StdDev: ld.Std, Unit: "pattern factor", Factor: ld.Value, FactorStdDev: ld.Std}
 	if p, ok := pats[ld.Pattern]; ok {
 		if v, unit, ok := p.InReferenceUnit(ld.Value); ok {
@@ -36,7 +36,7 @@ func loadEstimate(pats map[string]model.Pattern, ld pipeline.LoadEstimate) dashb
 }
 
 // memberTotals copies the epoch's member state for the dashboard.
-func memberTotals(state []pipeline.MemberState) []dashboard.MemberTotal {
+func memberTotals(state []reconcile.MemberState) []dashboard.MemberTotal {
 	out := make([]dashboard.MemberTotal, 0, len(state))
 	for _, s := range state {
 		out = append(out, dashboard.MemberTotal{

@@ -6,7 +6,7 @@ import (
 	"time"
 
 	"trussmonitor/internal/capacity"
-	"trussmonitor/internal/pipeline"
+	"trussmonitor/internal/reconcile"
 )
 
 // TestTotalsAndLoadUnits: the state carries every member's total with its
@@ -18,8 +18,8 @@ func TestTotalsAndLoadUnits(t *testing.T) {
 	l := New(nil, 3)
 	sink := l.Register(st, p, 0.001)
 	r := result(p, time.Date(2026, 6, 1, 12, 0, 0, 0, time.UTC), 0.5, nil)
-	r.Loads = []pipeline.LoadEstimate{{Pattern: "crowd", Value: 0.0778, Std: 0.01, Estimable: true}}
-	r.State = []pipeline.MemberState{
+	r.Loads = []reconcile.LoadEstimate{{Pattern: "crowd", Value: 0.0778, Std: 0.01, Estimable: true}}
+	r.State = []reconcile.MemberState{
 		{Member: "D2", Gauged: true, Measured: true, ZeroStateN: 64200, MeasuredChangeN: 26990, PredictedChangeN: 2590,
 			MeasuredTotalN: 91190, PredictedTotalN: 66790, TotalN: 91190, StressPa: 32.3e6, Ratio: 1.365,
 			ResistanceN: 1.0e6, Utilisation: 0.0912, PredictedUtilisation: 0.0668},

@@ -15,6 +15,7 @@ import (
 	"context"
 	"fmt"
 	"math"
+	"slices"
 	"sort"
 	"strings"
 	"sync"
@@ -22,6 +23,7 @@ import (
 	"time"
 
 	"trussmonitor/internal/alerts"
+	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/simulate"
 )
 
@@ -91,8 +93,8 @@ func runIdScenario(t *testing.T, f *scnFixture, sc idScenario) idOutcome {
 	f.run(t, scnOptions(t, sc.seed, lead+after, sc.rate), func(g *simulate.Generator, s simulate.Step, values map[string]float64) {
 		clean = append(clean, append([]float64(nil), s.Truth.Forces...))
 	})
-	p := f.processor(t, ProcessorOptions{})
-	probe := f.processor(t, ProcessorOptions{})
+	p := f.processor(t, reconcile.ProcessorOptions{})
+	probe := f.processor(t, reconcile.ProcessorOptions{})
 	rules, err := alerts.DefaultRules()
 	if err != nil {
 		t.Fatal(err)
@@ -137,9 +139,9 @@ func runIdScenario(t *testing.T, f *scnFixture, sc idScenario) idOutcome {
 				values[c] += bias / ea
 			}
 		}
-		res := p.Process(s.Time, f.sm.Evaluate(values), nil)
+		res := &Result{EpochResult: p.Process(s.Time, f.sm.Evaluate(values), nil)}
 		obs := alerts.Observation{Time: s.Time, Structure: f.st.Name}
-		fitObservation(&obs, res)
+		fitObservation(&obs, res.EpochResult)
 		evs, err := ev.Observe(context.Background(), obs)
 		if err != nil {
 			t.Fatal(err)
@@ -165,7 +167,7 @@ func runIdScenario(t *testing.T, f *scnFixture, sc idScenario) idOutcome {
 				// The true change of what the member's gauges read: the
 				// force, or for the member that lost stiffness its strain
 				// times the nominal E A, N' / (1 - loss).
-				k := indexOf(names, e.Subject)
+				k := slices.Index(names, e.Subject)
 				read := s.Truth.Forces[memberIdx[k]]
 				if sc.kind == "stiffness" && e.Subject == sc.target {
 					read /= 1 - sc.size
@@ -385,7 +387,7 @@ func TestScenarioCleanAlarms(t *testing.T) {
 		t.Run(name, func(t *testing.T) {
 			t.Parallel()
 			f := loadScnFixture(t, name)
-			p := f.processor(t, ProcessorOptions{})
+			p := f.processor(t, reconcile.ProcessorOptions{})
 			rules, err := alerts.DefaultRules()
 			if err != nil {
 				t.Fatal(err)
@@ -397,9 +399,9 @@ func TestScenarioCleanAlarms(t *testing.T) {
 			var raised []string
 			n := 0
 			f.run(t, scnOptions(t, uint64(900+i), time.Duration(days)*24*time.Hour, 10*time.Minute), func(g *simulate.Generator, s simulate.Step, values map[string]float64) {
-				res := p.Process(s.Time, f.sm.Evaluate(values), nil)
+				res := &Result{EpochResult: p.Process(s.Time, f.sm.Evaluate(values), nil)}
 				obs := alerts.Observation{Time: s.Time, Structure: f.st.Name}
-				fitObservation(&obs, res)
+				fitObservation(&obs, res.EpochResult)
 				evs, err := ev.Observe(context.Background(), obs)
 				if err != nil {
 					t.Fatal(err)

@@ -21,6 +21,7 @@ import (
 	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/epoch"
 	"trussmonitor/internal/model"
+	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/sensors"
 )
 
@@ -29,6 +30,30 @@ type Reading struct {
 	Channel string
 	Time    time.Time
 	Value   float64
+}
+
+// Result is one epoch's reconciliation with what the pipeline added to it:
+// the alarm events the epoch raised or cleared, the alarms firing after it,
+// and what an alarm that rose asks for (the sliding-window ranking of the
+// causes, the unknown loads that left their recent distribution).
+type Result struct {
+	*reconcile.EpochResult
+	// Window is the sliding-window ranking of the causes
+	// (Processor.WindowCauses), on epochs that raise an alarm.
+	Window []reconcile.RankedCause
+	// LoadShifts flags unknown-load estimates that left their recent
+	// distribution when an alarm rose.
+	LoadShifts []reconcile.LoadShift
+	// Events are the alarm events this epoch raised or cleared, Active the
+	// alarms firing after it.
+	Events []alerts.Event
+	Active []alerts.Alarm
+	// SkewedReadings is the cumulative count of readings with a skewed
+	// logger clock (live only).
+	SkewedReadings uint64
+	// Took is the processing time of the epoch (not part of replayed
+	// output: it differs between runs).
+	Took time.Duration
 }
 
 // Sink receives every epoch's result, with the alarm events it raised or
@@ -47,8 +72,9 @@ type Config struct {
 	Clock func() time.Time
 	// MaxFuture and MaxPast bound the clock skew accepted (live only).
 	MaxFuture, MaxPast time.Duration
-	// Processor configures reconciliation.
-	Processor ProcessorOptions
+	// Processor configures reconciliation; a zero CauseSpan becomes
+	// alerts.DivergingFor, the for-duration of the statistical alarms.
+	Processor reconcile.ProcessorOptions
 	// Rules are the alarm rules; nil means alerts.DefaultRules.
 	Rules []alerts.Rule
 	// Events stores alarm events (nil: not stored).
@@ -83,7 +109,7 @@ type Pipeline struct {
 	mu        sync.Mutex
 	structure string
 	sm        *sensors.Map
-	proc      *Processor
+	proc      *reconcile.Processor
 	asm       *epoch.Assembler
 	eval      *alerts.Evaluator
 	cfg       Config
@@ -104,7 +130,10 @@ func New(m *model.Model, sm *sensors.Map, cfg Config, sinks ...Sink) (*Pipeline,
 	if sm.StructureName() != name {
 		return nil, fmt.Errorf("sensor map %s is for structure %q, the model is %q; pair the files of one structure", sm.File(), sm.StructureName(), name)
 	}
-	proc, err := NewProcessor(m, sm, cfg.Processor)
+	if cfg.Processor.CauseSpan <= 0 {
+		cfg.Processor.CauseSpan = alerts.DivergingFor
+	}
+	proc, err := reconcile.NewProcessor(m, sm, cfg.Processor)
 	if err != nil {
 		return nil, err
 	}
@@ -151,7 +180,7 @@ func (p *Pipeline) Structure() string { return p.structure }
 func (p *Pipeline) Sensors() *sensors.Map { return p.sm }
 
 // Processor returns the reconciliation of this pipeline (read-only use).
-func (p *Pipeline) Processor() *Processor { return p.proc }
+func (p *Pipeline) Processor() *reconcile.Processor { return p.proc }
 
 // AddSink adds a consumer of results.
 func (p *Pipeline) AddSink(s Sink) {
@@ -235,7 +264,10 @@ func (p *Pipeline) Tick(ctx context.Context) {
 	}
 	p.lastEval = t
 	if len(evs) > 0 {
-		res := &Result{Structure: p.structure, Time: t, Outcome: OutcomeSkipped, Reason: "no epoch: every channel silent", Events: evs, Active: p.eval.Active(p.structure)}
+		res := &Result{
+			EpochResult: &reconcile.EpochResult{Structure: p.structure, Time: t, Outcome: reconcile.OutcomeSkipped, Reason: "no epoch: every channel silent"},
+			Events:      evs, Active: p.eval.Active(p.structure),
+		}
 		for _, s := range p.sinks {
 			s.Epoch(res)
 		}
@@ -277,18 +309,18 @@ func (p *Pipeline) process(ctx context.Context, e epoch.Epoch) {
 		values[c.Channel] = c.Mean
 	}
 	t := e.End.UTC()
-	res := p.proc.Process(t, p.sm.Evaluate(values), e.Missing)
+	res := &Result{EpochResult: p.proc.Process(t, p.sm.Evaluate(values), e.Missing)}
 	p.stats.Epochs++
 	p.stats.ByOutcome[res.Outcome]++
 	p.lastEpoch = t
 	if t.Before(p.lastEval) {
 		p.stats.AlarmOutOfOrder++
 	} else {
-		obs := p.observation(t, res)
-		if res.Outcome == OutcomeAccepted || res.Outcome == OutcomeRejected {
+		obs := p.observation(t, res.EpochResult)
+		if res.Outcome == reconcile.OutcomeAccepted || res.Outcome == reconcile.OutcomeRejected {
 			// An alarm rising now carries the unknown loads that left
 			// their recent distribution (they may absorb the fault).
-			obs.LoadShifts = alertLoadShifts(p.proc.LoadShifts(res, LoadShiftK))
+			obs.LoadShifts = alertLoadShifts(p.proc.LoadShifts(res.EpochResult, reconcile.LoadShiftK))
 		}
 		evs, err := p.eval.Observe(ctx, obs)
 		if err != nil {
@@ -318,7 +350,7 @@ func (p *Pipeline) process(ctx context.Context, e epoch.Epoch) {
 
 // observation builds the alarm evaluator's input for an epoch (res may be
 // nil for a heartbeat between epochs).
-func (p *Pipeline) observation(t time.Time, res *Result) alerts.Observation {
+func (p *Pipeline) observation(t time.Time, res *reconcile.EpochResult) alerts.Observation {
 	st := p.asm.Stats()
 	o := alerts.Observation{Time: t, Structure: p.structure, SkewCount: uint64(st.Future + st.Past)}
 	if p.cfg.RejectCount != nil {
@@ -340,8 +372,8 @@ func (p *Pipeline) observation(t time.Time, res *Result) alerts.Observation {
 
 // fitObservation adds a fitted epoch's global test, members and causes to
 // an alarm observation (nothing for nil or an epoch that was not fitted).
-func fitObservation(o *alerts.Observation, res *Result) {
-	if res == nil || (res.Outcome != OutcomeAccepted && res.Outcome != OutcomeRejected) {
+func fitObservation(o *alerts.Observation, res *reconcile.EpochResult) {
+	if res == nil || (res.Outcome != reconcile.OutcomeAccepted && res.Outcome != reconcile.OutcomeRejected) {
 		return
 	}
 	o.Fit = &alerts.Fit{ChiSquare: res.ChiSquare, DOF: res.DOF, PValue: res.PValue}

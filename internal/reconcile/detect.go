@@ -73,9 +73,9 @@ type GaugeOption struct {
 // Placement is the effect of adding one GaugeOption to the layout.
 type Placement struct {
 	Label         string
-	WeakestBefore float64 // smallest r_i of the existing members now
-	WeakestAfter  float64 // smallest r_i of the existing members with the new gauge
-	WeakestMember int     // which existing member is weakest after
+	WeakestBefore float64 // smallest r_i of the existing gauged members now
+	WeakestAfter  float64 // smallest r_i of the existing gauged members with the new gauge
+	WeakestMember int     // which existing gauged member is weakest after
 	NewRedundancy float64 // r of the new gauge itself
 	Estimable     int     // unknowns determined with the new gauge
 }
@@ -83,24 +83,29 @@ type Placement struct {
 // SuggestGauge evaluates each option as a single additional gauge and
 // returns them ordered by how much they raise the weakest existing
 // member's redundancy (largest WeakestAfter first; ties by more
-// estimable unknowns, then input order). The layout is refitted for each
-// option, which also handles options that make a previously unidentifiable
-// unknown estimable.
-func SuggestGauge(A *mat.Dense, sigma []float64, options []GaugeOption, opt Options) ([]Placement, error) {
+// estimable unknowns, then input order). The first gauges rows of A are
+// the gauged members; rows after them are pseudo-observations (of noisy
+// inputs), whose redundancy is not a member's and does not count as the
+// weakest. The layout is refitted for each option, which also handles
+// options that make a previously unidentifiable unknown estimable.
+func SuggestGauge(A *mat.Dense, sigma []float64, gauges int, options []GaugeOption, opt Options) ([]Placement, error) {
+	rows := len(sigma)
+	if gauges < 1 || gauges > rows {
+		return nil, fmt.Errorf("reconcile: %d gauge rows of %d; want at least one and at most all rows", gauges, rows)
+	}
 	base, err := Detect(A, sigma, opt)
 	if err != nil {
 		return nil, err
 	}
-	g := len(sigma)
 	p := 0
 	if A != nil {
 		_, p = A.Dims()
 	}
-	before := base.Redundancy[base.Weakest]
+	before := base.Redundancy[weakest(base.Redundancy, gauges)]
 	out := make([]Placement, 0, len(options))
-	ext := mat.NewDense(g+1, max(p, 1), nil)
+	ext := mat.NewDense(rows+1, max(p, 1), nil)
 	if p > 0 {
-		ext.Slice(0, g, 0, p).(*mat.Dense).Copy(A)
+		ext.Slice(0, rows, 0, p).(*mat.Dense).Copy(A)
 	}
 	sig := append(append([]float64(nil), sigma...), 0)
 	for _, o := range options {
@@ -111,9 +116,9 @@ func SuggestGauge(A *mat.Dense, sigma []float64, options []GaugeOption, opt Opti
 			return nil, fmt.Errorf("reconcile: gauge option %q: standard deviation %v; want positive and finite (newtons)", o.Label, o.Sigma)
 		}
 		for j, v := range o.Row {
-			ext.Set(g, j, v)
+			ext.Set(rows, j, v)
 		}
-		sig[g] = o.Sigma
+		sig[rows] = o.Sigma
 		var a *mat.Dense
 		if p > 0 {
 			a = ext
@@ -122,7 +127,7 @@ func SuggestGauge(A *mat.Dense, sigma []float64, options []GaugeOption, opt Opti
 		if err != nil {
 			return nil, fmt.Errorf("reconcile: gauge option %q: %w", o.Label, err)
 		}
-		w := weakest(d.Redundancy, g)
+		w := weakest(d.Redundancy, gauges)
 		est := 0
 		for _, ok := range d.Estimable {
 			if ok {
@@ -130,7 +135,7 @@ func SuggestGauge(A *mat.Dense, sigma []float64, options []GaugeOption, opt Opti
 			}
 		}
 		out = append(out, Placement{Label: o.Label, WeakestBefore: before, WeakestAfter: d.Redundancy[w],
-			WeakestMember: w, NewRedundancy: d.Redundancy[g], Estimable: est})
+			WeakestMember: w, NewRedundancy: d.Redundancy[rows], Estimable: est})
 	}
 	sort.SliceStable(out, func(i, j int) bool {
 		if out[i].WeakestAfter != out[j].WeakestAfter {

@@ -40,7 +40,7 @@ func TestDetectAndSuggestGauge(t *testing.T) {
 		{Label: "sees snow", Row: []float64{0, 1}, Sigma: 1},
 		{Label: "sees snow, noisy", Row: []float64{0, 1}, Sigma: 10},
 	}
-	pl, err := SuggestGauge(A, sigma, opts, Options{})
+	pl, err := SuggestGauge(A, sigma, len(sigma), opts, Options{})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -61,7 +61,7 @@ func TestDetectAndSuggestGauge(t *testing.T) {
 	if math.Abs(d5.Redundancy[d5.Weakest]-pl[0].WeakestAfter) > 1e-12 {
 		t.Errorf("suggestion weakest %v, direct %v", pl[0].WeakestAfter, d5.Redundancy[d5.Weakest])
 	}
-	if _, err := SuggestGauge(A, sigma, []GaugeOption{{Label: "bad", Row: []float64{1}, Sigma: 1}}, Options{}); err == nil {
+	if _, err := SuggestGauge(A, sigma, len(sigma), []GaugeOption{{Label: "bad", Row: []float64{1}, Sigma: 1}}, Options{}); err == nil {
 		t.Error("short row accepted")
 	}
 }

@@ -8,6 +8,7 @@ import (
 
 	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/pipeline"
+	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/report"
 	"trussmonitor/internal/sensors"
 )
@@ -25,7 +26,7 @@ type collector struct {
 	// subject and time; adapted holds each one's carried hypotheses at
 	// its latest epoch active.
 	raised   map[alarmKey]int
-	adapted  map[int][]pipeline.Cause
+	adapted  map[int][]reconcile.RankedCause
 	subjects map[string]string // cause label -> subject, from the pipeline's causes
 	totals   memberTotals      // every member's total state (members.go)
 	// col maps a load pattern to its report column; scale is the column's
@@ -69,7 +70,7 @@ func reportPatterns(unknown []string, sm *sensors.Map, estimateMissing bool) []s
 // each pattern column's reference load (referenceUnits).
 func newCollector(s *report.Stream, head *report.Report, scale []float64) *collector {
 	c := &collector{stream: s, subjects: map[string]string{}, col: map[string]int{}, scale: scale,
-		raised: map[alarmKey]int{}, adapted: map[int][]pipeline.Cause{}}
+		raised: map[alarmKey]int{}, adapted: map[int][]reconcile.RankedCause{}}
 	for j, p := range head.Patterns {
 		c.col[p.Name] = j
 		c.units = append(c.units, p.Unit)
@@ -82,7 +83,7 @@ func newCollector(s *report.Stream, head *report.Report, scale []float64) *colle
 
 // Epoch implements pipeline.Sink.
 func (c *collector) Epoch(r *pipeline.Result) {
-	for _, cs := range [][]pipeline.Cause{r.Causes, r.Window} {
+	for _, cs := range [][]reconcile.RankedCause{r.Causes, r.Window} {
 		for _, k := range cs {
 			if k.Subject != "" {
 				c.subjects[k.Label] = k.Subject
@@ -96,7 +97,7 @@ func (c *collector) Epoch(r *pipeline.Result) {
 		c.events = append(c.events, ev)
 	}
 	c.revise(r)
-	if r.Outcome != pipeline.OutcomeAccepted && r.Outcome != pipeline.OutcomeRejected {
+	if r.Outcome != reconcile.OutcomeAccepted && r.Outcome != reconcile.OutcomeRejected {
 		return
 	}
 	c.totals.add(r)
@@ -156,7 +157,7 @@ func (c *collector) revise(r *pipeline.Result) {
 		ev := &c.events[i].Evidence
 		ev.Causes, ev.CausesAt = append([]alerts.Cause(nil), a.Causes...), a.CausesAt
 		if r.Adapted != nil {
-			c.adapted[i] = append([]pipeline.Cause(nil), r.Adapted.Hypotheses...)
+			c.adapted[i] = append([]reconcile.RankedCause(nil), r.Adapted.Hypotheses...)
 		}
 	}
 }

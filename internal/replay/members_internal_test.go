@@ -9,6 +9,7 @@ import (
 	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/model"
 	"trussmonitor/internal/pipeline"
+	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/report"
 )
 
@@ -30,9 +31,9 @@ func TestUtilisationEventAndTotals(t *testing.T) {
 	}
 	nan := math.NaN()
 	for i, u := range []float64{0.5, 0.8, 0.7} {
-		c.Epoch(&pipeline.Result{Time: t0.Add(time.Duration(i) * time.Minute), Outcome: pipeline.OutcomeAccepted,
-			State: []pipeline.MemberState{{Member: "D2", Gauged: true, Measured: i != 1, TotalN: -u * 1e5, PredictedTotalN: -u * 1e5, Utilisation: u, PredictedUtilisation: u - 0.1},
-				{Member: "V0", TotalN: 10, PredictedTotalN: 10, Utilisation: nan, PredictedUtilisation: nan}}})
+		c.Epoch(&pipeline.Result{EpochResult: &reconcile.EpochResult{Time: t0.Add(time.Duration(i) * time.Minute), Outcome: reconcile.OutcomeAccepted,
+			State: []reconcile.MemberState{{Member: "D2", Gauged: true, Measured: i != 1, TotalN: -u * 1e5, PredictedTotalN: -u * 1e5, Utilisation: u, PredictedUtilisation: u - 0.1},
+				{Member: "V0", TotalN: 10, PredictedTotalN: 10, Utilisation: nan, PredictedUtilisation: nan}}}})
 	}
 	sums := c.totals.summaries(nil)
 	d2, v0 := sums[0], sums[1]

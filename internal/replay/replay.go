@@ -25,6 +25,7 @@ import (
 	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/model"
 	"trussmonitor/internal/pipeline"
+	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/report"
 	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/settings"
@@ -207,7 +208,7 @@ func Run(ctx context.Context, opt Options) (*Summary, error) {
 	col := &collector{}
 	pl, err := pipeline.New(m, sm, pipeline.Config{
 		Window: opt.Window, MaxLateness: opt.MaxLateness,
-		Processor: pipeline.ProcessorOptions{EstimateMissingLoads: opt.EstimateMissingLoads},
+		Processor: reconcile.ProcessorOptions{EstimateMissingLoads: opt.EstimateMissingLoads},
 		Rules:     opt.Rules,
 	}, append([]pipeline.Sink{col}, opt.Sinks...)...)
 	if err != nil {
@@ -548,7 +549,7 @@ func short(h string) string {
 // the columns of the pipeline's processor: the gauged members in its row
 // order, the patterns of reportPatterns in their reference units, and the
 // critical value of the w-test.
-func (c *collector) start(opt Options, rep *report.Report, proc *pipeline.Processor, sm *sensors.Map, st *model.Structure) error {
+func (c *collector) start(opt Options, rep *report.Report, proc *reconcile.Processor, sm *sensors.Map, st *model.Structure) error {
 	rep.Members = proc.Gauged()
 	rep.CriticalValue = proc.Critical()
 	for _, p := range reportPatterns(proc.Unknown(), sm, opt.EstimateMissingLoads) {

@@ -16,6 +16,7 @@ import (
 	"trussmonitor/internal/csvimport"
 	"trussmonitor/internal/model"
 	"trussmonitor/internal/pipeline"
+	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/replay"
 	"trussmonitor/internal/report"
 	"trussmonitor/internal/sensors"
@@ -325,7 +326,7 @@ type residuals struct {
 }
 
 func (r *residuals) Epoch(res *pipeline.Result) {
-	if res.Outcome != pipeline.OutcomeAccepted && res.Outcome != pipeline.OutcomeRejected {
+	if res.Outcome != reconcile.OutcomeAccepted && res.Outcome != reconcile.OutcomeRejected {
 		return
 	}
 	k := 0

@@ -13,6 +13,7 @@ import (
 
 	"trussmonitor/internal/model"
 	"trussmonitor/internal/pipeline"
+	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/replay"
 	"trussmonitor/internal/report"
 	"trussmonitor/internal/structfile"
@@ -29,11 +30,11 @@ type stateCheck struct {
 	nominal  int     // measured member-epochs outside an adapted fit
 	worst    float64 // largest |MeasuredTotalN - (zero + change)| / scale
 	worstFit float64 // largest |PredictedTotalN - (ZeroStateN + FittedN)| / scale
-	sample   pipeline.MemberState
+	sample   reconcile.MemberState
 }
 
 func (c *stateCheck) Epoch(res *pipeline.Result) {
-	if res.Outcome != pipeline.OutcomeAccepted && res.Outcome != pipeline.OutcomeRejected {
+	if res.Outcome != reconcile.OutcomeAccepted && res.Outcome != reconcile.OutcomeRejected {
 		if res.State != nil {
 			c.t.Errorf("%s: %s epoch carries a member state", res.Time, res.Outcome)
 		}
@@ -43,7 +44,7 @@ func (c *stateCheck) Epoch(res *pipeline.Result) {
 	if len(res.State) != len(c.ids) {
 		c.t.Fatalf("%s: state of %d members, structure has %d", res.Time, len(res.State), len(c.ids))
 	}
-	byMember := map[string]pipeline.MemberResult{}
+	byMember := map[string]reconcile.MemberResult{}
 	for _, m := range res.Members {
 		byMember[m.Member] = m
 	}

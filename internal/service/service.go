@@ -30,6 +30,7 @@ import (
 	"trussmonitor/internal/metrics"
 	"trussmonitor/internal/model"
 	"trussmonitor/internal/pipeline"
+	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/settings"
 	"trussmonitor/internal/store"
@@ -179,7 +180,7 @@ func (s *Service) addStructure(mon *Monitored) error {
 	cfg := pipeline.Config{
 		Window: s.set.Window, MaxLateness: s.set.MaxLateness,
 		Clock: s.clock, MaxFuture: 10 * time.Minute, MaxPast: 7 * 24 * time.Hour,
-		Processor:      pipeline.ProcessorOptions{EstimateMissingLoads: s.set.EstimateMissingLoads},
+		Processor:      reconcile.ProcessorOptions{EstimateMissingLoads: s.set.EstimateMissingLoads},
 		Rules:          s.rules,
 		Events:         eventSink{s.store},
 		RejectCount:    counter.Load,

@@ -10,6 +10,7 @@ import (
 	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/metrics"
 	"trussmonitor/internal/pipeline"
+	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/store"
 )
 
@@ -36,7 +37,7 @@ func (ms *metricsSink) Epoch(r *pipeline.Result) {
 		ms.m.ClockSkew(ms.name, int(r.SkewedReadings-ms.skewN))
 		ms.skewN = r.SkewedReadings
 	}
-	if r.Outcome == pipeline.OutcomeAccepted || r.Outcome == pipeline.OutcomeRejected {
+	if r.Outcome == reconcile.OutcomeAccepted || r.Outcome == reconcile.OutcomeRejected {
 		for i, mr := range r.Members {
 			if !mr.Available {
 				continue
@@ -100,14 +101,14 @@ func (ms *metricsSink) setAdaptation(r *pipeline.Result) {
 // storedResult is the compact JSON form of an epoch result kept in the
 // store (for history beyond memory and for audits).
 type storedResult struct {
-	Outcome   string                  `json:"outcome"`
-	Reason    string                  `json:"reason,omitempty"`
-	ChiSquare float64                 `json:"chi_square"`
-	DOF       int                     `json:"dof"`
-	PValue    float64                 `json:"p_value"`
-	Members   []storedMember          `json:"members,omitempty"`
-	Loads     []pipeline.LoadEstimate `json:"loads,omitempty"`
-	Causes    []pipeline.Cause        `json:"causes,omitempty"`
+	Outcome   string                   `json:"outcome"`
+	Reason    string                   `json:"reason,omitempty"`
+	ChiSquare float64                  `json:"chi_square"`
+	DOF       int                      `json:"dof"`
+	PValue    float64                  `json:"p_value"`
+	Members   []storedMember           `json:"members,omitempty"`
+	Loads     []reconcile.LoadEstimate `json:"loads,omitempty"`
+	Causes    []reconcile.RankedCause  `json:"causes,omitempty"`
 }
 
 type storedMember struct {

@@ -3,13 +3,13 @@ package service
 import (
 	"trussmonitor/internal/metrics"
 	"trussmonitor/internal/model"
-	"trussmonitor/internal/pipeline"
+	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/units"
 )
 
 // setMemberState sets the member-state metrics from an epoch's state
 // (structure order, as given to Metrics.MemberState).
-func setMemberState(m *metrics.MemberStateMetrics, state []pipeline.MemberState) {
+func setMemberState(m *metrics.MemberStateMetrics, state []reconcile.MemberState) {
 	if m == nil {
 		return
 	}

@@ -1,10 +1,7 @@
-package pipeline
+package reconcile
 
 import (
 	"math"
-
-	"trussmonitor/internal/alerts"
-	"trussmonitor/internal/reconcile"
 )
 
 // Adaptation (DESIGN.md, Identification and adaptation; Teunissen's
@@ -14,10 +11,10 @@ import (
 // long as the alarm is active. The other members' w, the unknown loads and
 // the second search for causes come from the adapted fit, so one fault
 // raises one alarm and a further alarm needs a second significant
-// hypothesis. The global test reported in Result (and used by FitRejected)
+// hypothesis. The global test reported in EpochResult (and used by FitRejected)
 // stays that of the nominal model: the data do not fit the nominal model
 // while the fault persists; the adapted fit's own test is in
-// Result.Adapted.
+// EpochResult.Adapted.
 
 // MaxAdapted is the largest number of hypotheses carried at once (the
 // causes of one group count one each: they are carried together, since
@@ -34,7 +31,7 @@ type adaptedHypothesis struct {
 type AdaptedFit struct {
 	// Hypotheses are the carried hypotheses with their sizes in the
 	// adapted fit.
-	Hypotheses []Cause
+	Hypotheses []RankedCause
 	ChiSquare  float64
 	DOF        int
 	PValue     float64
@@ -131,7 +128,7 @@ func (p *Processor) Adapt(label, keepMember string) bool {
 // RecentCauses returns the causes summed over the epochs of the last
 // CauseSpan, grouped by the latest epoch's separability (nil before the
 // first fitted epoch).
-func (p *Processor) RecentCauses() []Cause {
+func (p *Processor) RecentCauses() []RankedCause {
 	if p.lastID == nil {
 		return nil
 	}
@@ -176,7 +173,7 @@ func (p *Processor) reidentify() {
 	}
 	p.adapted = p.adapted[:0]
 	for _, c := range groups[0].Causes {
-		if c.Kind != reconcile.ChannelBias {
+		if c.Kind != ChannelBias {
 			p.Adapt(c.Label, keep)
 		}
 	}
@@ -196,7 +193,7 @@ func (p *Processor) Adapted() []string {
 // members' w (except the kept rows and the subjects of gauge hypotheses),
 // the unknown loads and the causes of res from it. It returns false (and
 // leaves res alone) when no carried hypothesis has a signature this epoch.
-func (p *Processor) adaptedFit(res *Result, s *reconcile.Solver, cands []reconcile.Candidate, missing []string) bool {
+func (p *Processor) adaptedFit(res *EpochResult, s *Solver, cands []Candidate, missing []string) bool {
 	return p.adaptedFitWith(res, s, cands, missing, p.adapted, true)
 }
 
@@ -206,7 +203,7 @@ func (p *Processor) adaptedFit(res *Result, s *reconcile.Solver, cands []reconci
 // test, identification of this group, adaptation of this epoch's fit, so
 // that the other members' w do not carry the fault before any alarm rose
 // (Teunissen's DIA, from memory).
-func (p *Processor) identifiedGroup(res *Result, k float64) []adaptedHypothesis {
+func (p *Processor) identifiedGroup(res *EpochResult, k float64) []adaptedHypothesis {
 	var out []adaptedHypothesis
 	best := 0.0
 	for _, c := range res.Causes {
@@ -214,7 +211,7 @@ func (p *Processor) identifiedGroup(res *Result, k float64) []adaptedHypothesis 
 			break
 		}
 		best = math.Max(best, c.T)
-		if c.Kind != reconcile.ChannelBias.String() && len(out) < MaxAdapted {
+		if c.Kind != ChannelBias.String() && len(out) < MaxAdapted {
 			out = append(out, adaptedHypothesis{label: c.Label, keep: -1})
 		}
 	}
@@ -239,13 +236,13 @@ func (p *Processor) identifiedGroup(res *Result, k float64) []adaptedHypothesis 
 // whether the causes of res are replaced by those of the adapted fit (the
 // search for a further hypothesis) or kept (the identification of this
 // epoch).
-func (p *Processor) adaptedFitWith(res *Result, s *reconcile.Solver, cands []reconcile.Candidate, missing []string, hyps []adaptedHypothesis, further bool) bool {
+func (p *Processor) adaptedFitWith(res *EpochResult, s *Solver, cands []Candidate, missing []string, hyps []adaptedHypothesis, further bool) bool {
 	byLabel := make(map[string]int, len(cands))
 	for i, c := range cands {
 		byLabel[c.Label] = i
 	}
 	cols := s.Unknowns()
-	var extra []reconcile.Candidate
+	var extra []Candidate
 	keep := map[int]bool{}
 	for _, h := range hyps {
 		i, ok := byLabel[h.label]
@@ -256,7 +253,7 @@ func (p *Processor) adaptedFitWith(res *Result, s *reconcile.Solver, cands []rec
 		if h.keep >= 0 {
 			keep[h.keep] = true
 		}
-		if k := cands[i].Kind; k == reconcile.GaugeFault || k == reconcile.ChannelBias {
+		if k := cands[i].Kind; k == GaugeFault || k == ChannelBias {
 			if g := indexOf(p.lm.names, p.subjectMember(cands[i])); g >= 0 {
 				keep[g] = true
 			}
@@ -287,7 +284,7 @@ func (p *Processor) adaptedFitWith(res *Result, s *reconcile.Solver, cands []rec
 			size = x / (1 - c.Kappa*x)
 			std = sd / ((1 - c.Kappa*x) * (1 - c.Kappa*x))
 		}
-		fit.Hypotheses = append(fit.Hypotheses, Cause{Kind: c.Kind.String(), Subject: p.subjects[c.Label], Label: c.Label,
+		fit.Hypotheses = append(fit.Hypotheses, RankedCause{Kind: c.Kind.String(), Subject: p.subjects[c.Label], Label: c.Label,
 			Size: size * scale, Std: std * scale, Unit: unit, Separable: r.Estimable[cols+j]})
 	}
 	res.Adapted = fit
@@ -332,7 +329,7 @@ func (p *Processor) adaptedFitWith(res *Result, s *reconcile.Solver, cands []rec
 }
 
 // subjectMember is the gauged member of a gauge or channel hypothesis.
-func (p *Processor) subjectMember(c reconcile.Candidate) string {
+func (p *Processor) subjectMember(c Candidate) string {
 	for g, v := range c.Signature {
 		if g < len(p.lm.names) && v != 0 {
 			return p.lm.names[g]
@@ -345,48 +342,3 @@ func (p *Processor) subjectMember(c reconcile.Candidate) string {
 // an unknown-load estimate counts as having left its recent distribution
 // (Baarda's critical value 3.29 at alpha0 = 0.001).
 const LoadShiftK = 3.29
-
-// adaptAfter starts and ends adaptation from the alarms of an epoch: a
-// raised statistical alarm (MemberDiverging, FitRejected) makes the fit
-// carry the causes of its first group and
-// flags the unknown loads that left their recent distribution; when no
-// statistical alarm is active any more the fit returns to the nominal
-// model.
-func adaptAfter(p *Processor, res *Result) {
-	for _, ev := range res.Events {
-		if ev.Kind != alerts.Raised || (ev.Rule != alerts.RuleMemberDiverging && ev.Rule != alerts.RuleFitRejected) {
-			continue
-		}
-		if shifts := p.LoadShifts(res, LoadShiftK); len(shifts) > 0 {
-			res.LoadShifts = shifts
-		}
-		keep := ""
-		if ev.Rule == alerts.RuleMemberDiverging {
-			keep = ev.Subject
-		}
-		// The whole first group: its causes are (nearly) one direction in
-		// the residual space, and carrying only one of them would leave
-		// the rest of the others' signatures in the other members' w. A
-		// channel's bias is its member's gauge-group bias, carried once.
-		causes := res.Causes
-		if len(causes) == 0 {
-			// A member alarm in an epoch the global test accepted: the
-			// causes summed over the alarm's epochs.
-			causes = p.RecentCauses()
-		}
-		for _, c := range causes {
-			if c.Group == 1 && c.Kind != reconcile.ChannelBias.String() {
-				p.Adapt(c.Label, keep)
-			}
-		}
-	}
-	active := false
-	for _, a := range res.Active {
-		if a.Rule == alerts.RuleMemberDiverging || a.Rule == alerts.RuleFitRejected {
-			active = true
-		}
-	}
-	if !active && len(p.adapted) > 0 {
-		p.Unadapt()
-	}
-}

@@ -1,4 +1,4 @@
-package pipeline
+package reconcile
 
 import (
 	"errors"
@@ -9,9 +9,7 @@ import (
 
 	"gonum.org/v1/gonum/mat"
 
-	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/model"
-	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/sensors"
 )
 
@@ -62,8 +60,8 @@ type LoadEstimate struct {
 	Estimable bool
 }
 
-// Cause is one ranked candidate cause of a rejected fit.
-type Cause struct {
+// RankedCause is one ranked candidate cause of a rejected fit.
+type RankedCause struct {
 	Kind      string  // gauge_fault, stiffness_change, support_settlement, nodal_load
 	Subject   string  // member, support direction or node direction
 	Label     string  // human-readable
@@ -77,7 +75,7 @@ type Cause struct {
 	// size (for a stiffness change, a loss), both in Unit.
 	Std, MDS float64
 	// Implausible marks a size outside the candidate's plausible range
-	// (reconcile.PlausibleRange); such groups are listed last.
+	// (PlausibleRange); such groups are listed last.
 	Implausible bool
 	// Strain and StrainStd give a gauge fault as a mean strain of the
 	// member's gauges, in microstrain (0 for other kinds).
@@ -89,8 +87,8 @@ type Cause struct {
 	Group, GroupSize int
 }
 
-// Result is everything computed for one epoch.
-type Result struct {
+// EpochResult is everything computed for one epoch.
+type EpochResult struct {
 	Structure string
 	Time      time.Time
 	Outcome   string
@@ -106,36 +104,21 @@ type Result struct {
 	Rejected  bool
 	Critical  float64
 	Loads     []LoadEstimate
-	// Causes are this epoch's ranked causes (rejected fits only), Window
-	// the sliding-window ranking (set by the Pipeline on epochs that raise
-	// an alarm, and available from Processor.WindowCauses).
-	Causes []Cause
-	Window []Cause
+	// Causes are this epoch's ranked causes (rejected fits only); the
+	// sliding-window ranking is Processor.WindowCauses.
+	Causes []RankedCause
 	// Adapted is the fit with the hypotheses carried while alarms are
 	// active (nil when none is carried); Members' w, Loads and Causes then
 	// come from it, ChiSquare and PValue stay those of the nominal model.
 	Adapted *AdaptedFit
-	// LoadShifts flags unknown-load estimates that left their recent
-	// distribution when an alarm rose (set by the Pipeline).
-	LoadShifts []LoadShift
 	// MissingChannels are the channels that did not report in the epoch.
 	MissingChannels []string
-	// Events are the alarm events this epoch raised or cleared, Active the
-	// alarms firing after it (set by the Pipeline).
-	Events []alerts.Event
-	Active []alerts.Alarm
-	// SkewedReadings is the cumulative count of readings with a skewed
-	// logger clock (live only; set by the Pipeline).
-	SkewedReadings uint64
-	// Took is the processing time of the epoch (not part of replayed
-	// output: it differs between runs).
-	Took time.Duration
 }
 
 // ProcessorOptions configure a Processor.
 type ProcessorOptions struct {
 	// Reconcile are the statistical options (test sizes, thresholds).
-	Reconcile reconcile.Options
+	Reconcile Options
 	// EstimateMissingLoads turns a measured pattern whose load channel is
 	// missing into an unknown to estimate; otherwise the epoch is skipped.
 	EstimateMissingLoads bool
@@ -145,15 +128,15 @@ type ProcessorOptions struct {
 	// MaxCauses caps the ranked lists kept per epoch (default 10 groups).
 	MaxCauses int
 	// CauseSpan is the span of epochs whose cause statistics are summed
-	// for the causes of a rejected epoch (default alerts.DivergingFor, the
-	// for-duration the alarms decide on).
+	// for the causes of a rejected epoch: the for-duration the statistical
+	// alarms decide on (the pipeline passes alerts.DivergingFor). Required.
 	CauseSpan time.Duration
 }
 
-// Processor reconciles one structure's epochs: snapshot in, Result out.
+// Processor reconciles one structure's epochs: snapshot in, EpochResult out.
 // Everything that does not change between epochs is computed at
 // construction (influence matrices, signatures) or cached per set of
-// available members (inside the reconcile.Solver).
+// available members (inside the Solver).
 type Processor struct {
 	structure string
 	lm        *linearModel
@@ -161,17 +144,17 @@ type Processor struct {
 	sm        *sensors.Map
 	opt       ProcessorOptions
 	sigma     []float64
-	solvers   map[string]*reconcile.Solver // by the sorted list of missing measured patterns
-	window    *reconcile.WindowRanker
+	solvers   map[string]*Solver // by the sorted list of missing measured patterns
+	window    *WindowRanker
 	cands     *candidates
-	lastID    *reconcile.Identification // the latest epoch's, for grouping the window
+	lastID    *Identification // the latest epoch's, for grouping the window
 	adapted   []adaptedHypothesis
 	adaptedN  int // epochs since the first hypothesis was carried
-	recent    *reconcile.RecentRanker
-	faults    map[string]*reconcile.FaultRanker // by active alarm (faults.go)
+	recent    *RecentRanker
+	faults    map[string]*FaultRanker // by active alarm (faults.go)
 	loadHist  loadHistory
-	fixed     []reconcile.Candidate // gauge, channel, settlement and nodal-load candidates
-	subjects  map[string]string     // candidate label -> subject
+	fixed     []Candidate       // gauge, channel, settlement and nodal-load candidates
+	subjects  map[string]string // candidate label -> subject
 	kinds     map[string]string
 	y, yhat   []float64
 	avail     []bool
@@ -188,7 +171,7 @@ func NewProcessor(m *model.Model, sm *sensors.Map, opt ProcessorOptions) (*Proce
 		opt.MaxCauses = 10
 	}
 	if opt.CauseSpan <= 0 {
-		opt.CauseSpan = alerts.DivergingFor
+		return nil, fmt.Errorf("structure %s: cause span %v; want the for-duration of the statistical alarms (positive)", m.Structure().Name, opt.CauseSpan)
 	}
 	lm, err := newLinearModel(m, sm)
 	if err != nil {
@@ -200,7 +183,7 @@ func NewProcessor(m *model.Model, sm *sensors.Map, opt ProcessorOptions) (*Proce
 		lm:        lm,
 		sm:        sm,
 		opt:       opt,
-		solvers:   map[string]*reconcile.Solver{},
+		solvers:   map[string]*Solver{},
 		subjects:  map[string]string{},
 		kinds:     map[string]string{},
 	}
@@ -219,10 +202,10 @@ func NewProcessor(m *model.Model, sm *sensors.Map, opt ProcessorOptions) (*Proce
 	if _, err := p.solverFor(nil); err != nil {
 		return nil, err
 	}
-	if p.window, err = reconcile.NewWindowRanker(opt.CauseWindow); err != nil {
+	if p.window, err = NewWindowRanker(opt.CauseWindow); err != nil {
 		return nil, err
 	}
-	if p.recent, err = reconcile.NewRecentRanker(opt.CauseSpan); err != nil {
+	if p.recent, err = NewRecentRanker(opt.CauseSpan); err != nil {
 		return nil, err
 	}
 	rows := len(p.rowSigma)
@@ -284,7 +267,7 @@ func column(a *mat.Dense, j int) []float64 {
 
 // WindowCauses returns the sliding-window ranking of the causes over the
 // last CauseWindow epochs (computed on demand: it costs more than an epoch).
-func (p *Processor) WindowCauses() []Cause {
+func (p *Processor) WindowCauses() []RankedCause {
 	if p.lastID == nil {
 		return nil
 	}
@@ -308,7 +291,7 @@ func (p *Processor) Critical() float64 {
 
 // solverFor returns the solver whose unknowns are the structure's unknown
 // patterns plus the given missing measured patterns.
-func (p *Processor) solverFor(missing []string) (*reconcile.Solver, error) {
+func (p *Processor) solverFor(missing []string) (*Solver, error) {
 	key := strings.Join(missing, "\x00")
 	if s, ok := p.solvers[key]; ok {
 		return s, nil
@@ -325,7 +308,7 @@ func (p *Processor) solverFor(missing []string) (*reconcile.Solver, error) {
 	if cols+len(lm.inputs) == 0 {
 		opt.DropUnidentifiable = true
 	}
-	s, err := reconcile.NewSolver(a, p.rowSigma, opt)
+	s, err := NewSolver(a, p.rowSigma, opt)
 	if err != nil {
 		return nil, fmt.Errorf("structure %s: reconciliation: %w", p.structure, err)
 	}
@@ -345,9 +328,9 @@ func indexOf(list []string, s string) int {
 }
 
 // Process reconciles one epoch's snapshot taken at time t.
-func (p *Processor) Process(t time.Time, snap *sensors.Snapshot, missingChannels []string) *Result {
+func (p *Processor) Process(t time.Time, snap *sensors.Snapshot, missingChannels []string) *EpochResult {
 	lm := p.lm
-	res := &Result{Structure: p.structure, Time: t, MissingChannels: missingChannels}
+	res := &EpochResult{Structure: p.structure, Time: t, MissingChannels: missingChannels}
 	res.Members = make([]MemberResult, len(lm.names))
 	byName := make(map[string]*sensors.MemberMeasurement, len(snap.Members))
 	for i := range snap.Members {
@@ -391,7 +374,7 @@ func (p *Processor) Process(t time.Time, snap *sensors.Snapshot, missingChannels
 	}
 	s, err := p.solverFor(missing)
 	if err == nil {
-		var r *reconcile.Result
+		var r *Result
 		r, err = s.Epoch(p.y, p.yhat, p.avail)
 		if err == nil {
 			p.fill(res, r, s, missing, snap)
@@ -400,7 +383,7 @@ func (p *Processor) Process(t time.Time, snap *sensors.Snapshot, missingChannels
 	}
 	res.Outcome = OutcomeFailed
 	res.Reason = err.Error()
-	var ue *reconcile.UnidentifiableError
+	var ue *UnidentifiableError
 	if errors.As(err, &ue) {
 		res.Reason = "unknown loads not identifiable with the gauges present: " + err.Error()
 	}
@@ -408,7 +391,7 @@ func (p *Processor) Process(t time.Time, snap *sensors.Snapshot, missingChannels
 }
 
 // fill copies the fit into res and ranks causes when the fit is rejected.
-func (p *Processor) fill(res *Result, r *reconcile.Result, s *reconcile.Solver, missing []string, snap *sensors.Snapshot) {
+func (p *Processor) fill(res *EpochResult, r *Result, s *Solver, missing []string, snap *sensors.Snapshot) {
 	lm := p.lm
 	res.ChiSquare, res.DOF, res.PValue, res.Rejected, res.Critical = r.T, r.DOF, r.PValue, r.Rejected, r.Critical
 	res.Outcome = OutcomeAccepted
@@ -456,7 +439,7 @@ func (p *Processor) fill(res *Result, r *reconcile.Result, s *reconcile.Solver, 
 	}
 	state := lm.stateForces(loads, snap.Temperatures, theta)
 	res.State = p.memberStates(res, state, r, missing, snap)
-	cands := append(append([]reconcile.Candidate(nil), p.fixed...),
+	cands := append(append([]Candidate(nil), p.fixed...),
 		p.cands.stateCandidates(lm, state, loads, snap.Temperatures, theta, p.sigma, len(p.rowSigma))...)
 	id, err := r.Identify(cands, 0)
 	if err != nil {
@@ -491,7 +474,7 @@ func (p *Processor) fill(res *Result, r *reconcile.Result, s *reconcile.Solver, 
 // LoadShifts returns the unknown-load estimates of res that left the
 // distribution of the recent accepted epochs by more than k combined
 // standard deviations (to be called when an alarm rises).
-func (p *Processor) LoadShifts(res *Result, k float64) []LoadShift {
+func (p *Processor) LoadShifts(res *EpochResult, k float64) []LoadShift {
 	theta := make([]float64, 0, len(p.lm.unknown))
 	std := make([]float64, 0, len(p.lm.unknown))
 	for j := range p.lm.unknown {

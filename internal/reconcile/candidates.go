@@ -1,4 +1,4 @@
-package pipeline
+package reconcile
 
 import (
 	"math"
@@ -6,7 +6,6 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"trussmonitor/internal/model"
-	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/sensors"
 )
 
@@ -97,12 +96,12 @@ func newCandidates(lm *linearModel) (*candidates, error) {
 	return c, nil
 }
 
-// bounded sets a candidate's plausible range (reconcile.PlausibleRange, or
+// bounded sets a candidate's plausible range (PlausibleRange, or
 // the nodal-load bound).
-func (c *candidates) bounded(cand reconcile.Candidate) reconcile.Candidate {
-	if lo, hi, ok := reconcile.PlausibleRange(cand.Kind, cand.EA); ok {
+func (c *candidates) bounded(cand Candidate) Candidate {
+	if lo, hi, ok := PlausibleRange(cand.Kind, cand.EA); ok {
 		cand.Lower, cand.Upper = lo, hi
-	} else if cand.Kind == reconcile.NodalLoad && !math.IsInf(c.maxLoad, 0) {
+	} else if cand.Kind == NodalLoad && !math.IsInf(c.maxLoad, 0) {
 		cand.Lower, cand.Upper = -c.maxLoad, c.maxLoad
 	}
 	return cand
@@ -112,11 +111,11 @@ func (c *candidates) bounded(cand reconcile.Candidate) reconcile.Candidate {
 // groups (bias in newtons, also as mean strain), single gauge channels (bias
 // in strain), support settlements and unmodelled nodal loads; with their
 // subjects.
-func (c *candidates) fixedCandidates(lm *linearModel, sm *sensors.Map, rows int) ([]reconcile.Candidate, map[string]string) {
+func (c *candidates) fixedCandidates(lm *linearModel, sm *sensors.Map, rows int) ([]Candidate, map[string]string) {
 	st := lm.m.Structure()
 	subjects := map[string]string{}
-	var out []reconcile.Candidate
-	for i, cand := range reconcile.GaugeFaults(lm.names) {
+	var out []Candidate
+	for i, cand := range GaugeFaults(lm.names) {
 		cand.Signature = pad(cand.Signature, rows)
 		mb := st.Members[lm.gauged[i]]
 		cand.EA = mb.E * mb.A
@@ -139,17 +138,17 @@ func (c *candidates) fixedCandidates(lm *linearModel, sm *sensors.Map, rows int)
 		mb := st.Members[lm.gauged[g]]
 		sig := make([]float64, rows)
 		sig[g] = mb.E * mb.A / float64(count[ch.Member]) // N per unit strain of this channel
-		cand := reconcile.Candidate{Kind: reconcile.ChannelBias, Label: "channel " + ch.ID, Signature: sig}
+		cand := Candidate{Kind: ChannelBias, Label: "channel " + ch.ID, Signature: sig}
 		out = append(out, c.bounded(cand))
 		subjects[cand.Label] = ch.ID
 	}
 	for j, l := range lm.settleLabels {
-		cand := reconcile.Candidate{Kind: reconcile.SupportSettlement, Label: "settlement " + l, Signature: pad(column(lm.settle, j), rows)}
+		cand := Candidate{Kind: SupportSettlement, Label: "settlement " + l, Signature: pad(column(lm.settle, j), rows)}
 		out = append(out, c.bounded(cand))
 		subjects[cand.Label] = l
 	}
 	for j, l := range lm.loadLabels {
-		cand := reconcile.Candidate{Kind: reconcile.NodalLoad, Label: "load at " + l, Signature: pad(column(lm.nodal, j), rows)}
+		cand := Candidate{Kind: NodalLoad, Label: "load at " + l, Signature: pad(column(lm.nodal, j), rows)}
 		out = append(out, c.bounded(cand))
 		subjects[cand.Label] = l
 	}
@@ -166,8 +165,8 @@ func (c *candidates) fixedCandidates(lm *linearModel, sm *sensors.Map, rows int)
 // state: a stiffness change of every member carrying force, and a
 // stiffness change of every support spring that is displaced, with member
 // forces `state` and the given loads, temperatures and unknown factors.
-func (c *candidates) stateCandidates(lm *linearModel, state []float64, loads, temps map[string]float64, theta []float64, sigma []float64, rows int) []reconcile.Candidate {
-	var out []reconcile.Candidate
+func (c *candidates) stateCandidates(lm *linearModel, state []float64, loads, temps map[string]float64, theta []float64, sigma []float64, rows int) []Candidate {
+	var out []Candidate
 	stiff := lm.sig.Stiffness(state)
 	members := lm.m.Structure().Members
 	for k := range members {
@@ -175,7 +174,7 @@ func (c *candidates) stateCandidates(lm *linearModel, state []float64, loads, te
 		if !detectable(sig, sigma) {
 			continue
 		}
-		out = append(out, c.bounded(reconcile.Candidate{Kind: reconcile.StiffnessChange, Label: "E A of " + members[k].ID,
+		out = append(out, c.bounded(Candidate{Kind: StiffnessChange, Label: "E A of " + members[k].ID,
 			Signature: pad(sig, rows), Kappa: c.kappa[k]}))
 	}
 	for r, s := range c.springs {
@@ -203,25 +202,25 @@ func (c *candidates) stateCandidates(lm *linearModel, state []float64, loads, te
 		if !detectable(sig, sigma) {
 			continue
 		}
-		out = append(out, c.bounded(reconcile.Candidate{Kind: reconcile.SpringChange, Label: "spring " + s.Label,
+		out = append(out, c.bounded(Candidate{Kind: SpringChange, Label: "spring " + s.Label,
 			Signature: pad(sig, rows), Kappa: s.Kappa}))
 	}
 	return out
 }
 
-// convertGroups turns separability groups into Result causes: group
+// convertGroups turns separability groups into EpochResult causes: group
 // numbers from 1, causes inside a group in kind and label order (no rank
 // inside a group), sizes, standard deviations and minimal detectable sizes
 // in the displayed unit. At most maxGroups groups are kept.
-func convertGroups(groups []reconcile.Group, subjects map[string]string, maxGroups int) []Cause {
+func convertGroups(groups []Group, subjects map[string]string, maxGroups int) []RankedCause {
 	if len(groups) > maxGroups {
 		groups = groups[:maxGroups]
 	}
-	var out []Cause
+	var out []RankedCause
 	for gi, g := range groups {
 		for _, c := range g.Causes {
 			scale, unit := c.Kind.Display()
-			out = append(out, Cause{
+			out = append(out, RankedCause{
 				Kind: c.Kind.String(), Subject: subjects[c.Label], Label: c.Label,
 				T: c.T, PValue: c.PValue, Size: c.DisplaySize, Unit: unit,
 				Std: c.Std * scale, MDS: c.MDS * scale, Implausible: c.Implausible,

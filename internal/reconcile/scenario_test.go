@@ -1,4 +1,4 @@
-package pipeline
+package reconcile
 
 // Scenario tests: the per-epoch reconciliation (Processor) driven by the
 // logger simulator (package simulate) on the two example structures, along
@@ -107,8 +107,18 @@ func exactInputs(tb testing.TB) func(string) string {
 	}
 }
 
+// testCauseSpan is the cause span of the processors of these tests: the
+// for-duration of the statistical alarms, alerts.DivergingFor (not
+// imported here: package alerts imports reconcile).
+const testCauseSpan = 2 * time.Minute
+
+// processor builds the fixture's Processor; a zero CauseSpan becomes
+// testCauseSpan.
 func (f *scnFixture) processor(tb testing.TB, opt ProcessorOptions) *Processor {
 	tb.Helper()
+	if opt.CauseSpan == 0 {
+		opt.CauseSpan = testCauseSpan
+	}
 	p, err := NewProcessor(f.m, f.sm, opt)
 	if err != nil {
 		tb.Fatal(err)
@@ -207,11 +217,11 @@ func scnMemberIndex(p *Processor, name string) int {
 	return -1
 }
 
-func scnFitted(r *Result) bool {
+func scnFitted(r *EpochResult) bool {
 	return r.Outcome == OutcomeAccepted || r.Outcome == OutcomeRejected
 }
 
-func scnTop(cs []Cause, n int) string {
+func scnTop(cs []RankedCause, n int) string {
 	s := ""
 	for i, c := range cs {
 		if i == n {
@@ -397,7 +407,7 @@ func TestScenarioGaugeBias(t *testing.T) {
 			window := 60
 			var bias, delta float64
 			var n, flagged, largest, ranked, windowChecks int
-			var lastWindow []Cause
+			var lastWindow []RankedCause
 			f.run(t, scnOptions(t, tc.seed, 24*time.Hour, 10*time.Minute), func(g *simulate.Generator, s simulate.Step, values map[string]float64) {
 				if bias == 0 {
 					// MDB_i depends only on which gauges report: take it
@@ -470,9 +480,9 @@ func TestScenarioGaugeBias(t *testing.T) {
 // firstIsGauge reports whether the window ranking puts the gauge fault of
 // member first or, when paired, whether its first two are that gauge fault
 // and that member's stiffness change in either order.
-func firstIsGauge(w []Cause, member string, paired bool) bool {
-	isGauge := func(c Cause) bool { return c.Kind == "gauge_fault" && c.Subject == member }
-	isStiff := func(c Cause) bool { return c.Kind == "stiffness_change" && c.Subject == member }
+func firstIsGauge(w []RankedCause, member string, paired bool) bool {
+	isGauge := func(c RankedCause) bool { return c.Kind == "gauge_fault" && c.Subject == member }
+	isStiff := func(c RankedCause) bool { return c.Kind == "stiffness_change" && c.Subject == member }
 	if len(w) == 0 {
 		return false
 	}
@@ -562,7 +572,7 @@ func TestScenarioStiffnessLoss(t *testing.T) {
 		want := 100 * loss
 		window := 60
 		var n, rejectedAfter, checks, named int
-		var last []Cause
+		var last []RankedCause
 		f.run(t, scnOptions(t, 31, 24*time.Hour, 10*time.Minute, "stiffness:D2:2h:0.3"), func(g *simulate.Generator, s simulate.Step, values map[string]float64) {
 			res := p.Process(s.Time, f.sm.Evaluate(values), nil)
 			if n >= faultAt && res.Rejected {
@@ -589,7 +599,7 @@ func TestScenarioStiffnessLoss(t *testing.T) {
 		if checks != n-faultAt-window+1 || named != checks {
 			t.Errorf("D2: window's first group did not hold gauge D2 and E A of D2 in %d of %d full-window epochs (of %d)", checks-named, checks, n-faultAt-window+1)
 		}
-		var st *Cause
+		var st *RankedCause
 		for i := range last {
 			if last[i].Label == "E A of D2" {
 				st = &last[i]
@@ -700,7 +710,7 @@ func TestScenarioStiffnessLoss(t *testing.T) {
 		if !inFirst {
 			t.Fatalf("D4: processor's window ranking:%s; want E A of D4 (with the parallel E A of V3) in the first group", scnTop(win, 4))
 		}
-		var d4 *Cause
+		var d4 *RankedCause
 		for i := range win {
 			if win[i].Label == "E A of D4" {
 				d4 = &win[i]
@@ -762,7 +772,7 @@ func TestScenarioSettlement(t *testing.T) {
 			f := loadScnFixture(t, "roof")
 			p := f.processor(t, ProcessorOptions{})
 			var n, rejectedAfter, checks, first, rawFirst int
-			var last []Cause
+			var last []RankedCause
 			f.run(t, scnOptions(t, tc.seed, 24*time.Hour, 10*time.Minute, "settlement:"+tc.node+":2h:5mm"), func(g *simulate.Generator, s simulate.Step, values map[string]float64) {
 				res := p.Process(s.Time, f.sm.Evaluate(values), nil)
 				if n >= faultAt && res.Rejected {
@@ -770,7 +780,7 @@ func TestScenarioSettlement(t *testing.T) {
 				}
 				if n >= faultAt+window-1 && res.Rejected {
 					checks++
-					isIt := func(c Cause) bool { return c.Kind == "support_settlement" && c.Subject == tc.subject }
+					isIt := func(c RankedCause) bool { return c.Kind == "support_settlement" && c.Subject == tc.subject }
 					w := p.WindowCauses()
 					if len(w) > 0 && isIt(w[0]) {
 						rawFirst++
@@ -963,7 +973,7 @@ func TestScenarioChangingChannels(t *testing.T) {
 
 // sameEpoch compares two results of the same epoch except the sliding
 // window; it returns what differs.
-func sameEpoch(a, b *Result) string {
+func sameEpoch(a, b *EpochResult) string {
 	switch {
 	case a.Outcome != b.Outcome || a.Reason != b.Reason:
 		return fmt.Sprintf("outcome %s (%s) vs %s (%s)", a.Outcome, a.Reason, b.Outcome, b.Reason)
@@ -1030,8 +1040,8 @@ func BenchmarkProcess(b *testing.B) {
 // plausible drops the stiffness-change causes whose estimated size is
 // outside -100 % .. +100 % of E A (no member loses more than all of its
 // stiffness; a doubling is not a plausible change either).
-func plausible(cs []Cause) []Cause {
-	var out []Cause
+func plausible(cs []RankedCause) []RankedCause {
+	var out []RankedCause
 	for _, c := range cs {
 		if c.Kind == "stiffness_change" && math.Abs(c.Size) > 100 {
 			continue

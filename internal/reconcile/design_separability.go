@@ -1,14 +1,12 @@
-package pipeline
+package reconcile
 
 import (
 	"fmt"
-	"io"
 	"strings"
 
 	"gonum.org/v1/gonum/mat"
 
 	"trussmonitor/internal/model"
-	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/sensors"
 )
 
@@ -59,7 +57,7 @@ func designState(m *model.Model, sm *sensors.Map) (string, *model.Result, error)
 // for the layout of lm with design a (rows: gauges, then input pseudo-
 // observations) and row standard deviations rowSigma; options are the
 // extra gauges of Detectability (one per ungauged member, by id).
-func separability(m *model.Model, sm *sensors.Map, lm *linearModel, a *mat.Dense, rowSigma []float64, options []reconcile.GaugeOption, opt reconcile.Options) (*Separability, error) {
+func separability(m *model.Model, sm *sensors.Map, lm *linearModel, a *mat.Dense, rowSigma []float64, options []GaugeOption, opt Options) (*Separability, error) {
 	c, err := newCandidates(lm)
 	if err != nil {
 		return nil, err
@@ -87,7 +85,7 @@ func separability(m *model.Model, sm *sensors.Map, lm *linearModel, a *mat.Dense
 	for j, l := range loadLabels {
 		entries["load at "+l] = column(nodal, j)
 	}
-	cands := append([]reconcile.Candidate(nil), fixed...)
+	cands := append([]Candidate(nil), fixed...)
 	gather := func(v []float64) []float64 {
 		out := make([]float64, rows)
 		for r, k := range lm.gauged {
@@ -105,7 +103,7 @@ func separability(m *model.Model, sm *sensors.Map, lm *linearModel, a *mat.Dense
 		}
 		label := "E A of " + mb.ID
 		entries[label] = v
-		cands = append(cands, c.bounded(reconcile.Candidate{Kind: reconcile.StiffnessChange, Label: label, Signature: sig, Kappa: c.kappa[k]}))
+		cands = append(cands, c.bounded(Candidate{Kind: StiffnessChange, Label: label, Signature: sig, Kappa: c.kappa[k]}))
 	}
 	for _, s := range c.springs {
 		j := indexOf(loadLabels, s.Label)
@@ -123,9 +121,9 @@ func separability(m *model.Model, sm *sensors.Map, lm *linearModel, a *mat.Dense
 		}
 		label := "spring " + s.Label
 		entries[label] = v
-		cands = append(cands, c.bounded(reconcile.Candidate{Kind: reconcile.SpringChange, Label: label, Signature: sig, Kappa: s.Kappa}))
+		cands = append(cands, c.bounded(Candidate{Kind: SpringChange, Label: label, Signature: sig, Kappa: s.Kappa}))
 	}
-	solver, err := reconcile.NewSolver(a, rowSigma, withDrop(opt))
+	solver, err := NewSolver(a, rowSigma, withDrop(opt))
 	if err != nil {
 		return nil, err
 	}
@@ -140,11 +138,11 @@ func separability(m *model.Model, sm *sensors.Map, lm *linearModel, a *mat.Dense
 	}
 	groups, untestable := id.DesignGroups()
 	out := &Separability{State: name, RhoMax: solver.RhoMax(), Untestable: untestable}
-	byLabel := map[string]reconcile.Candidate{}
+	byLabel := map[string]Candidate{}
 	for _, cd := range cands {
 		byLabel[cd.Label] = cd
 	}
-	extras := make([]reconcile.ExtraGauge, 0, len(options))
+	extras := make([]ExtraGauge, 0, len(options))
 	for _, o := range options {
 		k, ok := st.MemberIndex(o.Label)
 		if !ok {
@@ -154,21 +152,21 @@ func separability(m *model.Model, sm *sensors.Map, lm *linearModel, a *mat.Dense
 		for l, v := range entries {
 			e[l] = v[k]
 		}
-		extras = append(extras, reconcile.ExtraGauge{Label: o.Label, Row: o.Row, Sigma: o.Sigma, Entries: e})
+		extras = append(extras, ExtraGauge{Label: o.Label, Row: o.Row, Sigma: o.Sigma, Entries: e})
 	}
 	for _, grp := range groups {
 		cg := CauseGroup{}
-		var gc []reconcile.Candidate
+		var gc []Candidate
 		for _, cs := range grp {
 			cg.Labels = append(cg.Labels, cs.Label)
 			// A channel's bias moves only its member's force, exactly as
 			// the member's gauge-group bias does: no gauge on another member
 			// separates the two, so channels are left out of the search.
-			if cs.Kind != reconcile.ChannelBias {
+			if cs.Kind != ChannelBias {
 				gc = append(gc, byLabel[cs.Label])
 			}
 		}
-		best, ok, err := reconcile.SeparatingGauge(a, rowSigma, gc, extras, withDrop(opt))
+		best, ok, err := SeparatingGauge(a, rowSigma, gc, extras, withDrop(opt))
 		if err != nil {
 			return nil, fmt.Errorf("separating %s: %w", strings.Join(cg.Labels, ", "), err)
 		}
@@ -180,31 +178,7 @@ func separability(m *model.Model, sm *sensors.Map, lm *linearModel, a *mat.Dense
 	return out, nil
 }
 
-func withDrop(o reconcile.Options) reconcile.Options {
+func withDrop(o Options) Options {
 	o.DropUnidentifiable = true
 	return o
-}
-
-// Write prints the groups and untestable candidates.
-func (s *Separability) Write(w io.Writer) {
-	fmt.Fprintf(w, "separability of the candidate causes (stiffness signatures at %s; one group when |rho| >= %.3f, the w correlation at which two causes of minimal detectable size are ranked right with less than the test's power):\n", s.State, s.RhoMax)
-	if len(s.Groups) == 0 {
-		fmt.Fprintln(w, "  every testable cause can be told apart from every other")
-	}
-	for _, g := range s.Groups {
-		fmt.Fprintf(w, "  cannot be told apart: %s\n", strings.Join(g.Labels, " | "))
-		switch {
-		case g.Gauge == "":
-			fmt.Fprintln(w, "    no single additional gauge pair found")
-		case g.Separates:
-			fmt.Fprintf(w, "    a gauge pair on %s separates them (largest |rho| %.3f)\n", g.Gauge, g.MaxRho)
-		case g.MaxRho > 0.9999:
-			fmt.Fprintln(w, "    no single additional gauge pair separates them")
-		default:
-			fmt.Fprintf(w, "    no single additional gauge pair separates them (best: %s, largest |rho| %.3f)\n", g.Gauge, g.MaxRho)
-		}
-	}
-	if len(s.Untestable) > 0 {
-		fmt.Fprintf(w, "  untestable in one epoch (null projected signature, or minimal detectable size beyond the plausible range; never offered per epoch, still summed over the window), %d: %s\n", len(s.Untestable), strings.Join(s.Untestable, ", "))
-	}
 }

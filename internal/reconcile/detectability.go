@@ -1,15 +1,11 @@
-package pipeline
+package reconcile
 
 import (
 	"fmt"
-	"io"
 	"math"
 	"sort"
 
-	"gonum.org/v1/gonum/mat"
-
 	"trussmonitor/internal/model"
-	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/sensors"
 )
 
@@ -21,14 +17,6 @@ type MemberDetectability struct {
 	Redundancy float64 // r_i
 	MDBN       float64 // minimal detectable bias (Baarda), newtons
 	Checkable  bool
-}
-
-// GaugeSuggestion is one ungauged member where an additional gauge pair
-// would raise the weakest member's redundancy.
-type GaugeSuggestion struct {
-	Member        string
-	WeakestBefore float64
-	WeakestAfter  float64
 }
 
 // DetectReport is the detectability report of a structure with its sensor
@@ -45,20 +33,21 @@ type DetectReport struct {
 	// of the noisy inputs (temperatures, loads): the members' numbers sum
 	// to DOF minus it.
 	InputRedundancy float64
-	// Suggestions are the best additional gauge locations, best first.
-	Suggestions []GaugeSuggestion
+	// Suggestions are the best additional gauge locations (one gauge pair
+	// on an ungauged member, by member id), best first.
+	Suggestions []Placement
 	// Separability lists the causes the layout cannot tell apart and those
 	// it cannot test.
 	Separability *Separability
 }
 
-// Detectability computes the internal reliability of the gauge layout:
+// LayoutDetectability computes the internal reliability of the gauge layout:
 // redundancy numbers r_i and minimal detectable biases MDB_i = sigma_i
 // delta0 / sqrt(r_i) of every gauged member (DESIGN.md, Reconciliation),
 // the members that cannot be checked, and, for the weakest member, the
 // ungauged members where one more gauge pair (with the layout's median
 // gauge noise) would raise its redundancy most.
-func Detectability(m *model.Model, sm *sensors.Map, opt reconcile.Options) (*DetectReport, error) {
+func LayoutDetectability(m *model.Model, sm *sensors.Map, opt Options) (*DetectReport, error) {
 	lm, err := newLinearModel(m, sm)
 	if err != nil {
 		return nil, err
@@ -77,7 +66,7 @@ func Detectability(m *model.Model, sm *sensors.Map, opt reconcile.Options) (*Det
 	for _, in := range lm.inputs {
 		rowSigma = append(rowSigma, in.Sigma)
 	}
-	d, err := reconcile.Detect(a, rowSigma, opt)
+	d, err := Detect(a, rowSigma, opt)
 	if err != nil {
 		return nil, err
 	}
@@ -99,7 +88,7 @@ func Detectability(m *model.Model, sm *sensors.Map, opt reconcile.Options) (*Det
 	for _, g := range lm.gauged {
 		gauged[g] = true
 	}
-	var options []reconcile.GaugeOption
+	var options []GaugeOption
 	members := m.Structure().Members
 	_, cols := a.Dims()
 	p := len(lm.unknown)
@@ -114,32 +103,16 @@ func Detectability(m *model.Model, sm *sensors.Map, opt reconcile.Options) (*Det
 		for j, in := range lm.inputs {
 			row[p+j] = in.All[k]
 		}
-		options = append(options, reconcile.GaugeOption{Label: mb.ID, Row: row, Sigma: mb.E * mb.A * noise / math.Sqrt2})
+		options = append(options, GaugeOption{Label: mb.ID, Row: row, Sigma: mb.E * mb.A * noise / math.Sqrt2})
 	}
 	// Each option as one more row of the design; the weakest redundancy is
 	// taken over the existing gauge rows (not the inputs' pseudo-rows).
-	rows, _ := a.Dims()
-	before := rep.Members[rep.Weakest].Redundancy
-	ext := mat.NewDense(rows+1, cols, nil)
-	ext.Slice(0, rows, 0, cols).(*mat.Dense).Copy(a)
-	extSigma := append(append([]float64(nil), rowSigma...), 0)
-	for _, o := range options {
-		ext.SetRow(rows, o.Row)
-		extSigma[rows] = o.Sigma
-		dd, err := reconcile.Detect(ext, extSigma, opt)
-		if err != nil {
-			return nil, fmt.Errorf("detectability with a gauge on %s: %w", o.Label, err)
-		}
-		after := math.Inf(1)
-		for i := 0; i < g; i++ {
-			after = math.Min(after, dd.Redundancy[i])
-		}
-		rep.Suggestions = append(rep.Suggestions, GaugeSuggestion{Member: o.Label, WeakestBefore: before, WeakestAfter: after})
+	if rep.Suggestions, err = SuggestGauge(a, rowSigma, g, options, opt); err != nil {
+		return nil, fmt.Errorf("gauge suggestions: %w", err)
 	}
 	if rep.Separability, err = separability(m, sm, lm, a, rowSigma, options, opt); err != nil {
 		return nil, fmt.Errorf("separability: %w", err)
 	}
-	sort.SliceStable(rep.Suggestions, func(i, j int) bool { return rep.Suggestions[i].WeakestAfter > rep.Suggestions[j].WeakestAfter })
 	if len(rep.Suggestions) > 5 {
 		rep.Suggestions = rep.Suggestions[:5]
 	}
@@ -170,39 +143,4 @@ func medianStrainNoise(sm *sensors.Map, st *model.Structure, names []string, sig
 		return 2e-6
 	}
 	return v[len(v)/2]
-}
-
-// Write prints the report as a readable table.
-func (r *DetectReport) Write(w io.Writer) {
-	fmt.Fprintf(w, "detectability (all gauges reporting; unknown loads estimated: %v; degrees of freedom %d; delta0 %.4f):\n", r.Unknown, r.DOF, r.Delta0)
-	fmt.Fprintf(w, "  %-10s %12s %11s %12s  %s\n", "member", "sigma [kN]", "redundancy", "MDB [kN]", "checkable")
-	var unchecked []string
-	for _, m := range r.Members {
-		check := "yes"
-		mdb := fmt.Sprintf("%12.2f", m.MDBN/1e3)
-		if !m.Checkable {
-			check = "no: redundancy near zero, never alarms"
-			mdb = fmt.Sprintf("%12s", "-")
-			unchecked = append(unchecked, m.Member)
-		}
-		fmt.Fprintf(w, "  %-10s %12.2f %11.3f %s  %s\n", m.Member, m.SigmaN/1e3, m.Redundancy, mdb, check)
-	}
-	if len(unchecked) == 0 {
-		fmt.Fprintln(w, "  every gauged member can be checked")
-	} else {
-		fmt.Fprintf(w, "  cannot be checked: %v\n", unchecked)
-	}
-	if len(r.Members) > 0 {
-		weak := r.Members[r.Weakest]
-		fmt.Fprintf(w, "  weakest member: %s (redundancy %.3f)\n", weak.Member, weak.Redundancy)
-	}
-	if len(r.Suggestions) > 0 {
-		fmt.Fprintln(w, "  one additional gauge pair that raises the weakest redundancy most:")
-		for _, s := range r.Suggestions {
-			fmt.Fprintf(w, "    on %-10s weakest redundancy %.3f -> %.3f\n", s.Member, s.WeakestBefore, s.WeakestAfter)
-		}
-	}
-	if r.Separability != nil {
-		r.Separability.Write(w)
-	}
 }

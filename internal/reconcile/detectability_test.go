@@ -1,15 +1,12 @@
-package pipeline
+package reconcile
 
 import (
-	"bytes"
 	"math"
-	"strings"
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
 
 	"trussmonitor/internal/model"
-	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/structfile"
 )
@@ -38,7 +35,7 @@ func loadExample(t *testing.T, dir string) (*model.Model, *sensors.Map) {
 // delta0 = 4.1321 for alpha0 = 0.001, beta = 0.80.
 func TestDetectabilityFootbridge(t *testing.T) {
 	m, sm := loadExample(t, "footbridge")
-	rep, err := Detectability(m, sm, reconcile.Options{})
+	rep, err := LayoutDetectability(m, sm, Options{})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -74,13 +71,6 @@ func TestDetectabilityFootbridge(t *testing.T) {
 	if best := rep.Suggestions[0]; best.WeakestAfter < best.WeakestBefore-1e-12 {
 		t.Errorf("an extra gauge lowered the weakest redundancy: %+v", best)
 	}
-	var buf bytes.Buffer
-	rep.Write(&buf)
-	for _, want := range []string{"redundancy", "MDB", "weakest member", "additional gauge"} {
-		if !strings.Contains(buf.String(), want) {
-			t.Errorf("report lacks %q:\n%s", want, buf.String())
-		}
-	}
 }
 
 // TestDetectabilityUncheckable: a gauged member whose row of the unknown
@@ -90,7 +80,7 @@ func TestDetectabilityFootbridge(t *testing.T) {
 // residual is always zero.
 func TestDetectabilityUncheckable(t *testing.T) {
 	a := mat.NewDense(3, 1, []float64{0, 0, 5})
-	d, err := reconcile.Detect(a, []float64{1, 1, 1}, reconcile.Options{})
+	d, err := Detect(a, []float64{1, 1, 1}, Options{})
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -1,8 +1,4 @@
-package pipeline
-
-import (
-	"trussmonitor/internal/reconcile"
-)
+package reconcile
 
 // GaugeOrStiffness returns the gauged members whose gauge fault and change
 // of axial stiffness cannot be told apart by the gauges: the stiffness
@@ -12,7 +8,7 @@ import (
 // force follows from statics alone: a change of its E A changes the strain
 // its gauge reads and nothing else. The test is the weighted share of the
 // signature on the other gauges, sum_{g != k} (S_gk / sigma_g)^2, against
-// reconcile.SeparableTol times its whole weighted norm, the tolerance the
+// SeparableTol times its whole weighted norm, the tolerance the
 // cause ranking uses for "cannot be separated". The direction of a
 // stiffness signature does not depend on the member's force, so the answer
 // holds at every load state (a member carrying no force at all has no
@@ -36,7 +32,7 @@ func (p *Processor) GaugeOrStiffness() []string {
 				others += v * v
 			}
 		}
-		if own > 0 && others <= reconcile.SeparableTol*(own+others) {
+		if own > 0 && others <= SeparableTol*(own+others) {
 			out = append(out, members[k].ID)
 		}
 	}

@@ -1,11 +1,9 @@
-package pipeline
+package reconcile
 
 import (
 	"math"
 
-	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/capacity"
-	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/sensors"
 )
 
@@ -114,7 +112,7 @@ func (lm *linearModel) zeroStateForce(k int, loads, temps map[string]float64) fl
 // temperatures, estimated unknown loads), to which the estimated input
 // errors of the fit are added so that, for a gauged member,
 // PredictedTotalN = ZeroStateN + the fitted change.
-func (p *Processor) memberStates(res *Result, state []float64, r *reconcile.Result, missing []string, snap *sensors.Snapshot) []MemberState {
+func (p *Processor) memberStates(res *EpochResult, state []float64, r *Result, missing []string, snap *sensors.Snapshot) []MemberState {
 	lm, st := p.lm, p.state
 	n := len(state)
 	pred := append([]float64(nil), state...)
@@ -178,23 +176,11 @@ func (p *Processor) memberStates(res *Result, state []float64, r *reconcile.Resu
 }
 
 // Members returns the ids of all members of the structure in structure
-// order (the order of Result.State).
+// order (the order of EpochResult.State).
 func (p *Processor) Members() []string { return append([]string(nil), p.state.ids...) }
 
 // Resistances returns the members' design resistances in structure order
 // (nil when the structure declares no design basis).
 func (p *Processor) Resistances() []capacity.Resistance {
 	return append([]capacity.Resistance(nil), p.state.resist...)
-}
-
-// utilisationObservations lists the members' utilisations for the alarm
-// evaluator (none without a design basis).
-func utilisationObservations(state []MemberState) []alerts.Utilisation {
-	var out []alerts.Utilisation
-	for _, s := range state {
-		if !math.IsNaN(s.Utilisation) {
-			out = append(out, alerts.Utilisation{Member: s.Member, Value: s.Utilisation})
-		}
-	}
-	return out
 }

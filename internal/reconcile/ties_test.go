@@ -1,4 +1,4 @@
-package pipeline
+package reconcile
 
 import (
 	"math"
@@ -16,7 +16,7 @@ import (
 // y_k = N_k / (1 + s) for the member's own gauge (it reads strain), is
 // weighted by the gauge's standard deviation. A member is tied when the
 // other gauges carry at most 1e-6 of the weighted squared change
-// (reconcile.SeparableTol), i.e. its stiffness change shows as a change of
+// (SeparableTol), i.e. its stiffness change shows as a change of
 // its own gauge alone, as a gauge fault would.
 func TestGaugeOrStiffness(t *testing.T) {
 	const ds = -1e-4
@@ -29,7 +29,7 @@ func TestGaugeOrStiffness(t *testing.T) {
 	}{{"footbridge", "service", "D1"}, {"roof", "snow_full", ""}} {
 		t.Run(c.dir, func(t *testing.T) {
 			m, sm := loadExample(t, c.dir)
-			p, err := NewProcessor(m, sm, ProcessorOptions{})
+			p, err := NewProcessor(m, sm, ProcessorOptions{CauseSpan: testCauseSpan})
 			if err != nil {
 				t.Fatal(err)
 			}
