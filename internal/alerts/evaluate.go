@@ -83,6 +83,10 @@ type Member struct {
 	Checkable     bool
 	EstimatedBias float64 // gauge-fault estimate e_i / r_i, newtons
 	Causes        []Cause // optional: causes ranked for this member
+	// Restart is true when the member's w comes from a changed fit from
+	// this epoch on (adaptation began, changed or ended): the mean rules
+	// forget its earlier samples, which test a model no longer in force.
+	Restart bool
 }
 
 // Channel is a channel's freshness.
@@ -512,6 +516,9 @@ func (s *structState) update(o Observation) {
 		oldest := o.Time.Add(-s.meanKeep)
 		for _, m := range o.Members {
 			s.wSeen[m.Member] = o.Time
+			if m.Restart {
+				s.wHist[m.Member] = s.wHist[m.Member][:0]
+			}
 			if m.Checkable {
 				s.wHist[m.Member] = appendSample(s.wHist[m.Member], sample{o.Time, m.W}, oldest)
 			}

@@ -122,6 +122,7 @@ type Pipeline struct {
 	lastFeed  time.Time // receiver clock at the last Feed (live only)
 	stats     Stats
 	logged    map[string]time.Time
+	model     fitModel // which fit the members' w come from (alarms.go)
 }
 
 // New builds the pipeline of model m with sensor map sm.
@@ -318,6 +319,7 @@ func (p *Pipeline) process(ctx context.Context, e epoch.Epoch) {
 	} else {
 		obs := p.observation(t, res.EpochResult)
 		if res.Outcome == reconcile.OutcomeAccepted || res.Outcome == reconcile.OutcomeRejected {
+			p.model.mark(&obs, p.proc, res.EpochResult)
 			// An alarm rising now carries the unknown loads that left
 			// their recent distribution (they may absorb the fault).
 			obs.LoadShifts = alertLoadShifts(p.proc.LoadShifts(res.EpochResult, reconcile.LoadShiftK))
