@@ -22,6 +22,7 @@ import (
 
 	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/config"
+	"trussmonitor/internal/instrumented"
 	"trussmonitor/internal/service"
 	"trussmonitor/internal/settings"
 	"trussmonitor/internal/simulate"
@@ -167,7 +168,7 @@ func TestAlertReachesWebhook(t *testing.T) {
 	if err := cfg.Validate(); err != nil {
 		t.Fatal(err)
 	}
-	mon, err := service.LoadStructure(cfg.Structures[0].Structure, cfg.Structures[0].Sensors)
+	mon, err := instrumented.Load(cfg.Structures[0].Structure, cfg.Structures[0].Sensors)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -9,6 +9,7 @@ import (
 	"math"
 	"strings"
 
+	"trussmonitor/internal/instrumented"
 	"trussmonitor/internal/model"
 	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/sensors"
@@ -47,7 +48,7 @@ func runCheck(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 	}
 	var sm *sensors.Map
 	if *sensorsPath != "" {
-		if sm, err = sensors.LoadFor(*sensorsPath, s, s.Name, pos[0]); err != nil {
+		if sm, err = instrumented.ReadSensorsFor(*sensorsPath, s, pos[0]); err != nil {
 			fmt.Fprintf(stderr, "monitor check: %v\n", err)
 			return 1
 		}

@@ -96,7 +96,7 @@ func TestCheckGeometryAndPlausibility(t *testing.T) {
 
 // TestCheckSensorsOfAnotherStructure: the roof's sensor map with the
 // footbridge is refused by check, as by run --check-config and the other
-// commands (one shared check, sensors.LoadFor).
+// commands (one shared check, instrumented.SensorsFor).
 func TestCheckSensorsOfAnotherStructure(t *testing.T) {
 	code, _, errs := runModelCmd(t, runCheck, footbridgeFile, "--sensors", "../../testdata/roof/sensors.yaml")
 	if code == 0 || !strings.Contains(errs, "is the sensor map of structure") || !strings.Contains(errs, "roof/sensors.yaml") {

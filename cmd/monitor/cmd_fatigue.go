@@ -13,6 +13,7 @@ import (
 
 	"trussmonitor/internal/fatigue"
 	"trussmonitor/internal/fatiguetrack"
+	"trussmonitor/internal/instrumented"
 	"trussmonitor/internal/model"
 	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/store"
@@ -98,6 +99,7 @@ func fatigueSensorMap(ctx context.Context, db *store.Store, sensorPath, structPa
 		return nil, fmt.Errorf("sensor map: %w", err)
 	}
 	var st *model.Structure
+	source := structPath
 	if structPath != "" {
 		if st, err = structfile.LoadFile(structPath); err != nil {
 			return nil, err
@@ -111,18 +113,12 @@ func fatigueSensorMap(ctx context.Context, db *store.Store, sensorPath, structPa
 		if err != nil {
 			return nil, fmt.Errorf("no model version of %q stored for %s (%v); give --structure FILE", name, to.Format(time.RFC3339), err)
 		}
-		if st, err = structfile.Parse("stored model of "+name, mv.Content); err != nil {
+		source = "stored model of " + name
+		if st, err = structfile.Parse(source, mv.Content); err != nil {
 			return nil, err
 		}
 	}
-	sm, err := sensors.Parse(sensorPath, data, st)
-	if err != nil {
-		return nil, err
-	}
-	if sm.StructureName() != st.Name {
-		return nil, fmt.Errorf("%s is the sensor map of %q, the structure is %q; give the matching pair", sensorPath, sm.StructureName(), st.Name)
-	}
-	return sm, nil
+	return instrumented.SensorsFor(sensorPath, data, st, source)
 }
 
 // printFatigue writes the per-gauge table, the damage per day and the caution.

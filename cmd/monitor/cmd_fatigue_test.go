@@ -13,10 +13,10 @@ import (
 
 	"trussmonitor/internal/broker"
 	"trussmonitor/internal/fatiguetrack"
+	"trussmonitor/internal/instrumented"
 	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/simulate"
 	"trussmonitor/internal/store"
-	"trussmonitor/internal/structfile"
 )
 
 func fatigueCmd(args ...string) (int, string, string) {
@@ -29,14 +29,11 @@ func fatigueCmd(args ...string) (int, string, string) {
 // fatigue count in each commit, as the service does.
 func fatigueStore(t *testing.T, start time.Time) (string, *sensors.Map) {
 	t.Helper()
-	st, err := structfile.LoadFile("../../testdata/footbridge/structure.yaml")
+	pair, err := instrumented.Load("../../testdata/footbridge/structure.yaml", "../../testdata/footbridge/sensors.yaml")
 	if err != nil {
 		t.Fatal(err)
 	}
-	sm, err := sensors.LoadFile("../../testdata/footbridge/sensors.yaml", st)
-	if err != nil {
-		t.Fatal(err)
-	}
+	st, sm := pair.Structure, pair.Sensors
 	opt := simulate.DefaultOptions()
 	opt.Start, opt.Duration = start, time.Hour
 	gen, err := simulate.New(st, sm, opt)

@@ -16,9 +16,8 @@ import (
 	"trussmonitor/internal/csvimport"
 	"trussmonitor/internal/fatiguetrack"
 	"trussmonitor/internal/ingest"
-	"trussmonitor/internal/sensors"
+	"trussmonitor/internal/instrumented"
 	"trussmonitor/internal/store"
-	"trussmonitor/internal/structfile"
 )
 
 // importBatch is how many readings go into one store transaction; PROBES.md
@@ -71,21 +70,12 @@ func runImport(ctx context.Context, args []string, stdout, stderr io.Writer) int
 		return 2
 	}
 
-	content, err := os.ReadFile(*structPath)
-	if err != nil {
-		fmt.Fprintf(stderr, "monitor import: structure file: %v\n", err)
-		return 1
-	}
-	st, err := structfile.Parse(*structPath, content)
+	pair, err := instrumented.Load(*structPath, *sensorPath)
 	if err != nil {
 		fmt.Fprintf(stderr, "monitor import: %v\n", err)
 		return 1
 	}
-	m, err := sensors.LoadFor(*sensorPath, st, st.Name, *structPath)
-	if err != nil {
-		fmt.Fprintf(stderr, "monitor import: %v\n", err)
-		return 1
-	}
+	st, content, m := pair.Structure, pair.Content, pair.Sensors
 	db, err := store.Open(*dbPath, store.Options{})
 	if err != nil {
 		fmt.Fprintf(stderr, "monitor import: %v\n", err)

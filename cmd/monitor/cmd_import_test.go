@@ -130,3 +130,31 @@ func TestImportInterrupted(t *testing.T) {
 		t.Errorf("summary %q: the batch read before the interrupt must be stored", out.String())
 	}
 }
+
+// TestImportTimeOutsideTheStore: a time the store cannot keep is a dead
+// letter bad_time, the same decision (ingest.Admit against
+// store.StorableRange) for an RFC 3339 time and for Unix seconds; before,
+// the seconds form had a range of its own (about 1685 to 2255) and stopped
+// the file as a parse error.
+func TestImportTimeOutsideTheStore(t *testing.T) {
+	dir := t.TempDir()
+	csvPath := filepath.Join(dir, "logger.csv")
+	csv := "time,B2_a\n" +
+		"9999-01-01T00:00:00Z,1e-4\n" +
+		"99999999999,1e-4\n" +
+		"1796173200,1e-4\n"
+	if err := os.WriteFile(csvPath, []byte(csv), 0o600); err != nil {
+		t.Fatal(err)
+	}
+	args := []string{"--db", filepath.Join(dir, "m.db"),
+		"--structure", filepath.Join("..", "..", "testdata", "footbridge", "structure.yaml"),
+		"--sensors", filepath.Join("..", "..", "testdata", "footbridge", "sensors.yaml"),
+		csvPath}
+	var out, errb bytes.Buffer
+	if code := runImport(context.Background(), args, &out, &errb); code != 0 {
+		t.Fatalf("exit %d: %s", code, errb.String())
+	}
+	if want := "read 3, stored 1, duplicates 0, rejected 2 (bad_time 2)"; !strings.Contains(out.String(), want) {
+		t.Errorf("summary %q lacks %q", out.String(), want)
+	}
+}

@@ -9,6 +9,7 @@ import (
 	"log/slog"
 
 	"trussmonitor/internal/config"
+	"trussmonitor/internal/instrumented"
 	"trussmonitor/internal/service"
 )
 
@@ -40,7 +41,7 @@ func runService(ctx context.Context, args []string, stdout, stderr io.Writer) in
 	}
 	if *checkOnly {
 		for i, s := range cfg.Structures {
-			mon, err := service.LoadStructure(s.Structure, s.Sensors)
+			mon, err := instrumented.Load(s.Structure, s.Sensors)
 			if err != nil {
 				fmt.Fprintf(stderr, "monitor run: %s: structures[%d]: %v\n", cfg.File, i, err)
 				return 1

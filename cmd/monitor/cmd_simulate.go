@@ -12,11 +12,10 @@ import (
 
 	"golang.org/x/term"
 
-	"trussmonitor/internal/sensors"
+	"trussmonitor/internal/instrumented"
 	"trussmonitor/internal/simulate"
 	"trussmonitor/internal/simulate/loggercsv"
 	"trussmonitor/internal/simulate/publish"
-	"trussmonitor/internal/structfile"
 )
 
 // faultFlags collects repeated --fault flags.
@@ -97,16 +96,12 @@ func runSimulate(ctx context.Context, args []string, stdout, stderr io.Writer) i
 		*password = os.Getenv("TRUSSMON_MQTT_PASSWORD")
 	}
 
-	st, err := structfile.LoadFile(*structPath)
+	pair, err := instrumented.Load(*structPath, *sensorPath)
 	if err != nil {
 		fmt.Fprintf(stderr, "monitor simulate: %v\n", err)
 		return 1
 	}
-	sm, err := sensors.LoadFor(*sensorPath, st, st.Name, *structPath)
-	if err != nil {
-		fmt.Fprintf(stderr, "monitor simulate: %v\n", err)
-		return 1
-	}
+	st, sm := pair.Structure, pair.Sensors
 	opt := def
 	opt.Seed, opt.Start, opt.Duration, opt.Rate, opt.BadRate, opt.Faults = *seed, t0.UTC(), *duration, *rate, *badRate, faults
 	gen, err := simulate.New(st, sm, opt)

@@ -10,7 +10,7 @@ import (
 	"strings"
 	"testing"
 
-	"trussmonitor/internal/simulate/loggercsv"
+	"trussmonitor/internal/simulate/loggercsv/loggercsvtest"
 )
 
 func gunzip(t *testing.T, path string) []byte {
@@ -45,7 +45,7 @@ func TestSimulateReplayCommand(t *testing.T) {
 	if code := runSimulate(context.Background(), args, &stdout, &stderr); code != 0 {
 		t.Fatalf("exit %d: %s", code, stderr.String())
 	}
-	if line, ok := loggercsv.SameWithin(gunzip(t, out), gunzip(t, "../../testdata/replay/footbridge-day.csv.gz"), 1e-6); !ok {
+	if line, ok := loggercsvtest.SameWithin(gunzip(t, out), gunzip(t, "../../testdata/replay/footbridge-day.csv.gz"), 1e-6); !ok {
 		t.Fatalf("line %d: "+"the README command no longer reproduces testdata/replay/footbridge-day.csv.gz; regenerate with go test ./internal/simulate/ -run TestReplayDay -update and update the README", line)
 	}
 	if !strings.Contains(stdout.String(), "1440 steps of 46 channels") {

@@ -15,10 +15,10 @@ import (
 	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/config"
 	"trussmonitor/internal/csvimport"
+	"trussmonitor/internal/instrumented"
 	"trussmonitor/internal/pipeline"
 	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/report"
-	"trussmonitor/internal/service"
 	"trussmonitor/internal/settings"
 )
 
@@ -116,7 +116,7 @@ func TestReplayConfigMatchesLive(t *testing.T) {
 	// Live: the pipeline as the service builds it, fed scan by scan on a
 	// receiver clock two seconds behind the logger, ticked after each scan
 	// as the service ticks every second.
-	mon, err := service.LoadStructure(structurePath, sensorsPath)
+	mon, err := instrumented.Load(structurePath, sensorsPath)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -37,6 +37,11 @@ type Observation struct {
 	// (replay): the rule then has no value.
 	CommitFailures  uint64
 	BrokerConnected *bool
+	// ReconcileDropped is the cumulative count of committed readings left
+	// out of live reconciliation: its queue was full and reading them back
+	// from the store failed (shm_reconcile_queue_dropped_readings_total;
+	// 0 in replay).
+	ReconcileDropped uint64
 	// Causes are the epoch's top-ranked causes (most likely first).
 	Causes []Cause
 	// Utilisation are the members' utilisations of a fitted epoch
@@ -244,6 +249,7 @@ type structState struct {
 	watched     map[string]time.Time
 	skew, rej   []sample
 	commitFail  []sample
+	recDrop     []sample
 	broker      *bool
 	causes      []Cause
 	alarms      map[[2]string]*alarmState // rule name, subject
@@ -532,6 +538,7 @@ func (s *structState) update(o Observation) {
 	s.skew = appendSample(s.skew, sample{o.Time, float64(o.SkewCount)}, o.Time.Add(-keep))
 	s.rej = appendSample(s.rej, sample{o.Time, float64(o.RejectCount)}, o.Time.Add(-keep))
 	s.commitFail = appendSample(s.commitFail, sample{o.Time, float64(o.CommitFailures)}, o.Time.Add(-keep))
+	s.recDrop = appendSample(s.recDrop, sample{o.Time, float64(o.ReconcileDropped)}, o.Time.Add(-keep))
 	if o.BrokerConnected != nil {
 		c := *o.BrokerConnected
 		s.broker = &c
@@ -671,6 +678,8 @@ func (s *structState) instances(r Rule, t time.Time) []instance {
 		out = append(out, instance{subject: "", value: increase(s.rej, t, r.Window), ok: true})
 	case r.Signal == SignalCommitFailIncrease:
 		out = append(out, instance{subject: "", value: increase(s.commitFail, t, r.Window), ok: true})
+	case r.Signal == SignalReconcileDropIncrease:
+		out = append(out, instance{subject: "", value: increase(s.recDrop, t, r.Window), ok: true})
 	case r.Signal == SignalBrokerConnected:
 		if s.broker != nil {
 			v := 0.0
@@ -889,6 +898,8 @@ func (s Signal) String() string {
 		return "broker_connected"
 	case SignalFitZ:
 		return "fit_z"
+	case SignalReconcileDropIncrease:
+		return "reconcile_dropped_readings_in_window"
 	}
 	return fmt.Sprintf("signal(%d)", int(s))
 }

@@ -208,6 +208,9 @@ func Expr(r Rule, s string) string {
 	case SignalBrokerConnected:
 		sig = metrics.BrokerConnected + sel
 		on = "structure"
+	case SignalReconcileDropIncrease:
+		sig = increaseExpr(metrics.ReconcileQueueDropped+sel, r.Window)
+		on = "structure"
 	}
 	op := ">"
 	if r.Below {

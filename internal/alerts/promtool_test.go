@@ -44,6 +44,7 @@ type scenario struct {
 	util      map[string][]float64 // member -> utilisation; NaN = no value yet
 	commits   []float64            // failed commits, cumulative
 	connected []float64            // broker connection, 1 or 0
+	recDrops  []float64            // readings left out of live reconciliation, cumulative
 }
 
 func buildScenario() scenario {
@@ -159,7 +160,11 @@ func buildScenario() scenario {
 	s.util = map[string][]float64{"T4": t4}
 	s.commits = make([]float64, n)
 	s.connected = make([]float64, n)
+	s.recDrops = make([]float64, n)
 	for k := range s.commits {
+		if k >= 2 {
+			s.recDrops[k] = 1200 // a full reconciliation queue at 2: alarm 2..6
+		}
 		if k >= 33 {
 			s.commits[k] = 2 // two failures at 33: alarm 33..37
 		}
@@ -212,12 +217,13 @@ var expectedFiring = map[string][][2]int{
 	"ChannelSilent/B5_a":       {{3, 29}},
 	"CommitsFailing/":          {{33, 37}},
 	"BrokerDisconnected/":      {{35, 37}},
+	"ReconcileDropping/":       {{2, 6}},
 }
 
 func (s scenario) observation(k int) Observation {
 	o := Observation{Time: time.Unix(int64(60*k), 0).UTC(), Structure: "alder-creek",
 		Fit: &Fit{PValue: s.pvalue[k], ChiSquare: s.chi[k], DOF: 13}, SkewCount: uint64(s.skew[k]),
-		CommitFailures: uint64(s.commits[k]), BrokerConnected: &[]bool{s.connected[k] == 1}[0]}
+		CommitFailures: uint64(s.commits[k]), BrokerConnected: &[]bool{s.connected[k] == 1}[0], ReconcileDropped: uint64(s.recDrops[k])}
 	for _, m := range sortedKeys(s.w) {
 		o.Members = append(o.Members, Member{Member: m, W: s.w[m][k], Checkable: s.checkable[m][k], EstimatedBias: 1000 * s.w[m][k]})
 	}
@@ -412,7 +418,8 @@ func promtoolTestFile(t *testing.T, rules []Rule, sc scenario, firing [][]Alarm)
 		tc.Input = append(tc.Input, series{fmt.Sprintf(`shm_member_utilisation_ratio{%s, member=%q}`, st, m), seriesValues(sc.util[m])})
 	}
 	tc.Input = append(tc.Input, series{fmt.Sprintf(`shm_ingest_commit_failures_total{%s}`, st), seriesValues(sc.commits)},
-		series{fmt.Sprintf(`shm_broker_connected{%s}`, st), seriesValues(sc.connected)})
+		series{fmt.Sprintf(`shm_broker_connected{%s}`, st), seriesValues(sc.connected)},
+		series{fmt.Sprintf(`shm_reconcile_queue_dropped_readings_total{%s}`, st), seriesValues(sc.recDrops)})
 	n := 0
 	for k := 0; k < sc.minutes; k++ {
 		for _, r := range rules {

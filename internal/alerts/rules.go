@@ -73,10 +73,14 @@ const (
 	// a good approximation without a fault, so that its mean over epochs
 	// can be tested like a w statistic's.
 	SignalFitZ
+	// SignalReconcileDropIncrease is the number of committed readings left
+	// out of live reconciliation (the reconciliation queue was full and
+	// reading them back from the store failed) counted in the last Window.
+	SignalReconcileDropIncrease
 )
 
 // lastSignal is the highest valid signal.
-const lastSignal = SignalFitZ
+const lastSignal = SignalReconcileDropIncrease
 
 // Scope is what one instance of a rule is about.
 type Scope int
@@ -111,11 +115,12 @@ const (
 	RuleCommitsFailing  = "CommitsFailing"
 	RuleMemberShifted   = "MemberShifted"
 	RuleBrokerDown      = "BrokerDisconnected"
+	RuleReconcileDrops  = "ReconcileDropping"
 )
 
 // counting reports whether the signal is a counter's increase in a window.
 func (s Signal) counting() bool {
-	return s == SignalSkewIncrease || s == SignalRejectIncrease || s == SignalCommitFailIncrease
+	return s == SignalSkewIncrease || s == SignalRejectIncrease || s == SignalCommitFailIncrease || s == SignalReconcileDropIncrease
 }
 
 // Rule is one alarm rule.
@@ -317,6 +322,10 @@ func MeanThreshold(floor, z float64, n int) float64 {
 //     last 5 minutes (nothing received is acknowledged or processed until
 //     its commit succeeds).
 //   - BrokerDisconnected: ingest not connected and subscribed for 1 minute.
+//   - ReconcileDropping: any committed reading left out of live
+//     reconciliation in the last 5 minutes (its queue was full and reading
+//     it back from the store failed): live results and alarms miss those
+//     epochs until monitor replay recomputes them.
 func DefaultRules() ([]Rule, error) {
 	kRaise, err := reconcile.CriticalW(reconcile.DefaultAlpha0)
 	if err != nil {
@@ -387,6 +396,12 @@ func DefaultRules() ([]Rule, error) {
 			Raise: 1, Clear: 1, For: DisconnectedFor,
 			Summary:     "The monitor of {{ $labels.structure }} is not connected to the MQTT broker",
 			Description: "Ingest has not been connected and subscribed to the broker for the for-duration; no reading arrives. See the service log for the connection error (address, credentials, certificate).",
+		},
+		{
+			Name: RuleReconcileDrops, Signal: SignalReconcileDropIncrease, Severity: "critical",
+			Raise: 0, Clear: 0, Window: CountWindow,
+			Summary:     "Live reconciliation of {{ $labels.structure }} leaves readings out",
+			Description: "Committed readings that found the reconciliation queue full could not be read back from the store in the counting window: they are stored and acknowledged, but their epochs were not reconciled live and no alarm could be raised from them. The service log names their time range and the store's error; recompute the range with monitor replay once the store reads again.",
 		},
 	}
 	for _, r := range rules {

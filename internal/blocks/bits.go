@@ -1,6 +1,10 @@
 package blocks
 
-import "errors"
+import (
+	"encoding/binary"
+	"errors"
+	"math/bits"
+)
 
 // errShort is returned when a block ends before its declared content.
 var errShort = errors.New("block is truncated")
@@ -38,6 +42,12 @@ func (r *bitReader) read(n uint) (uint64, error) {
 	if uint(len(r.buf))*8-r.pos < n {
 		return 0, errShort
 	}
+	if i := r.pos / 8; n > 0 && n <= 56 && i+8 <= uint(len(r.buf)) {
+		// Fast path: the bits lie in the 8 bytes from the current one.
+		v := binary.BigEndian.Uint64(r.buf[i:]) << (r.pos % 8) >> (64 - n)
+		r.pos += n
+		return v, nil
+	}
 	var v uint64
 	for n > 0 {
 		b := r.buf[r.pos/8]
@@ -50,6 +60,33 @@ func (r *bitReader) read(n uint) (uint64, error) {
 		n -= take
 	}
 	return v, nil
+}
+
+// unary reads a run of '1' bits ended by a '0' and returns its length; a
+// run reaching limit ends there without a '0' (the Rice code's escape).
+// It takes up to a byte at a time.
+func (r *bitReader) unary(limit uint64) (uint64, error) {
+	var q uint64
+	for q < limit {
+		if r.pos >= uint(len(r.buf))*8 {
+			return 0, errShort
+		}
+		off := r.pos % 8
+		// Leading ones of the byte's unread bits: the shifted-in low bits
+		// are 0, so the count stops at the end of the byte.
+		ones := uint(bits.LeadingZeros8(^(r.buf[r.pos/8] << off)))
+		if uint64(ones) >= limit-q {
+			r.pos += uint(limit - q)
+			return limit, nil
+		}
+		q += uint64(ones)
+		r.pos += ones
+		if ones < 8-off {
+			r.pos++ // the ending '0'
+			return q, nil
+		}
+	}
+	return q, nil
 }
 
 // bit reads one bit.

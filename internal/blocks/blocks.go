@@ -2,6 +2,11 @@
 // block) into a compact byte string and back, losslessly: every time stamp
 // and every float64 bit pattern comes back exactly.
 //
+// A block starts with its format version (Encode writes version 2; Decode
+// reads versions 1 and 2, so blocks stored by an older release stay
+// readable), the reading count, the time unit, the first time and the
+// first interval.
+//
 // Time stamps (Unix nanoseconds, strictly increasing) are coded as in
 // Pelkonen et al., "Gorilla: A Fast, Scalable, In-Memory Time Series
 // Database", VLDB 2015, section 4.1.1: the first time and the first delta
@@ -9,7 +14,9 @@
 // unchanged interval, then 7, 9, 12 or 64 bits). The deltas are first
 // divided by their greatest common divisor (the block's time unit), so a
 // logger scanning every second or every 20 ms costs one bit per reading
-// whatever the nanosecond scale.
+// whatever the nanosecond scale. Version 2 writes the unit as a mantissa
+// and a power of ten and the first time in units (a second: 2 bytes, the
+// first time 5, where version 1 took 5 and 9).
 //
 // Values take one of two schemes, chosen per block:
 //
@@ -21,8 +28,11 @@
 //     for bit (it does for any decimal text parsed by a correctly rounding
 //     parser, since n and 10^e, e <= 22, are exact in float64 and the
 //     division rounds correctly), the block stores the integers: the first
-//     in the header, then the differences, zigzag-coded and bit-packed in
-//     frames of 8 at the frame's widest width (6 bits of width per frame).
+//     in the header, then the differences, each at the value's own decimal
+//     step in an adaptive Rice code (version 2, steps.go). Version 1 coded
+//     the differences at the block's finest step, zigzag-coded and
+//     bit-packed in frames of 8 at the frame's widest width (7 bits of
+//     width per frame).
 //   - XOR (Gorilla section 4.1.2): each value's bits XOR the previous
 //     value's, '0' for a repeat, '10' and the meaningful bits inside the
 //     previous window of leading and trailing zeros, or '11', 6 bits of
@@ -33,13 +43,13 @@
 // to the XOR scheme.
 //
 // What noise allows: a lossless code cannot beat the entropy of the
-// differences. For white noise of standard deviation sigma printed at
-// resolution q = 10^-e the differences have sigma_delta = sigma sqrt 2 and
-// entropy log2(sigma_delta sqrt(2 pi e) / q) bits; the frames add about one
-// bit and a regular clock one bit more, so a channel costs about
-// log2(sigma / q) + 4.5 bits a reading (measured in TestNoiseBound): 14.5
-// bits when the noise is a thousand times the printed resolution, 24.5 bits
-// when it is a million times.
+// readings. White Gaussian noise of standard deviation sigma read at
+// resolution q has about log2(sigma / q * sqrt(2 pi e)) bits (Cover and
+// Thomas, "Elements of Information Theory", 2nd ed., Theorem 8.3.1 and
+// eq. 8.9); the differences the decimal scheme codes have sigma sqrt 2,
+// half a bit more, and the Rice code adds about half a bit (TestNoiseBound:
+// 7.3 bits at sigma = 10 q against 6.9 for the differences), and a regular
+// clock one bit for the time.
 package blocks
 
 import (
@@ -56,7 +66,12 @@ type Point struct {
 }
 
 const (
-	version = 1
+	// version is the format version Encode writes (the first byte of a
+	// block). Decode reads every version: 1 (time unit and first time in
+	// plain varints, decimal differences in frames at the block's finest
+	// step) and 2 (compact unit and first time, decimal differences at
+	// each value's step in an adaptive Rice code).
+	version = 2
 
 	schemeXOR     = 0
 	schemeDecimal = 1
@@ -64,7 +79,8 @@ const (
 	// maxExponent is the largest decimal exponent tried: 10^22 is the
 	// largest power of ten exact in float64.
 	maxExponent = 22
-	// frame is the number of decimal differences packed at one width.
+	// frame is the number of decimal differences packed at one width
+	// (version 1).
 	frame = 8
 )
 
@@ -89,21 +105,16 @@ func Encode(pts []Point) ([]byte, error) {
 			return nil, fmt.Errorf("blocks: reading %d at %d ns is not after reading %d at %d ns; a block needs strictly increasing times", i, pts[i].Time, i-1, pts[i-1].Time)
 		}
 	}
-	out := []byte{version}
-	out = binary.AppendUvarint(out, uint64(len(pts)))
-	out = binary.AppendVarint(out, pts[0].Time)
 	unit := timeUnit(pts)
-	out = binary.AppendUvarint(out, unit)
-	if len(pts) > 1 {
-		out = binary.AppendUvarint(out, uint64(pts[1].Time-pts[0].Time)/unit)
-	}
+	out := appendHeader(nil, pts, unit)
 	ints, e, ok := decimals(pts)
 	var w bitWriter
 	encodeTimes(&w, pts, unit)
 	if ok {
-		out = append(out, schemeDecimal, byte(e))
+		sig := significant(ints)
+		out = append(out, schemeDecimal, byte(e), byte(sig))
 		out = binary.AppendVarint(out, ints[0])
-		encodeDecimals(&w, ints)
+		encodeDecimalSteps(&w, ints, sig)
 	} else {
 		out = append(out, schemeXOR)
 		out = binary.BigEndian.AppendUint64(out, math.Float64bits(pts[0].Value))
@@ -112,15 +123,64 @@ func Encode(pts []Point) ([]byte, error) {
 	return append(out, w.buf...), nil
 }
 
-// timeUnit is the greatest common divisor of the intervals (1 for a single
-// reading).
+// appendHeader appends the version, the count, the time unit, the first
+// time and the first interval of a block.
+func appendHeader(out []byte, pts []Point, unit uint64) []byte {
+	out = append(out, version)
+	out = binary.AppendUvarint(out, uint64(len(pts)))
+	out = appendUnit(out, unit)
+	// The first time in units and a remainder: a logger's clock counts
+	// whole units, so this takes 4 or 5 bytes where nanoseconds take 9.
+	t0 := pts[0].Time
+	q := t0 / int64(unit)
+	if unit > math.MaxInt64 {
+		q = 0 // a unit this large holds at most two readings
+	} else if t0%int64(unit) != 0 && t0 < 0 {
+		q--
+	}
+	out = binary.AppendVarint(out, q)
+	out = binary.AppendUvarint(out, uint64(t0)-uint64(q)*unit)
+	if len(pts) > 1 {
+		out = binary.AppendUvarint(out, uint64(pts[1].Time-pts[0].Time)/unit)
+	}
+	return out
+}
+
+// pow10u holds the powers of ten 10^0 .. 10^19 that fit in a uint64.
+var pow10u = func() [20]uint64 {
+	var p [20]uint64
+	p[0] = 1
+	for i := 1; i < len(p); i++ {
+		p[i] = p[i-1] * 10
+	}
+	return p
+}()
+
+// appendUnit appends the time unit as a mantissa (uvarint) and a power of
+// ten (one byte): a second, 1e9 ns, takes 2 bytes.
+func appendUnit(out []byte, unit uint64) []byte {
+	x := 0
+	for unit%10 == 0 && x < len(pow10u)-1 {
+		unit /= 10
+		x++
+	}
+	return append(binary.AppendUvarint(out, unit), byte(x))
+}
+
+// timeUnit is the greatest common divisor of the intervals; for a single
+// reading, the largest power of ten up to 10^18 that divides its time (so
+// that the header codes the time in few bytes).
 func timeUnit(pts []Point) uint64 {
 	var g uint64
 	for i := 1; i < len(pts); i++ {
 		g = gcd(g, uint64(pts[i].Time-pts[i-1].Time))
 	}
-	if g == 0 {
-		return 1
+	if g != 0 {
+		return g
+	}
+	g = 1
+	for t := pts[0].Time; t%int64(g*10) == 0 && g < 1e18; {
+		g *= 10
 	}
 	return g
 }
@@ -189,24 +249,6 @@ func decimalsAt(pts []Point, e int, ints []int64) bool {
 	return true
 }
 
-// encodeDecimals bit-packs the zigzag differences of ints[1:] in frames.
-func encodeDecimals(w *bitWriter, ints []int64) {
-	diffs := make([]uint64, 0, frame)
-	for i := 1; i < len(ints); i += frame {
-		diffs = diffs[:0]
-		width := uint(0)
-		for j := i; j < min(i+frame, len(ints)); j++ {
-			z := zigzag(ints[j] - ints[j-1])
-			diffs = append(diffs, z)
-			width = max(width, bitLen(z))
-		}
-		w.write(uint64(width), 7)
-		for _, z := range diffs {
-			w.write(z, width)
-		}
-	}
-}
-
 // encodeXOR writes values 1.. in the Gorilla XOR code.
 func encodeXOR(w *bitWriter, pts []Point) {
 	prev := math.Float64bits(pts[0].Value)
@@ -253,9 +295,10 @@ func DecodeAppend(dst []Point, b []byte) ([]Point, error) {
 	bad := func(what string) ([]Point, error) {
 		return dst, fmt.Errorf("blocks: corrupt block (%d bytes): %s", len(b), what)
 	}
-	if len(b) < 1 || b[0] != version {
+	if len(b) < 1 || b[0] < 1 || b[0] > version {
 		return bad("unknown format version")
 	}
+	ver := b[0]
 	pos := 1
 	uvar := func() (uint64, bool) {
 		v, n := binary.Uvarint(b[pos:])
@@ -270,14 +313,38 @@ func DecodeAppend(dst []Point, b []byte) ([]Point, error) {
 	if !ok || count == 0 || count > 8*uint64(len(b))+2 {
 		return bad("reading count")
 	}
-	t0, n := binary.Varint(b[pos:])
-	if n <= 0 {
-		return bad("first time")
-	}
-	pos += n
-	unit, ok := uvar()
-	if !ok || unit == 0 {
-		return bad("time unit")
+	var t0 int64
+	var unit uint64
+	if ver == 1 {
+		var n int
+		if t0, n = binary.Varint(b[pos:]); n <= 0 {
+			return bad("first time")
+		}
+		pos += n
+		if unit, ok = uvar(); !ok || unit == 0 {
+			return bad("time unit")
+		}
+	} else {
+		mant, ok := uvar()
+		if !ok || pos >= len(b) || b[pos] >= uint8(len(pow10u)) {
+			return bad("time unit")
+		}
+		unit = mant * pow10u[b[pos]]
+		pos++
+		if unit == 0 {
+			return bad("time unit")
+		}
+		q, n := binary.Varint(b[pos:])
+		if n <= 0 {
+			return bad("first time")
+		}
+		pos += n
+		rem, ok := uvar()
+		if !ok {
+			return bad("first time")
+		}
+		// Wrapping arithmetic: exact for any time Encode wrote.
+		t0 = int64(uint64(q)*unit + rem)
 	}
 	var delta uint64
 	if count > 1 {
@@ -301,6 +368,15 @@ func DecodeAppend(dst []Point, b []byte) ([]Point, error) {
 		}
 		e := int(b[pos])
 		pos++
+		sig := 0
+		if ver >= 2 {
+			// Significant digits: at most 16 (integers below 2^53).
+			if pos >= len(b) || b[pos] > 16 {
+				return bad("significant digits")
+			}
+			sig = int(b[pos])
+			pos++
+		}
 		n0, n := binary.Varint(b[pos:])
 		if n <= 0 {
 			return bad("first value")
@@ -310,7 +386,13 @@ func DecodeAppend(dst []Point, b []byte) ([]Point, error) {
 		if err := decodeTimes(&r, pts, t0, unit, delta); err != nil {
 			return bad(err.Error())
 		}
-		if err := decodeDecimals(&r, pts, n0, pow10[e]); err != nil {
+		var err error
+		if ver == 1 {
+			err = decodeDecimals(&r, pts, n0, pow10[e])
+		} else {
+			err = decodeDecimalSteps(&r, pts, n0, pow10[e], sig)
+		}
+		if err != nil {
 			return bad(err.Error())
 		}
 	case schemeXOR:
@@ -338,8 +420,20 @@ func decodeTimes(r *bitReader, pts []Point, t0 int64, unit, delta uint64) error 
 	if len(pts) == 1 {
 		return nil
 	}
+	// next is the time one interval of d units after prev, or false when
+	// the interval or the time leaves int64 (no block Encode writes).
+	next := func(prev int64, d uint64) (int64, bool) {
+		if d == 0 || d > math.MaxInt64/unit {
+			return 0, false
+		}
+		t := prev + int64(d*unit)
+		return t, t > prev
+	}
+	var ok bool
+	if pts[1].Time, ok = next(t0, delta); !ok {
+		return errors.New("first interval leaves the time range")
+	}
 	d := int64(delta)
-	pts[1].Time = t0 + d*int64(unit)
 	for i := 2; i < len(pts); i++ {
 		width, err := timeWidth(r)
 		if err != nil {
@@ -353,7 +447,9 @@ func decodeTimes(r *bitReader, pts []Point, t0 int64, unit, delta uint64) error 
 		if d <= 0 {
 			return fmt.Errorf("time of reading %d does not increase", i)
 		}
-		pts[i].Time = pts[i-1].Time + d*int64(unit)
+		if pts[i].Time, ok = next(pts[i-1].Time, uint64(d)); !ok {
+			return fmt.Errorf("time of reading %d leaves the time range", i)
+		}
 	}
 	return nil
 }
@@ -374,7 +470,8 @@ func timeWidth(r *bitReader) (uint, error) {
 	return 64, nil
 }
 
-// decodeDecimals fills the values of pts from the packed differences.
+// decodeDecimals fills the values of pts from the packed differences of
+// format version 1.
 func decodeDecimals(r *bitReader, pts []Point, n0 int64, p float64) error {
 	n := n0
 	pts[0].Value = float64(n) / p

@@ -1,8 +1,7 @@
 // Package calib holds the calibration formulas that turn logger readings into
 // engineering values: Wheatstone-bridge equations for foil strain gauges
-// (quarter, half and full bridge, with the Poisson arrangements used on axial
-// members and their non-linearity), the gauge factor, thermal-output
-// compensation of foil gauges, the vibrating-wire gauge equation with its
+// (quarter bridge, and the half and full Poisson arrangements used on axial
+// members), thermal-output compensation of foil gauges, the vibrating-wire gauge equation with its
 // temperature term, and the axial force of a member from its gauges.
 //
 // One function per formula; every function names its equation. Forward
@@ -25,18 +24,6 @@
 // of 1/2) returns NaN or an infinity; callers check with math.IsNaN/IsInf.
 package calib
 
-// BridgeOutput returns the exact output ratio Vo/Vs of a Wheatstone bridge
-// with four arms of equal nominal resistance and gauge factor gf whose arms
-// see strains e1..e4 (a completion resistor has strain 0):
-//
-//	Vo/Vs = (1+x1)/(2+x1+x2) - (1+x4)/(2+x3+x4),  x_i = GF e_i
-//
-// To first order this is GF (e1 - e2 + e3 - e4) / 4.
-func BridgeOutput(gf, e1, e2, e3, e4 float64) float64 {
-	x1, x2, x3, x4 := gf*e1, gf*e2, gf*e3, gf*e4
-	return (1+x1)/(2+x1+x2) - (1+x4)/(2+x3+x4)
-}
-
 // QuarterBridgeOutput is one active gauge with three completion resistors:
 //
 //	Vo/Vs = GF e / (4 + 2 GF e)
@@ -51,16 +38,6 @@ func QuarterBridgeOutput(gf, strain float64) float64 {
 //	e = 4 r / (GF (1 - 2 r)),  r = Vo/Vs
 func QuarterBridgeStrain(gf, ratio float64) float64 {
 	return 4 * ratio / (gf * (1 - 2*ratio))
-}
-
-// QuarterBridgeNonlinearity is the relative shortfall of the exact quarter-
-// bridge output below its linear approximation GF e / 4:
-//
-//	eta = 1 - (Vo/Vs) / (GF e / 4) = GF e / (2 + GF e)
-//
-// About 0.1 % per 1000 microstrain at GF = 2.
-func QuarterBridgeNonlinearity(gf, strain float64) float64 {
-	return gf * strain / (2 + gf*strain)
 }
 
 // HalfBridgePoissonOutput is a half bridge on an axial member: one gauge
@@ -83,43 +60,6 @@ func HalfBridgePoissonStrain(gf, nu, ratio float64) float64 {
 	return 4 * ratio / (gf * ((1 + nu) - 2*ratio*(1-nu)))
 }
 
-// PoissonBridgeNonlinearity is the relative shortfall of the exact output of
-// either Poisson arrangement (half or full bridge) below its linear
-// approximation factor * GF e / 4:
-//
-//	eta = GF e (1 - nu) / (2 + GF e (1 - nu))
-//
-// The half and full bridges share it, since both outputs are their linear
-// forms times 2 / (2 + GF e (1 - nu)). It is smaller than the quarter
-// bridge's GF e / (2 + GF e) by about the factor (1 - nu), because the
-// Poisson gauge's resistance falls while the axial gauge's rises. The
-// bending arrangements (HalfBridgeBendingOutput, FullBridgeBendingOutput)
-// are exactly linear.
-func PoissonBridgeNonlinearity(gf, nu, strain float64) float64 {
-	x := gf * strain * (1 - nu)
-	return x / (2 + x)
-}
-
-// HalfBridgePoissonFactor is the bridge factor 1 + nu of
-// HalfBridgePoissonOutput: the linear output is factor * GF e / 4.
-func HalfBridgePoissonFactor(nu float64) float64 { return 1 + nu }
-
-// HalfBridgeBendingOutput is a half bridge with two active gauges on
-// opposite faces in adjacent arms (strains +e and -e, pure bending):
-//
-//	Vo/Vs = GF e / 2
-//
-// Exactly linear (bridge factor 2), and blind to axial strain: it is not a
-// member-force arrangement, but it is the form logged by bending channels.
-func HalfBridgeBendingOutput(gf, strain float64) float64 {
-	return gf * strain / 2
-}
-
-// HalfBridgeBendingStrain inverts HalfBridgeBendingOutput: e = 2 r / GF.
-func HalfBridgeBendingStrain(gf, ratio float64) float64 {
-	return 2 * ratio / gf
-}
-
 // FullBridgePoissonOutput is a full bridge on an axial member: two gauges
 // along the axis (arms 1 and 3, strain e) and two across it (arms 2 and 4,
 // strain -nu e):
@@ -137,25 +77,6 @@ func FullBridgePoissonOutput(gf, nu, strain float64) float64 {
 //	e = 2 r / (GF ((1 + nu) - r (1 - nu)))
 func FullBridgePoissonStrain(gf, nu, ratio float64) float64 {
 	return 2 * ratio / (gf * ((1 + nu) - ratio*(1-nu)))
-}
-
-// FullBridgePoissonFactor is the bridge factor 2 (1 + nu) of
-// FullBridgePoissonOutput: the linear output is factor * GF e / 4.
-func FullBridgePoissonFactor(nu float64) float64 { return 2 * (1 + nu) }
-
-// FullBridgeBendingOutput is a full bridge of four active gauges, two at +e
-// (arms 1 and 3) and two at -e (arms 2 and 4):
-//
-//	Vo/Vs = GF e
-//
-// Exactly linear, bridge factor 4.
-func FullBridgeBendingOutput(gf, strain float64) float64 {
-	return gf * strain
-}
-
-// FullBridgeBendingStrain inverts FullBridgeBendingOutput: e = r / GF.
-func FullBridgeBendingStrain(gf, ratio float64) float64 {
-	return ratio / gf
 }
 
 // RatioFromVolts converts a bridge output measured in volts to the ratio

@@ -49,8 +49,3 @@ func MemberForce(e, a, strain float64) float64 {
 func MemberForceSigma(e, a, strainSigma float64) float64 {
 	return e * a * strainSigma
 }
-
-// MemberStrain inverts MemberForce: e_axial = N / (E A).
-func MemberStrain(e, a, force float64) float64 {
-	return force / (e * a)
-}

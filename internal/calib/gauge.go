@@ -2,33 +2,6 @@ package calib
 
 import "math"
 
-// GaugeFactor is the definition of the gauge factor of a resistance strain
-// gauge: the relative resistance change per unit strain,
-//
-//	GF = (dR / R) / e
-func GaugeFactor(relResistanceChange, strain float64) float64 {
-	return relResistanceChange / strain
-}
-
-// StrainFromResistance inverts GaugeFactor for the strain: e = (dR/R) / GF.
-func StrainFromResistance(gf, relResistanceChange float64) float64 {
-	return relResistanceChange / gf
-}
-
-// ResistanceChange is the forward form: dR / R = GF e.
-func ResistanceChange(gf, strain float64) float64 {
-	return gf * strain
-}
-
-// GaugeFactorCorrection rescales a strain indicated by an instrument set to
-// gauge factor gfSet when the gauge's actual factor is gfGauge (both read the
-// same dR/R = GF e):
-//
-//	e = e_indicated GF_set / GF_gauge
-func GaugeFactorCorrection(indicated, gfSet, gfGauge float64) float64 {
-	return indicated * gfSet / gfGauge
-}
-
 // ThermalOutput is the apparent strain of a bonded foil gauge at temperature
 // t (degC), given as the polynomial of its data sheet,
 //
@@ -64,19 +37,6 @@ func CompensateThermalOutput(indicated float64, coeffs []float64, t, t0 float64)
 //	e_indicated = e + (e_app(T) - e_app(T0))
 func AddThermalOutput(strain float64, coeffs []float64, t, t0 float64) float64 {
 	return strain + (ThermalOutput(coeffs, t) - ThermalOutput(coeffs, t0))
-}
-
-// WireGaugeConstant is the gauge constant G of a vibrating-wire strain gauge
-// with a steel wire of free length l (m), density rho (kg/m^3) and modulus
-// e (Pa). A taut wire vibrates at f = (1 / 2L) sqrt(sigma / rho) (Mersenne's
-// law for a string, sigma the wire stress), so sigma = 4 L^2 rho f^2 and the
-// wire's elastic strain is sigma / E:
-//
-//	G = 4 L^2 rho / E   (strain per Hz^2)
-//
-// Manufacturers calibrate G per gauge type; this formula is the nominal value.
-func WireGaugeConstant(l, rho, e float64) float64 {
-	return 4 * l * l * rho / e
 }
 
 // VibratingWireStrain is the stress-producing strain of the member under a

@@ -98,7 +98,19 @@ type Epochs struct {
 	// MissingLoad is "skip" (an epoch with a missing load channel is not
 	// reconciled) or "estimate" (that pattern becomes an unknown).
 	MissingLoad string `yaml:"missing_load"`
+	// QueueReadings bounds, per structure, the committed readings held in
+	// memory waiting for reconciliation (the queue between the ingest's
+	// commits and the pipeline). Readings that find it full are counted
+	// (shm_reconcile_queue_overflow_readings_total) and read back from the
+	// store when reconciliation reaches them; the acknowledgement never
+	// waits. 0 takes the default, DefaultQueueReadings.
+	QueueReadings int `yaml:"queue_readings"`
 }
+
+// DefaultQueueReadings is the default bound of the reconciliation queue:
+// 2^20 readings, about 50 MB (48 bytes a reading), four hours of a
+// structure of 70 channels at 1 Hz.
+const DefaultQueueReadings = 1 << 20
 
 // Alarms configures the alarm rules' limits.
 type Alarms struct {
@@ -266,6 +278,9 @@ func (c *Config) Validate() error {
 	}
 	if c.Epochs.Window.D() <= 0 {
 		bad("epochs.window", "must be positive")
+	}
+	if c.Epochs.QueueReadings < 0 {
+		bad("epochs.queue_readings", "must not be negative (0 takes the default, %d)", DefaultQueueReadings)
 	}
 	if c.Epochs.MaxLateness.D() < 0 {
 		bad("epochs.max_lateness", "must not be negative")

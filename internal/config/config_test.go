@@ -66,6 +66,7 @@ func TestParseErrorsNameTheField(t *testing.T) {
 		{"bad scheme", "broker: {url: \"http://h:1\"}\nstructures: [{structure: s.yaml, sensors: m.yaml}]\n", []string{"broker.url", "http"}},
 		{"half tls", "broker: {tls: {cert_file: c.pem}}\nstructures: [{structure: s.yaml, sensors: m.yaml}]\n", []string{"broker.tls", "key_file"}},
 		{"negative dead-letter cap", "ingest: {max_dead_letters: -1}\nstructures: [{structure: s.yaml, sensors: m.yaml}]\n", []string{"ingest.max_dead_letters"}},
+		{"negative reconciliation queue", "epochs: {queue_readings: -1}\nstructures: [{structure: s.yaml, sensors: m.yaml}]\n", []string{"epochs.queue_readings", "negative"}},
 		{"bad listen", "http: {listen: nowhere}\nstructures: [{structure: s.yaml, sensors: m.yaml}]\n", []string{"http.listen", "nowhere"}},
 	}
 	for _, tc := range tests {

@@ -233,11 +233,8 @@ func parseTime(s string) (time.Time, error) {
 			nanos = -nanos
 		}
 	}
-	// Keep within the range the store can hold (years 1678 to 2262 as
-	// int64 nanoseconds) and reject absurd values early.
-	if sec < -9e9 || sec > 9e9 {
-		return time.Time{}, fmt.Errorf("%q seconds is out of range", clip(s))
-	}
+	// A time the store cannot keep is refused by ingest.Admit (bad_time),
+	// as for MQTT ingest, not here.
 	return time.Unix(sec, nanos).UTC(), nil
 }
 

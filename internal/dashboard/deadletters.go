@@ -1,6 +1,7 @@
 package dashboard
 
 import (
+	"context"
 	"fmt"
 	"net/http"
 	"strconv"
@@ -21,9 +22,10 @@ type DeadLetter struct {
 }
 
 // DeadLetterSource lists dead letters first received in [from, to), with
-// reason when not empty, oldest first, at most limit.
+// reason when not empty, oldest first, at most limit. ctx is the request's
+// context (a store query ends with it).
 type DeadLetterSource interface {
-	DeadLetters(from, to time.Time, reason string, limit int) ([]DeadLetter, error)
+	DeadLetters(ctx context.Context, from, to time.Time, reason string, limit int) ([]DeadLetter, error)
 }
 
 // Dead-letter listing bounds.
@@ -94,7 +96,7 @@ func (h *Handler) deadLetters(w http.ResponseWriter, r *http.Request) {
 		limit = n
 	}
 	reason := q.Get("reason")
-	ds, err := h.opts.DeadLetters.DeadLetters(from, to, reason, limit+1)
+	ds, err := h.opts.DeadLetters.DeadLetters(r.Context(), from, to, reason, limit+1)
 	if err != nil {
 		writeSourceError(w, "dead letters", err)
 		return

@@ -1,6 +1,7 @@
 package dashboard_test
 
 import (
+	"context"
 	"fmt"
 	"io"
 	"net/http/httptest"
@@ -28,7 +29,9 @@ func (oneBar) Series(string, string, time.Time, time.Time) (dashboard.Series, er
 	return dashboard.Series{}, nil
 }
 
-func (oneBar) Events(string, time.Time, time.Time) ([]dashboard.Event, error) { return nil, nil }
+func (oneBar) Events(context.Context, string, time.Time, time.Time) ([]dashboard.Event, error) {
+	return nil, nil
+}
 
 func ExampleNew() {
 	srv := httptest.NewServer(dashboard.New(oneBar{}, dashboard.Options{}))

@@ -177,7 +177,7 @@ func (h *Handler) events(w http.ResponseWriter, r *http.Request) {
 	if !ok {
 		return
 	}
-	evs, err := h.src.Events(name, from, to)
+	evs, err := h.src.Events(r.Context(), name, from, to)
 	if err != nil {
 		writeSourceError(w, fmt.Sprintf("events of structure %q", name), err)
 		return

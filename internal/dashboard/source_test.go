@@ -1,6 +1,7 @@
 package dashboard
 
 import (
+	"context"
 	"fmt"
 	"math"
 	"slices"
@@ -200,7 +201,7 @@ func (s *memSource) Series(structure, member string, from, to time.Time) (Series
 	return out, nil
 }
 
-func (s *memSource) Events(structure string, from, to time.Time) ([]Event, error) {
+func (s *memSource) Events(_ context.Context, structure string, from, to time.Time) ([]Event, error) {
 	s.mu.Lock()
 	defer s.mu.Unlock()
 	if structure != s.name {

@@ -14,6 +14,7 @@
 package dashboard
 
 import (
+	"context"
 	"errors"
 	"time"
 )
@@ -41,8 +42,9 @@ type Source interface {
 	// from <= time < to, oldest first.
 	Series(structure, member string, from, to time.Time) (Series, error)
 	// Events returns the alarm events of one structure with
-	// from <= time < to, oldest first.
-	Events(structure string, from, to time.Time) ([]Event, error)
+	// from <= time < to, oldest first. ctx is the request's context (a
+	// store query ends with it).
+	Events(ctx context.Context, structure string, from, to time.Time) ([]Event, error)
 }
 
 // State is the latest reconciled epoch of one structure together with its

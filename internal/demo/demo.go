@@ -22,12 +22,11 @@ import (
 
 	"trussmonitor"
 	"trussmonitor/internal/config"
+	"trussmonitor/internal/instrumented"
 	"trussmonitor/internal/model"
-	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/service"
 	"trussmonitor/internal/simulate"
 	"trussmonitor/internal/simulate/publish"
-	"trussmonitor/internal/structfile"
 )
 
 // Options configure the demo.
@@ -67,7 +66,7 @@ type Demo struct {
 	wg        sync.WaitGroup
 	pubErr    error
 	faults    []simulate.Fault
-	mons      []*service.Monitored
+	mons      []*instrumented.Structure
 	runErr    chan error
 }
 
@@ -87,16 +86,8 @@ func example(name string) ([]byte, error) {
 }
 
 // loadExample loads an embedded structure and its sensor map.
-func loadExample(dir string) (*service.Monitored, error) {
+func loadExample(dir string) (*instrumented.Structure, error) {
 	content, err := example(dir + "/structure.yaml")
-	if err != nil {
-		return nil, err
-	}
-	st, err := structfile.Parse("(embedded) testdata/"+dir+"/structure.yaml", content)
-	if err != nil {
-		return nil, err
-	}
-	m, err := model.Analyze(st)
 	if err != nil {
 		return nil, err
 	}
@@ -104,11 +95,7 @@ func loadExample(dir string) (*service.Monitored, error) {
 	if err != nil {
 		return nil, err
 	}
-	sm, err := sensors.Parse("(embedded) testdata/"+dir+"/sensors.yaml", sdata, st)
-	if err != nil {
-		return nil, err
-	}
-	return &service.Monitored{Structure: st, Model: m, Sensors: sm, Content: content}, nil
+	return instrumented.Parse("(embedded) testdata/"+dir+"/structure.yaml", content, "(embedded) testdata/"+dir+"/sensors.yaml", sdata)
 }
 
 // ClockNote says that the demo's time is simulated and at what speed.
@@ -162,7 +149,7 @@ func Start(ctx context.Context, opt Options) (*Demo, error) {
 	if opt.Roof {
 		dirs = append(dirs, "roof")
 	}
-	var mons []*service.Monitored
+	var mons []*instrumented.Structure
 	for _, dir := range dirs {
 		mon, err := loadExample(dir)
 		if err != nil {
@@ -243,10 +230,6 @@ func (d *Demo) URL() string { return "http://" + d.svc.HTTPAddr() + "/" }
 
 // Service is the running service.
 func (d *Demo) Service() *service.Service { return d.svc }
-
-// Faults are the injected faults, FaultTime the simulated time of the
-// first.
-func (d *Demo) Faults() []simulate.Fault { return d.faults }
 
 // FaultTime returns when the first injected fault starts (simulated time).
 func (d *Demo) FaultTime() time.Time {

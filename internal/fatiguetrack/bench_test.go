@@ -13,11 +13,11 @@ import (
 	"trussmonitor/internal/broker"
 	"trussmonitor/internal/fatiguetrack"
 	"trussmonitor/internal/ingest"
+	"trussmonitor/internal/instrumented"
 	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/simulate"
 	"trussmonitor/internal/simulate/publish"
 	"trussmonitor/internal/store"
-	"trussmonitor/internal/structfile"
 )
 
 // BenchmarkIngest20Gauges200Hz: 20 footbridge gauges sampled at 200 Hz
@@ -32,14 +32,11 @@ import (
 //	go test -run XXX -bench Ingest20 -benchtime 10x ./internal/fatiguetrack/
 func BenchmarkIngest20Gauges200Hz(b *testing.B) {
 	root := filepath.Join("..", "..", "testdata", "footbridge")
-	st, err := structfile.LoadFile(filepath.Join(root, "structure.yaml"))
+	pair, err := instrumented.Load(filepath.Join(root, "structure.yaml"), filepath.Join(root, "sensors.yaml"))
 	if err != nil {
 		b.Fatal(err)
 	}
-	sm, err := sensors.LoadFile(filepath.Join(root, "sensors.yaml"), st)
-	if err != nil {
-		b.Fatal(err)
-	}
+	st, sm := pair.Structure, pair.Sensors
 	// 20 gauges, each counting fatigue on the detail of the first fatigue
 	// gauge of the map.
 	detail := sm.FatigueGauges()[0].Fatigue
@@ -64,7 +61,9 @@ func BenchmarkIngest20Gauges200Hz(b *testing.B) {
 	defer db.Close()
 	tr := fatiguetrack.New(nil)
 	tr.Add(st.Name, sm, gauges)
-	in, err := ingest.New(ingest.Config{Broker: "tcp://" + brk.Addr(), ClientID: "bench-ingest"},
+	// The simulated record is dated 2026-06-01 (a fixed morning peak), so
+	// the backlog bound is off (MaxBehind < 0), as in the end-to-end test.
+	in, err := ingest.New(ingest.Config{Broker: "tcp://" + brk.Addr(), ClientID: "bench-ingest", MaxBehind: -1},
 		ingest.Deps{Store: db, Registries: map[string]ingest.Registry{st.Name: sm}, Fatigue: tr})
 	if err != nil {
 		b.Fatal(err)

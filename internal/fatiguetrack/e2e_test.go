@@ -13,11 +13,10 @@ import (
 	"trussmonitor/internal/fatigue"
 	"trussmonitor/internal/fatiguetrack"
 	"trussmonitor/internal/ingest"
-	"trussmonitor/internal/sensors"
+	"trussmonitor/internal/instrumented"
 	"trussmonitor/internal/simulate"
 	"trussmonitor/internal/simulate/publish"
 	"trussmonitor/internal/store"
-	"trussmonitor/internal/structfile"
 )
 
 // TestEndToEndDamage: the footbridge's four fatigue gauges sampled at 50 Hz
@@ -46,14 +45,11 @@ func TestEndToEndDamage(t *testing.T) {
 	}
 	ctx := context.Background()
 	root := filepath.Join("..", "..", "testdata", "footbridge")
-	st, err := structfile.LoadFile(filepath.Join(root, "structure.yaml"))
+	pair, err := instrumented.Load(filepath.Join(root, "structure.yaml"), filepath.Join(root, "sensors.yaml"))
 	if err != nil {
 		t.Fatal(err)
 	}
-	sm, err := sensors.LoadFile(filepath.Join(root, "sensors.yaml"), st)
-	if err != nil {
-		t.Fatal(err)
-	}
+	st, sm := pair.Structure, pair.Sensors
 	gauges := sm.FatigueGauges()
 	// The record starts in the morning peak, so pedestrians and the
 	// vehicle both cross; accumulation from the record's start.

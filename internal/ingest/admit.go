@@ -109,8 +109,10 @@ func Admit(l Limits, reg Registry, channel, unit string, t time.Time, value floa
 	if l.MaxAbsValue > 0 && math.Abs(value) > l.MaxAbsValue {
 		return reject(ReasonAbsurdMagnitude, "|value| %g exceeds max_abs_value %g", value, l.MaxAbsValue)
 	}
-	if t.Year() < 1971 || t.Year() > 2261 {
-		return reject(ReasonTimeRange, "time %s outside 1971..2261, the range the store keeps", t.Format(time.RFC3339))
+	// The time as stored (rounded) must lie in the store's range.
+	if rt := t.Round(TimeResolution).UTC(); !store.Storable(rt) {
+		lo, hi := store.StorableRange()
+		return reject(ReasonTimeRange, "time %s outside %s to %s, the range the store keeps; check the logger's clock", t.Format(time.RFC3339Nano), lo.Format(time.DateOnly), hi.Format(time.DateOnly))
 	}
 	t = t.Round(TimeResolution).UTC()
 	if l.MaxAhead > 0 && t.After(now.Add(l.MaxAhead)) {

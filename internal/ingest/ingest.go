@@ -269,6 +269,7 @@ type Ingester struct {
 	qmu      sync.RWMutex // guards stopping and the send on queue
 	stopping bool
 	queue    chan received
+	done     <-chan struct{} // Run's context's Done: ends a retry's pause
 
 	overflow atomic.Bool
 	// Present state for readiness: connected and subscribed on the
@@ -522,6 +523,7 @@ func (in *Ingester) onMessage(_ paho.Client, m paho.Message) {
 // after a clean shutdown, or the error that stopped it.
 func (in *Ingester) Run(ctx context.Context) error {
 	in.queue = make(chan received, in.cfg.QueueSize)
+	in.done = ctx.Done()
 	decoded := make(chan decodedMsg, in.cfg.BatchSize)
 	acks := make(chan ackItem, 64)
 	in.client = paho.NewClient(in.clientOptions())
@@ -734,7 +736,15 @@ func (in *Ingester) commitBatch(batch []decodedMsg, acks chan<- ackItem) error {
 			}
 		}
 		in.limit.log(in.log, "commit_failed", "ingest: commit failed; retrying, nothing acknowledged", "messages", len(batch), "err", err)
-		time.Sleep(min(time.Duration(1<<min(attempt, 6))*100*time.Millisecond, 5*time.Second))
+		wait := min(time.Duration(1<<min(attempt, 6))*100*time.Millisecond, 5*time.Second)
+		if stopping {
+			// Not past the shutdown deadline.
+			pause(min(wait, time.Until(deadline)), nil)
+		} else {
+			// The end of Run's context cuts the pause short: shutdown's
+			// last attempts begin at once.
+			pause(wait, in.done)
+		}
 	}
 	ms := make([]paho.Message, len(batch))
 	for i, m := range batch {
@@ -818,6 +828,16 @@ func (in *Ingester) commitBatch(batch []decodedMsg, acks chan<- ackItem) error {
 	in.stats.Rejected[string(ReasonConflicting)] += conflictMsgs
 	in.stats.Unlock()
 	return nil
+}
+
+// pause waits d, or until done is closed (a nil done never is).
+func pause(d time.Duration, done <-chan struct{}) {
+	t := time.NewTimer(d)
+	defer t.Stop()
+	select {
+	case <-t.C:
+	case <-done:
+	}
 }
 
 // conflictLetter is the dead letter of a message's readings whose key was

@@ -337,7 +337,7 @@ func (l *Live) Series(name, member string, from, to time.Time) (dashboard.Series
 
 // Events returns the alarm events in [from, to): from the store when one
 // is configured, else those seen since start.
-func (l *Live) Events(name string, from, to time.Time) ([]dashboard.Event, error) {
+func (l *Live) Events(ctx context.Context, name string, from, to time.Time) ([]dashboard.Event, error) {
 	l.mu.RLock()
 	e, err := l.entry(name)
 	var recent []dashboard.Event
@@ -349,7 +349,7 @@ func (l *Live) Events(name string, from, to time.Time) ([]dashboard.Event, error
 		return nil, err
 	}
 	if l.events != nil {
-		stored, err := l.events.Events(context.Background(), name, from, to)
+		stored, err := l.events.Events(ctx, name, from, to)
 		if err != nil {
 			return nil, fmt.Errorf("structure %q: reading events: %w", name, err)
 		}

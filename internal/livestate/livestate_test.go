@@ -87,7 +87,7 @@ func TestLiveState(t *testing.T) {
 	if len(ser.Points) != 3 || ser.Points[0].W != 2 || ser.Points[2].W != 4 || !ser.Points[2].Alarm {
 		t.Errorf("series: %+v", ser.Points)
 	}
-	evs, err := l.Events("alder-creek", t0, t0.Add(time.Minute))
+	evs, err := l.Events(context.Background(), "alder-creek", t0, t0.Add(time.Minute))
 	if err != nil || len(evs) != 1 || evs[0].Subject != "B2" || len(evs[0].Causes) != 1 || evs[0].Causes[0].Subject != "B2" || evs[0].Causes[0].Kind != "gauge_fault" {
 		t.Errorf("events: %+v, %v", evs, err)
 	}
@@ -154,7 +154,7 @@ func TestLiveAlarmRevision(t *testing.T) {
 		if s.Adapted == nil || len(s.Adapted.Hypotheses) != 1 || s.Adapted.Hypotheses[0].Std != 0.4 || s.Gauged[0].WNominal != 7 || s.Gauged[0].W != 0.5 || !math.IsNaN(s.Gauged[1].WNominal) {
 			t.Errorf("stored %v: adapted %+v, first member %+v, second %+v", stored, s.Adapted, s.Gauged[0], s.Gauged[1])
 		}
-		evs, err := l.Events("alder-creek", t0, later.Add(time.Second))
+		evs, err := l.Events(context.Background(), "alder-creek", t0, later.Add(time.Second))
 		if err != nil || len(evs) != 1 {
 			t.Fatalf("stored %v: events %+v, %v", stored, evs, err)
 		}

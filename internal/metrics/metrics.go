@@ -46,6 +46,13 @@ const (
 	CommitFailures       = "shm_ingest_commit_failures_total"
 	BrokerConnected      = "shm_broker_connected"
 	BrokerReconnects     = "shm_broker_reconnects_total"
+	// ReconcileQueueDepth is the readings waiting for reconciliation,
+	// ReconcileQueueOverflow those that found its queue full (read back
+	// from the store later) and ReconcileQueueDropped those left out of
+	// live reconciliation (the read-back failed).
+	ReconcileQueueDepth    = "shm_reconcile_queue_readings"
+	ReconcileQueueOverflow = "shm_reconcile_queue_overflow_readings_total"
+	ReconcileQueueDropped  = "shm_reconcile_queue_dropped_readings_total"
 )
 
 // Epoch outcomes for Metrics.Epoch (common values; any string is accepted).
@@ -72,6 +79,8 @@ type Metrics struct {
 	deadDropped                                              prometheus.Counter
 	commitFailures, reconnects                               *prometheus.CounterVec
 	connected                                                *prometheus.GaugeVec
+	queueDepth                                               *prometheus.GaugeVec
+	queueDropped, queueOverflow                              *prometheus.CounterVec
 
 	cMessages, cReadings, cRejections, cEpochs, cSkew *children[prometheus.Counter]
 	cLatency                                          *children[prometheus.Observer]
@@ -137,6 +146,9 @@ func New(reg prometheus.Registerer) (*Metrics, error) {
 		commitFailures: c(CommitFailures, "Failed store commits of received messages (each retried; nothing is acknowledged before its commit), counted for every structure of the instance.", st),
 		reconnects:     c(BrokerReconnects, "Connections to the MQTT broker after the first (each follows a lost connection), for every structure of the instance.", st),
 		connected:      g(BrokerConnected, "1 while the ingest of the structure's instance is connected to the MQTT broker and subscribed, else 0.", st),
+		queueDepth:     g(ReconcileQueueDepth, "Committed readings waiting for the structure's reconciliation: held in its queue, or to be read back from the store after the queue was full.", st),
+		queueOverflow:  c(ReconcileQueueOverflow, "Committed readings that found the reconciliation queue full; they are read back from the store when reconciliation reaches them.", st),
+		queueDropped:   c(ReconcileQueueDropped, "Committed readings left out of live reconciliation because reading them back from the store failed; they are stored, and monitor replay recomputes their epochs.", st),
 	}
 	two := func(v *prometheus.CounterVec) *children[prometheus.Counter] {
 		return newChildren(func(a, b string) prometheus.Counter { return v.WithLabelValues(a, b) })
@@ -150,7 +162,8 @@ func New(reg prometheus.Registerer) (*Metrics, error) {
 	})
 	for _, col := range append([]prometheus.Collector{m.measured, m.predicted, m.residual, m.w, m.mdb, m.redund, m.checkable,
 		m.chi2, m.dof, m.pvalue, m.load, m.loadStd, m.epochs, m.messages, m.readings, m.rejections, m.skew,
-		m.lastReading, m.watchedSince, m.latency, m.alarms, m.dropped, m.deadDropped, m.commitFailures, m.reconnects, m.connected}, append(append(m.state.collectors(), m.loads.collectors()...), m.adapt.collectors()...)...) {
+		m.lastReading, m.watchedSince, m.latency, m.alarms, m.dropped, m.deadDropped, m.commitFailures, m.reconnects, m.connected,
+		m.queueDepth, m.queueOverflow, m.queueDropped}, append(append(m.state.collectors(), m.loads.collectors()...), m.adapt.collectors()...)...) {
 		if err := reg.Register(col); err != nil {
 			return nil, fmt.Errorf("metrics: registering collectors: %w (is a second Metrics registered on the same registry?)", err)
 		}
@@ -247,6 +260,31 @@ func (m *Metrics) IngestOf(structure string) {
 	m.commitFailures.WithLabelValues(structure)
 	m.reconnects.WithLabelValues(structure)
 	m.connected.WithLabelValues(structure).Set(0)
+	m.queueDepth.WithLabelValues(structure).Set(0)
+	m.queueOverflow.WithLabelValues(structure)
+	m.queueDropped.WithLabelValues(structure)
+}
+
+// ReconcileQueue sets the number of readings of structure waiting for
+// reconciliation.
+func (m *Metrics) ReconcileQueue(structure string, n int) {
+	m.queueDepth.WithLabelValues(structure).Set(float64(n))
+}
+
+// ReconcileOverflow counts n readings of structure that found its
+// reconciliation queue full.
+func (m *Metrics) ReconcileOverflow(structure string, n int) {
+	if n > 0 {
+		m.queueOverflow.WithLabelValues(structure).Add(float64(n))
+	}
+}
+
+// ReconcileDropped counts n readings of structure left out of live
+// reconciliation (reading them back from the store failed).
+func (m *Metrics) ReconcileDropped(structure string, n int) {
+	if n > 0 {
+		m.queueDropped.WithLabelValues(structure).Add(float64(n))
+	}
 }
 
 // CommitFailed counts one failed store commit for structure (one ingest

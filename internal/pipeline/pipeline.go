@@ -87,6 +87,10 @@ type Config struct {
 	// nil (replay) gives those rules no value.
 	CommitFailures  func() uint64
 	BrokerConnected func() bool
+	// ReconcileDropped returns the cumulative count of readings left out
+	// of live reconciliation by the queue in front of Feed (live only);
+	// nil: none.
+	ReconcileDropped func() uint64
 	// Observer receives late-reading counts; may be nil.
 	Observer epoch.Observer
 	// Logger logs conversion problems at a bounded rate; nil discards.
@@ -360,6 +364,9 @@ func (p *Pipeline) observation(t time.Time, res *reconcile.EpochResult) alerts.O
 	}
 	if p.cfg.CommitFailures != nil {
 		o.CommitFailures = p.cfg.CommitFailures()
+	}
+	if p.cfg.ReconcileDropped != nil {
+		o.ReconcileDropped = p.cfg.ReconcileDropped()
 	}
 	if p.cfg.BrokerConnected != nil {
 		c := p.cfg.BrokerConnected()

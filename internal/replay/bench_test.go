@@ -14,11 +14,10 @@ import (
 	"testing"
 	"time"
 
+	"trussmonitor/internal/instrumented"
 	"trussmonitor/internal/replay"
-	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/simulate"
 	"trussmonitor/internal/store"
-	"trussmonitor/internal/structfile"
 )
 
 var benchHours = flag.Int("bench-hours", 24, "hours of 1 Hz footbridge readings BenchmarkReplayDay replays")
@@ -55,14 +54,11 @@ func TestMain(m *testing.M) {
 // per second (46 channels; with fault, a 30 % stiffness loss of D2
 // half-way), with the structure file as the model in force.
 func generateDay(hours int, fault bool, sensorsPath string) (string, int64, error) {
-	st, err := structfile.LoadFile(structureFile)
+	pair, err := instrumented.Load(structureFile, sensorsPath)
 	if err != nil {
 		return "", 0, err
 	}
-	sm, err := sensors.LoadFile(sensorsPath, st)
-	if err != nil {
-		return "", 0, err
-	}
+	st, sm := pair.Structure, pair.Sensors
 	f, err := simulate.ParseFault("stiffness:D2:" + (time.Duration(hours) * time.Hour / 2).String() + ":0.3")
 	if err != nil {
 		return "", 0, err

@@ -23,6 +23,7 @@ import (
 	"time"
 
 	"trussmonitor/internal/alerts"
+	"trussmonitor/internal/instrumented"
 	"trussmonitor/internal/model"
 	"trussmonitor/internal/pipeline"
 	"trussmonitor/internal/reconcile"
@@ -178,7 +179,7 @@ func Run(ctx context.Context, opt Options) (*Summary, error) {
 		From: opt.From.UTC(), To: opt.To.UTC(), Warnings: mdl.warnings,
 		Raised: map[string]int{},
 	}
-	sm, err := sensors.Parse(opt.SensorsFile, sensorData, mdl.st)
+	sm, err := instrumented.SensorsFor(opt.SensorsFile, sensorData, mdl.st, mdl.source)
 	if err != nil {
 		return nil, err
 	}
@@ -387,7 +388,7 @@ func emptyPeriod(ctx context.Context, db *store.Store, opt Options, structure st
 	if e.First, err = firstReading(ctx, db, structure, time.Time{}); err != nil {
 		return err
 	}
-	if e.Last, err = lastReading(ctx, db, structure, e.First); err != nil {
+	if e.Last, _, err = db.LastReading(ctx, structure); err != nil {
 		return err
 	}
 	return e
@@ -407,28 +408,6 @@ func firstReading(ctx context.Context, db *store.Store, structure string, from t
 		return time.Time{}, err
 	}
 	return t, nil
-}
-
-// lastReading finds the time of the last reading of structure (at or after
-// first, which is a reading's time) by bisection on "is there a reading at
-// or after t": about 64 probes, each a few indexed look-ups.
-func lastReading(ctx context.Context, db *store.Store, structure string, first time.Time) (time.Time, error) {
-	// Invariant: a reading exists at lo and none at or after hi.
-	lo := first.UnixNano()
-	hi := time.Date(2262, 1, 1, 0, 0, 0, 0, time.UTC).UnixNano() // the store's nanosecond column ends before 2262
-	for hi-lo > 1 {
-		mid := lo + (hi-lo)/2
-		t, err := firstReading(ctx, db, structure, time.Unix(0, mid))
-		if err != nil {
-			return time.Time{}, err
-		}
-		if t.IsZero() {
-			hi = mid
-		} else {
-			lo = t.UnixNano()
-		}
-	}
-	return time.Unix(0, lo).UTC(), nil
 }
 
 // resolved is the model chosen for a replay.
@@ -453,7 +432,7 @@ func resolveModel(ctx context.Context, db *store.Store, opt Options, sensorData 
 			return nil, err
 		}
 		if name != "" && name != structSt.Name {
-			return nil, &sensors.MismatchError{SensorsPath: opt.SensorsFile, MapStructure: name, StructurePath: opt.StructureFile, Structure: structSt.Name}
+			return nil, &instrumented.MismatchError{SensorsPath: opt.SensorsFile, MapStructure: name, StructurePath: opt.StructureFile, Structure: structSt.Name}
 		}
 		name = structSt.Name
 	}

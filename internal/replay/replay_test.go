@@ -14,14 +14,13 @@ import (
 
 	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/csvimport"
+	"trussmonitor/internal/instrumented"
 	"trussmonitor/internal/model"
 	"trussmonitor/internal/pipeline"
 	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/replay"
 	"trussmonitor/internal/report"
-	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/store"
-	"trussmonitor/internal/structfile"
 )
 
 const (
@@ -52,14 +51,11 @@ func importDay(t testing.TB, storeModel bool) string {
 // for (nil keeps every reading).
 func importDayWithout(t testing.TB, storeModel bool, drop func(store.Reading) bool) string {
 	t.Helper()
-	st, err := structfile.LoadFile(structureFile)
+	pair, err := instrumented.Load(structureFile, sensorsFile)
 	if err != nil {
 		t.Fatal(err)
 	}
-	sm, err := sensors.LoadFile(sensorsFile, st)
-	if err != nil {
-		t.Fatal(err)
-	}
+	st, sm := pair.Structure, pair.Sensors
 	f, err := os.Open(recordedDay)
 	if err != nil {
 		t.Fatalf("the recorded day %s is missing (see testdata/replay/README.md): %v", recordedDay, err)
@@ -348,14 +344,11 @@ func (r *residuals) mean(k int) (resid, pred float64) { return r.sum[k] / r.n[k]
 // the influence of the dead pattern times its permanent factor.
 func deadForce(t *testing.T, id string) float64 {
 	t.Helper()
-	st, err := structfile.LoadFile(structureFile)
+	pair, err := instrumented.Load(structureFile, sensorsFile)
 	if err != nil {
 		t.Fatal(err)
 	}
-	sm, err := sensors.LoadFile(sensorsFile, st)
-	if err != nil {
-		t.Fatal(err)
-	}
+	st, sm := pair.Structure, pair.Sensors
 	m, err := model.Analyze(st)
 	if err != nil {
 		t.Fatal(err)

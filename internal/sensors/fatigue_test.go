@@ -5,6 +5,8 @@ import (
 	"strings"
 	"testing"
 	"time"
+
+	"trussmonitor/internal/yamlfile"
 )
 
 func TestFatigueBlock(t *testing.T) {
@@ -36,26 +38,26 @@ func TestFatigueBlock(t *testing.T) {
 	}
 
 	for _, tc := range []struct{ name, block, want string }{
-		{"not a category", "      detail_category: 70 MPa\n      gamma_Ff: 1.0\n      gamma_Mf: 1.0\n", `f.yaml:13: channel "V1_a": field "fatigue.detail_category": 70 MPa is not a detail category`},
-		{"no unit", "      detail_category: 71\n      gamma_Ff: 1.0\n      gamma_Mf: 1.0\n", `f.yaml:13: channel "V1_a": field "fatigue.detail_category"`},
-		{"ksi", "      detail_category: 10.3 ksi\n      gamma_Ff: 1.0\n      gamma_Mf: 1.0\n", `field "fatigue.detail_category"`},
-		{"missing gamma", "      detail_category: 71 MPa\n      gamma_Ff: 1.0\n", `f.yaml:13: channel "V1_a": field "fatigue.gamma_Mf": missing`},
-		{"gamma below 1", "      detail_category: 71 MPa\n      gamma_Ff: 0.8\n      gamma_Mf: 1.0\n", `f.yaml:14: channel "V1_a": field "fatigue.gamma_Ff": 0.8 is outside 1 to 2`},
-		{"bad start", "      detail_category: 71 MPa\n      gamma_Ff: 1.0\n      gamma_Mf: 1.0\n      start: yesterday\n", `f.yaml:16: channel "V1_a": field "fatigue.start"`},
-		{"unknown field", "      detail_category: 71 MPa\n      gamma_Ff: 1.0\n      gamma_Mf: 1.0\n      slope: 3\n", `f.yaml:16: channel "V1_a": field "slope": unknown field in fatigue`},
+		{"not a category", "      detail_category: 70 MPa\n      gamma_Ff: 1.0\n      gamma_Mf: 1.0\n", `f.yaml:13: channels[V1_a].fatigue.detail_category: 70 MPa is not a detail category`},
+		{"no unit", "      detail_category: 71\n      gamma_Ff: 1.0\n      gamma_Mf: 1.0\n", `f.yaml:13: channels[V1_a].fatigue.detail_category`},
+		{"ksi", "      detail_category: 10.3 ksi\n      gamma_Ff: 1.0\n      gamma_Mf: 1.0\n", `channels[V1_a].fatigue.detail_category`},
+		{"missing gamma", "      detail_category: 71 MPa\n      gamma_Ff: 1.0\n", `f.yaml:13: channels[V1_a].fatigue.gamma_Mf: missing`},
+		{"gamma below 1", "      detail_category: 71 MPa\n      gamma_Ff: 0.8\n      gamma_Mf: 1.0\n", `f.yaml:14: channels[V1_a].fatigue.gamma_Ff: 0.8 is outside 1 to 2`},
+		{"bad start", "      detail_category: 71 MPa\n      gamma_Ff: 1.0\n      gamma_Mf: 1.0\n      start: yesterday\n", `f.yaml:16: channels[V1_a].fatigue.start`},
+		{"unknown field", "      detail_category: 71 MPa\n      gamma_Ff: 1.0\n      gamma_Mf: 1.0\n      slope: 3\n", `f.yaml:16: channels[V1_a].fatigue.slope: unknown field "slope"`},
 	} {
 		_, err := Parse("f.yaml", []byte(head+"    fatigue:\n"+tc.block), smallStructure())
 		if err == nil || !strings.Contains(err.Error(), tc.want) {
 			t.Errorf("%s: error %v, want it to contain %q", tc.name, err, tc.want)
 		}
-		var fe *FileError
+		var fe *yamlfile.Error
 		if err != nil && !errors.As(err, &fe) {
-			t.Errorf("%s: no *FileError in %v", tc.name, err)
+			t.Errorf("%s: no *yamlfile.Error in %v", tc.name, err)
 		}
 	}
 	// A load channel has no fatigue block.
 	bad := "structure: x\nchannels:\n  - {id: p, kind: load, pattern: panel_1, unit: N, factor: 0.001, noise: 1, fatigue: {detail_category: 71 MPa}}\n"
-	if _, err := Parse("f.yaml", []byte(bad), smallStructure()); err == nil || !strings.Contains(err.Error(), `field "fatigue": unknown field`) {
+	if _, err := Parse("f.yaml", []byte(bad), smallStructure()); err == nil || !strings.Contains(err.Error(), `channels[p].fatigue: unknown field`) {
 		t.Errorf("fatigue on a load channel: %v", err)
 	}
 }

@@ -1,16 +1,17 @@
 package sensors
 
 import (
-	"errors"
 	"fmt"
 	"math"
 	"os"
+	"slices"
 	"strconv"
 	"strings"
 
 	"go.yaml.in/yaml/v3"
 
 	"trussmonitor/internal/units"
+	"trussmonitor/internal/yamlfile"
 )
 
 // standardGravity is g in m/s^2 (conventional value, 3rd CGPM 1901).
@@ -29,13 +30,17 @@ func LoadFile(path string, st Structure) (*Map, error) {
 }
 
 // Parse reads and validates a sensor map. file names the source in errors.
-// All problems found (up to 25) are returned joined; each is a *FileError
-// naming file, line, channel and field.
+// All problems found (up to 25) are returned as a yamlfile.ErrorList; each
+// names file, line and field (channels[id].field for a channel's).
 func Parse(file string, data []byte, st Structure) (*Map, error) {
-	p := &parser{file: file, st: st}
-	m := p.parse(data)
-	if len(p.errs) > 0 {
-		return nil, errors.Join(p.errs...)
+	root, err := yamlfile.Decode(file, data, "sensor map", "a sensor map needs structure and channels")
+	if err != nil {
+		return nil, err
+	}
+	p := &parser{Reader: yamlfile.Reader{File: file, Max: maxErrors}, st: st}
+	m := p.parse(root)
+	if errs := p.Errors(); len(errs) > 0 {
+		return nil, errs
 	}
 	return m, nil
 }
@@ -55,70 +60,37 @@ func StructureNameOf(data []byte) string {
 }
 
 type parser struct {
-	file string
-	st   Structure
-	errs []error
+	yamlfile.Reader
+	st Structure
 }
 
+// fieldPath is the path of field in a channel's block (channels[id].field),
+// or field itself outside the channels.
+func fieldPath(channel, field string) string {
+	if channel == "" {
+		return field
+	}
+	return yamlfile.Join("channels["+channel+"]", field)
+}
+
+// fail records a problem at line for field of channel ("" outside the
+// channels).
 func (p *parser) fail(line int, channel, field, format string, args ...any) {
-	if len(p.errs) == maxErrors {
-		p.errs = append(p.errs, &FileError{File: p.file, Line: line, Msg: "too many errors; fix these first"})
-	}
-	if len(p.errs) > maxErrors {
-		return
-	}
-	p.errs = append(p.errs, &FileError{File: p.file, Line: line, Channel: channel, Field: field, Msg: fmt.Sprintf(format, args...)})
+	p.ErrorAt(line, fieldPath(channel, field), format, args...)
 }
 
-// fields returns the keys of a mapping node, reporting unknown and duplicate
-// keys.
-func (p *parser) fields(n *yaml.Node, channel, where string, allowed []string) (map[string]*yaml.Node, bool) {
-	if n.Kind != yaml.MappingNode {
-		p.fail(n.Line, channel, where, "expected a mapping of fields, got %s", nodeKind(n))
-		return nil, false
-	}
-	out := map[string]*yaml.Node{}
-	for i := 0; i+1 < len(n.Content); i += 2 {
-		k, v := n.Content[i], n.Content[i+1]
-		if !contains(allowed, k.Value) {
-			p.fail(k.Line, channel, k.Value, "unknown field%s; allowed here: %s", inWhere(where), strings.Join(allowed, ", "))
-			continue
-		}
-		if _, dup := out[k.Value]; dup {
-			p.fail(k.Line, channel, k.Value, "field given twice")
-			continue
-		}
-		out[k.Value] = v
-	}
-	return out, true
-}
-
-func inWhere(where string) string {
-	if where == "" {
-		return ""
-	}
-	return " in " + where
+// fields returns the value nodes of mapping n (field of channel), reporting
+// unknown and duplicate keys.
+func (p *parser) fields(n *yaml.Node, channel, field string, allowed []string) (map[string]*yaml.Node, bool) {
+	return p.Fields(n, fieldPath(channel, field), allowed...)
 }
 
 func (p *parser) str(n *yaml.Node, channel, field string) (string, bool) {
-	if n.Kind != yaml.ScalarNode || n.Tag == "!!null" {
-		p.fail(n.Line, channel, field, "expected a text value, got %s", nodeKind(n))
-		return "", false
-	}
-	return n.Value, true
+	return p.Str(n, fieldPath(channel, field))
 }
 
 func (p *parser) num(n *yaml.Node, channel, field string) (float64, bool) {
-	if n.Kind != yaml.ScalarNode || (n.Tag != "!!int" && n.Tag != "!!float") {
-		p.fail(n.Line, channel, field, "expected a number, got %s %q", nodeKind(n), truncate(n.Value))
-		return 0, false
-	}
-	v, err := strconv.ParseFloat(strings.ReplaceAll(n.Value, "_", ""), 64)
-	if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
-		p.fail(n.Line, channel, field, "%q is not a finite number", truncate(n.Value))
-		return 0, false
-	}
-	return v, true
+	return p.Number(n, fieldPath(channel, field))
 }
 
 func (p *parser) positive(n *yaml.Node, channel, field string) (float64, bool) {
@@ -132,7 +104,7 @@ func (p *parser) positive(n *yaml.Node, channel, field string) (float64, bool) {
 
 func (p *parser) quantity(n *yaml.Node, channel, field string, dims ...units.Dimension) (float64, units.Dimension, bool) {
 	if n.Kind != yaml.ScalarNode || n.Tag == "!!null" {
-		p.fail(n.Line, channel, field, "expected a number with a unit, got %s", nodeKind(n))
+		p.fail(n.Line, channel, field, "expected a number with a unit, got %s", yamlfile.KindName(n))
 		return 0, 0, false
 	}
 	var firstErr error
@@ -154,31 +126,26 @@ func (p *parser) quantity(n *yaml.Node, channel, field string, dims ...units.Dim
 }
 
 func (p *parser) numList(n *yaml.Node, channel, field string) ([]float64, bool) {
-	if n.Kind != yaml.SequenceNode {
-		p.fail(n.Line, channel, field, "expected a list of numbers, got %s", nodeKind(n))
-		return nil, false
-	}
-	out := make([]float64, 0, len(n.Content))
-	ok := true
-	for _, c := range n.Content {
-		v, good := p.num(c, channel, field)
-		ok = ok && good
-		out = append(out, v)
-	}
-	return out, ok
+	return readList(p, n, channel, field, "a list of numbers", p.num)
 }
 
 func (p *parser) strList(n *yaml.Node, channel, field string) ([]string, bool) {
+	return readList(p, n, channel, field, "a list", p.str)
+}
+
+// readList reads the list n with read for every item; what says what was
+// expected when n is no list.
+func readList[T any](p *parser, n *yaml.Node, channel, field, what string, read func(*yaml.Node, string, string) (T, bool)) ([]T, bool) {
 	if n.Kind != yaml.SequenceNode {
-		p.fail(n.Line, channel, field, "expected a list, got %s", nodeKind(n))
+		p.fail(n.Line, channel, field, "expected %s, got %s", what, yamlfile.KindName(n))
 		return nil, false
 	}
-	out := make([]string, 0, len(n.Content))
+	out := make([]T, 0, len(n.Content))
 	ok := true
 	for _, c := range n.Content {
-		s, good := p.str(c, channel, field)
+		v, good := read(c, channel, field)
 		ok = ok && good
-		out = append(out, s)
+		out = append(out, v)
 	}
 	return out, ok
 }
@@ -186,7 +153,7 @@ func (p *parser) strList(n *yaml.Node, channel, field string) ([]string, bool) {
 // numMap reads a mapping of names to numbers, checking each name with valid.
 func (p *parser) numMap(n *yaml.Node, channel, field string, valid func(string) bool, what string) (map[string]float64, bool) {
 	if n.Kind != yaml.MappingNode {
-		p.fail(n.Line, channel, field, "expected a mapping of %s names to numbers, got %s", what, nodeKind(n))
+		p.fail(n.Line, channel, field, "expected a mapping of %s names to numbers, got %s", what, yamlfile.KindName(n))
 		return nil, false
 	}
 	out := map[string]float64{}
@@ -212,22 +179,12 @@ func (p *parser) numMap(n *yaml.Node, channel, field string, valid func(string) 
 
 var topFields = []string{"structure", "title", "permanent_loads", "zero_states", "channels"}
 
-func (p *parser) parse(data []byte) *Map {
-	var doc yaml.Node
-	if err := yaml.Unmarshal(data, &doc); err != nil {
-		p.fail(yamlErrorLine(err), "", "", "not valid YAML: %v", err)
-		return nil
-	}
-	if len(doc.Content) == 0 {
-		p.fail(0, "", "", "empty file; a sensor map needs structure and channels")
-		return nil
-	}
-	root := doc.Content[0]
+func (p *parser) parse(root *yaml.Node) *Map {
 	f, ok := p.fields(root, "", "", topFields)
 	if !ok {
 		return nil
 	}
-	m := &Map{file: p.file, index: map[string]int{}, permanent: map[string]float64{},
+	m := &Map{file: p.File, index: map[string]int{}, permanent: map[string]float64{},
 		zeroStates: map[string]ZeroState{}, props: map[string][3]float64{}}
 	if n, ok := f["structure"]; ok {
 		if s, ok := p.str(n, "", "structure"); ok {
@@ -250,7 +207,7 @@ func (p *parser) parse(data []byte) *Map {
 		return m
 	}
 	if n.Kind != yaml.SequenceNode {
-		p.fail(n.Line, "", "channels", "expected a list of channels, got %s", nodeKind(n))
+		p.fail(n.Line, "", "channels", "expected a list of channels, got %s", yamlfile.KindName(n))
 		return m
 	}
 	lines := map[string]int{}
@@ -275,7 +232,7 @@ var zeroStateFields = []string{"id", "loads", "temperatures", "note"}
 
 func (p *parser) zeroStates(n *yaml.Node, m *Map) {
 	if n.Kind != yaml.SequenceNode {
-		p.fail(n.Line, "", "zero_states", "expected a list of zero states, got %s", nodeKind(n))
+		p.fail(n.Line, "", "zero_states", "expected a list of zero states, got %s", yamlfile.KindName(n))
 		return
 	}
 	for _, zn := range n.Content {
@@ -368,7 +325,7 @@ func ValidID(id string) bool {
 
 func (p *parser) channel(n *yaml.Node, m *Map) (Channel, bool) {
 	if n.Kind != yaml.MappingNode {
-		p.fail(n.Line, "", "channels", "expected a channel mapping, got %s", nodeKind(n))
+		p.fail(n.Line, "", "channels", "expected a channel mapping, got %s", yamlfile.KindName(n))
 		return Channel{}, false
 	}
 	ch := Channel{Line: n.Line}
@@ -402,8 +359,8 @@ func (p *parser) channel(n *yaml.Node, m *Map) (Channel, bool) {
 		p.fail(kindNode.Line, ch.ID, "kind", "unknown kind %q; one of %s", k, kindList())
 		return Channel{}, false
 	}
-	errsBefore := len(p.errs)
-	f, _ := p.fields(n, ch.ID, "a "+string(ch.Kind)+" channel", allowedFields(ch.Kind))
+	errsBefore := len(p.Errors())
+	f, _ := p.fields(n, ch.ID, "", allowedFields(ch.Kind))
 	get := func(name string) (*yaml.Node, bool) { v, ok := f[name]; return v, ok }
 	need := func(name, hint string) (*yaml.Node, bool) {
 		v, ok := f[name]
@@ -415,7 +372,7 @@ func (p *parser) channel(n *yaml.Node, m *Map) (Channel, bool) {
 
 	if un, ok := need("unit", "give the SenML unit the logger sends ("+strings.Join(quoteAll(unitsFor[ch.Kind]), ", ")+")"); ok {
 		if u, ok := p.str(un, ch.ID, "unit"); ok {
-			if !contains(unitsFor[ch.Kind], u) {
+			if !slices.Contains(unitsFor[ch.Kind], u) {
 				p.fail(un.Line, ch.ID, "unit", "unit %q is not accepted for a %s channel; use one of %s", u, ch.Kind, strings.Join(quoteAll(unitsFor[ch.Kind]), ", "))
 			}
 			ch.Unit = u
@@ -525,7 +482,7 @@ func (p *parser) channel(n *yaml.Node, m *Map) (Channel, bool) {
 			}
 		}
 	}
-	return ch, len(p.errs) == errsBefore
+	return ch, len(p.Errors()) == errsBefore
 }
 
 func (p *parser) gauge(n *yaml.Node, ch *Channel, get func(string) (*yaml.Node, bool), need func(string, string) (*yaml.Node, bool)) {
@@ -793,55 +750,4 @@ func quoteAll(s []string) []string {
 		out[i] = strconv.Quote(v)
 	}
 	return out
-}
-
-func contains(list []string, s string) bool {
-	for _, v := range list {
-		if v == s {
-			return true
-		}
-	}
-	return false
-}
-
-func nodeKind(n *yaml.Node) string {
-	switch n.Kind {
-	case yaml.MappingNode:
-		return "a mapping"
-	case yaml.SequenceNode:
-		return "a list"
-	case yaml.AliasNode:
-		return "an alias"
-	}
-	switch n.Tag {
-	case "!!null":
-		return "nothing"
-	case "!!int", "!!float":
-		return "a number"
-	case "!!bool":
-		return "a boolean"
-	}
-	return "text"
-}
-
-func truncate(s string) string {
-	if len(s) > 40 {
-		return s[:40] + "..."
-	}
-	return s
-}
-
-// yamlErrorLine extracts "line N" from a YAML syntax error, or 0.
-func yamlErrorLine(err error) int {
-	s := err.Error()
-	i := strings.Index(s, "line ")
-	if i < 0 {
-		return 0
-	}
-	j := i + 5
-	for j < len(s) && s[j] >= '0' && s[j] <= '9' {
-		j++
-	}
-	n, _ := strconv.Atoi(s[i+5 : j])
-	return n
 }

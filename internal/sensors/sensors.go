@@ -12,7 +12,6 @@ package sensors
 import (
 	"fmt"
 	"math"
-	"strings"
 	"time"
 )
 
@@ -254,33 +253,6 @@ func copyMap(in map[string]float64) map[string]float64 {
 		out[k] = v
 	}
 	return out
-}
-
-// FileError is one problem in a sensor map file.
-type FileError struct {
-	File    string
-	Line    int
-	Channel string
-	Field   string
-	Msg     string
-}
-
-// Error formats as "file:line: channel "id": field "f": message".
-func (e *FileError) Error() string {
-	var b strings.Builder
-	b.WriteString(e.File)
-	if e.Line > 0 {
-		fmt.Fprintf(&b, ":%d", e.Line)
-	}
-	b.WriteString(": ")
-	if e.Channel != "" {
-		fmt.Fprintf(&b, "channel %q: ", e.Channel)
-	}
-	if e.Field != "" {
-		fmt.Fprintf(&b, "field %q: ", e.Field)
-	}
-	b.WriteString(e.Msg)
-	return b.String()
 }
 
 // Reasons returned by (*ReadingError).Reason.

@@ -4,9 +4,12 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"slices"
 	"strings"
 	"testing"
 	"time"
+
+	"trussmonitor/internal/yamlfile"
 )
 
 // testStructure is a small in-code structure: a few members of steel with
@@ -18,8 +21,8 @@ type testStructure struct {
 }
 
 func (s testStructure) HasMember(id string) bool    { _, ok := s.members[id]; return ok }
-func (s testStructure) HasPattern(name string) bool { return contains(s.patterns, name) }
-func (s testStructure) HasGroup(name string) bool   { return contains(s.groups, name) }
+func (s testStructure) HasPattern(name string) bool { return slices.Contains(s.patterns, name) }
+func (s testStructure) HasGroup(name string) bool   { return slices.Contains(s.groups, name) }
 func (s testStructure) MemberProperties(id string) (e, a, alpha float64, ok bool) {
 	p, ok := s.members[id]
 	return p[0], p[1], p[2], ok
@@ -276,48 +279,48 @@ func TestParseErrors(t *testing.T) {
 		want       []string // substrings of the error
 	}{
 		{"unknown field", "  - {id: V1_a, kind: strain, member: V1, unit: \"/\", zero: 0, zero_state: z, noise_microstrain: 2, gain: 3}\n",
-			[]string{"small.yaml:5:", `channel "V1_a"`, `field "gain"`, "unknown field"}},
+			[]string{"small.yaml:5:", "channels[V1_a].gain: ", "unknown field"}},
 		{"field of another kind", "  - {id: V1_a, kind: strain, member: V1, unit: \"/\", zero: 0, zero_state: z, noise_microstrain: 2, gauge_factor: 2}\n",
-			[]string{`field "gauge_factor"`, "unknown field in a strain channel"}},
+			[]string{"channels[V1_a].gauge_factor: ", "unknown field"}},
 		{"bad id", "  - {id: \"V1/a\", kind: strain, member: V1, unit: \"/\", zero: 0, zero_state: z, noise_microstrain: 2}\n",
-			[]string{`field "id"`, "A-Z a-z 0-9"}},
+			[]string{"].id: ", "A-Z a-z 0-9"}},
 		{"unknown member", "  - {id: X_a, kind: strain, member: X9, unit: \"/\", zero: 0, zero_state: z, noise_microstrain: 2}\n",
-			[]string{`field "member"`, `"X9" is not in the structure`}},
+			[]string{"].member: ", `"X9" is not in the structure`}},
 		{"wrong unit", "  - {id: V1_a, kind: strain, member: V1, unit: Hz, zero: 0, zero_state: z, noise_microstrain: 2}\n",
-			[]string{`field "unit"`, `"Hz" is not accepted`}},
+			[]string{"].unit: ", `"Hz" is not accepted`}},
 		{"missing zero", "  - {id: V1_a, kind: strain, member: V1, unit: \"/\", zero_state: z, noise_microstrain: 2}\n",
-			[]string{`field "zero"`, "missing"}},
+			[]string{"].zero: ", "missing"}},
 		{"number as text", "  - {id: V1_a, kind: strain, member: V1, unit: \"/\", zero: abc, zero_state: z, noise_microstrain: 2}\n",
-			[]string{`field "zero"`, "expected a number"}},
+			[]string{"].zero: ", "expected a plain number"}},
 		{"undeclared zero state", "  - {id: V1_a, kind: strain, member: V1, unit: \"/\", zero: 0, zero_state: q, noise_microstrain: 2}\n",
-			[]string{`field "zero_state"`, `"q" is not declared`}},
+			[]string{"].zero_state: ", `"q" is not declared`}},
 		{"two zero states on one member", "  - {id: V1_a, kind: strain, member: V1, unit: \"/\", zero: 0, zero_state: z, noise_microstrain: 2}\n" +
 			"  - {id: V1_b, kind: strain, member: V1, unit: \"/\", zero: 0, zero_state: z2, noise_microstrain: 2}\n",
-			[]string{`channel "V1_b"`, "share one zero state"}},
+			[]string{"channels[V1_b].zero_state: ", "share one zero state"}},
 		{"thermal output without thermometer", "  - {id: V1_a, kind: strain, member: V1, unit: \"/\", zero: 0, zero_state: z, noise_microstrain: 2, thermal_output_microstrain: [0, 1]}\n",
-			[]string{`field "temperature_channel"`, "missing"}},
+			[]string{"].temperature_channel: ", "missing"}},
 		{"thermometer without thermal output", "  - {id: V1_a, kind: strain, member: V1, unit: \"/\", zero: 0, zero_state: z, noise_microstrain: 2, temperature_channel: t}\n" +
 			"  - {id: t, kind: temperature, unit: Cel, groups: [top], noise: 0.1}\n",
-			[]string{`field "temperature_channel"`, "no effect"}},
+			[]string{"].temperature_channel: ", "no effect"}},
 		{"wire alpha without thermometer", "  - {id: T1_a, kind: vibrating_wire, member: T1, unit: Hz, gauge_constant_microstrain: 3.5e-3, wire_alpha: 12e-6, zero: 800, zero_state: z, noise_microstrain: 2}\n",
-			[]string{`field "wire_alpha"`, "no effect"}},
+			[]string{"].wire_alpha: ", "no effect"}},
 		{"volts without excitation", "  - {id: B1_a, kind: quarter_bridge, member: B1, unit: V, gauge_factor: 2, zero: 0, zero_state: z, noise_microstrain: 2}\n",
-			[]string{`field "excitation"`, "missing"}},
+			[]string{"].excitation: ", "missing"}},
 		{"unknown pattern", "  - {id: p, kind: load, pattern: wind, unit: N, factor: 0.001, noise: 1}\n",
-			[]string{`field "pattern"`, `"wind" is not in the structure`}},
+			[]string{"].pattern: ", `"wind" is not in the structure`}},
 		{"density with wrong unit", "  - {id: s, kind: load, pattern: snow, unit: m, mass_per_unit: 150 kg, pattern_unit: 1 kPa, noise: 1}\n",
-			[]string{`field "mass_per_unit"`, "mass"}},
+			[]string{"].mass_per_unit: ", "mass"}},
 		{"thermometer group", "  - {id: t, kind: temperature, unit: Cel, groups: [roofs], noise: 0.1}\n",
-			[]string{`field "groups"`, `"roofs" is not in the structure`}},
+			[]string{"].groups: ", `"roofs" is not in the structure`}},
 		{"duplicate id", "  - {id: t, kind: temperature, unit: Cel, groups: [top], noise: 0.1}\n  - {id: t, kind: temperature, unit: Cel, groups: [top], noise: 0.1}\n",
 			[]string{"small.yaml:6:", "used twice"}},
-		{"unknown kind", "  - {id: t, kind: laser, unit: m}\n", []string{`field "kind"`, `unknown kind "laser"`}},
+		{"unknown kind", "  - {id: t, kind: laser, unit: m}\n", []string{"].kind: ", `unknown kind "laser"`}},
 		{"sample rate in a length unit", "  - {id: t, kind: temperature, unit: Cel, groups: [top], noise: 0.1, sample_rate: 5 m}\n",
-			[]string{`field "sample_rate"`, "frequency"}},
+			[]string{"].sample_rate: ", "frequency"}},
 		{"sample rate zero", "  - {id: t, kind: temperature, unit: Cel, groups: [top], noise: 0.1, sample_rate: 0 Hz}\n",
-			[]string{`field "sample_rate"`, "must be positive"}},
+			[]string{"].sample_rate: ", "must be positive"}},
 		{"sample rate implausible", "  - {id: t, kind: temperature, unit: Cel, groups: [top], noise: 0.1, sample_rate: 50 kHz}\n",
-			[]string{`field "sample_rate"`, "above 10000 Hz"}},
+			[]string{"].sample_rate: ", "above 10000 Hz"}},
 	}
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {
@@ -334,9 +337,9 @@ func TestParseErrors(t *testing.T) {
 					t.Errorf("error %q lacks %q", err, w)
 				}
 			}
-			var fe *FileError
+			var fe *yamlfile.Error
 			if !errors.As(err, &fe) {
-				t.Errorf("no *FileError in %v", err)
+				t.Errorf("no *yamlfile.Error in %v", err)
 			}
 		})
 	}
@@ -478,6 +481,25 @@ func TestSampleRate(t *testing.T) {
 		}
 		if got := ch.SamplesPer(tc.window); got != tc.want {
 			t.Errorf("%q: %d readings per %v, want %d", tc.field, got, tc.window, tc.want)
+		}
+	}
+}
+
+// TestParseYAMLSyntaxLine: a YAML syntax error is reported at the 1-based
+// line of the enclosing list, as for structure files (yamlfile.Decode);
+// the sensor map's own decoding had reported the YAML parser's 0-based line
+// (2 for both cases here), one line above the list.
+func TestParseYAMLSyntaxLine(t *testing.T) {
+	for _, c := range []struct{ name, doc, want string }{
+		{"indentation", "structure: x\nchannels:\n  - id: a\n    kind: strain\n   unit: /\n", "m.yaml:3: YAML syntax: did not find expected '-' indicator"},
+		{"unclosed flow mapping", "structure: x\nchannels:\n  - {id: a, kind: strain\n  - b\n", "m.yaml:3: YAML syntax: did not find expected ',' or '}'"},
+		{"second document", "structure: x\nchannels: []\n---\nstructure: y\n", "m.yaml:3: YAML syntax: a second YAML document (---) follows; a sensor map holds one"},
+		{"empty", "", "m.yaml: file is empty; a sensor map needs structure and channels"},
+	} {
+		_, err := Parse("m.yaml", []byte(c.doc), smallStructure())
+		var fe *yamlfile.Error
+		if err == nil || !strings.HasPrefix(err.Error(), c.want) || !errors.As(err, &fe) {
+			t.Errorf("%s: error %v, want it to start with %q", c.name, err, c.want)
 		}
 	}
 }

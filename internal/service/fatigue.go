@@ -8,12 +8,13 @@ import (
 	"trussmonitor/internal/dashboard"
 	"trussmonitor/internal/fatigue"
 	"trussmonitor/internal/fatiguetrack"
+	"trussmonitor/internal/instrumented"
 	"trussmonitor/internal/metrics"
 )
 
 // addFatigue sets up the fatigue count of every gauge with a fatigue block
 // and restores the counters from the store.
-func (s *Service) addFatigue(mons []*Monitored) error {
+func (s *Service) addFatigue(mons []*instrumented.Structure) error {
 	n := 0
 	for _, mon := range mons {
 		n += len(mon.Sensors.FatigueGauges())

@@ -12,6 +12,7 @@ import (
 	"time"
 
 	"trussmonitor/internal/fatigue"
+	"trussmonitor/internal/instrumented"
 	"trussmonitor/internal/simulate"
 	"trussmonitor/internal/simulate/publish"
 )
@@ -23,7 +24,7 @@ import (
 func TestServiceFatigue(t *testing.T) {
 	dir := t.TempDir()
 	cfg := testConfig(t, dir, "service-fatigue-test")
-	mon, err := LoadStructure(cfg.Structures[0].Structure, cfg.Structures[0].Sensors)
+	mon, err := instrumented.Load(cfg.Structures[0].Structure, cfg.Structures[0].Sensors)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -9,6 +9,7 @@ import (
 
 	"trussmonitor/internal/broker"
 	"trussmonitor/internal/config"
+	"trussmonitor/internal/instrumented"
 	"trussmonitor/internal/simulate"
 	"trussmonitor/internal/simulate/publish"
 )
@@ -54,7 +55,7 @@ func waitSubscribedNow(t *testing.T, svc *Service) {
 
 // simulated publishes d of simulated readings of mon from start through
 // the broker at addr and returns the number of readings published.
-func simulated(t *testing.T, mon *Monitored, addr string, start time.Time, d time.Duration, seed uint64, client string) int64 {
+func simulated(t *testing.T, mon *instrumented.Structure, addr string, start time.Time, d time.Duration, seed uint64, client string) int64 {
 	t.Helper()
 	opt := simulate.DefaultOptions()
 	opt.Seed, opt.Start, opt.Duration, opt.Rate, opt.BadRate = seed, start, d, time.Second, 0
@@ -88,7 +89,7 @@ func TestTwoInstancesOneBroker(t *testing.T) {
 	defer brk.Close()
 	type inst struct {
 		name, file string
-		mon        *Monitored
+		mon        *instrumented.Structure
 		svc        *Service
 		stop       func()
 	}
@@ -98,7 +99,7 @@ func TestTwoInstancesOneBroker(t *testing.T) {
 	}
 	for _, in := range insts {
 		dir := "../../testdata/" + in.file + "/"
-		mon, err := LoadStructure(dir+"structure.yaml", dir+"sensors.yaml")
+		mon, err := instrumented.Load(dir+"structure.yaml", dir+"sensors.yaml")
 		if err != nil {
 			t.Fatal(err)
 		}

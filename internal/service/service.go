@@ -12,7 +12,6 @@ import (
 	"log/slog"
 	"net"
 	"net/http"
-	"os"
 	"sync"
 	"sync/atomic"
 	"time"
@@ -26,46 +25,14 @@ import (
 	"trussmonitor/internal/dashboard"
 	"trussmonitor/internal/fatiguetrack"
 	"trussmonitor/internal/ingest"
+	"trussmonitor/internal/instrumented"
 	"trussmonitor/internal/livestate"
 	"trussmonitor/internal/metrics"
-	"trussmonitor/internal/model"
 	"trussmonitor/internal/pipeline"
 	"trussmonitor/internal/reconcile"
-	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/settings"
 	"trussmonitor/internal/store"
-	"trussmonitor/internal/structfile"
 )
-
-// Monitored is one structure ready to monitor: its model and sensor map.
-type Monitored struct {
-	Structure *model.Structure
-	Model     *model.Model
-	Sensors   *sensors.Map
-	// Content is the structure file's bytes (stored as a model version).
-	Content []byte
-}
-
-// LoadStructure reads and checks one structure and its sensor map.
-func LoadStructure(structurePath, sensorsPath string) (*Monitored, error) {
-	content, err := os.ReadFile(structurePath)
-	if err != nil {
-		return nil, fmt.Errorf("structure file: %w", err)
-	}
-	st, err := structfile.Parse(structurePath, content)
-	if err != nil {
-		return nil, err
-	}
-	m, err := model.Analyze(st)
-	if err != nil {
-		return nil, fmt.Errorf("%s: %w", structurePath, err)
-	}
-	sm, err := sensors.LoadFor(sensorsPath, st, st.Name, structurePath)
-	if err != nil {
-		return nil, err
-	}
-	return &Monitored{Structure: st, Model: m, Sensors: sm, Content: content}, nil
-}
 
 // Service is the running monitor.
 type Service struct {
@@ -76,6 +43,7 @@ type Service struct {
 	met       *metrics.Metrics
 	live      *livestate.Live
 	pipes     map[string]*pipeline.Pipeline
+	feeds     map[string]*feeder // the reconciliation queue of each pipeline
 	order     []string
 	results   *resultSink
 	ingester  *ingest.Ingester
@@ -104,7 +72,7 @@ type Options struct {
 	Clock func() time.Time
 	// Structures, when set, are used instead of loading the configuration's
 	// structure files (the demo passes its embedded examples).
-	Structures []*Monitored
+	Structures []*instrumented.Structure
 	// ClockNote, when set, is shown on the dashboard beside the epoch time
 	// (the demo says its time is simulated and at what speed).
 	ClockNote string
@@ -116,7 +84,7 @@ type Options struct {
 // New builds the service: it opens the store, loads every structure and
 // prepares the pipelines, but starts nothing.
 func New(cfg *config.Config, opt Options) (*Service, error) {
-	s := &Service{cfg: cfg, log: opt.Logger, clock: opt.Clock, clockNote: opt.ClockNote, httpIdle: opt.HTTPIdleTimeout, pipes: map[string]*pipeline.Pipeline{}, rejects: map[string]*atomic.Uint64{}}
+	s := &Service{cfg: cfg, log: opt.Logger, clock: opt.Clock, clockNote: opt.ClockNote, httpIdle: opt.HTTPIdleTimeout, pipes: map[string]*pipeline.Pipeline{}, feeds: map[string]*feeder{}, rejects: map[string]*atomic.Uint64{}}
 	if s.log == nil {
 		s.log = slog.Default()
 	}
@@ -126,7 +94,7 @@ func New(cfg *config.Config, opt Options) (*Service, error) {
 	mons := opt.Structures
 	if mons == nil {
 		for i, f := range cfg.Structures {
-			mon, err := LoadStructure(f.Structure, f.Sensors)
+			mon, err := instrumented.Load(f.Structure, f.Sensors)
 			if err != nil {
 				return nil, fmt.Errorf("%s: structures[%d]: %w", cfg.File, i, err)
 			}
@@ -166,7 +134,7 @@ func New(cfg *config.Config, opt Options) (*Service, error) {
 	return s, nil
 }
 
-func (s *Service) addStructure(mon *Monitored) error {
+func (s *Service) addStructure(mon *instrumented.Structure) error {
 	name := mon.Structure.Name
 	if _, dup := s.pipes[name]; dup {
 		return fmt.Errorf("structure %q is configured twice", name)
@@ -189,8 +157,10 @@ func (s *Service) addStructure(mon *Monitored) error {
 			in := s.ingesterNow()
 			return in != nil && in.Health().Live
 		},
-		Observer: s.met,
-		Logger:   s.log,
+		// The feeder is made below, before any goroutine runs.
+		ReconcileDropped: func() uint64 { return s.feeds[name].droppedTotal() },
+		Observer:         s.met,
+		Logger:           s.log,
 	}
 	p, err := pipeline.New(mon.Model, mon.Sensors, cfg)
 	if err != nil {
@@ -227,12 +197,14 @@ func (s *Service) addStructure(mon *Monitored) error {
 		state: s.met.MemberState(name, proc.Members()), loads: loads, adapt: s.met.Adaptation(name, proc.Gauged(), proc.Unknown()), unknown: proc.Unknown()})
 	p.AddSink(s.results)
 	s.pipes[name] = p
+	limit := s.cfg.Epochs.QueueReadings
+	if limit <= 0 {
+		limit = config.DefaultQueueReadings
+	}
+	s.feeds[name] = newFeeder(p, s.store, limit, start, s.log, s.met)
 	s.order = append(s.order, name)
 	return nil
 }
-
-// Registry returns the Prometheus registry of the service.
-func (s *Service) Registry() *prometheus.Registry { return s.reg }
 
 // Store returns the service's store.
 func (s *Service) Store() *store.Store { return s.store }
@@ -257,7 +229,8 @@ func (s *Service) BrokerAddr() string {
 }
 
 // Start starts the embedded broker (if configured), the HTTP server and
-// the ingest. It returns once they listen.
+// the ingest. It returns once they listen; ctx bounds the start (the
+// listener's set-up), not the running service (see Run).
 func (s *Service) Start(ctx context.Context) error {
 	if s.cfg.Broker.Embedded {
 		users := map[string]string{}
@@ -270,7 +243,7 @@ func (s *Service) Start(ctx context.Context) error {
 		}
 		s.brk = b
 	}
-	ln, err := net.Listen("tcp", s.cfg.HTTP.Listen)
+	ln, err := new(net.ListenConfig).Listen(ctx, "tcp", s.cfg.HTTP.Listen)
 	if err != nil {
 		return fmt.Errorf("%s: http.listen: %w", s.cfg.File, err)
 	}
@@ -334,15 +307,21 @@ type flow struct {
 	readingsAt, epochsAt time.Time
 }
 
-// trackFlows notes the pipelines' progress (each tick).
+// trackFlows notes the pipelines' progress (each second, on a goroutine
+// of its own: a pipeline busy with a long epoch delays it, never Run's
+// loop nor readiness, which reads the flows under flowMu only).
 func (s *Service) trackFlows(now time.Time) {
+	stats := make([]pipeline.Stats, len(s.order))
+	for i, name := range s.order {
+		stats[i] = s.pipes[name].Stats()
+	}
 	s.flowMu.Lock()
 	defer s.flowMu.Unlock()
 	if s.flows == nil {
 		s.flows = map[string]*flow{}
 	}
-	for _, name := range s.order {
-		st := s.pipes[name].Stats()
+	for i, name := range s.order {
+		st := stats[i]
 		f := s.flows[name]
 		if f == nil {
 			f = &flow{readingsAt: now, epochsAt: now}
@@ -365,18 +344,17 @@ func (s *Service) epochStall() time.Duration {
 	return max(4*(s.cfg.Epochs.Window.D()+s.cfg.Epochs.MaxLateness.D()), 30*time.Second)
 }
 
-// committed feeds newly stored readings to their structure's pipeline.
+// committed hands newly stored readings to their structure's
+// reconciliation queue. It runs on the ingest's commit goroutine after the
+// commit, with the messages' acknowledgements already queued, and never
+// waits for reconciliation (see feeder).
 func (s *Service) committed(structure string, rs []store.Reading) {
-	p := s.pipes[structure]
-	if p == nil {
+	f := s.feeds[structure]
+	if f == nil {
 		return
 	}
 	s.connected.Store(true)
-	in := make([]pipeline.Reading, len(rs))
-	for i, r := range rs {
-		in[i] = pipeline.Reading{Channel: r.Channel, Time: r.Time, Value: r.Value}
-	}
-	p.Feed(context.Background(), in)
+	f.offer(rs)
 }
 
 // ready is the readiness of the present moment: ingest connected to the
@@ -448,9 +426,28 @@ func (s *Service) Run(ctx context.Context) error {
 	}
 	var wg sync.WaitGroup
 	var ingestErr error
+	// The feeders outlive ctx: on shutdown they feed what ingest committed.
+	feedCtx := context.WithoutCancel(ctx)
+	for _, name := range s.order {
+		go s.feeds[name].run(feedCtx)
+	}
 	ingCtx, stopIngest := context.WithCancel(context.Background())
 	wg.Add(1)
 	go func() { defer wg.Done(); ingestErr = s.ingester.Run(ingCtx) }()
+	flowsDone := make(chan struct{})
+	go func() {
+		defer close(flowsDone)
+		t := time.NewTicker(time.Second)
+		defer t.Stop()
+		for {
+			select {
+			case <-ctx.Done():
+				return
+			case <-t.C:
+				s.trackFlows(s.clock())
+			}
+		}
+	}()
 	tick := time.NewTicker(time.Second)
 	defer tick.Stop()
 	lastRetention := time.Time{}
@@ -461,13 +458,12 @@ loop:
 			break loop
 		case <-tick.C:
 			for _, name := range s.order {
-				s.pipes[name].Tick(ctx)
+				s.feeds[name].ticked()
 			}
-			s.trackFlows(s.clock())
 			s.results.flush()
 			if now := s.clock(); now.Sub(lastRetention) > time.Hour {
 				lastRetention = now
-				s.applyRetention(now)
+				s.applyRetention(ctx, now)
 			}
 		}
 	}
@@ -475,18 +471,22 @@ loop:
 	stopIngest()
 	wg.Wait()
 	for _, name := range s.order {
-		s.pipes[name].Flush(context.Background())
+		s.feeds[name].close() // feeds what was committed
+		s.pipes[name].Flush(feedCtx)
 	}
+	<-flowsDone
 	s.results.flush()
 	return errors.Join(ingestErr, s.Close())
 }
 
-func (s *Service) applyRetention(now time.Time) {
+// applyRetention deletes what the retention settings let go and compacts
+// closed hours into blocks; ctx (Run's) ends them at shutdown.
+func (s *Service) applyRetention(ctx context.Context, now time.Time) {
 	r := store.Retention{Readings: s.cfg.Retention.Readings.D(), Results: s.cfg.Retention.Results.D(), DeadLetters: s.cfg.Retention.DeadLetters.D()}
-	if _, err := s.store.ApplyRetention(context.Background(), now, r); err != nil {
+	if _, err := s.store.ApplyRetention(ctx, now, r); err != nil {
 		s.log.Warn("retention", "error", err)
 	}
-	if cs, err := s.store.Compact(context.Background(), now.Add(-store.CompactAfter)); err != nil {
+	if cs, err := s.store.Compact(ctx, now.Add(-store.CompactAfter)); err != nil {
 		s.log.Warn("compacting readings into blocks; they stay as rows until the next try", "error", err)
 	} else if cs.Blocks > 0 {
 		s.log.Info("compacted readings into blocks", "blocks", cs.Blocks, "readings", cs.Readings)
@@ -548,8 +548,8 @@ func (o *observer) Rejected(structure, reason string) {
 type deadLetterSource struct{ st *store.Store }
 
 // DeadLetters lists dead letters first received in [from, to).
-func (d deadLetterSource) DeadLetters(from, to time.Time, reason string, limit int) ([]dashboard.DeadLetter, error) {
-	ds, err := d.st.ListDeadLetters(context.Background(), store.DeadLetterFilter{From: from, To: to, Reason: reason, Limit: limit})
+func (d deadLetterSource) DeadLetters(ctx context.Context, from, to time.Time, reason string, limit int) ([]dashboard.DeadLetter, error) {
+	ds, err := d.st.ListDeadLetters(ctx, store.DeadLetterFilter{From: from, To: to, Reason: reason, Limit: limit})
 	if err != nil {
 		return nil, err
 	}

@@ -12,6 +12,7 @@ import (
 
 	mqtt "github.com/eclipse/paho.mqtt.golang"
 
+	"trussmonitor/internal/instrumented"
 	"trussmonitor/internal/simulate"
 	"trussmonitor/internal/simulate/publish"
 )
@@ -24,7 +25,7 @@ import (
 func TestServiceEndToEnd(t *testing.T) {
 	dir := t.TempDir()
 	cfg := testConfig(t, dir, "service-test")
-	mon, err := LoadStructure(cfg.Structures[0].Structure, cfg.Structures[0].Sensors)
+	mon, err := instrumented.Load(cfg.Structures[0].Structure, cfg.Structures[0].Sensors)
 	if err != nil {
 		t.Fatal(err)
 	}

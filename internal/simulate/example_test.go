@@ -4,9 +4,8 @@ import (
 	"fmt"
 	"time"
 
-	"trussmonitor/internal/sensors"
+	"trussmonitor/internal/instrumented"
 	"trussmonitor/internal/simulate"
-	"trussmonitor/internal/structfile"
 )
 
 func ExampleParseFault() {
@@ -24,16 +23,12 @@ func ExampleParseFault() {
 }
 
 func ExampleGenerator_All() {
-	st, err := structfile.LoadFile("../../testdata/footbridge/structure.yaml")
+	pair, err := instrumented.Load("../../testdata/footbridge/structure.yaml", "../../testdata/footbridge/sensors.yaml")
 	if err != nil {
 		fmt.Println(err)
 		return
 	}
-	sm, err := sensors.LoadFile("../../testdata/footbridge/sensors.yaml", st)
-	if err != nil {
-		fmt.Println(err)
-		return
-	}
+	st, sm := pair.Structure, pair.Sensors
 	opt := simulate.DefaultOptions()
 	opt.Duration, opt.Rate, opt.BadRate = 3*time.Minute, time.Minute, 0
 	f, _ := simulate.ParseFault("stiffness:D2:2m:0.3")
@@ -55,4 +50,21 @@ func ExampleGenerator_All() {
 	// 00:00 46 readings, first B2_a in / - faults active: 0
 	// 00:01 46 readings, first B2_a in / - faults active: 0
 	// 00:02 46 readings, first B2_a in / - faults active: 1
+}
+
+// A strain logger reports 0.1 microstrain: a noisy strain of
+// 1.234567891e-05 is sent as 1.23e-05, the float64 of the text
+// "0.0000123". A reading that rounds to zero is sent as 0, never -0.
+func ExampleQuantise() {
+	d, ok := simulate.LoggerResolution("/")
+	fmt.Println(d, ok)
+	fmt.Println(simulate.Quantise(1.234567891e-05, d))
+	fmt.Println(simulate.Quantise(-3e-9, d))
+	_, ok = simulate.LoggerResolution("kPa")
+	fmt.Println(ok)
+	// Output:
+	// 7 true
+	// 1.23e-05
+	// 0
+	// false
 }

@@ -6,6 +6,10 @@
 // injected fault (gauge drift, a stuck gauge, a stiffness loss of a member,
 // a support settlement).
 //
+// By default a reading is the full float64 of the noisy value; with
+// Options.Quantise the logger reports it at its unit's fixed resolution
+// (LoggerResolution), as a real logger does.
+//
 // The generator is pure computation: it yields one Step per time stamp with
 // the readings (channel, raw value, unit) and the truth behind them, and
 // does no I/O. Package publish sends the steps to an MQTT broker and package
@@ -84,6 +88,12 @@ type Options struct {
 	// of its axial strain change, with alternating sign on the gauges of
 	// the member (cancelled by the mean when all report).
 	BendingRatio float64
+	// Quantise makes the logger report every raw reading at the fixed
+	// resolution of its unit (LoggerResolution), as a real logger does,
+	// instead of the full float64 of the noisy value. Off by default: the
+	// recorded day (testdata/replay) and the tests' golden files were made
+	// without it.
+	Quantise bool
 }
 
 // SlowLoad is a slowly varying pattern factor: an Ornstein-Uhlenbeck process
@@ -153,6 +163,7 @@ type channelInfo struct {
 	exposure Exposure  // temperature channels
 	drift    []Fault   // drift faults on this channel
 	stuckAt  time.Time // zero when never stuck
+	decimals int       // Options.Quantise: decimals of the channel's unit
 }
 
 // deckPanel is a deck panel pattern and its span along the deck axis.
@@ -271,6 +282,13 @@ func (g *Generator) prepareChannels() error {
 	g.chans = make([]channelInfo, len(chans))
 	for i, ch := range chans {
 		ci := channelInfo{ch: ch, member: -1, tempCh: -1, pattern: -1}
+		if g.opt.Quantise {
+			d, err := resolutionOf(ch.ID, ch.Unit)
+			if err != nil {
+				return err
+			}
+			ci.decimals = d
+		}
 		switch {
 		case ch.Kind.IsGauge():
 			m, ok := g.st.MemberIndex(ch.Member)

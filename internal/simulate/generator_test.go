@@ -8,9 +8,9 @@ import (
 
 	"gonum.org/v1/gonum/stat/distuv"
 
+	"trussmonitor/internal/instrumented"
 	"trussmonitor/internal/model"
 	"trussmonitor/internal/sensors"
-	"trussmonitor/internal/structfile"
 )
 
 const (
@@ -22,14 +22,11 @@ const (
 
 func load(t testing.TB, structure, sensorMap string) (*model.Structure, *sensors.Map) {
 	t.Helper()
-	st, err := structfile.LoadFile(structure)
+	pair, err := instrumented.Load(structure, sensorMap)
 	if err != nil {
 		t.Fatal(err)
 	}
-	sm, err := sensors.LoadFile(sensorMap, st)
-	if err != nil {
-		t.Fatal(err)
-	}
+	st, sm := pair.Structure, pair.Sensors
 	return st, sm
 }
 

@@ -12,10 +12,11 @@ import (
 	"time"
 
 	"trussmonitor/internal/csvimport"
+	"trussmonitor/internal/instrumented"
 	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/simulate"
 	"trussmonitor/internal/simulate/loggercsv"
-	"trussmonitor/internal/structfile"
+	"trussmonitor/internal/simulate/loggercsv/loggercsvtest"
 )
 
 var update = flag.Bool("update", false, "regenerate testdata/replay/footbridge-day.csv.gz")
@@ -27,14 +28,11 @@ const replayFile = "../../testdata/replay/footbridge-day.csv.gz"
 // --rate 60s --bad-rate 0 --fault stiffness:D2:14h:0.3" give.
 func replayDay(t *testing.T) (*simulate.Generator, *sensors.Map) {
 	t.Helper()
-	st, err := structfile.LoadFile("../../testdata/footbridge/structure.yaml")
+	pair, err := instrumented.Load("../../testdata/footbridge/structure.yaml", "../../testdata/footbridge/sensors.yaml")
 	if err != nil {
 		t.Fatal(err)
 	}
-	sm, err := sensors.LoadFile("../../testdata/footbridge/sensors.yaml", st)
-	if err != nil {
-		t.Fatal(err)
-	}
+	st, sm := pair.Structure, pair.Sensors
 	f, err := simulate.ParseFault("stiffness:D2:14h:0.3")
 	if err != nil {
 		t.Fatal(err)
@@ -96,7 +94,7 @@ func TestReplayDay(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if line, ok := loggercsv.SameWithin(got, want.Bytes(), 1e-6); !ok {
+	if line, ok := loggercsvtest.SameWithin(got, want.Bytes(), 1e-6); !ok {
 		t.Fatalf("%s differs from the generator beyond rounding at line %d; regenerate with -update if the change is intended", replayFile, line)
 	}
 

@@ -176,6 +176,9 @@ func (r *run) step(k int) (Step, error) {
 			// miscounting, not a Gaussian offset below zero.
 			raw = math.Max(0, math.Round(raw))
 		}
+		if g.opt.Quantise {
+			raw = Quantise(raw, c.decimals)
+		}
 		if !c.stuckAt.IsZero() && !t.Before(c.stuckAt) {
 			if !r.stuckSet[i] {
 				r.stuckRaw[i], r.stuckSet[i] = raw, true

@@ -51,115 +51,120 @@ func AMD(a *Sym) []int {
 
 // Node states of the quotient graph.
 const (
-	stVar      uint8 = iota // principal variable, not yet eliminated
-	stMerged                // variable merged into a supervariable or eliminated with a pivot
-	stElem                  // live element: an eliminated supervariable
-	stAbsorbed              // element absorbed into a later element
-	stDense                 // dense row, ordered last
+	stateVariable uint8 = iota // principal variable, not yet eliminated
+	stateMerged                // variable merged into a supervariable or eliminated with a pivot
+	stateElement               // live element: an eliminated supervariable
+	stateAbsorbed              // element absorbed into a later element
+	stateDense                 // dense row, ordered last
 )
 
-// quotientGraph is the state of the minimum degree elimination.
+// quotientGraph is the state of the minimum degree elimination on the
+// quotient graph (George and Liu 1989; Amestoy, Davis and Duff 1996): its
+// nodes are variables (not yet eliminated), supervariables (indistinguishable
+// variables held as one) and elements (eliminated supervariables).
 //
-// Every node x owns the list iw[pe[x] : pe[x]+ln[x]]. For a variable the
-// first ne[x] entries are its adjacent elements and the rest its adjacent
-// variables; for an element the list holds its variables. Lists may hold
-// stale entries (merged variables, absorbed elements), which are skipped
-// when read and dropped when the list is rewritten.
+// Every node x owns the list lists[listStart[x] : listStart[x]+listLen[x]].
+// For a variable the first elemCount[x] entries are its adjacent elements
+// and the rest its adjacent variables; for an element the list holds its
+// variables. Lists may hold stale entries (merged variables, absorbed
+// elements), which are skipped when read and dropped when the list is
+// rewritten.
 type quotientGraph struct {
-	n     int
-	iw    []int32
-	pe    []int
-	ln    []int32
-	ne    []int32
-	state []uint8
-	nv    []int // weight of a principal variable (original variables it stands for)
-	deg   []int // approximate external degree of a principal variable
-	esize []int // weight of the variables of a live element
+	n          int
+	lists      []int32 // the adjacency lists of every node, back to back
+	listStart  []int   // start of node x's list in lists
+	listLen    []int32 // length of node x's list
+	elemCount  []int32 // adjacent elements at the head of a variable's list
+	state      []uint8 // stateVariable, stateMerged, ...
+	weight     []int   // weight of a principal variable (original variables it stands for)
+	degree     []int   // approximate external degree of a principal variable
+	elemWeight []int   // weight of the variables of a live element
 
-	// Degree buckets: doubly linked lists headed by bhead[d].
-	bhead        []int
-	bnext, bprev []int
-	minDeg       int
+	// Degree buckets: doubly linked lists headed by bucketHead[d].
+	bucketHead             []int
+	bucketNext, bucketPrev []int
+	minDegree              int
 
 	// Members of a supervariable or pivot, in a singly linked list.
-	memNext, memTail []int
+	memberNext, memberTail []int
 
-	// Per-pivot work.
-	stamp  int
-	lpMark []int // lpMark[v] == stamp: v is in the new element
-	wMark  []int // wMark[e] == stamp: w[e] holds |Le \ Lp|
-	w      []int
-	ext    []int  // external degree outside the new element
-	hash   []uint // hash of the rewritten list
-	lp     []int  // variables of the new element
-	degLp  int    // weight of lp
+	// Per-pivot work. The new element is Lp, the paper's name for the
+	// variables of the element formed by pivot p.
+	stamp         int
+	inNewElem     []int  // inNewElem[v] == stamp: v is in Lp
+	outsideStamp  []int  // outsideStamp[e] == stamp: outside[e] holds |Le \ Lp|
+	outside       []int  // weight of element e's variables outside Lp
+	external      []int  // external degree of a variable outside Lp
+	listHash      []uint // hash of a variable's rewritten list
+	newElem       []int  // Lp: the variables of the new element
+	newElemWeight int    // weight of Lp
 
 	// Set comparison for supervariable detection.
-	cmpStamp int
-	cmpMark  []int
-	hhead    []int
-	hnext    []int
-	touched  []int
+	compareStamp int
+	compareMark  []int
+	hashHead     []int
+	hashNext     []int
+	touched      []int
 
-	scratchE, scratchA []int32
-	dense              []int // dense rows, ordered last
+	keptElems, keptVars []int32 // a rewritten list's elements and variables
+	dense               []int   // dense rows, ordered last
 }
 
 func newQuotientGraph(a *Sym) *quotientGraph {
 	n := a.n
 	g := &quotientGraph{
-		n:       n,
-		pe:      make([]int, n),
-		ln:      make([]int32, n),
-		ne:      make([]int32, n),
-		state:   make([]uint8, n),
-		nv:      make([]int, n),
-		deg:     make([]int, n),
-		esize:   make([]int, n),
-		bhead:   make([]int, n+1),
-		bnext:   make([]int, n),
-		bprev:   make([]int, n),
-		memNext: make([]int, n),
-		memTail: make([]int, n),
-		lpMark:  make([]int, n),
-		wMark:   make([]int, n),
-		w:       make([]int, n),
-		ext:     make([]int, n),
-		hash:    make([]uint, n),
-		cmpMark: make([]int, n),
-		hhead:   make([]int, n),
-		hnext:   make([]int, n),
+		n:            n,
+		listStart:    make([]int, n),
+		listLen:      make([]int32, n),
+		elemCount:    make([]int32, n),
+		state:        make([]uint8, n),
+		weight:       make([]int, n),
+		degree:       make([]int, n),
+		elemWeight:   make([]int, n),
+		bucketHead:   make([]int, n+1),
+		bucketNext:   make([]int, n),
+		bucketPrev:   make([]int, n),
+		memberNext:   make([]int, n),
+		memberTail:   make([]int, n),
+		inNewElem:    make([]int, n),
+		outsideStamp: make([]int, n),
+		outside:      make([]int, n),
+		external:     make([]int, n),
+		listHash:     make([]uint, n),
+		compareMark:  make([]int, n),
+		hashHead:     make([]int, n),
+		hashNext:     make([]int, n),
 	}
 	for i := 0; i < n; i++ {
-		g.nv[i] = 1
-		g.memNext[i] = -1
-		g.memTail[i] = i
-		g.hhead[i] = -1
+		g.weight[i] = 1
+		g.memberNext[i] = -1
+		g.memberTail[i] = i
+		g.hashHead[i] = -1
 	}
-	for d := range g.bhead {
-		g.bhead[d] = -1
+	for d := range g.bucketHead {
+		g.bucketHead[d] = -1
 	}
 	g.deferDense(a)
 	g.compressOriginal(a)
 	// Variable lists of the principal variables: their principal
 	// neighbours. A neighbour merged into r leaves r in the list, since
 	// merged nodes have equal closed neighbourhoods.
-	g.iw = make([]int32, 0, 2*a.p[n]+n)
+	g.lists = make([]int32, 0, 2*a.p[n]+n)
 	for i := 0; i < n; i++ {
-		if g.state[i] != stVar {
+		if g.state[i] != stateVariable {
 			continue
 		}
-		g.pe[i] = len(g.iw)
+		g.listStart[i] = len(g.lists)
 		d := 0
 		for _, c := range a.i[a.p[i]:a.p[i+1]] {
 			j := int(c)
-			if j != i && g.state[j] == stVar {
-				g.iw = append(g.iw, c)
-				d += g.nv[j]
+			if j != i && g.state[j] == stateVariable {
+				g.lists = append(g.lists, c)
+				d += g.weight[j]
 			}
 		}
-		g.ln[i] = int32(len(g.iw) - g.pe[i])
-		g.deg[i] = d
+		g.listLen[i] = int32(len(g.lists) - g.listStart[i])
+		g.degree[i] = d
 		g.bucketInsert(i)
 	}
 	return g
@@ -180,7 +185,7 @@ func (g *quotientGraph) deferDense(a *Sym) {
 			d--
 		}
 		if d > limit {
-			g.state[i] = stDense
+			g.state[i] = stateDense
 			g.dense = append(g.dense, i)
 		}
 	}
@@ -203,30 +208,30 @@ func (g *quotientGraph) compressOriginal(a *Sym) {
 			}
 		}
 		offDiag[i] = k
-		g.hash[i] = h % uint(n)
+		g.listHash[i] = h % uint(n)
 	}
 	for i := n - 1; i >= 0; i-- {
-		b := g.hash[i]
-		g.hnext[i] = g.hhead[b]
-		g.hhead[b] = i
+		b := g.listHash[i]
+		g.hashNext[i] = g.hashHead[b]
+		g.hashHead[b] = i
 	}
 	for b := 0; b < n; b++ {
-		for i := g.hhead[b]; i != -1; i = g.hnext[i] {
-			if g.state[i] != stVar || offDiag[i] == 0 {
+		for i := g.hashHead[b]; i != -1; i = g.hashNext[i] {
+			if g.state[i] != stateVariable || offDiag[i] == 0 {
 				continue
 			}
-			g.cmpStamp++
-			g.cmpMark[i] = g.cmpStamp
+			g.compareStamp++
+			g.compareMark[i] = g.compareStamp
 			for _, c := range row(i) {
-				g.cmpMark[c] = g.cmpStamp
+				g.compareMark[c] = g.compareStamp
 			}
-			for j := g.hnext[i]; j != -1; j = g.hnext[j] {
-				if g.state[j] != stVar || offDiag[j] != offDiag[i] || g.cmpMark[j] != g.cmpStamp {
+			for j := g.hashNext[i]; j != -1; j = g.hashNext[j] {
+				if g.state[j] != stateVariable || offDiag[j] != offDiag[i] || g.compareMark[j] != g.compareStamp {
 					continue
 				}
 				same := true
 				for _, c := range row(j) {
-					if g.cmpMark[c] != g.cmpStamp {
+					if g.compareMark[c] != g.compareStamp {
 						same = false
 						break
 					}
@@ -236,51 +241,51 @@ func (g *quotientGraph) compressOriginal(a *Sym) {
 				}
 			}
 		}
-		g.hhead[b] = -1
+		g.hashHead[b] = -1
 	}
 }
 
 // mergeInto makes j a member of supervariable (or pivot) i.
 func (g *quotientGraph) mergeInto(i, j int) {
-	g.nv[i] += g.nv[j]
-	g.nv[j] = 0
-	g.state[j] = stMerged
-	g.ln[j] = 0
-	g.ne[j] = 0
-	g.memNext[g.memTail[i]] = j
-	g.memTail[i] = g.memTail[j]
+	g.weight[i] += g.weight[j]
+	g.weight[j] = 0
+	g.state[j] = stateMerged
+	g.listLen[j] = 0
+	g.elemCount[j] = 0
+	g.memberNext[g.memberTail[i]] = j
+	g.memberTail[i] = g.memberTail[j]
 }
 
 func (g *quotientGraph) bucketInsert(i int) {
-	d := g.deg[i]
-	g.bprev[i] = -1
-	g.bnext[i] = g.bhead[d]
-	if h := g.bhead[d]; h != -1 {
-		g.bprev[h] = i
+	d := g.degree[i]
+	g.bucketPrev[i] = -1
+	g.bucketNext[i] = g.bucketHead[d]
+	if h := g.bucketHead[d]; h != -1 {
+		g.bucketPrev[h] = i
 	}
-	g.bhead[d] = i
-	if d < g.minDeg {
-		g.minDeg = d
+	g.bucketHead[d] = i
+	if d < g.minDegree {
+		g.minDegree = d
 	}
 }
 
 func (g *quotientGraph) bucketRemove(i int) {
-	if p := g.bprev[i]; p != -1 {
-		g.bnext[p] = g.bnext[i]
+	if p := g.bucketPrev[i]; p != -1 {
+		g.bucketNext[p] = g.bucketNext[i]
 	} else {
-		g.bhead[g.deg[i]] = g.bnext[i]
+		g.bucketHead[g.degree[i]] = g.bucketNext[i]
 	}
-	if nx := g.bnext[i]; nx != -1 {
-		g.bprev[nx] = g.bprev[i]
+	if nx := g.bucketNext[i]; nx != -1 {
+		g.bucketPrev[nx] = g.bucketPrev[i]
 	}
 }
 
 // popMin removes and returns a supervariable of least degree.
 func (g *quotientGraph) popMin() int {
-	for g.bhead[g.minDeg] == -1 {
-		g.minDeg++
+	for g.bucketHead[g.minDegree] == -1 {
+		g.minDegree++
 	}
-	p := g.bhead[g.minDeg]
+	p := g.bucketHead[g.minDegree]
 	g.bucketRemove(p)
 	return p
 }
@@ -297,8 +302,8 @@ func (g *quotientGraph) order() []int {
 		g.countOutside()
 		g.rewriteLists(p)
 		g.detectSupervariables()
-		eliminated += g.nv[p]
-		for v := p; v != -1; v = g.memNext[v] {
+		eliminated += g.weight[p]
+		for v := p; v != -1; v = g.memberNext[v] {
 			perm = append(perm, v)
 		}
 		g.finishDegrees(n - eliminated)
@@ -310,55 +315,55 @@ func (g *quotientGraph) order() []int {
 // buildElement turns pivot p into an element: Lp is the union of p's
 // variables and the variables of its elements, which are absorbed.
 func (g *quotientGraph) buildElement(p int) {
-	g.lp = g.lp[:0]
-	g.degLp = 0
-	g.lpMark[p] = g.stamp
+	g.newElem = g.newElem[:0]
+	g.newElemWeight = 0
+	g.inNewElem[p] = g.stamp
 	add := func(v int) {
-		if g.state[v] == stVar && g.lpMark[v] != g.stamp {
-			g.lpMark[v] = g.stamp
-			g.lp = append(g.lp, v)
-			g.degLp += g.nv[v]
+		if g.state[v] == stateVariable && g.inNewElem[v] != g.stamp {
+			g.inNewElem[v] = g.stamp
+			g.newElem = append(g.newElem, v)
+			g.newElemWeight += g.weight[v]
 		}
 	}
-	base, ne, ln := g.pe[p], int(g.ne[p]), int(g.ln[p])
-	for t := 0; t < ne; t++ {
-		e := int(g.iw[base+t])
-		if g.state[e] != stElem {
+	base, elems, length := g.listStart[p], int(g.elemCount[p]), int(g.listLen[p])
+	for t := 0; t < elems; t++ {
+		e := int(g.lists[base+t])
+		if g.state[e] != stateElement {
 			continue
 		}
-		for _, v := range g.iw[g.pe[e] : g.pe[e]+int(g.ln[e])] {
+		for _, v := range g.lists[g.listStart[e] : g.listStart[e]+int(g.listLen[e])] {
 			add(int(v))
 		}
-		g.state[e] = stAbsorbed
-		g.ln[e] = 0
+		g.state[e] = stateAbsorbed
+		g.listLen[e] = 0
 	}
-	for t := ne; t < ln; t++ {
-		add(int(g.iw[base+t]))
+	for t := elems; t < length; t++ {
+		add(int(g.lists[base+t]))
 	}
-	for _, v := range g.lp {
+	for _, v := range g.newElem {
 		g.bucketRemove(v)
 	}
-	g.state[p] = stElem
-	g.ln[p] = 0
-	g.ne[p] = 0
+	g.state[p] = stateElement
+	g.listLen[p] = 0
+	g.elemCount[p] = 0
 }
 
-// countOutside sets w[e] = |Le \ Lp| (weighted) for every live element e
+// countOutside sets outside[e] = |Le \ Lp| (weighted) for every live element e
 // adjacent to a variable of Lp (Amestoy, Davis and Duff 1996, the first
 // scan of the degree update).
 func (g *quotientGraph) countOutside() {
-	for _, i := range g.lp {
-		base := g.pe[i]
-		for _, c := range g.iw[base : base+int(g.ne[i])] {
+	for _, i := range g.newElem {
+		base := g.listStart[i]
+		for _, c := range g.lists[base : base+int(g.elemCount[i])] {
 			e := int(c)
-			if g.state[e] != stElem {
+			if g.state[e] != stateElement {
 				continue
 			}
-			if g.wMark[e] != g.stamp {
-				g.wMark[e] = g.stamp
-				g.w[e] = g.esize[e]
+			if g.outsideStamp[e] != g.stamp {
+				g.outsideStamp[e] = g.stamp
+				g.outside[e] = g.elemWeight[e]
 			}
-			g.w[e] -= g.nv[i]
+			g.outside[e] -= g.weight[i]
 		}
 	}
 }
@@ -369,61 +374,61 @@ func (g *quotientGraph) countOutside() {
 // and a hash of the new list, and eliminates with p every variable left
 // without neighbours outside Lp (mass elimination).
 func (g *quotientGraph) rewriteLists(p int) {
-	kept := g.lp[:0]
-	for _, i := range g.lp {
-		sE, sA := g.scratchE[:0], g.scratchA[:0]
-		ext := 0
+	kept := g.newElem[:0]
+	for _, i := range g.newElem {
+		elems, vars := g.keptElems[:0], g.keptVars[:0]
+		external := 0
 		h := uint(p)
-		base, ne, ln := g.pe[i], int(g.ne[i]), int(g.ln[i])
-		for t := 0; t < ne; t++ {
-			e := int(g.iw[base+t])
-			if g.state[e] != stElem {
+		base, nElems, length := g.listStart[i], int(g.elemCount[i]), int(g.listLen[i])
+		for t := 0; t < nElems; t++ {
+			e := int(g.lists[base+t])
+			if g.state[e] != stateElement {
 				continue
 			}
-			if g.w[e] == 0 {
-				g.state[e] = stAbsorbed // Le ⊆ Lp
-				g.ln[e] = 0
+			if g.outside[e] == 0 {
+				g.state[e] = stateAbsorbed // Le ⊆ Lp
+				g.listLen[e] = 0
 				continue
 			}
-			ext += g.w[e]
-			sE = append(sE, int32(e))
+			external += g.outside[e]
+			elems = append(elems, int32(e))
 			h += uint(e)
 		}
-		for t := ne; t < ln; t++ {
-			j := int(g.iw[base+t])
-			if g.state[j] != stVar || g.lpMark[j] == g.stamp {
+		for t := nElems; t < length; t++ {
+			j := int(g.lists[base+t])
+			if g.state[j] != stateVariable || g.inNewElem[j] == g.stamp {
 				continue
 			}
-			ext += g.nv[j]
-			sA = append(sA, int32(j))
+			external += g.weight[j]
+			vars = append(vars, int32(j))
 			h += uint(j)
 		}
-		g.scratchE, g.scratchA = sE, sA
-		if len(sE) == 0 && len(sA) == 0 {
-			g.degLp -= g.nv[i]
+		g.keptElems, g.keptVars = elems, vars
+		if len(elems) == 0 && len(vars) == 0 {
+			g.newElemWeight -= g.weight[i]
 			g.mergeInto(p, i)
 			continue
 		}
-		need := 1 + len(sE) + len(sA)
-		if need > ln {
+		need := 1 + len(elems) + len(vars)
+		if need > length {
 			// Cannot happen for a consistent quotient graph (p replaces
 			// an absorbed element or p itself in the list), but stay safe.
-			g.ln[i] = 0
+			g.listLen[i] = 0
 			g.ensure(need)
-			base = len(g.iw)
-			g.pe[i] = base
-			g.iw = g.iw[:base+need]
+			base = len(g.lists)
+			g.listStart[i] = base
+			g.lists = g.lists[:base+need]
 		}
-		g.iw[base] = int32(p)
-		copy(g.iw[base+1:], sE)
-		copy(g.iw[base+1+len(sE):], sA)
-		g.ne[i] = int32(1 + len(sE))
-		g.ln[i] = int32(need)
-		g.ext[i] = ext
-		g.hash[i] = h
+		g.lists[base] = int32(p)
+		copy(g.lists[base+1:], elems)
+		copy(g.lists[base+1+len(elems):], vars)
+		g.elemCount[i] = int32(1 + len(elems))
+		g.listLen[i] = int32(need)
+		g.external[i] = external
+		g.listHash[i] = h
 		kept = append(kept, i)
 	}
-	g.lp = kept
+	g.newElem = kept
 }
 
 // detectSupervariables merges variables of Lp whose rewritten lists are
@@ -432,31 +437,31 @@ func (g *quotientGraph) rewriteLists(p int) {
 func (g *quotientGraph) detectSupervariables() {
 	n := uint(g.n)
 	g.touched = g.touched[:0]
-	for _, i := range g.lp {
-		b := int(g.hash[i] % n)
-		if g.hhead[b] == -1 {
+	for _, i := range g.newElem {
+		b := int(g.listHash[i] % n)
+		if g.hashHead[b] == -1 {
 			g.touched = append(g.touched, b)
 		}
-		g.hnext[i] = g.hhead[b]
-		g.hhead[b] = i
+		g.hashNext[i] = g.hashHead[b]
+		g.hashHead[b] = i
 	}
 	for _, b := range g.touched {
-		for i := g.hhead[b]; i != -1; i = g.hnext[i] {
-			if g.state[i] != stVar || g.hnext[i] == -1 {
+		for i := g.hashHead[b]; i != -1; i = g.hashNext[i] {
+			if g.state[i] != stateVariable || g.hashNext[i] == -1 {
 				continue
 			}
-			g.cmpStamp++
-			li := g.iw[g.pe[i] : g.pe[i]+int(g.ln[i])]
+			g.compareStamp++
+			li := g.lists[g.listStart[i] : g.listStart[i]+int(g.listLen[i])]
 			for _, c := range li {
-				g.cmpMark[c] = g.cmpStamp
+				g.compareMark[c] = g.compareStamp
 			}
-			for j := g.hnext[i]; j != -1; j = g.hnext[j] {
-				if g.state[j] != stVar || g.ln[j] != g.ln[i] || g.ne[j] != g.ne[i] || g.hash[j] != g.hash[i] {
+			for j := g.hashNext[i]; j != -1; j = g.hashNext[j] {
+				if g.state[j] != stateVariable || g.listLen[j] != g.listLen[i] || g.elemCount[j] != g.elemCount[i] || g.listHash[j] != g.listHash[i] {
 					continue
 				}
 				same := true
-				for _, c := range g.iw[g.pe[j] : g.pe[j]+int(g.ln[j])] {
-					if g.cmpMark[c] != g.cmpStamp {
+				for _, c := range g.lists[g.listStart[j] : g.listStart[j]+int(g.listLen[j])] {
+					if g.compareMark[c] != g.compareStamp {
 						same = false
 						break
 					}
@@ -466,34 +471,34 @@ func (g *quotientGraph) detectSupervariables() {
 				}
 			}
 		}
-		g.hhead[b] = -1
+		g.hashHead[b] = -1
 	}
-	kept := g.lp[:0]
-	for _, i := range g.lp {
-		if g.state[i] == stVar {
+	kept := g.newElem[:0]
+	for _, i := range g.newElem {
+		if g.state[i] == stateVariable {
 			kept = append(kept, i)
 		}
 	}
-	g.lp = kept
+	g.newElem = kept
 }
 
 // finishDegrees sets the approximate external degree of every variable of
 // Lp and puts it back in its bucket:
 // d̄ᵢ = min(nleft − |i|, d̄ᵢ(old) + |Lp \ i|, |Ai \ i| + |Lp \ i| + Σ_e |Le \ Lp|).
 func (g *quotientGraph) finishDegrees(nleft int) {
-	for _, i := range g.lp {
-		lpOut := g.degLp - g.nv[i]
-		d := nleft - g.nv[i]
-		if v := g.deg[i] + lpOut; v < d {
+	for _, i := range g.newElem {
+		lpOut := g.newElemWeight - g.weight[i]
+		d := nleft - g.weight[i]
+		if v := g.degree[i] + lpOut; v < d {
 			d = v
 		}
-		if v := g.ext[i] + lpOut; v < d {
+		if v := g.external[i] + lpOut; v < d {
 			d = v
 		}
 		if d < 0 {
 			d = 0
 		}
-		g.deg[i] = d
+		g.degree[i] = d
 		g.bucketInsert(i)
 	}
 }
@@ -501,43 +506,43 @@ func (g *quotientGraph) finishDegrees(nleft int) {
 // storeElement writes the variables of the new element p to the end of the
 // list storage.
 func (g *quotientGraph) storeElement(p int) {
-	if len(g.lp) == 0 {
-		g.state[p] = stAbsorbed // no variables left to reach it
+	if len(g.newElem) == 0 {
+		g.state[p] = stateAbsorbed // no variables left to reach it
 		return
 	}
-	g.ensure(len(g.lp))
-	g.pe[p] = len(g.iw)
-	for _, v := range g.lp {
-		g.iw = append(g.iw, int32(v))
+	g.ensure(len(g.newElem))
+	g.listStart[p] = len(g.lists)
+	for _, v := range g.newElem {
+		g.lists = append(g.lists, int32(v))
 	}
-	g.ln[p] = int32(len(g.lp))
-	g.esize[p] = g.degLp
+	g.listLen[p] = int32(len(g.newElem))
+	g.elemWeight[p] = g.newElemWeight
 }
 
-// ensure makes room for need more entries at the end of iw, compacting the
+// ensure makes room for need more entries at the end of lists, compacting the
 // live lists into fresh storage when it is full.
 func (g *quotientGraph) ensure(need int) {
-	if len(g.iw)+need <= cap(g.iw) {
+	if len(g.lists)+need <= cap(g.lists) {
 		return
 	}
 	live := 0
 	for x := 0; x < g.n; x++ {
-		if g.state[x] == stVar || g.state[x] == stElem {
-			live += int(g.ln[x])
+		if g.state[x] == stateVariable || g.state[x] == stateElement {
+			live += int(g.listLen[x])
 		}
 	}
-	size := cap(g.iw)
+	size := cap(g.lists)
 	if 2*(live+need) > size {
 		size = 2 * (live + need)
 	}
-	iw := make([]int32, 0, size)
+	lists := make([]int32, 0, size)
 	for x := 0; x < g.n; x++ {
-		if g.state[x] != stVar && g.state[x] != stElem {
+		if g.state[x] != stateVariable && g.state[x] != stateElement {
 			continue
 		}
-		start := len(iw)
-		iw = append(iw, g.iw[g.pe[x]:g.pe[x]+int(g.ln[x])]...)
-		g.pe[x] = start
+		start := len(lists)
+		lists = append(lists, g.lists[g.listStart[x]:g.listStart[x]+int(g.listLen[x])]...)
+		g.listStart[x] = start
 	}
-	g.iw = iw
+	g.lists = lists
 }

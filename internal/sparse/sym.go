@@ -26,9 +26,6 @@ func NewBuilder(n int) *Builder {
 	return b
 }
 
-// N returns the order of the matrix being built.
-func (b *Builder) N() int { return b.n }
-
 // Add adds v at (i,j) and, when i != j, also at (j,i). Call it once per
 // unordered pair: Add(i,j,v) and Add(j,i,v) together add 2v to both
 // entries. An index outside [0,n) is not stored; it is remembered and

@@ -19,21 +19,26 @@ type symbolic struct {
 	flops     float64
 }
 
-// etree returns the elimination tree of the permuted matrix (Liu, "The
-// role of elimination trees in sparse factorization", SIAM J. Matrix Anal.
-// Appl. 11(1), 1990, algorithm with path compression): parent[k], -1 for a
-// root. Row k of the strict lower triangle of P A Pᵀ is
-// lri[lrp[k]:lrp[k+1]].
+// etree returns the elimination tree of the permuted matrix: parent[k] is
+// the row of the first off-diagonal nonzero in column k of the Cholesky
+// factor L, -1 for a root. Method: Liu, "The role of elimination trees in
+// sparse factorization", SIAM J. Matrix Anal. Appl. 11(1), 1990, the
+// row-by-row algorithm with path compression (virtual ancestors), as also
+// given by T. A. Davis, "Direct Methods for Sparse Linear Systems", SIAM
+// 2006, chapter 4 (section 4.1); both from memory. Row k of the strict
+// lower triangle of P A Pᵀ is lri[lrp[k]:lrp[k+1]].
 func etree(n int, lrp []int, lri []int32) []int {
 	parent := make([]int, n)
-	anc := make([]int, n)
+	ancestor := make([]int, n) // virtual ancestor: the root of i's subtree found so far (path compression)
 	for k := 0; k < n; k++ {
 		parent[k] = -1
-		anc[k] = -1
+		ancestor[k] = -1
 		for _, j := range lri[lrp[k]:lrp[k+1]] {
+			// Climb from j to the root of its subtree, pointing every
+			// node passed at k.
 			for i := int(j); i != -1 && i < k; {
-				next := anc[i]
-				anc[i] = k
+				next := ancestor[i]
+				ancestor[i] = k
 				if next == -1 {
 					parent[i] = k
 				}
@@ -62,20 +67,22 @@ func lowerRows(a *Sym, perm, ip []int) ([]int, []int32) {
 }
 
 // postorder returns a depth-first postorder of the forest parent: every
-// node comes after all of its descendants, children in increasing order
-// (the non-recursive postorder of T. A. Davis, "Direct Methods for Sparse
-// Linear Systems", SIAM 2006, section 4.3; from memory).
+// node comes after all of its descendants, children in increasing order.
+// Method: the non-recursive postorder of the elimination tree of T. A.
+// Davis, "Direct Methods for Sparse Linear Systems", SIAM 2006, chapter 4
+// (section 4.3; from memory); Liu 1990 (above) shows that any postorder of
+// the elimination tree is an equivalent ordering, with the same fill.
 func postorder(parent []int) []int {
 	n := len(parent)
-	head := make([]int, n) // first child not yet visited
-	next := make([]int, n) // next sibling
-	for j := range head {
-		head[j] = -1
+	firstChild := make([]int, n)  // first child not yet visited
+	nextSibling := make([]int, n) // next sibling
+	for j := range firstChild {
+		firstChild[j] = -1
 	}
 	for j := n - 1; j >= 0; j-- {
 		if p := parent[j]; p != -1 {
-			next[j] = head[p]
-			head[p] = j
+			nextSibling[j] = firstChild[p]
+			firstChild[p] = j
 		}
 	}
 	post := make([]int, 0, n)
@@ -87,8 +94,8 @@ func postorder(parent []int) []int {
 		stack = append(stack, r)
 		for len(stack) > 0 {
 			v := stack[len(stack)-1]
-			if c := head[v]; c != -1 {
-				head[v] = next[c]
+			if c := firstChild[v]; c != -1 {
+				firstChild[v] = nextSibling[c]
 				stack = append(stack, c)
 				continue
 			}

@@ -76,12 +76,6 @@ type CommitResult struct {
 // measured ~200k rows/s with 100-row statements against 85k with single rows.
 const rowsPerStatement = 200
 
-// Time range limits of the INTEGER nanosecond column.
-var (
-	minTime = time.Unix(0, math.MinInt64).Add(time.Second)
-	maxTime = time.Unix(0, math.MaxInt64).Add(-time.Second)
-)
-
 // checkReading reports why r cannot be stored, or nil.
 func checkReading(structure string, r Reading) error {
 	if structure == "" {
@@ -93,8 +87,9 @@ func checkReading(structure string, r Reading) error {
 	if math.IsNaN(r.Value) || math.IsInf(r.Value, 0) {
 		return fmt.Errorf("structure %q channel %q at %s: value %v is not finite", structure, r.Channel, r.Time.Format(time.RFC3339Nano), r.Value)
 	}
-	if r.Time.Before(minTime) || r.Time.After(maxTime) {
-		return fmt.Errorf("structure %q channel %q: time %s is outside the storable range (years 1678 to 2262)", structure, r.Channel, r.Time.Format(time.RFC3339))
+	if !Storable(r.Time) {
+		lo, hi := StorableRange()
+		return fmt.Errorf("structure %q channel %q: time %s is outside the storable range %s to %s", structure, r.Channel, r.Time.Format(time.RFC3339), lo.Format(time.DateOnly), hi.Format(time.DateOnly))
 	}
 	return nil
 }
@@ -639,9 +634,9 @@ func nsRange(from, to time.Time) (int64, int64) {
 
 func clampNs(t time.Time) int64 {
 	switch {
-	case t.Before(minTime):
+	case t.Before(time.Unix(0, earliestStorableNs)):
 		return math.MinInt64
-	case t.After(maxTime):
+	case t.After(time.Unix(0, latestStorableNs)):
 		return math.MaxInt64
 	}
 	return t.UnixNano()

@@ -8,6 +8,7 @@ import (
 	"trussmonitor/internal/capacity"
 	"trussmonitor/internal/model"
 	"trussmonitor/internal/units"
+	"trussmonitor/internal/yamlfile"
 )
 
 // Bounds of the design inputs. Values outside are refused as typing or
@@ -29,21 +30,21 @@ const (
 //	  gamma_M0: 1.0              # EN 1993-1-1 only, required
 //	  gamma_M1: 1.0
 func (r *reader) designBlock(s *state, n *yaml.Node) {
-	m, ok := r.fields(n, "design", "standard", "gamma_M0", "gamma_M1")
+	m, ok := r.Fields(n, "design", "standard", "gamma_M0", "gamma_M1")
 	if !ok {
 		return
 	}
-	sn, ok := r.need(m, n, "design", "standard")
+	sn, ok := r.Need(m, n, "design", "standard")
 	if !ok {
 		return
 	}
-	name, ok := r.str(sn, "design.standard")
+	name, ok := r.Str(sn, "design.standard")
 	if !ok {
 		return
 	}
 	std, err := capacity.ParseStandard(name)
 	if err != nil {
-		r.wrap(sn, "design.standard", err, "")
+		r.Wrap(sn, "design.standard", err, "")
 		return
 	}
 	d := &capacity.Design{Standard: std}
@@ -55,20 +56,20 @@ func (r *reader) designBlock(s *state, n *yaml.Node) {
 		f := "design." + g.key
 		if std != capacity.EN1993 {
 			if given {
-				r.errorf(gn, f, "partial factors belong to EN 1993-1-1; %s uses its resistance factor phi = 0.90; remove %s", std, g.key)
+				r.Errorf(gn, f, "partial factors belong to EN 1993-1-1; %s uses its resistance factor phi = 0.90; remove %s", std, g.key)
 			}
 			continue
 		}
 		if !given {
-			r.errorf(n, f, "missing; give the partial factor of your national annex (EN 1993-1-1 6.1 recommends 1.0)")
+			r.Errorf(n, f, "missing; give the partial factor of your national annex (EN 1993-1-1 6.1 recommends 1.0)")
 			continue
 		}
-		v, ok := r.number(gn, f)
+		v, ok := r.Number(gn, f)
 		if !ok {
 			continue
 		}
 		if v < minGamma || v > maxGamma {
-			r.errorf(gn, f, "partial factor %v is outside %v..%v", v, minGamma, maxGamma)
+			r.Errorf(gn, f, "partial factor %v is outside %v..%v", v, minGamma, maxGamma)
 			continue
 		}
 		*g.out = v
@@ -88,7 +89,7 @@ func (r *reader) yieldStrength(mat *material, m map[string]*yaml.Node, f string)
 		return
 	}
 	if !(fy > 0) || (mat.e > 0 && fy >= mat.e) {
-		r.errorf(v, f+".yield_strength", "yield strength must be positive and below the modulus of elasticity, got %s (check the unit)", v.Value)
+		r.Errorf(v, f+".yield_strength", "yield strength must be positive and below the modulus of elasticity, got %s (check the unit)", v.Value)
 		return
 	}
 	mat.fy = fy
@@ -100,26 +101,17 @@ func (r *reader) sectionBuckling(s *state, sec *section, m map[string]*yaml.Node
 	rn, hasR := m["radius_of_gyration"]
 	in, hasI := m["second_moment"]
 	if hasR && hasI {
-		r.errorf(it, f, "give either radius_of_gyration or second_moment (about the weaker axis), not both")
+		r.Errorf(it, f, "give either radius_of_gyration or second_moment (about the weaker axis), not both")
 		return
 	}
 	if hasR {
-		if v, ok := r.quantity(rn, f+".radius_of_gyration", units.Length); ok {
-			if !(v > 0) {
-				r.errorf(rn, f+".radius_of_gyration", "radius of gyration must be positive, got %s", rn.Value)
-			} else {
-				sec.radius = v
-			}
+		if v, ok := r.positiveQuantity(rn, f+".radius_of_gyration", units.Length, "radius of gyration"); ok {
+			sec.radius = v
 		}
 	}
 	if hasI {
-		if v, ok := r.quantity(in, f+".second_moment", units.SecondMoment); ok {
-			switch {
-			case !(v > 0):
-				r.errorf(in, f+".second_moment", "second moment of area must be positive, got %s", in.Value)
-			case sec.area > 0:
-				sec.radius = math.Sqrt(v / sec.area)
-			}
+		if v, ok := r.positiveQuantity(in, f+".second_moment", units.SecondMoment, "second moment of area"); ok && sec.area > 0 {
+			sec.radius = math.Sqrt(v / sec.area)
 		}
 	}
 	if cn, ok := m["buckling_curve"]; ok {
@@ -129,17 +121,17 @@ func (r *reader) sectionBuckling(s *state, sec *section, m map[string]*yaml.Node
 
 // curve reads a buckling curve letter (EN 1993-1-1 only).
 func (r *reader) curve(s *state, n *yaml.Node, f string) capacity.Curve {
-	name, ok := r.str(n, f)
+	name, ok := r.Str(n, f)
 	if !ok {
 		return 0
 	}
 	if s.st.Design != nil && s.st.Design.Standard != capacity.EN1993 {
-		r.errorf(n, f, "buckling curves belong to EN 1993-1-1; the design standard is %s; remove it", s.st.Design.Standard)
+		r.Errorf(n, f, "buckling curves belong to EN 1993-1-1; the design standard is %s; remove it", s.st.Design.Standard)
 		return 0
 	}
 	c, err := capacity.ParseCurve(name)
 	if err != nil {
-		r.wrap(n, f, err, "")
+		r.Wrap(n, f, err, "")
 		return 0
 	}
 	return c
@@ -158,19 +150,15 @@ func (r *reader) memberBuckling(s *state, mem *model.Member, sec *section, mat *
 	ln, hasL := m["buckling_length"]
 	kn, hasK := m["buckling_factor"]
 	if hasL && hasK {
-		r.errorf(it, f, "give either buckling_length or buckling_factor, not both")
+		r.Errorf(it, f, "give either buckling_length or buckling_factor, not both")
 	} else if hasL {
-		if v, ok := r.quantity(ln, f+".buckling_length", units.Length); ok {
-			if !(v > 0) {
-				r.errorf(ln, f+".buckling_length", "buckling length must be positive, got %s", ln.Value)
-			} else {
-				mem.BucklingLength = v
-			}
+		if v, ok := r.positiveQuantity(ln, f+".buckling_length", units.Length, "buckling length"); ok {
+			mem.BucklingLength = v
 		}
 	} else if hasK {
-		if v, ok := r.number(kn, f+".buckling_factor"); ok {
+		if v, ok := r.Number(kn, f+".buckling_factor"); ok {
 			if !(v > 0) || v > maxBucklingFactor {
-				r.errorf(kn, f+".buckling_factor", "buckling-length factor must be above 0 and at most %v, got %v", maxBucklingFactor, v)
+				r.Errorf(kn, f+".buckling_factor", "buckling-length factor must be above 0 and at most %v, got %v", maxBucklingFactor, v)
 			} else {
 				mem.BucklingFactor = v
 			}
@@ -196,23 +184,23 @@ func (r *reader) designInputs(s *state) {
 			continue // reported already
 		}
 		if mem.Fy == 0 {
-			r.errorAt(mem.Line, f, "the design standard %s needs a yield strength: add yield_strength to material %q", d.Standard, mem.Material)
+			r.ErrorAt(mem.Line, f, "the design standard %s needs a yield strength: add yield_strength to material %q", d.Standard, mem.Material)
 		}
 		if mem.RadiusOfGyration == 0 {
-			r.errorAt(mem.Line, f, "the design standard %s needs the weaker-axis radius_of_gyration or second_moment of section %q", d.Standard, mem.Section)
+			r.ErrorAt(mem.Line, f, "the design standard %s needs the weaker-axis radius_of_gyration or second_moment of section %q", d.Standard, mem.Section)
 		}
 		if d.Standard == capacity.EN1993 && mem.Curve == 0 {
-			r.errorAt(mem.Line, f, "EN 1993-1-1 needs a buckling curve (a0, a, b, c or d, Table 6.2): add buckling_curve to section %q or to the member", mem.Section)
+			r.ErrorAt(mem.Line, f, "EN 1993-1-1 needs a buckling curve (a0, a, b, c or d, Table 6.2): add buckling_curve to section %q or to the member", mem.Section)
 		}
 	}
-	if len(r.errs) > 0 {
+	if len(r.Errors()) > 0 {
 		return
 	}
 	for k, mem := range s.st.Members {
 		_, err := capacity.Compute(*d, capacity.Member{A: mem.A, E: mem.E, Fy: mem.Fy, RadiusOfGyration: mem.RadiusOfGyration,
 			BucklingLength: s.st.EffectiveBucklingLength(k), Curve: mem.Curve})
 		if err != nil {
-			r.errorAt(mem.Line, "members["+mem.ID+"]", "design resistance: %v", err)
+			r.ErrorAt(mem.Line, "members["+mem.ID+"]", "design resistance: %v", err)
 		}
 	}
 }
@@ -222,16 +210,16 @@ func (r *reader) designInputs(s *state) {
 // "1 kN", a pressure such as "1 kPa" or a line load such as "2.5 kN/m").
 func (r *reader) referenceLoad(p *model.Pattern, n *yaml.Node, f string) {
 	if n.Kind != yaml.ScalarNode || n.ShortTag() != "!!str" {
-		r.errorf(n, f, "expected a load with its unit such as \"1 kPa\", \"1 kN\" or \"2.5 kN/m\", found %s", kindName(n))
+		r.Errorf(n, f, "expected a load with its unit such as \"1 kPa\", \"1 kN\" or \"2.5 kN/m\", found %s", yamlfile.KindName(n))
 		return
 	}
 	v, u, err := units.ParseWritten(n.Value, units.Force, units.Pressure, units.Stiffness)
 	if err != nil {
-		r.wrap(n, f, err, "")
+		r.Wrap(n, f, err, "")
 		return
 	}
 	if !(v > 0) {
-		r.errorf(n, f, "reference load must be positive, got %s", n.Value)
+		r.Errorf(n, f, "reference load must be positive, got %s", n.Value)
 		return
 	}
 	p.ReferenceValue, p.ReferenceUnit = v, u.Symbol

@@ -4,11 +4,13 @@ import (
 	"errors"
 	"math"
 	"testing"
+
+	"trussmonitor/internal/yamlfile"
 )
 
 // FuzzParse feeds arbitrary bytes to Parse: it must never panic, and it
 // returns either a structure whose indices are in range and whose values
-// are finite, or an ErrorList whose entries name the file. The seed corpus
+// are finite, or an yamlfile.ErrorList whose entries name the file. The seed corpus
 // is in testdata/fuzz/FuzzParse (the reference, invalid and footbridge
 // files).
 func FuzzParse(f *testing.F) {
@@ -21,9 +23,9 @@ func FuzzParse(f *testing.F) {
 			if s != nil {
 				t.Fatal("structure returned with an error")
 			}
-			var list ErrorList
+			var list yamlfile.ErrorList
 			if !errors.As(err, &list) || len(list) == 0 {
-				t.Fatalf("error is not a non-empty ErrorList: %T %v", err, err)
+				t.Fatalf("error is not a non-empty yamlfile.ErrorList: %T %v", err, err)
 			}
 			for _, e := range list {
 				if e.File != "fuzz.yaml" || e.Msg == "" || e.Line < 0 {

@@ -11,6 +11,7 @@ import (
 	"trussmonitor/internal/capacity"
 	"trussmonitor/internal/model"
 	"trussmonitor/internal/units"
+	"trussmonitor/internal/yamlfile"
 )
 
 // material is a material as declared, in SI.
@@ -56,10 +57,10 @@ var axisNames = [3]string{"x", "y", "z"}
 // structure reads the root mapping.
 func (r *reader) structure(root *yaml.Node) *model.Structure {
 	r.checkAliases(root, 0)
-	if len(r.errs) > 0 {
+	if len(r.Errors()) > 0 {
 		return nil
 	}
-	m, ok := r.fields(root, "", "name", "title", "dimension", "units", "gravity",
+	m, ok := r.Fields(root, "", "name", "title", "dimension", "units", "gravity",
 		"nodes", "materials", "sections", "members", "groups", "supports", "patterns", "cases", "design")
 	if !ok {
 		return nil
@@ -75,21 +76,21 @@ func (r *reader) structure(root *yaml.Node) *model.Structure {
 		supports:  map[int]int{},
 		badNode:   map[int]bool{},
 	}
-	if n, ok := r.need(m, root, "", "name"); ok {
+	if n, ok := r.Need(m, root, "", "name"); ok {
 		if v, ok := r.id(n, "name"); ok {
 			s.st.Name = v
 		}
 	}
 	if n, ok := m["title"]; ok {
-		if v, ok := r.str(n, "title"); ok {
+		if v, ok := r.Str(n, "title"); ok {
 			s.st.Title = v
 		}
 	}
 	s.dim = 3 // keep going with 3 if the dimension is missing or wrong
-	if n, ok := r.need(m, root, "", "dimension"); ok {
-		if v, ok := r.number(n, "dimension"); ok {
+	if n, ok := r.Need(m, root, "", "dimension"); ok {
+		if v, ok := r.Number(n, "dimension"); ok {
 			if v != 2 && v != 3 {
-				r.errorf(n, "dimension", "must be 2 (plane truss, x and y) or 3 (space truss, x, y and z), not %v", n.Value)
+				r.Errorf(n, "dimension", "must be 2 (plane truss, x and y) or 3 (space truss, x, y and z), not %v", n.Value)
 			} else {
 				s.dim = int(v)
 			}
@@ -110,19 +111,19 @@ func (r *reader) structure(root *yaml.Node) *model.Structure {
 	if n, ok := m["design"]; ok {
 		r.designBlock(s, n)
 	}
-	if n, ok := r.need(m, root, "", "nodes"); ok {
+	if n, ok := r.Need(m, root, "", "nodes"); ok {
 		r.nodes(s, n)
 	}
-	if n, ok := r.need(m, root, "", "materials"); ok {
+	if n, ok := r.Need(m, root, "", "materials"); ok {
 		r.materials(s, n)
 	}
-	if n, ok := r.need(m, root, "", "sections"); ok {
+	if n, ok := r.Need(m, root, "", "sections"); ok {
 		r.sections(s, n)
 	}
 	if n, ok := m["groups"]; ok {
 		r.groupsDecl(s, n)
 	}
-	if n, ok := r.need(m, root, "", "members"); ok {
+	if n, ok := r.Need(m, root, "", "members"); ok {
 		r.members(s, n)
 	}
 	if n, ok := m["groups"]; ok {
@@ -130,7 +131,7 @@ func (r *reader) structure(root *yaml.Node) *model.Structure {
 	}
 	for name, idx := range s.st.Groups {
 		if len(idx) == 0 {
-			r.errorAt(s.groupLine[name], "groups["+name+"]", "group has no members; list them under members: or give members groups: [%s]", name)
+			r.ErrorAt(s.groupLine[name], "groups["+name+"]", "group has no members; list them under members: or give members groups: [%s]", name)
 		}
 		sort.Ints(idx)
 	}
@@ -162,18 +163,18 @@ func (r *reader) unitsBlock(n *yaml.Node) {
 			byKey[k] = d
 		}
 	}
-	m, ok := r.fields(n, "units", keys...)
+	m, ok := r.Fields(n, "units", keys...)
 	if !ok {
 		return
 	}
 	for k, v := range m {
 		f := "units." + k
-		sym, ok := r.str(v, f)
+		sym, ok := r.Str(v, f)
 		if !ok {
 			continue
 		}
 		if _, err := units.Check(sym, byKey[k]); err != nil {
-			r.wrap(v, f, err, "")
+			r.Wrap(v, f, err, "")
 			continue
 		}
 		r.units[byKey[k]] = sym
@@ -198,12 +199,12 @@ func (r *reader) vector(n *yaml.Node, field string, dim int) ([3]float64, bool) 
 		return out, false
 	}
 	if len(items) != dim {
-		r.errorf(n, field, "expected %d components for a %dD structure, found %d", dim, dim, len(items))
+		r.Errorf(n, field, "expected %d components for a %dD structure, found %d", dim, dim, len(items))
 		return out, false
 	}
 	good := true
 	for k, it := range items {
-		v, ok := r.number(it, fmt.Sprintf("%s[%d]", field, k))
+		v, ok := r.Number(it, fmt.Sprintf("%s[%d]", field, k))
 		if !ok {
 			good = false
 			continue
@@ -215,7 +216,7 @@ func (r *reader) vector(n *yaml.Node, field string, dim int) ([3]float64, bool) 
 	}
 	l := math.Sqrt(out[0]*out[0] + out[1]*out[1] + out[2]*out[2])
 	if l == 0 || math.IsInf(l, 0) {
-		r.errorf(n, field, "the vector has zero length; give a direction such as [0, 1]")
+		r.Errorf(n, field, "the vector has zero length; give a direction such as [0, 1]")
 		return out, false
 	}
 	for k := range out {
@@ -239,21 +240,15 @@ func (r *reader) nodes(s *state, n *yaml.Node) {
 		return
 	}
 	if len(items) == 0 {
-		r.errorf(n, "nodes", "no nodes declared")
+		r.Errorf(n, "nodes", "no nodes declared")
 	}
 	for i, it := range items {
-		m, id, f, ok := r.entry(it, "nodes", "node", "id", i, func(id string) (int, bool) {
-			prev, dup := s.nodes[id]
-			if !dup {
-				return 0, false
-			}
-			return s.st.Nodes[prev].Line, true
-		}, "id", "at")
+		m, id, f, ok := r.entry(it, "nodes", "node", "id", i, firstDeclared(s.nodes, func(i int) int { return s.st.Nodes[i].Line }), "id", "at")
 		if !ok {
 			continue
 		}
 		node := model.Node{ID: id, Line: it.Line}
-		at, ok := r.need(m, it, f, "at")
+		at, ok := r.Need(m, it, f, "at")
 		if ok {
 			node.X, ok = r.coords(s, at, f+".at")
 		}
@@ -273,7 +268,7 @@ func (r *reader) coords(s *state, n *yaml.Node, field string) ([3]float64, bool)
 		return x, false
 	}
 	if s.dim == 2 && len(items) == 3 {
-		r.errorf(items[2], field, "a z coordinate in a 2D file (dimension: 2); give [x, y], or set dimension: 3")
+		r.Errorf(items[2], field, "a z coordinate in a 2D file (dimension: 2); give [x, y], or set dimension: 3")
 		return x, false
 	}
 	if len(items) != s.dim {
@@ -281,7 +276,7 @@ func (r *reader) coords(s *state, n *yaml.Node, field string) ([3]float64, bool)
 		if s.dim == 3 {
 			want = "[x, y, z]"
 		}
-		r.errorf(n, field, "expected %d coordinates %s, found %d", s.dim, want, len(items))
+		r.Errorf(n, field, "expected %d coordinates %s, found %d", s.dim, want, len(items))
 		return x, false
 	}
 	good := true
@@ -302,10 +297,10 @@ func (r *reader) coords(s *state, n *yaml.Node, field string) ([3]float64, bool)
 // the item's field path naming it.
 func (r *reader) entry(it *yaml.Node, kind, noun, key string, i int, firstLine func(id string) (int, bool), allowed ...string) (m map[string]*yaml.Node, id, f string, ok bool) {
 	f = item(kind, i, "")
-	if m, ok = r.fields(it, f, allowed...); !ok {
+	if m, ok = r.Fields(it, f, allowed...); !ok {
 		return nil, "", f, false
 	}
-	idn, ok := r.need(m, it, f, key)
+	idn, ok := r.Need(m, it, f, key)
 	if !ok {
 		return nil, "", f, false
 	}
@@ -314,10 +309,23 @@ func (r *reader) entry(it *yaml.Node, kind, noun, key string, i int, firstLine f
 	}
 	f = item(kind, i, id)
 	if line, dup := firstLine(id); dup {
-		r.errorf(idn, f+"."+key, "duplicate %s %s %q (first declared on line %d)", noun, key, id, line)
+		r.Errorf(idn, f+"."+key, "duplicate %s %s %q (first declared on line %d)", noun, key, id, line)
 		return nil, "", f, false
 	}
 	return m, id, f, true
+}
+
+// firstDeclared is the look-up entry takes for a list whose entries are
+// indexed by id in index: the line on which id was first declared (line
+// gives it for an indexed value), and whether it was.
+func firstDeclared[T any](index map[string]T, line func(T) int) func(id string) (int, bool) {
+	return func(id string) (int, bool) {
+		v, dup := index[id]
+		if !dup {
+			return 0, false
+		}
+		return line(v), true
+	}
 }
 
 func (r *reader) materials(s *state, n *yaml.Node) {
@@ -326,28 +334,17 @@ func (r *reader) materials(s *state, n *yaml.Node) {
 		return
 	}
 	for i, it := range items {
-		m, id, f, ok := r.entry(it, "materials", "material", "id", i, func(id string) (int, bool) {
-			prev, dup := s.materials[id]
-			if !dup {
-				return 0, false
-			}
-			return prev.line, true
-		}, "id", "modulus", "thermal_coefficient", "density", "description", "yield_strength")
+		m, id, f, ok := r.entry(it, "materials", "material", "id", i, firstDeclared(s.materials, func(m *material) int { return m.line }), "id", "modulus", "thermal_coefficient", "density", "description", "yield_strength")
 		if !ok {
 			continue
 		}
 		mat := &material{id: id, line: it.Line}
 		s.materials[id] = mat
 		if d, ok := m["description"]; ok {
-			r.str(d, f+".description")
+			r.Str(d, f+".description")
 		}
-		if v, ok := r.need(m, it, f, "modulus"); ok {
-			if e, ok := r.quantity(v, f+".modulus", units.Stress); ok {
-				if e <= 0 {
-					r.errorf(v, f+".modulus", "modulus of elasticity must be positive, got %s", v.Value)
-				}
-				mat.e = e
-			}
+		if v, ok := r.Need(m, it, f, "modulus"); ok {
+			mat.e, _ = r.positiveQuantity(v, f+".modulus", units.Stress, "modulus of elasticity")
 		}
 		if v, ok := m["thermal_coefficient"]; ok {
 			if a, ok := r.quantity(v, f+".thermal_coefficient", units.ThermalCoefficient); ok {
@@ -357,7 +354,7 @@ func (r *reader) materials(s *state, n *yaml.Node) {
 		if v, ok := m["density"]; ok {
 			if d, ok := r.quantity(v, f+".density", units.Density); ok {
 				if d < 0 {
-					r.errorf(v, f+".density", "density must not be negative, got %s", v.Value)
+					r.Errorf(v, f+".density", "density must not be negative, got %s", v.Value)
 				}
 				mat.density, mat.hasRho = d, true
 			}
@@ -372,34 +369,23 @@ func (r *reader) sections(s *state, n *yaml.Node) {
 		return
 	}
 	for i, it := range items {
-		m, id, f, ok := r.entry(it, "sections", "section", "id", i, func(id string) (int, bool) {
-			prev, dup := s.sections[id]
-			if !dup {
-				return 0, false
-			}
-			return prev.line, true
-		}, "id", "area", "material", "description", "radius_of_gyration", "second_moment", "buckling_curve")
+		m, id, f, ok := r.entry(it, "sections", "section", "id", i, firstDeclared(s.sections, func(m *section) int { return m.line }), "id", "area", "material", "description", "radius_of_gyration", "second_moment", "buckling_curve")
 		if !ok {
 			continue
 		}
 		sec := &section{id: id, line: it.Line}
 		s.sections[id] = sec
 		if d, ok := m["description"]; ok {
-			r.str(d, f+".description")
+			r.Str(d, f+".description")
 		}
-		if v, ok := r.need(m, it, f, "area"); ok {
-			if a, ok := r.quantity(v, f+".area", units.Area); ok {
-				if a <= 0 {
-					r.errorf(v, f+".area", "cross-section area must be positive, got %s", v.Value)
-				}
-				sec.area = a
-			}
+		if v, ok := r.Need(m, it, f, "area"); ok {
+			sec.area, _ = r.positiveQuantity(v, f+".area", units.Area, "cross-section area")
 		}
-		if v, ok := r.need(m, it, f, "material"); ok {
+		if v, ok := r.Need(m, it, f, "material"); ok {
 			if mid, ok := r.id(v, f+".material"); ok {
 				mat, found := s.materials[mid]
 				if !found {
-					r.errorf(v, f+".material", "unknown material %q; declared materials: %s", mid, keyList(s.materials))
+					r.Errorf(v, f+".material", "unknown material %q; declared materials: %s", mid, keyList(s.materials))
 				}
 				sec.material, sec.mat = mid, mat
 			}
@@ -432,11 +418,11 @@ func (r *reader) groupsDecl(s *state, n *yaml.Node) {
 	}
 	for i, it := range items {
 		f := item("groups", i, "")
-		m, ok := r.fields(it, f, "name", "members", "description")
+		m, ok := r.Fields(it, f, "name", "members", "description")
 		if !ok {
 			continue
 		}
-		nn, ok := r.need(m, it, f, "name")
+		nn, ok := r.Need(m, it, f, "name")
 		if !ok {
 			continue
 		}
@@ -445,13 +431,13 @@ func (r *reader) groupsDecl(s *state, n *yaml.Node) {
 			continue
 		}
 		if l, dup := s.groupLine[name]; dup {
-			r.errorf(nn, item("groups", i, name)+".name", "duplicate group name %q (first declared on line %d)", name, l)
+			r.Errorf(nn, item("groups", i, name)+".name", "duplicate group name %q (first declared on line %d)", name, l)
 			continue
 		}
 		s.groupLine[name] = it.Line
 		s.st.Groups[name] = nil
 		if d, ok := m["description"]; ok {
-			r.str(d, item("groups", i, name)+".description")
+			r.Str(d, item("groups", i, name)+".description")
 		}
 	}
 }
@@ -485,7 +471,7 @@ func (r *reader) groupsMembers(s *state, n *yaml.Node) {
 		for k, id := range ids {
 			mi, found := s.members[id]
 			if !found {
-				r.errorf(nodes[k], f, "unknown member %q", id)
+				r.Errorf(nodes[k], f, "unknown member %q", id)
 				continue
 			}
 			r.addToGroup(s, name, mi, nodes[k], f)
@@ -501,7 +487,7 @@ func (r *reader) addToGroup(s *state, name string, mi int, at *yaml.Node, field 
 		s.inGroup[name] = set
 	}
 	if set[mi] {
-		r.errorf(at, field, "member %q is already in group %q", s.st.Members[mi].ID, name)
+		r.Errorf(at, field, "member %q is already in group %q", s.st.Members[mi].ID, name)
 		return
 	}
 	set[mi] = true
@@ -514,23 +500,17 @@ func (r *reader) members(s *state, n *yaml.Node) {
 		return
 	}
 	if len(items) == 0 {
-		r.errorf(n, "members", "no members declared")
+		r.Errorf(n, "members", "no members declared")
 	}
 	for i, it := range items {
-		m, id, f, ok := r.entry(it, "members", "member", "id", i, func(id string) (int, bool) {
-			prev, dup := s.members[id]
-			if !dup {
-				return 0, false
-			}
-			return s.st.Members[prev].Line, true
-		}, "id", "from", "to", "section", "groups", "buckling_length", "buckling_factor", "buckling_curve")
+		m, id, f, ok := r.entry(it, "members", "member", "id", i, firstDeclared(s.members, func(i int) int { return s.st.Members[i].Line }), "id", "from", "to", "section", "groups", "buckling_length", "buckling_factor", "buckling_curve")
 		if !ok {
 			continue
 		}
 		mem := model.Member{ID: id, I: -1, J: -1, Line: it.Line}
 		good := true
 		for _, end := range []string{"from", "to"} {
-			v, ok := r.need(m, it, f, end)
+			v, ok := r.Need(m, it, f, end)
 			if !ok {
 				good = false
 				continue
@@ -542,7 +522,7 @@ func (r *reader) members(s *state, n *yaml.Node) {
 			}
 			ni, found := s.nodes[nid]
 			if !found {
-				r.errorf(v, f+"."+end, "unknown node %q; declare it under nodes:", nid)
+				r.Errorf(v, f+"."+end, "unknown node %q; declare it under nodes:", nid)
 				good = false
 				continue
 			}
@@ -553,15 +533,15 @@ func (r *reader) members(s *state, n *yaml.Node) {
 			}
 		}
 		if good && mem.I == mem.J {
-			r.errorf(it, f, "member starts and ends at the same node %q", s.st.Nodes[mem.I].ID)
+			r.Errorf(it, f, "member starts and ends at the same node %q", s.st.Nodes[mem.I].ID)
 		}
 		var mat *material
 		var msec *section
-		if v, ok := r.need(m, it, f, "section"); ok {
+		if v, ok := r.Need(m, it, f, "section"); ok {
 			if sid, ok := r.id(v, f+".section"); ok {
 				sec, found := s.sections[sid]
 				if !found {
-					r.errorf(v, f+".section", "unknown section %q; declared sections: %s", sid, keyList(s.sections))
+					r.Errorf(v, f+".section", "unknown section %q; declared sections: %s", sid, keyList(s.sections))
 				} else {
 					mem.Section, mem.A, msec = sid, sec.area, sec
 					if sec.mat != nil {
@@ -581,7 +561,7 @@ func (r *reader) members(s *state, n *yaml.Node) {
 			names, nodes, _ := r.idList(v, gf)
 			for k, g := range names {
 				if _, found := s.groupLine[g]; !found {
-					r.errorf(nodes[k], gf, "unknown group %q; declare it under groups: (declared: %s)", g, keyList(s.groupLine))
+					r.Errorf(nodes[k], gf, "unknown group %q; declare it under groups: (declared: %s)", g, keyList(s.groupLine))
 					continue
 				}
 				r.addToGroup(s, g, mi, nodes[k], gf)
@@ -597,11 +577,11 @@ func (r *reader) supports(s *state, n *yaml.Node) {
 	}
 	for i, it := range items {
 		f := item("supports", i, "")
-		m, ok := r.fields(it, f, "node", "fix", "normal", "spring")
+		m, ok := r.Fields(it, f, "node", "fix", "normal", "spring")
 		if !ok {
 			continue
 		}
-		nn, ok := r.need(m, it, f, "node")
+		nn, ok := r.Need(m, it, f, "node")
 		if !ok {
 			continue
 		}
@@ -612,11 +592,11 @@ func (r *reader) supports(s *state, n *yaml.Node) {
 		f = item("supports", i, nid)
 		ni, found := s.nodes[nid]
 		if !found {
-			r.errorf(nn, f+".node", "unknown node %q", nid)
+			r.Errorf(nn, f+".node", "unknown node %q", nid)
 			continue
 		}
 		if prev, dup := s.supports[ni]; dup {
-			r.errorf(nn, f+".node", "node %q already has a support (line %d); put all its restraints in one entry", nid, s.st.Supports[prev].Line)
+			r.Errorf(nn, f+".node", "node %q already has a support (line %d); put all its restraints in one entry", nid, s.st.Supports[prev].Line)
 			continue
 		}
 		sup := model.Support{Node: ni, Line: it.Line}
@@ -628,20 +608,20 @@ func (r *reader) supports(s *state, n *yaml.Node) {
 					continue
 				}
 				if sup.Fixed[ax] {
-					r.errorf(nodes[k], f+".fix", "%s is listed twice", a)
+					r.Errorf(nodes[k], f+".fix", "%s is listed twice", a)
 				}
 				sup.Fixed[ax] = true
 			}
 		}
 		if v, ok := m["normal"]; ok {
 			if _, fixed := m["fix"]; fixed {
-				r.errorf(v, f+".normal", "an inclined roller (normal) cannot also fix axes in the same support; use either fix: or normal:")
+				r.Errorf(v, f+".normal", "an inclined roller (normal) cannot also fix axes in the same support; use either fix: or normal:")
 			} else if nv, ok := r.vector(v, f+".normal", s.dim); ok {
 				sup.Normal = &nv
 			}
 		}
 		if v, ok := m["spring"]; ok {
-			sm, ok := r.fields(v, f+".spring", axisNames[:s.dim]...)
+			sm, ok := r.Fields(v, f+".spring", axisNames[:s.dim]...)
 			if ok {
 				for ax := 0; ax < 3; ax++ {
 					sv, given := sm[axisNames[ax]]
@@ -649,22 +629,18 @@ func (r *reader) supports(s *state, n *yaml.Node) {
 						continue
 					}
 					sf := f + ".spring." + axisNames[ax]
-					k, ok := r.quantity(sv, sf, units.Stiffness)
+					k, ok := r.positiveQuantity(sv, sf, units.Stiffness, "spring stiffness")
 					if !ok {
 						continue
 					}
-					if k <= 0 {
-						r.errorf(sv, sf, "spring stiffness must be positive, got %s", sv.Value)
-						continue
-					}
 					if sup.Fixed[ax] {
-						r.errorf(sv, sf, "%s is both fixed and on a spring; use one", axisNames[ax])
+						r.Errorf(sv, sf, "%s is both fixed and on a spring; use one", axisNames[ax])
 						continue
 					}
 					sup.Spring[ax] = k
 				}
 				if len(sm) == 0 {
-					r.errorf(v, f+".spring", "no spring stiffness given; write for example spring: {x: 20 MN/m}")
+					r.Errorf(v, f+".spring", "no spring stiffness given; write for example spring: {x: 20 MN/m}")
 				}
 			}
 		}
@@ -673,7 +649,7 @@ func (r *reader) supports(s *state, n *yaml.Node) {
 			if _, hasFix := m["fix"]; !hasFix {
 				if _, hasN := m["normal"]; !hasN {
 					if _, hasS := m["spring"]; !hasS {
-						r.errorf(it, f, "support restrains nothing; give fix:, normal: or spring:")
+						r.Errorf(it, f, "support restrains nothing; give fix:, normal: or spring:")
 					}
 				}
 			}
@@ -689,13 +665,13 @@ func (r *reader) axis(s *state, n *yaml.Node, field, a string) int {
 	for k, name := range axisNames {
 		if a == name {
 			if k >= s.dim {
-				r.errorf(n, field, "axis z in a 2D file (dimension: 2); use x or y")
+				r.Errorf(n, field, "axis z in a 2D file (dimension: 2); use x or y")
 				return -1
 			}
 			return k
 		}
 	}
-	r.errorf(n, field, "unknown axis %q; use x, y or z", a)
+	r.Errorf(n, field, "unknown axis %q; use x, y or z", a)
 	return -1
 }
 
@@ -706,18 +682,15 @@ func (r *reader) patterns(s *state, n *yaml.Node) {
 	}
 	seen := map[string]int{}
 	for i, it := range items {
-		m, name, f, ok := r.entry(it, "patterns", "pattern", "name", i, func(id string) (int, bool) {
-			l, dup := seen[id]
-			return l, dup
-		}, "name", "description", "self_weight", "forces", "temperatures", "settlements", "unknown", "reference_load")
+		m, name, f, ok := r.entry(it, "patterns", "pattern", "name", i, firstDeclared(seen, func(line int) int { return line }), "name", "description", "self_weight", "forces", "temperatures", "settlements", "unknown", "reference_load")
 		if !ok {
 			continue
 		}
 		seen[name] = it.Line
 		p := model.Pattern{Name: name, Line: it.Line}
-		errsBefore := len(r.errs)
+		errsBefore := len(r.Errors())
 		if d, ok := m["description"]; ok {
-			r.str(d, f+".description")
+			r.Str(d, f+".description")
 		}
 		if v, ok := m["unknown"]; ok {
 			p.Unknown, _ = r.boolean(v, f+".unknown")
@@ -726,7 +699,7 @@ func (r *reader) patterns(s *state, n *yaml.Node) {
 			r.referenceLoad(&p, v, f+".reference_load")
 		}
 		if v, ok := m["self_weight"]; ok {
-			if w, ok := r.number(v, f+".self_weight"); ok {
+			if w, ok := r.Number(v, f+".self_weight"); ok {
 				p.SelfWeight = w
 				if w != 0 {
 					r.needDensity(s, v, f+".self_weight")
@@ -742,9 +715,9 @@ func (r *reader) patterns(s *state, n *yaml.Node) {
 		if v, ok := m["settlements"]; ok {
 			r.settlements(s, &p, v, f+".settlements")
 		}
-		if len(r.errs) == errsBefore && p.SelfWeight == 0 && len(p.Forces) == 0 &&
+		if len(r.Errors()) == errsBefore && p.SelfWeight == 0 && len(p.Forces) == 0 &&
 			len(p.Temperatures) == 0 && len(p.Settlements) == 0 {
-			r.errorf(it, f, "pattern has no loads; give self_weight:, forces:, temperatures: or settlements:")
+			r.Errorf(it, f, "pattern has no loads; give self_weight:, forces:, temperatures: or settlements:")
 		}
 		s.st.Patterns = append(s.st.Patterns, p)
 	}
@@ -760,7 +733,7 @@ func (r *reader) needDensity(s *state, at *yaml.Node, field string) {
 		}
 	}
 	if len(missing) > 0 {
-		r.errorf(at, field, "self-weight needs a density, but material %s has none; add density: to it", keyList(missing))
+		r.Errorf(at, field, "self-weight needs a density, but material %s has none; add density: to it", keyList(missing))
 	}
 }
 
@@ -771,33 +744,43 @@ func (r *reader) forces(s *state, p *model.Pattern, n *yaml.Node, field string) 
 	}
 	for i, it := range items {
 		f := fmt.Sprintf("%s[%d]", field, i)
-		m, ok := r.fields(it, f, "node", "x", "y", "z")
+		m, nid, ni, ok := r.atNode(s, it, f, "load on", "node", "x", "y", "z")
 		if !ok {
-			continue
-		}
-		nn, ok := r.need(m, it, f, "node")
-		if !ok {
-			continue
-		}
-		nid, ok := r.id(nn, f+".node")
-		if !ok {
-			continue
-		}
-		ni, found := s.nodes[nid]
-		if !found {
-			r.errorf(nn, f+".node", "load on unknown node %q; declare it under nodes: or correct the id", nid)
 			continue
 		}
 		nf := model.NodalForce{Node: ni, Line: it.Line}
 		given, good := r.components(s, m, f, units.Force, nf.F[:])
 		if given == 0 {
-			r.errorf(it, f, "no force component given; write for example {node: %s, y: -10 kN}", nid)
+			r.Errorf(it, f, "no force component given; write for example {node: %s, y: -10 kN}", nid)
 			continue
 		}
 		if good {
 			p.Forces = append(p.Forces, nf)
 		}
 	}
+}
+
+// atNode reads an entry it (field f) with the fields allowed, one of them
+// the required id of a declared node: the entry's fields, the node's id
+// and index. what names the entry in the message for an unknown node
+// ("load on", "settlement of").
+func (r *reader) atNode(s *state, it *yaml.Node, f, what string, allowed ...string) (m map[string]*yaml.Node, nid string, ni int, ok bool) {
+	if m, ok = r.Fields(it, f, allowed...); !ok {
+		return nil, "", 0, false
+	}
+	nn, ok := r.Need(m, it, f, "node")
+	if !ok {
+		return nil, "", 0, false
+	}
+	if nid, ok = r.id(nn, f+".node"); !ok {
+		return nil, "", 0, false
+	}
+	ni, found := s.nodes[nid]
+	if !found {
+		r.Errorf(nn, f+".node", "%s unknown node %q; declare it under nodes: or correct the id", what, nid)
+		return nil, "", 0, false
+	}
+	return m, nid, ni, true
 }
 
 // components reads the x, y, z entries of m as quantities of dim into out,
@@ -811,7 +794,7 @@ func (r *reader) components(s *state, m map[string]*yaml.Node, f string, dim uni
 		}
 		given++
 		if ax >= s.dim {
-			r.errorf(v, f+".z", "a z component in a 2D file (dimension: 2); use x and y")
+			r.Errorf(v, f+".z", "a z component in a 2D file (dimension: 2); use x and y")
 			good = false
 			continue
 		}
@@ -837,11 +820,11 @@ func (r *reader) temperatures(s *state, p *model.Pattern, n *yaml.Node, field st
 	}
 	for i, it := range items {
 		f := fmt.Sprintf("%s[%d]", field, i)
-		m, ok := r.fields(it, f, "groups", "members", "change")
+		m, ok := r.Fields(it, f, "groups", "members", "change")
 		if !ok {
 			continue
 		}
-		cn, ok := r.need(m, it, f, "change")
+		cn, ok := r.Need(m, it, f, "change")
 		if !ok {
 			continue
 		}
@@ -853,7 +836,7 @@ func (r *reader) temperatures(s *state, p *model.Pattern, n *yaml.Node, field st
 		gn, hasG := m["groups"]
 		mn, hasM := m["members"]
 		if !hasG && !hasM {
-			r.errorf(it, f, "say which members change temperature: give groups: or members:")
+			r.Errorf(it, f, "say which members change temperature: give groups: or members:")
 			continue
 		}
 		if hasG {
@@ -861,7 +844,7 @@ func (r *reader) temperatures(s *state, p *model.Pattern, n *yaml.Node, field st
 			for k, g := range names {
 				idx := s.st.Groups[g]
 				if _, declared := s.groupLine[g]; !declared {
-					r.errorf(nodes[k], f+".groups", "unknown group %q; declared groups: %s", g, keyList(s.groupLine))
+					r.Errorf(nodes[k], f+".groups", "unknown group %q; declared groups: %s", g, keyList(s.groupLine))
 					continue
 				}
 				targets = append(targets, idx...)
@@ -872,7 +855,7 @@ func (r *reader) temperatures(s *state, p *model.Pattern, n *yaml.Node, field st
 			for k, id := range ids {
 				mi, found := s.members[id]
 				if !found {
-					r.errorf(nodes[k], f+".members", "unknown member %q", id)
+					r.Errorf(nodes[k], f+".members", "unknown member %q", id)
 					continue
 				}
 				targets = append(targets, mi)
@@ -881,7 +864,7 @@ func (r *reader) temperatures(s *state, p *model.Pattern, n *yaml.Node, field st
 		noAlpha := map[string]bool{}
 		for _, mi := range targets {
 			if l, dup := seen[mi]; dup {
-				r.errorf(it, f, "member %q already receives a temperature change in this pattern (line %d); a member may appear once per pattern", s.st.Members[mi].ID, l)
+				r.Errorf(it, f, "member %q already receives a temperature change in this pattern (line %d); a member may appear once per pattern", s.st.Members[mi].ID, l)
 				continue
 			}
 			seen[mi] = it.Line
@@ -891,7 +874,7 @@ func (r *reader) temperatures(s *state, p *model.Pattern, n *yaml.Node, field st
 			p.Temperatures = append(p.Temperatures, model.MemberTemperature{Member: mi, DeltaK: dt, Line: it.Line})
 		}
 		if len(noAlpha) > 0 {
-			r.errorf(it, f, "a temperature change needs a thermal coefficient, but material %s has none; add thermal_coefficient: to it", keyList(noAlpha))
+			r.Errorf(it, f, "a temperature change needs a thermal coefficient, but material %s has none; add thermal_coefficient: to it", keyList(noAlpha))
 		}
 	}
 }
@@ -903,26 +886,13 @@ func (r *reader) settlements(s *state, p *model.Pattern, n *yaml.Node, field str
 	}
 	for i, it := range items {
 		f := fmt.Sprintf("%s[%d]", field, i)
-		m, ok := r.fields(it, f, "node", "x", "y", "z", "normal")
+		m, nid, ni, ok := r.atNode(s, it, f, "settlement of", "node", "x", "y", "z", "normal")
 		if !ok {
-			continue
-		}
-		nn, ok := r.need(m, it, f, "node")
-		if !ok {
-			continue
-		}
-		nid, ok := r.id(nn, f+".node")
-		if !ok {
-			continue
-		}
-		ni, found := s.nodes[nid]
-		if !found {
-			r.errorf(nn, f+".node", "settlement of unknown node %q", nid)
 			continue
 		}
 		si, supported := s.supports[ni]
 		if !supported {
-			r.errorf(nn, f+".node", "node %q has no support; a prescribed displacement needs a restraint in that direction", nid)
+			r.Errorf(m["node"], f+".node", "node %q has no support; a prescribed displacement needs a restraint in that direction", nid)
 			continue
 		}
 		sup := s.st.Supports[si]
@@ -930,14 +900,14 @@ func (r *reader) settlements(s *state, p *model.Pattern, n *yaml.Node, field str
 		given, good := r.components(s, m, f, units.Length, st.D[:])
 		for ax := 0; ax < s.dim; ax++ {
 			if v, ok := m[axisNames[ax]]; ok && !sup.Fixed[ax] {
-				r.errorf(v, f+"."+axisNames[ax], "node %q is not fixed in %s (support on line %d); a settlement needs a fixed direction", nid, axisNames[ax], sup.Line)
+				r.Errorf(v, f+"."+axisNames[ax], "node %q is not fixed in %s (support on line %d); a settlement needs a fixed direction", nid, axisNames[ax], sup.Line)
 				good = false
 			}
 		}
 		if v, ok := m["normal"]; ok {
 			given++
 			if sup.Normal == nil {
-				r.errorf(v, f+".normal", "node %q is not an inclined roller (support on line %d); give the settlement along a fixed axis", nid, sup.Line)
+				r.Errorf(v, f+".normal", "node %q is not an inclined roller (support on line %d); give the settlement along a fixed axis", nid, sup.Line)
 				good = false
 			} else if d, ok := r.quantity(v, f+".normal", units.Length); ok {
 				st.D = [3]float64{d, 0, 0}
@@ -946,7 +916,7 @@ func (r *reader) settlements(s *state, p *model.Pattern, n *yaml.Node, field str
 			}
 		}
 		if given == 0 {
-			r.errorf(it, f, "no displacement given; write for example {node: %s, y: -10 mm}", nid)
+			r.Errorf(it, f, "no displacement given; write for example {node: %s, y: -10 mm}", nid)
 			continue
 		}
 		if good {
@@ -962,29 +932,26 @@ func (r *reader) cases(s *state, n *yaml.Node) {
 	}
 	seen := map[string]int{}
 	for i, it := range items {
-		m, name, f, ok := r.entry(it, "cases", "case", "name", i, func(id string) (int, bool) {
-			l, dup := seen[id]
-			return l, dup
-		}, "name", "description", "combine")
+		m, name, f, ok := r.entry(it, "cases", "case", "name", i, firstDeclared(seen, func(line int) int { return line }), "name", "description", "combine")
 		if !ok {
 			continue
 		}
 		seen[name] = it.Line
 		if d, ok := m["description"]; ok {
-			r.str(d, f+".description")
+			r.Str(d, f+".description")
 		}
 		c := model.Case{Name: name, Line: it.Line}
-		cn, ok := r.need(m, it, f, "combine")
+		cn, ok := r.Need(m, it, f, "combine")
 		if !ok {
 			continue
 		}
 		cf := f + ".combine"
 		if cn.Kind != yaml.MappingNode {
-			r.errorf(cn, cf, "expected pattern: factor lines, for example {dead: 1.0, crowd: 5.0}; found %s", kindName(cn))
+			r.Errorf(cn, cf, "expected pattern: factor lines, for example {dead: 1.0, crowd: 5.0}; found %s", yamlfile.KindName(cn))
 			continue
 		}
 		if len(cn.Content) == 0 {
-			r.errorf(cn, cf, "no patterns combined")
+			r.Errorf(cn, cf, "no patterns combined")
 		}
 		used := map[string]int{}
 		for k := 0; k+1 < len(cn.Content); k += 2 {
@@ -995,15 +962,15 @@ func (r *reader) cases(s *state, n *yaml.Node) {
 			}
 			pf := cf + "." + pname
 			if l, dup := used[pname]; dup {
-				r.errorf(kn, pf, "pattern listed twice in this case (first on line %d)", l)
+				r.Errorf(kn, pf, "pattern listed twice in this case (first on line %d)", l)
 				continue
 			}
 			used[pname] = kn.Line
 			if !s.st.HasPattern(pname) {
-				r.errorf(kn, pf, "unknown pattern %q; declared patterns: %s", pname, patternList(s.st))
+				r.Errorf(kn, pf, "unknown pattern %q; declared patterns: %s", pname, patternList(s.st))
 				continue
 			}
-			v, ok := r.number(vn, pf)
+			v, ok := r.Number(vn, pf)
 			if !ok {
 				continue
 			}
@@ -1034,7 +1001,7 @@ func (r *reader) geometry(s *state) {
 	for i, n := range nodes {
 		c := math.Max(math.Abs(n.X[0]), math.Max(math.Abs(n.X[1]), math.Abs(n.X[2])))
 		if !s.badNode[i] && c > model.MaxCoordinateM {
-			r.errorAt(n.Line, "nodes["+n.ID+"].at", "coordinate %g m is beyond the valid range of +-%g m (%g km): no truss is that large and member lengths would be lost to rounding; check the number and the length unit (units: length)", c, model.MaxCoordinateM, model.MaxCoordinateM/1e3)
+			r.ErrorAt(n.Line, "nodes["+n.ID+"].at", "coordinate %g m is beyond the valid range of +-%g m (%g km): no truss is that large and member lengths would be lost to rounding; check the number and the length unit (units: length)", c, model.MaxCoordinateM, model.MaxCoordinateM/1e3)
 			huge = true
 		}
 	}
@@ -1050,7 +1017,7 @@ func (r *reader) geometry(s *state) {
 	}
 	tol := 1e-9 * dist(lo, hi)
 	if math.IsInf(tol, 0) {
-		r.errorAt(nodes[0].Line, "nodes", "the coordinates span more than 1e150 m; check the units")
+		r.ErrorAt(nodes[0].Line, "nodes", "the coordinates span more than 1e150 m; check the units")
 		return
 	}
 	r.coincident(s, lo, tol)
@@ -1060,7 +1027,7 @@ func (r *reader) geometry(s *state) {
 			continue
 		}
 		if dist(nodes[m.I].X, nodes[m.J].X) <= tol {
-			r.errorAt(m.Line, "members["+m.ID+"]", "member has zero length: nodes %q and %q are at the same position", nodes[m.I].ID, nodes[m.J].ID)
+			r.ErrorAt(m.Line, "members["+m.ID+"]", "member has zero length: nodes %q and %q are at the same position", nodes[m.I].ID, nodes[m.J].ID)
 		}
 	}
 }
@@ -1078,7 +1045,7 @@ func (r *reader) parallelMembers(s *state) {
 		key := pair{min(m.I, m.J), max(m.I, m.J)}
 		if j, dup := first[key]; dup {
 			o := s.st.Members[j]
-			r.errorAt(m.Line, "members["+m.ID+"]", "member joins the same nodes %q and %q as member %q (line %d); correct an end node, or model them as one member", s.st.Nodes[m.I].ID, s.st.Nodes[m.J].ID, o.ID, o.Line)
+			r.ErrorAt(m.Line, "members["+m.ID+"]", "member joins the same nodes %q and %q as member %q (line %d); correct an end node, or model them as one member", s.st.Nodes[m.I].ID, s.st.Nodes[m.J].ID, o.ID, o.Line)
 			continue
 		}
 		first[key] = k
@@ -1116,7 +1083,7 @@ func (r *reader) coincident(s *state, lo [3]float64, tol float64) {
 				for dz := int64(-1); dz <= 1; dz++ {
 					for _, j := range grid[cell{c[0] + dx, c[1] + dy, c[2] + dz}] {
 						if dist(nodes[j].X, n.X) <= tol {
-							r.errorAt(n.Line, "nodes["+n.ID+"].at", "node %q is at the same position as node %q (line %d); merge them or correct the coordinates", n.ID, nodes[j].ID, nodes[j].Line)
+							r.ErrorAt(n.Line, "nodes["+n.ID+"].at", "node %q is at the same position as node %q (line %d); merge them or correct the coordinates", n.ID, nodes[j].ID, nodes[j].Line)
 							reported++
 							break search
 						}

@@ -10,6 +10,7 @@ import (
 	"testing"
 
 	"trussmonitor/internal/units"
+	"trussmonitor/internal/yamlfile"
 )
 
 // baseDoc is a small valid plane truss; the invalid cases below replace one
@@ -71,9 +72,9 @@ func wantError(t *testing.T, err error, file string, line int, field, msg string
 	if err == nil {
 		t.Fatalf("accepted; want an error on line %d field %s: %s", line, field, msg)
 	}
-	var list ErrorList
+	var list yamlfile.ErrorList
 	if !errors.As(err, &list) {
-		t.Fatalf("error %T is not an ErrorList: %v", err, err)
+		t.Fatalf("error %T is not an yamlfile.ErrorList: %v", err, err)
 	}
 	prefix := fmt.Sprintf("%s:%d: %s: ", file, line, field)
 	if field == "" {
@@ -234,7 +235,7 @@ func TestErrorsWrapUnitErrors(t *testing.T) {
 func TestErrorsAreCollected(t *testing.T) {
 	doc := strings.Replace(baseDoc, "section: s}", "section: x}", -1) // two bad sections
 	_, err := Parse("bad.yaml", []byte(doc))
-	var list ErrorList
+	var list yamlfile.ErrorList
 	if !errors.As(err, &list) || len(list) != 2 {
 		t.Fatalf("want 2 errors, got %v", err)
 	}
@@ -242,29 +243,6 @@ func TestErrorsAreCollected(t *testing.T) {
 		if list[i].Line < list[i-1].Line {
 			t.Errorf("errors not in line order: %v", err)
 		}
-	}
-}
-
-func TestErrorFormat(t *testing.T) {
-	tests := []struct {
-		e    Error
-		want string
-	}{
-		{Error{File: "a.yaml", Line: 3, Field: "nodes[A].at", Msg: "bad"}, "a.yaml:3: nodes[A].at: bad"},
-		{Error{File: "a.yaml", Line: 3, Msg: "YAML syntax: x"}, "a.yaml:3: YAML syntax: x"},
-		{Error{File: "a.yaml", Msg: "file is empty"}, "a.yaml: file is empty"},
-	}
-	for _, tc := range tests {
-		if got := tc.e.Error(); got != tc.want {
-			t.Errorf("got %q, want %q", got, tc.want)
-		}
-	}
-	var many ErrorList
-	for i := 0; i < 60; i++ {
-		many = append(many, &Error{File: "f", Line: i + 1, Msg: "m"})
-	}
-	if s := many.Error(); !strings.HasSuffix(s, "... and 10 more problems") || strings.Count(s, "\n") != 50 {
-		t.Errorf("long list not shortened: %q", s[len(s)-40:])
 	}
 }
 

@@ -1,19 +1,21 @@
-package structfile
+package yamlfile
 
 import (
 	"fmt"
+	"sort"
 	"strings"
 )
 
-// Error is one problem found in a structure file: where it is (file, line,
-// field) and what is wrong with what to do about it.
+// Error is one problem found in a YAML file (a structure file or a sensor
+// map): where it is (file, line, field) and what is wrong with what to do
+// about it.
 type Error struct {
-	// File is the path or name the structure was read from.
+	// File is the path or name the file was read from.
 	File string
 	// Line is the 1-based source line, 0 when unknown.
 	Line int
 	// Field is the path of the offending field, for example
-	// "members[B3].section".
+	// "members[B3].section" or "channels[B2_a].gauge_factor".
 	Field string
 	// Msg says what is wrong and, where it helps, what to do.
 	Msg string
@@ -40,8 +42,8 @@ func (e *Error) Error() string {
 // Unwrap returns the underlying cause.
 func (e *Error) Unwrap() error { return e.Err }
 
-// ErrorList is every problem found in one file, in line order. It is
-// returned as the error of Parse and LoadFile when the file is rejected.
+// ErrorList is every problem found in one file. It is the error of a
+// rejected structure file or sensor map.
 type ErrorList []*Error
 
 // maxListed bounds how many problems ErrorList.Error spells out.
@@ -74,4 +76,10 @@ func (l ErrorList) Unwrap() []error {
 		out[i] = e
 	}
 	return out
+}
+
+// Sort orders the problems by line (stable, so problems on one line keep
+// the order they were found in).
+func (l ErrorList) Sort() {
+	sort.SliceStable(l, func(i, j int) bool { return l[i].Line < l[j].Line })
 }
