@@ -150,10 +150,12 @@ func (l *Live) add(name string, r *pipeline.Result) {
 	}
 }
 
+// alarmSet lists the members with an active member alarm: the short
+// window's (MemberDiverging) or the hour's (MemberShifted).
 func alarmSet(active []alerts.Alarm) map[string]bool {
 	out := map[string]bool{}
 	for _, a := range active {
-		if a.Rule == alerts.RuleMemberDiverging {
+		if a.Rule == alerts.RuleMemberDiverging || a.Rule == alerts.RuleMemberShifted {
 			out[a.Subject] = true
 		}
 	}

@@ -163,3 +163,31 @@ func TestLiveAlarmRevision(t *testing.T) {
 		}
 	}
 }
+
+// indexOfGauged returns the position of a gauged member in a state.
+func indexOfGauged(s dashboard.State, id string) int {
+	for i, m := range s.Gauged {
+		if m.ID == id {
+			return i
+		}
+	}
+	return -1
+}
+
+// TestWindowAlarmMarksMember: a window alarm (MemberShifted) marks its
+// member as alarmed, as MemberDiverging does.
+func TestWindowAlarmMarksMember(t *testing.T) {
+	st, p := footbridge(t)
+	l := New(nil, 3)
+	sink := l.Register(st, p, 0.001)
+	t0 := time.Date(2026, 6, 1, 12, 0, 0, 0, time.UTC)
+	sink.Epoch(result(p, t0, 1, []alerts.Alarm{{Rule: alerts.RuleMemberDiverging, Subject: "B2"}, {Rule: alerts.RuleMemberShifted, Subject: "C4"}}))
+	s, err := l.State("alder-creek")
+	if err != nil {
+		t.Fatal(err)
+	}
+	c4 := indexOfGauged(s, "C4")
+	if c4 < 0 || !s.Gauged[0].Alarm || !s.Gauged[c4].Alarm || s.Gauged[2].Alarm {
+		t.Errorf("member alarms: B2 %v, C4 %v, third %v; want B2 and C4 marked only", s.Gauged[0].Alarm, c4 >= 0 && s.Gauged[c4].Alarm, s.Gauged[2].Alarm)
+	}
+}
