@@ -76,6 +76,7 @@ const (
 // absurd_magnitude (before the sensor map's own range check).
 const DefaultMaxAbsValue = 1e12
 
+
 // Limits are the acceptance rules of one reading, apart from the sensor
 // map's own (units, ranges).
 type Limits struct {

@@ -759,6 +759,7 @@ func (in *Ingester) commitBatch(batch []decodedMsg, acks chan<- ackItem) error {
 		in.limit.log(in.log, "dead_letters_dropped", "ingest: oldest dead letters dropped to keep under the cap", "dropped", res.DeadLettersDropped)
 	}
 	g := 0
+	last := map[string]time.Time{} // per message: each channel's latest new reading
 	for _, m := range batch {
 		outcome := OutcomeRejected
 		if len(m.readings) > 0 {
@@ -780,7 +781,7 @@ func (in *Ingester) commitBatch(batch []decodedMsg, acks chan<- ackItem) error {
 			if n > 0 {
 				outcome = OutcomeStored
 				in.obs.ReadingsHandled(m.structure, OutcomeStored, n)
-				last := map[string]time.Time{}
+				clear(last)
 				for _, r := range newRs {
 					if r.Time.After(last[r.Channel]) {
 						last[r.Channel] = r.Time

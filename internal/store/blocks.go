@@ -103,10 +103,16 @@ func (s *Store) Compact(ctx context.Context, before time.Time) (CompactStats, er
 				`SELECT min(ts) FROM readings WHERE channel = ? AND ts >= ? AND ts < ?`, id, from, horizon).Scan(&ts); err != nil {
 				return st, fmt.Errorf("store: compact channel id %d: %w", id, err)
 			}
-			if !ts.Valid {
+			start, staged, err := firstStagedPeriod(ctx, s.db, id, from, horizon)
+			if err != nil {
+				return st, err
+			}
+			if ts.Valid && (!staged || blockStart(ts.Int64) < start) {
+				start, staged = blockStart(ts.Int64), true
+			}
+			if !staged {
 				break
 			}
-			start := blockStart(ts.Int64)
 			n, err := s.compactBlock(ctx, id, start)
 			if err != nil {
 				return st, err
@@ -149,12 +155,26 @@ func (s *Store) compactBlock(ctx context.Context, ch, start int64) (int64, error
 	if err != nil {
 		return 0, fmt.Errorf("store: compact channel id %d: %w", ch, err)
 	}
+	// Staged runs (staged.go) of the period join the rows; their times are
+	// distinct from the rows' and the block's (the commit checks).
+	staged, err := stagedPeriod(ctx, tx, ch, start)
+	if err != nil {
+		return 0, err
+	}
+	if len(staged) > 0 {
+		fresh = mergePoints(fresh, staged)
+	}
 	merged := mergePoints(pts, fresh)
 	if err := putBlock(ctx, tx, ch, start, merged); err != nil {
 		return 0, err
 	}
 	if _, err := tx.ExecContext(ctx, `DELETE FROM readings WHERE channel = ? AND ts >= ? AND ts < ?`, ch, start, start+spanNs); err != nil {
 		return 0, fmt.Errorf("store: compact channel id %d: %w", ch, err)
+	}
+	if len(staged) > 0 {
+		if err := deleteStagedPeriod(ctx, tx, ch, start); err != nil {
+			return 0, err
+		}
 	}
 	s.noteBlock(ch, start)
 	if err := tx.Commit(); err != nil {

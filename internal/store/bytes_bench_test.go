@@ -51,8 +51,8 @@ type storageSize struct {
 	valueBound, timeBits float64 // bits per reading, see noiseBound
 }
 
-// storeAndCompact commits the readings (time-ordered batches of up to
-// 20,000) of structure name into a new store, compacts every closed block
+// storeAndCompact commits the readings (time-ordered, one batch per time
+// step) of structure name into a new store, compacts every closed block
 // and measures the file.
 func storeAndCompact(b *testing.B, name string, rs []store.Reading) storageSize {
 	b.Helper()
@@ -66,8 +66,13 @@ func storeAndCompact(b *testing.B, name string, rs []store.Reading) storageSize 
 	var sz storageSize
 	sz.empty, _ = fileSize(b, db, dir, "empty.db")
 	var last time.Time
-	for i := 0; i < len(rs); i += 20000 {
-		chunk := rs[i:min(i+20000, len(rs))]
+	// One batch per time step, as a logger's packs arrive: every channel's
+	// run in a batch is one reading, so the readings are keyed rows (the
+	// "rows" figure), never staged runs (store.StageMinRun).
+	for i, j := 0, 0; i < len(rs); i = j {
+		for j = i + 1; j < len(rs) && rs[j].Time.Equal(rs[i].Time); j++ {
+		}
+		chunk := rs[i:j]
 		res, err := db.Commit(ctx, store.Batch{Groups: []store.Group{{Structure: name, Readings: chunk}}})
 		if err != nil {
 			b.Fatal(err)

@@ -107,6 +107,23 @@ var migrations = []string{
 		state     BLOB    NOT NULL, -- the counter's serialised state
 		PRIMARY KEY (structure, channel)
 	) WITHOUT ROWID;`,
+	// 7 (staged runs): a commit's readings of one channel and one
+	// StageSpan, when there are at least StageMinRun of them, as one row
+	// with the run encoded (staged.go) instead of one keyed row per
+	// reading; Compact moves them into reading_blocks like the keyed rows.
+	// The channel's foreign key is checked by insertStaged, once per
+	// channel and statement (SQLite's own check would make every
+	// multi-row insert keep a statement journal).
+	`CREATE TABLE staged_readings (
+		id      INTEGER PRIMARY KEY,
+		channel INTEGER NOT NULL, -- channels(id), see insertStaged
+		first   INTEGER NOT NULL, -- Unix ns, first reading of the run
+		last    INTEGER NOT NULL, -- Unix ns, last reading of the run
+		n       INTEGER NOT NULL, -- readings in the run
+		data    BLOB    NOT NULL  -- times and values, see encodeRun
+	);
+	CREATE UNIQUE INDEX staged_by_last ON staged_readings (channel, last);
+	CREATE INDEX staged_by_first ON staged_readings (channel, first);`,
 }
 
 // schemaVersion returns the version recorded in the file, 0 for a new file.

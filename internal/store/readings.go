@@ -4,12 +4,10 @@ import (
 	"cmp"
 	"context"
 	"database/sql"
-	"database/sql/driver"
 	"fmt"
 	"math"
 	"slices"
 	"sort"
-	"strconv"
 	"strings"
 	"time"
 
@@ -127,7 +125,8 @@ type rowPos struct{ g, i int }
 
 // Commit writes every group's readings and every dead letter of b in one
 // transaction: all of it is durable when Commit returns nil, none of it when
-// it returns an error. Readings already stored are ignored (INSERT OR IGNORE).
+// it returns an error. Readings already stored are not stored again
+// (writeRuns).
 func (s *Store) Commit(ctx context.Context, b Batch) (CommitResult, error) {
 	res := CommitResult{Inserted: make([]int, len(b.Groups)), New: make([][]bool, len(b.Groups)), Conflicts: make([][]Conflict, len(b.Groups))}
 	total := 0
@@ -140,66 +139,34 @@ func (s *Store) Commit(ctx context.Context, b Batch) (CommitResult, error) {
 		res.New[g] = make([]bool, len(grp.Readings))
 		total += len(grp.Readings)
 	}
-	// The readings' foreign key (channel -> channels.id) would be checked
-	// by SQLite once per row, a fifth of the insert's time; the ids come
-	// from the channels table, so this transaction checks each distinct
-	// channel once instead (checkChannels), on a connection whose
-	// per-row check is off for the transaction and on again before the
-	// connection returns to the pool. No other table written here has a
-	// foreign key.
-	conn, err := s.db.Conn(ctx)
-	if err != nil {
-		return CommitResult{}, fmt.Errorf("store: begin: %w", err)
-	}
-	defer restoreForeignKeys(conn)
-	if _, err := conn.ExecContext(ctx, "PRAGMA foreign_keys = OFF"); err != nil {
-		return CommitResult{}, fmt.Errorf("store: begin: %w", err)
-	}
-	tx, err := conn.BeginTx(ctx, nil)
+	// SQLite checks the foreign keys of keyed and staged rows itself: a
+	// staged row is one check for a whole run. (Switching foreign_keys off
+	// for the transaction, as an earlier version did, expires every
+	// prepared statement of the connection, and each commit re-prepared
+	// them.)
+	tx, err := s.db.BeginTx(ctx, nil)
 	if err != nil {
 		return CommitResult{}, fmt.Errorf("store: begin: %w", err)
 	}
 	defer tx.Rollback()
 
-	rows, newIDs, err := s.batchRows(ctx, tx, b, total)
+	// The row buffers are reused from commit to commit (they were a fifth
+	// of the bytes ingest allocates).
+	bufs, _ := s.rowBufs.Get().(*[2][]batchRow)
+	if bufs == nil {
+		bufs = new([2][]batchRow)
+	}
+	defer s.rowBufs.Put(bufs)
+	rows, newIDs, err := s.batchRows(ctx, tx, b, slices.Grow(bufs[0][:0], total))
 	if err != nil {
 		return CommitResult{}, err
 	}
-	if err := checkChannels(ctx, tx, rows); err != nil {
-		return CommitResult{}, err
-	}
-	// Insert in key order: consecutive rows then land on the same B-tree
-	// leaf pages instead of jumping between channels. Equal keys are
-	// adjacent, the first of the batch first.
-	rows = sortRows(rows)
-	// The rows to insert: the first of each key, unless a block (a period
-	// already compacted) holds the key, which makes it a redelivery.
-	blocked := s.blockedBefore(rows)
-	inBlocks := blockCache{}
-	heldInBlock := map[rowKey]float64{} // keys a block already holds, with its value
-	ins := make([]batchRow, 0, len(rows))
-	for j, r := range rows {
-		if j > 0 && rows[j-1].key == r.key {
-			continue
-		}
-		if blocked[j] {
-			if v, held, err := inBlocks.storedInBlock(ctx, tx, r.key.ch, r.key.ts); err != nil {
-				return CommitResult{}, err
-			} else if held {
-				heldInBlock[r.key] = v
-				continue
-			}
-		}
-		ins = append(ins, r)
-	}
-	for start := 0; start < len(ins); {
-		end := start + chunkSize(len(ins)-start)
-		if err := s.insertChunk(ctx, tx, ins[start:end], &res); err != nil {
-			return CommitResult{}, err
-		}
-		start = end
-	}
-	if err := s.findConflicts(ctx, tx, b, rows, heldInBlock, &res); err != nil {
+	bufs[0] = rows
+	// Key order: each channel's readings become one time-ordered run,
+	// equal keys adjacent, the first of the batch first.
+	bufs[1] = slices.Grow(bufs[1][:0], len(rows))[:len(rows)]
+	rows = sortRowsInto(rows, bufs[1])
+	if err := s.writeRuns(ctx, tx, rows, &res); err != nil {
 		return CommitResult{}, err
 	}
 	dead := b.DeadLetters
@@ -250,8 +217,7 @@ type batchRow struct {
 // batchRows resolves the channel ids of every reading of b (creating the
 // channels not yet stored, returned as newIDs for the cache once the
 // transaction commits) and returns the readings as rows, in batch order.
-func (s *Store) batchRows(ctx context.Context, tx *sql.Tx, b Batch, total int) ([]batchRow, map[chanKey]int64, error) {
-	rows := make([]batchRow, 0, total)
+func (s *Store) batchRows(ctx context.Context, tx *sql.Tx, b Batch, rows []batchRow) ([]batchRow, map[chanKey]int64, error) {
 	missing := false
 	s.mu.Lock()
 	for g, grp := range b.Groups {
@@ -294,51 +260,18 @@ func (s *Store) batchRows(ctx context.Context, tx *sql.Tx, b Batch, total int) (
 	return rows, newIDs, nil
 }
 
-// restoreForeignKeys turns the foreign-key checks of conn back on and
-// returns it to the pool; a connection where that fails is discarded, never
-// reused without the checks.
-func restoreForeignKeys(conn *sql.Conn) {
-	if _, err := conn.ExecContext(context.Background(), "PRAGMA foreign_keys = ON"); err != nil {
-		conn.Raw(func(any) error { return driver.ErrBadConn })
-	}
-	conn.Close()
-}
-
-// checkChannels is the readings' foreign key, checked once per distinct
-// channel of the batch: every channel id must be a row of channels.
-func checkChannels(ctx context.Context, tx *sql.Tx, rows []batchRow) error {
-	ids := map[int64]bool{}
-	var list []byte
-	list = append(list, '[')
-	for _, r := range rows {
-		if !ids[r.key.ch] {
-			if len(ids) > 0 {
-				list = append(list, ',')
-			}
-			ids[r.key.ch] = true
-			list = strconv.AppendInt(list, r.key.ch, 10)
-		}
-	}
-	if len(ids) == 0 {
-		return nil
-	}
-	list = append(list, ']')
-	var n int
-	if err := tx.QueryRowContext(ctx, `SELECT count(*) FROM channels WHERE id IN (SELECT value FROM json_each(?))`, string(list)).Scan(&n); err != nil {
-		return fmt.Errorf("store: checking the batch's channels: %w", err)
-	}
-	if n != len(ids) {
-		return fmt.Errorf("store: commit: %d of the batch's %d channel ids are not in the channels table (FOREIGN KEY constraint of readings.channel)", len(ids)-n, len(ids))
-	}
-	return nil
-}
-
 // sortRows orders rows (given in batch order) by key, keeping batch order
 // among equal keys. Channel ids are small integers, so the rows are first
 // distributed by channel (a stable counting sort), then each channel's run
 // is sorted by time unless it already is (a logger's readings of one
 // channel usually arrive in time order).
 func sortRows(rows []batchRow) []batchRow {
+	return sortRowsInto(rows, make([]batchRow, len(rows)))
+}
+
+// sortRowsInto is sortRows with the space for the sorted rows given (as
+// long as rows); it returns either of the two.
+func sortRowsInto(rows, out []batchRow) []batchRow {
 	if len(rows) < 2 {
 		return rows
 	}
@@ -360,7 +293,6 @@ func sortRows(rows []batchRow) []batchRow {
 	for c := 1; c < len(start); c++ {
 		start[c] += start[c-1]
 	}
-	out := make([]batchRow, len(rows))
 	next := slices.Clone(start[:len(start)-1])
 	for _, r := range rows {
 		c := r.key.ch - lo
@@ -375,50 +307,83 @@ func sortRows(rows []batchRow) []batchRow {
 	return out
 }
 
-// findConflicts compares every reading that was not new with the value
-// kept under its key: the first of the batch when that one was new, else
-// the value stored before (in a block, or read back from the row table;
-// redeliveries are rare). rows are the batch's readings in key order, the
-// first of each key first.
-func (s *Store) findConflicts(ctx context.Context, tx *sql.Tx, b Batch, rows []batchRow, heldInBlock map[rowKey]float64, res *CommitResult) error {
-	var lookup *sql.Stmt
-	defer func() {
-		if lookup != nil {
-			lookup.Close()
+// writeRuns decides for every reading of the batch (rows in key order)
+// whether it is new, a redelivery (its key held with the same value: in the
+// batch before it, in a keyed row, a staged run or a block) or a conflict
+// (held with another value), and writes the new ones: a channel's run of at
+// least StageMinRun new readings as staged rows (staged.go), a shorter one
+// as keyed rows.
+func (s *Store) writeRuns(ctx context.Context, tx *sql.Tx, rows []batchRow, res *CommitResult) error {
+	var ranges []chanRange
+	for i := 0; i < len(rows); {
+		j := i + 1
+		for j < len(rows) && rows[j].key.ch == rows[i].key.ch {
+			j++
 		}
-	}()
-	stored := heldInBlock // values kept in blocks; rows are read back below
-	head := 0             // the first row of the current key
+		ranges = append(ranges, chanRange{rows[i].key.ch, rows[i].key.ts, rows[j-1].key.ts})
+		i = j
+	}
+	held, err := s.existing(ctx, tx, ranges)
+	if err != nil {
+		return err
+	}
+	blocked := s.blockedBefore(rows)
+	inBlocks := blockCache{}
+	var keyed []batchRow
+	var fresh []int // rows of the current run that are new
+	var pts []blocks.Point
+	var staged []stagedRow
 	touched := false
-	for j, r := range rows {
-		if j == 0 || rows[j-1].key != r.key {
-			head = j
+	i := 0
+	for _, cr := range ranges {
+		fresh = fresh[:0]
+		var kept float64 // the value held under the current key
+		for start := i; i < len(rows) && rows[i].key.ch == cr.ch; i++ {
+			r := rows[i]
+			isNew := false
+			switch v, ok := held[r.key]; {
+			case i > start && rows[i-1].key == r.key:
+				// The same key earlier in the batch: kept is its value.
+			case ok:
+				kept = v
+			case blocked[i]:
+				v, inBlock, err := inBlocks.storedInBlock(ctx, tx, r.key.ch, r.key.ts)
+				if err != nil {
+					return err
+				}
+				kept, isNew = v, !inBlock
+			default:
+				isNew = true
+			}
+			if isNew {
+				kept = r.val
+				res.New[r.pos.g][r.pos.i] = true
+				res.Inserted[r.pos.g]++
+				fresh = append(fresh, i)
+				continue
+			}
+			if r.val != kept {
+				res.Conflicts[r.pos.g] = append(res.Conflicts[r.pos.g], Conflict{Index: r.pos.i, Stored: kept})
+				touched = true
+			}
 		}
-		if res.New[r.pos.g][r.pos.i] {
+		if len(fresh) < StageMinRun {
+			for _, j := range fresh {
+				keyed = append(keyed, rows[j])
+			}
 			continue
 		}
-		var kept float64
-		if h := rows[head]; j != head && res.New[h.pos.g][h.pos.i] {
-			kept = h.val
-		} else if v, ok := stored[r.key]; ok {
-			kept = v
-		} else {
-			if lookup == nil {
-				var err error
-				if lookup, err = tx.PrepareContext(ctx, `SELECT value FROM readings WHERE channel = ? AND ts = ?`); err != nil {
-					return fmt.Errorf("store: reading back a stored reading: %w", err)
-				}
-			}
-			if err := lookup.QueryRowContext(ctx, r.key.ch, r.key.ts).Scan(&kept); err != nil {
-				rd := b.Groups[r.pos.g].Readings[r.pos.i]
-				return fmt.Errorf("store: reading back channel %q at %s: %w", rd.Channel, rd.Time.Format(time.RFC3339Nano), err)
-			}
-			stored[r.key] = kept
+		pts = pts[:0]
+		for _, j := range fresh {
+			pts = append(pts, blocks.Point{Time: rows[j].key.ts, Value: rows[j].val})
 		}
-		if r.val != kept {
-			res.Conflicts[r.pos.g] = append(res.Conflicts[r.pos.g], Conflict{Index: r.pos.i, Stored: kept})
-			touched = true
-		}
+		staged = appendRuns(staged, cr.ch, pts)
+	}
+	if err := s.insertStaged(ctx, tx, staged); err != nil {
+		return err
+	}
+	if err := s.insertRows(ctx, tx, keyed); err != nil {
+		return err
 	}
 	if touched {
 		// In each group's reading order, as the dead letters list them.
@@ -442,109 +407,59 @@ func channelID(ctx context.Context, tx *sql.Tx, k chanKey) (int64, error) {
 	return id, nil
 }
 
-// insertStatement builds an n-row INSERT OR IGNORE that returns the keys it
-// actually inserted (ignored rows return nothing).
-func insertStatement(n int, returning bool) string {
+// insertStatement builds an n-row INSERT into the keyed row table. The
+// commit has checked every key first (writeRuns), so a constraint error
+// means the file was changed under the write lock and fails the commit.
+// OR FAIL: such an error fails the transaction anyway, so SQLite need not
+// keep a statement journal to undo a part of the statement (a temporary
+// file written for every multi-row statement that may abort).
+func insertStatement(n int) string {
 	var sb strings.Builder
-	sb.WriteString("INSERT OR IGNORE INTO readings (channel, ts, value) VALUES ")
+	sb.WriteString("INSERT OR FAIL INTO readings (channel, ts, value) VALUES ")
 	for i := range n {
 		if i > 0 {
 			sb.WriteByte(',')
 		}
 		sb.WriteString("(?,?,?)")
 	}
-	if returning {
-		sb.WriteString(" RETURNING channel, ts")
-	}
 	return sb.String()
 }
 
-// insertChunk inserts one multi-VALUES statement's rows. The fast path is a
-// plain INSERT OR IGNORE: when SQLite reports every row inserted, all are
-// new. When some were ignored (a redelivery), the statement is rolled back to
-// a savepoint and repeated with RETURNING to learn which rows were new;
-// redeliveries are rare, so the common case pays nothing for that.
-func (s *Store) insertChunk(ctx context.Context, tx *sql.Tx, keys []batchRow, res *CommitResult) error {
-	args := make([]any, 0, 3*len(keys))
-	for _, k := range keys {
-		args = append(args, k.key.ch, k.key.ts, k.val)
-	}
-	if _, err := tx.ExecContext(ctx, "SAVEPOINT chunk"); err != nil {
-		return fmt.Errorf("store: inserting %d readings: %w", len(keys), err)
-	}
-	st, err := s.statement(ctx, len(keys), false)
-	if err != nil {
-		return err
-	}
-	r, err := tx.StmtContext(ctx, st).ExecContext(ctx, args...)
-	if err != nil {
-		return fmt.Errorf("store: inserting %d readings: %w", len(keys), err)
-	}
-	n, err := r.RowsAffected()
-	if err != nil {
-		return fmt.Errorf("store: inserting %d readings: %w", len(keys), err)
-	}
-	if int(n) == len(keys) {
-		for _, k := range keys {
-			p := k.pos
-			res.New[p.g][p.i] = true
-			res.Inserted[p.g]++
+// insertRows inserts keyed rows, rowsPerStatement at a time.
+func (s *Store) insertRows(ctx context.Context, tx *sql.Tx, keys []batchRow) error {
+	for len(keys) > 0 {
+		n := chunkSize(len(keys))
+		args := make([]any, 0, 3*n)
+		for _, k := range keys[:n] {
+			args = append(args, k.key.ch, k.key.ts, k.val)
 		}
-		_, err := tx.ExecContext(ctx, "RELEASE chunk")
-		return err
-	}
-	if _, err := tx.ExecContext(ctx, "ROLLBACK TO chunk"); err != nil {
-		return fmt.Errorf("store: inserting %d readings: %w", len(keys), err)
-	}
-	st, err = s.statement(ctx, len(keys), true)
-	if err != nil {
-		return err
-	}
-	rows, err := tx.StmtContext(ctx, st).QueryContext(ctx, args...)
-	if err != nil {
-		return fmt.Errorf("store: inserting %d readings: %w", len(keys), err)
-	}
-	defer rows.Close()
-	first := make(map[rowKey]rowPos, len(keys))
-	for _, k := range keys {
-		first[k.key] = k.pos
-	}
-	for rows.Next() {
-		var k rowKey
-		if err := rows.Scan(&k.ch, &k.ts); err != nil {
-			return fmt.Errorf("store: inserting readings: %w", err)
+		st, err := s.statement(ctx, n)
+		if err != nil {
+			return err
 		}
-		p, ok := first[k]
-		if !ok {
-			return fmt.Errorf("store: inserting readings: SQLite returned a key (%d, %d) that was not inserted", k.ch, k.ts)
+		if _, err := tx.StmtContext(ctx, st).ExecContext(ctx, args...); err != nil {
+			return fmt.Errorf("store: inserting %d readings: %w", n, err)
 		}
-		res.New[p.g][p.i] = true
-		res.Inserted[p.g]++
+		keys = keys[n:]
 	}
-	if err := rows.Err(); err != nil {
-		return fmt.Errorf("store: inserting %d readings: %w", len(keys), err)
-	}
-	rows.Close()
-	_, err = tx.ExecContext(ctx, "RELEASE chunk")
-	return err
+	return nil
 }
 
 type stmtKey struct {
-	n         int
-	returning bool
+	n int
 }
 
 // statement returns a prepared n-row insert, prepared once per size and
 // kept for the life of the store (SQLite parsing was 12 % of commit time).
-func (s *Store) statement(ctx context.Context, n int, returning bool) (*sql.Stmt, error) {
-	k := stmtKey{n, returning}
+func (s *Store) statement(ctx context.Context, n int) (*sql.Stmt, error) {
+	k := stmtKey{n}
 	s.mu.Lock()
 	st, ok := s.stmts[k]
 	s.mu.Unlock()
 	if ok {
 		return st, nil
 	}
-	st, err := s.db.PrepareContext(ctx, insertStatement(n, returning))
+	st, err := s.db.PrepareContext(ctx, insertStatement(n))
 	if err != nil {
 		return nil, fmt.Errorf("store: preparing a %d-row insert: %w", n, err)
 	}
@@ -654,7 +569,11 @@ func (s *Store) CountReadings(ctx context.Context, structure string, from, to ti
 		return 0, fmt.Errorf("store: counting readings of %q: %w", structure, err)
 	}
 	nb, err := s.countBlockReadings(ctx, structure, lo, hi)
-	return n + nb, err
+	if err != nil {
+		return 0, err
+	}
+	ns, err := s.countStaged(ctx, structure, lo, hi)
+	return n + nb + ns, err
 }
 
 // ReadReadings calls fn for every reading of structure in [from, to) (a
@@ -691,6 +610,7 @@ func (s *Store) ReadReadings(ctx context.Context, structure string, from, to tim
 	}
 	var buf []row
 	blk := &blockReader{s: s, ids: ids, cache: map[[2]int64][]blocks.Point{}}
+	stg := &stagedReader{s: s, ids: ids, cache: map[[2]int64][]blocks.Point{}}
 	cur := lo
 	seek := true // find the next stored time before the first chunk and after an empty one
 	for cur < hi {
@@ -729,6 +649,11 @@ func (s *Store) ReadReadings(ctx context.Context, structure string, from, to tim
 		}
 		rows.Close()
 		if err := blk.points(ctx, cur, end, func(ch int64, p blocks.Point) {
+			buf = append(buf, row{ch: ch, ts: p.Time, val: p.Value})
+		}); err != nil {
+			return fmt.Errorf("store: reading %q: %w", structure, err)
+		}
+		if err := stg.points(ctx, cur, end, func(ch int64, p blocks.Point) {
 			buf = append(buf, row{ch: ch, ts: p.Time, val: p.Value})
 		}); err != nil {
 			return fmt.Errorf("store: reading %q: %w", structure, err)
@@ -778,6 +703,11 @@ func (s *Store) nextTime(ctx context.Context, ids []int64, from, to int64) (int6
 	} else if ok && (!found || bt < best) {
 		best, found = bt, true
 	}
+	if st, ok, err := s.firstStagedTime(ctx, ids, from, to); err != nil {
+		return 0, false, err
+	} else if ok && (!found || st < best) {
+		best, found = st, true
+	}
 	return best, found, nil
 }
 
@@ -794,13 +724,14 @@ func (s *Store) LastReadings(ctx context.Context, structure string, notAfter tim
 	rows, err := s.db.QueryContext(ctx,
 		`SELECT c.name, max(
 			coalesce((SELECT max(r.ts) FROM readings r WHERE r.channel = c.id AND r.ts <= ?), -9223372036854775808),
-			coalesce((SELECT max(b.last) FROM reading_blocks b WHERE b.channel = c.id AND b.last <= ?), -9223372036854775808))
-		 FROM channels c WHERE c.structure = ?`, hi, hi, structure)
+			coalesce((SELECT max(b.last) FROM reading_blocks b WHERE b.channel = c.id AND b.last <= ?), -9223372036854775808),
+			coalesce((SELECT max(s.last) FROM staged_readings s WHERE s.channel = c.id AND s.last <= ?), -9223372036854775808))
+		 FROM channels c WHERE c.structure = ?`, hi, hi, hi, structure)
 	if err != nil {
 		return nil, fmt.Errorf("store: last readings of %q: %w", structure, err)
 	}
 	defer rows.Close()
-	out := map[string]time.Time{}
+	last := map[string]int64{}
 	for rows.Next() {
 		var name string
 		var ts sql.NullInt64
@@ -808,8 +739,19 @@ func (s *Store) LastReadings(ctx context.Context, structure string, notAfter tim
 			return nil, fmt.Errorf("store: last readings of %q: %w", structure, err)
 		}
 		if ts.Valid && ts.Int64 != math.MinInt64 {
-			out[name] = time.Unix(0, ts.Int64).UTC()
+			last[name] = ts.Int64
 		}
 	}
-	return out, rows.Err()
+	if err := rows.Err(); err != nil {
+		return nil, fmt.Errorf("store: last readings of %q: %w", structure, err)
+	}
+	rows.Close()
+	if err := s.lastStagedStraddling(ctx, structure, hi, last); err != nil {
+		return nil, err
+	}
+	out := make(map[string]time.Time, len(last))
+	for name, ts := range last {
+		out[name] = time.Unix(0, ts).UTC()
+	}
+	return out, nil
 }

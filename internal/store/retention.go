@@ -84,6 +84,11 @@ func (s *Store) pruneReadings(ctx context.Context, ts int64) (int64, error) {
 			return total, err
 		}
 		total += nb
+		ns, err := s.pruneStaged(ctx, id, ts)
+		if err != nil {
+			return total, err
+		}
+		total += ns
 	}
 	return total, nil
 }

@@ -1,6 +1,8 @@
 package store
 
 import (
+	"trussmonitor/internal/blocks"
+
 	"cmp"
 	"context"
 	"database/sql"
@@ -47,11 +49,11 @@ func TestSortRows(t *testing.T) {
 	}
 }
 
-// TestCommitKeepsForeignKeys checks the two halves of the readings' foreign
-// key under Commit: a channel id that is not in the channels table is
-// refused (the once-per-channel check), and the connection Commit used
-// returns to the pool with SQLite's own checks on (SQLite documents
-// foreign_keys as a per-connection setting, off by default).
+// TestCommitKeepsForeignKeys checks the readings' foreign key under
+// Commit: a channel id that is not in the channels table is refused for
+// keyed rows and for staged runs, and the connections of the pool keep
+// SQLite's own checks on (SQLite documents foreign_keys as a
+// per-connection setting, off by default).
 func TestCommitKeepsForeignKeys(t *testing.T) {
 	s := openTemp(t)
 	ctx := context.Background()
@@ -78,19 +80,32 @@ func TestCommitKeepsForeignKeys(t *testing.T) {
 	for _, c := range conns {
 		c.Close()
 	}
-	tx, err := s.db.BeginTx(ctx, nil)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer tx.Rollback()
 	var id int64
-	if err := tx.QueryRowContext(ctx, `SELECT id FROM channels WHERE name = 'g1'`).Scan(&id); err != nil {
+	if err := s.db.QueryRowContext(ctx, `SELECT id FROM channels WHERE name = 'g1'`).Scan(&id); err != nil {
 		t.Fatal(err)
 	}
-	if err := checkChannels(ctx, tx, []batchRow{{key: rowKey{id, 1}}, {key: rowKey{id, 2}}}); err != nil {
-		t.Errorf("stored channel refused: %v", err)
-	}
-	if err := checkChannels(ctx, tx, []batchRow{{key: rowKey{id, 1}}, {key: rowKey{id + 1000, 2}}}); err == nil {
-		t.Error("channel id not in the channels table accepted")
+	for _, c := range []struct {
+		name  string
+		write func(tx *sql.Tx, ch int64) error
+	}{
+		{"keyed rows", func(tx *sql.Tx, ch int64) error {
+			return s.insertRows(ctx, tx, []batchRow{{key: rowKey{ch, 5}}, {key: rowKey{ch, 6}}})
+		}},
+		{"staged runs", func(tx *sql.Tx, ch int64) error {
+			rows := appendRuns(nil, id, []blocks.Point{{Time: 5, Value: 1}, {Time: 6, Value: 2}})
+			return s.insertStaged(ctx, tx, appendRuns(rows, ch, []blocks.Point{{Time: 7, Value: 1}, {Time: 8, Value: 2}}))
+		}},
+	} {
+		for _, ch := range []int64{id, id + 1000} {
+			tx, err := s.db.BeginTx(ctx, nil)
+			if err != nil {
+				t.Fatal(err)
+			}
+			err = c.write(tx, ch)
+			tx.Rollback()
+			if ok := ch == id; ok != (err == nil) {
+				t.Errorf("%s of channel id %d (stored: %v): error %v", c.name, ch, ok, err)
+			}
+		}
 	}
 }

@@ -45,6 +45,8 @@ type Store struct {
 	mu       sync.Mutex            // guards channels and stmts
 	channels map[chanKey]int64     // committed channel ids
 	stmts    map[stmtKey]*sql.Stmt // prepared inserts by row count
+	named    map[string]*sql.Stmt  // other statements prepared once, by text
+	rowBufs  sync.Pool             // *[2][]batchRow, Commit's row buffers
 	// blockedUntil is, per channel id, the end of its latest block
 	// period: a reading before it may be in a block (blocks.go).
 	blockedUntil map[int64]int64
@@ -80,7 +82,7 @@ func Open(path string, opts Options) (*Store, error) {
 	if err != nil {
 		return nil, fmt.Errorf("store: open %s: %w", path, err)
 	}
-	s := &Store{db: db, path: path, opts: opts, channels: map[chanKey]int64{}, stmts: map[stmtKey]*sql.Stmt{}, blockedUntil: map[int64]int64{}}
+	s := &Store{db: db, path: path, opts: opts, channels: map[chanKey]int64{}, stmts: map[stmtKey]*sql.Stmt{}, named: map[string]*sql.Stmt{}, blockedUntil: map[int64]int64{}}
 	if err := s.verifyPragmas(); err != nil {
 		db.Close()
 		return nil, err
@@ -152,6 +154,10 @@ func (s *Store) Close() error {
 	for k, st := range s.stmts {
 		st.Close()
 		delete(s.stmts, k)
+	}
+	for k, st := range s.named {
+		st.Close()
+		delete(s.named, k)
 	}
 	s.mu.Unlock()
 	return s.db.Close()
