@@ -47,6 +47,24 @@ type Observation struct {
 	// Utilisation are the members' utilisations of a fitted epoch
 	// (structures with a design basis only).
 	Utilisation []Utilisation
+	// LoadShifts are the unknown-load estimates of this epoch that left
+	// their recent distribution; an alarm of an identifying rule raised
+	// at this epoch carries them (they may be absorbing the fault).
+	LoadShifts []LoadShift
+}
+
+// LoadShift flags an unknown-load estimate that left the distribution of
+// the recent accepted epochs when an alarm rose: it may be absorbing the
+// fault (DESIGN.md, Identification and adaptation).
+type LoadShift struct {
+	Pattern string `json:"pattern"`
+	// Value is the estimate (pattern factor) when the alarm rose; Mean and
+	// Std those of the recent epochs before it; Z = (Value - Mean) /
+	// sqrt(Std^2 + the estimate's own variance).
+	Value float64 `json:"value"`
+	Mean  float64 `json:"mean"`
+	Std   float64 `json:"std"`
+	Z     float64 `json:"z"`
 }
 
 // Utilisation is one member's utilisation (|total force| / design
@@ -70,6 +88,10 @@ type Member struct {
 	Checkable     bool
 	EstimatedBias float64 // gauge-fault estimate e_i / r_i, newtons
 	Causes        []Cause // optional: causes ranked for this member
+	// Restart is true when the member's w comes from a changed fit from
+	// this epoch on (adaptation began, changed or ended): the mean rules
+	// forget its earlier samples, which test a model no longer in force.
+	Restart bool
 }
 
 // Channel is a channel's freshness.
@@ -132,11 +154,25 @@ type Evidence struct {
 	// is then the mean of the statistic over the for-duration, or over the
 	// hold-off for a cleared event).
 	Epochs int `json:"epochs,omitempty"`
+	// CausesAt is, for a raised event of a statistical rule, the epoch
+	// time its Causes are estimated as of: the raise, or the latest
+	// revision while the alarm was active (see Evaluator.Revise), their
+	// sizes then estimated over the epochs from the fault's onset to
+	// CausesAt. Zero for the other events.
+	CausesAt time.Time `json:"causes_at,omitzero"`
+	// LoadShifts flags the unknown-load estimates that left their recent
+	// distribution when the alarm rose.
+	LoadShifts []LoadShift `json:"load_shifts,omitempty"`
 }
 
 // EventSink stores events (the store package, adapted by the caller).
 type EventSink interface {
 	PutEvent(ctx context.Context, e Event) error
+	// ReviseEvent replaces the evidence of the stored raised event of
+	// e.Structure, e.Rule and e.Subject at e.Time with e.Evidence (the
+	// causes revised while the alarm is active); a raised event no longer
+	// stored (retention) is not an error.
+	ReviseEvent(ctx context.Context, e Event) error
 }
 
 // Alarm is a firing alarm.
@@ -144,7 +180,23 @@ type Alarm struct {
 	Rule, Subject string
 	Since         time.Time // when its raise condition first held
 	FiredAt       time.Time
+	// Identifies is true for the alarms of statistical rules, whose events
+	// carry identified causes (and whose causes Revise updates).
+	Identifies bool
+	// Causes are the alarm's causes: those of its raised event, or their
+	// latest revision, as of CausesAt (zero for a rule without causes).
+	Causes   []Cause
+	CausesAt time.Time
+	// LoadShifts are the unknown loads flagged when the alarm rose.
+	LoadShifts []LoadShift
 }
+
+// ReviseEvery is the least epoch time between two revisions of an active
+// alarm's stored raised event (Revise): the alarm held in memory is
+// revised at every epoch, the stored row at most once a minute, and once
+// more as the alarm clears, so that the store keeps the sizes of the
+// fault's whole duration without a write per epoch.
+const ReviseEvery = time.Minute
 
 // Evaluator evaluates rules over observations. It is safe for concurrent
 // use; observations of one structure must come in time order.
@@ -156,8 +208,15 @@ type Evaluator struct {
 	mu       sync.Mutex
 	st       map[string]*structState
 
-	sinkMu   sync.Mutex // serialises storing, guards unstored
-	unstored []Event    // events the sink refused, oldest first, retried
+	sinkMu   sync.Mutex     // serialises storing, guards unstored
+	unstored []pendingEvent // events the sink refused, oldest first, retried
+}
+
+// pendingEvent is an event or a revision of a raised event waiting for
+// the sink.
+type pendingEvent struct {
+	ev     Event
+	revise bool
 }
 
 // MaxUnstored bounds the events kept for a retry while the sink fails (a
@@ -168,6 +227,11 @@ const MaxUnstored = 10_000
 type alarmState struct {
 	pending, firing bool
 	activeAt, fired time.Time
+	// raised is the alarm's raised event with its causes revised to
+	// causesAt; storedAt is the causesAt of the last revision handed to
+	// the sink.
+	raised             Event
+	causesAt, storedAt time.Time
 }
 
 type sample struct {
@@ -200,6 +264,9 @@ type structState struct {
 	fitSeen  time.Time
 	meanKeep time.Duration // longest For or Hold of a mean rule
 	rules    []Rule        // the evaluator's rules (shared, read-only)
+	// revisions are the revised raised events of alarms cleared in this
+	// evaluation whose latest revision was not yet stored.
+	revisions []Event
 }
 
 // NewEvaluator checks the rules and returns an evaluator that stores its
@@ -259,11 +326,72 @@ func (e *Evaluator) Observe(ctx context.Context, o Observation) ([]Event, error)
 	for _, r := range e.rules {
 		events = s.evaluate(r, o, events)
 	}
+	pending := make([]pendingEvent, 0, len(s.revisions)+len(events))
+	for _, ev := range s.revisions {
+		pending = append(pending, pendingEvent{ev: ev, revise: true})
+	}
+	s.revisions = s.revisions[:0]
+	for _, ev := range events {
+		pending = append(pending, pendingEvent{ev: ev})
+	}
 	e.mu.Unlock()
 	if e.sink == nil {
 		return events, nil
 	}
-	return events, e.store(ctx, events)
+	return events, e.store(ctx, pending)
+}
+
+// Revise replaces the causes of the firing alarm of rule on subject of
+// structure with causes estimated over the epochs since the fault began,
+// as of the epoch at t (DESIGN.md, Identification and adaptation: the
+// event's size is updated while the alarm is active). Active returns the
+// revised causes at once; the stored raised event is revised when
+// ReviseEvery has passed since its last revision, and once more when the
+// alarm clears. The causes are cut as an event's (the top three, and the
+// whole first group). It reports whether an alarm was revised; an error
+// is the sink's, as for Observe.
+func (e *Evaluator) Revise(ctx context.Context, structure, rule, subject string, causes []Cause, t time.Time) (bool, error) {
+	e.mu.Lock()
+	s := e.st[structure]
+	var a *alarmState
+	if s != nil {
+		a = s.alarms[[2]string{rule, subject}]
+	}
+	if a == nil || !a.firing || t.Before(a.fired) {
+		e.mu.Unlock()
+		return false, nil
+	}
+	a.raised.Evidence.Causes = cutCauses(causes)
+	a.raised.Evidence.CausesAt = t
+	a.causesAt = t
+	var pending []pendingEvent
+	if t.Sub(a.storedAt) >= ReviseEvery {
+		a.storedAt = t
+		pending = append(pending, pendingEvent{ev: a.raised.clone(), revise: true})
+	}
+	e.mu.Unlock()
+	if e.sink == nil || len(pending) == 0 {
+		return true, nil
+	}
+	return true, e.store(ctx, pending)
+}
+
+// clone returns a copy of the event that shares no slice with it.
+func (ev Event) clone() Event {
+	ev.Evidence.Causes = append([]Cause(nil), ev.Evidence.Causes...)
+	ev.Evidence.LoadShifts = append([]LoadShift(nil), ev.Evidence.LoadShifts...)
+	return ev
+}
+
+// cutCauses returns the top three causes, and the whole first group when
+// it is larger (its causes cannot be told apart, so none of them may be
+// cut).
+func cutCauses(causes []Cause) []Cause {
+	n := min(len(causes), 3)
+	for n < len(causes) && causes[n].Group == 1 {
+		n++
+	}
+	return append([]Cause(nil), causes[:n]...)
 }
 
 // Retry stores the events kept after a sink failure; nil when none are
@@ -284,7 +412,7 @@ func (e *Evaluator) Unstored() int {
 
 // store appends events to the unstored ones and stores them in order,
 // stopping at the first the sink refuses.
-func (e *Evaluator) store(ctx context.Context, events []Event) error {
+func (e *Evaluator) store(ctx context.Context, events []pendingEvent) error {
 	e.sinkMu.Lock()
 	defer e.sinkMu.Unlock()
 	e.unstored = append(e.unstored, events...)
@@ -295,10 +423,18 @@ func (e *Evaluator) store(ctx context.Context, events []Event) error {
 	}
 	done := 0
 	var err error
-	for _, ev := range e.unstored {
-		if perr := e.sink.PutEvent(ctx, ev); perr != nil {
-			err = fmt.Errorf("alerts: storing %s event of %s/%s %s (at %s): %w; %d events kept for a retry at the next evaluation",
-				ev.Kind, ev.Structure, ev.Rule, ev.Subject, ev.Time.Format(time.RFC3339), perr, len(e.unstored)-done)
+	for _, p := range e.unstored {
+		ev, what := p.ev, "storing"
+		var perr error
+		if p.revise {
+			what = "revising the causes of"
+			perr = e.sink.ReviseEvent(ctx, ev)
+		} else {
+			perr = e.sink.PutEvent(ctx, ev)
+		}
+		if perr != nil {
+			err = fmt.Errorf("alerts: %s %s event of %s/%s %s (at %s): %w; %d events kept for a retry at the next evaluation",
+				what, ev.Kind, ev.Structure, ev.Rule, ev.Subject, ev.Time.Format(time.RFC3339), perr, len(e.unstored)-done)
 			break
 		}
 		done++
@@ -322,7 +458,9 @@ func (e *Evaluator) Active(structure string) []Alarm {
 	var out []Alarm
 	for k, a := range s.alarms {
 		if a.firing {
-			out = append(out, Alarm{Rule: k[0], Subject: k[1], Since: a.activeAt, FiredAt: a.fired})
+			ev := a.raised.clone()
+			out = append(out, Alarm{Rule: k[0], Subject: k[1], Since: a.activeAt, FiredAt: a.fired, Identifies: s.signal(k[0]).identifies(),
+				Causes: ev.Evidence.Causes, CausesAt: ev.Evidence.CausesAt, LoadShifts: ev.Evidence.LoadShifts})
 		}
 	}
 	sort.Slice(out, func(i, j int) bool {
@@ -341,6 +479,16 @@ func (e *Evaluator) FiringCount(structure, rule string) int {
 	defer e.mu.Unlock()
 	if s := e.st[structure]; s != nil {
 		return s.firingCount[rule]
+	}
+	return 0
+}
+
+// signal returns the signal of the rule named name (0 when none).
+func (s *structState) signal(name string) Signal {
+	for _, r := range s.rules {
+		if r.Name == name {
+			return r.Signal
+		}
 	}
 	return 0
 }
@@ -374,6 +522,9 @@ func (s *structState) update(o Observation) {
 		oldest := o.Time.Add(-s.meanKeep)
 		for _, m := range o.Members {
 			s.wSeen[m.Member] = o.Time
+			if m.Restart {
+				s.wHist[m.Member] = s.wHist[m.Member][:0]
+			}
 			if m.Checkable {
 				s.wHist[m.Member] = appendSample(s.wHist[m.Member], sample{o.Time, m.W}, oldest)
 			}
@@ -578,7 +729,7 @@ func (s *structState) evaluate(r Rule, o Observation, events []Event) []Event {
 		switch {
 		case a.firing:
 			if !raise && !hold {
-				events = append(events, s.event(r, o, in, Cleared, a))
+				events = s.clear(r, o, in, a, events)
 				delete(s.alarms, key)
 				s.firingCount[r.Name]--
 			}
@@ -592,10 +743,23 @@ func (s *structState) evaluate(r Rule, o Observation, events []Event) []Event {
 		if a.pending && !a.firing && raise && t.Sub(a.activeAt) >= r.For {
 			a.firing, a.fired = true, t
 			s.firingCount[r.Name]++
-			events = append(events, s.event(r, o, in, Raised, a))
+			a.raised = s.event(r, o, in, Raised, a)
+			a.causesAt, a.storedAt = a.raised.Evidence.CausesAt, a.raised.Evidence.CausesAt
+			events = append(events, a.raised.clone())
 		}
 	}
 	return events
+}
+
+// clear appends the cleared event of alarm a, preceded (in the revisions
+// for the sink) by its raised event's latest revision when that was not
+// stored yet.
+func (s *structState) clear(r Rule, o Observation, in instance, a *alarmState, events []Event) []Event {
+	if a.causesAt.After(a.storedAt) {
+		a.storedAt = a.causesAt
+		s.revisions = append(s.revisions, a.raised.clone())
+	}
+	return append(events, s.event(r, o, in, Cleared, a))
 }
 
 // suppressed reports whether an alarm of r.SuppressedBy fires on subject
@@ -647,12 +811,14 @@ func (s *structState) evaluateMean(r Rule, o Observation, events []Event) []Even
 			s.alarms[key] = a
 			a.firing, a.fired = true, t
 			s.firingCount[r.Name]++
-			events = append(events, s.event(r, o, in, Raised, a))
+			a.raised = s.event(r, o, in, Raised, a)
+			a.causesAt, a.storedAt = a.raised.Evidence.CausesAt, a.raised.Evidence.CausesAt
+			events = append(events, a.raised.clone())
 			continue
 		}
 		hold := !in.measured || in.nHold > 0 && in.hold > MeanThreshold(r.Clear, r.ZClear, in.nHold)
 		if !raise && !hold {
-			events = append(events, s.event(r, o, in, Cleared, a))
+			events = s.clear(r, o, in, a, events)
 			delete(s.alarms, key)
 			s.firingCount[r.Name]--
 		}
@@ -695,14 +861,20 @@ func (s *structState) event(r Rule, o Observation, in instance, kind string, a *
 	default:
 		causes = nil
 	}
-	// The top three causes, and the whole first group when it is larger
-	// (its causes cannot be told apart, so none of them may be cut).
-	n := min(len(causes), 3)
-	for n < len(causes) && causes[n].Group == 1 {
-		n++
+	ev.Evidence.Causes = cutCauses(causes)
+	if kind == Raised && r.Signal.identifies() {
+		ev.Evidence.CausesAt = o.Time
+		if len(o.LoadShifts) > 0 {
+			ev.Evidence.LoadShifts = append([]LoadShift(nil), o.LoadShifts...)
+		}
 	}
-	ev.Evidence.Causes = append([]Cause(nil), causes[:n]...)
 	return ev
+}
+
+// identifies reports whether the events of a rule watching the signal
+// carry identified causes (the statistical rules).
+func (s Signal) identifies() bool {
+	return s == SignalAbsW || s == SignalPValue || s == SignalFitZ
 }
 
 // String returns the signal's name.

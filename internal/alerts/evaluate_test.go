@@ -13,8 +13,9 @@ import (
 )
 
 type memorySink struct {
-	events []Event
-	fail   error
+	events    []Event
+	revisions []Event
+	fail      error
 }
 
 func (m *memorySink) PutEvent(ctx context.Context, e Event) error {
@@ -22,6 +23,14 @@ func (m *memorySink) PutEvent(ctx context.Context, e Event) error {
 		return m.fail
 	}
 	m.events = append(m.events, e)
+	return nil
+}
+
+func (m *memorySink) ReviseEvent(ctx context.Context, e Event) error {
+	if m.fail != nil {
+		return m.fail
+	}
+	m.revisions = append(m.revisions, e)
 	return nil
 }
 
@@ -214,5 +223,57 @@ func TestReplayGivesSameEvents(t *testing.T) {
 	jb, _ := json.Marshal(b)
 	if string(ja) != string(jb) || len(a) == 0 {
 		t.Errorf("two runs over the same observations differ (%d vs %d events)", len(a), len(b))
+	}
+}
+
+// TestRestartForgetsWindow: a member's w is 0 for an hour, then shifted
+// by 1 for 29.5 minutes (the hour's mean 0.49, just below the window
+// alarm's floor of 0.5), then, the fit now carrying the fault's hypothesis
+// (another member's alarm rose), 0.05 for an hour. Without a restart the
+// hour's mean of the shifted and the adapted w still crosses the floor as
+// the clean samples leave the window, and MemberShifted rises on a member
+// the adapted fit explains; with the window restarted at the change it
+// does not.
+func TestRestartForgetsWindow(t *testing.T) {
+	for _, restart := range []bool{false, true} {
+		rules, err := DefaultRules()
+		if err != nil {
+			t.Fatal(err)
+		}
+		ev, err := NewEvaluator(rules, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		raised := -1
+		t0 := time.Date(2026, 6, 1, 12, 0, 0, 0, time.UTC)
+		const clean, shifted = 360, 177 // epochs of 10 s
+		for i := 0; i < clean+shifted+360; i++ {
+			m := Member{Member: "B7", Checkable: true}
+			switch {
+			case i < clean:
+			case i < clean+shifted:
+				m.W = 1
+			default:
+				m.W = 0.05
+				m.Restart = restart && i == clean+shifted
+			}
+			evs, err := ev.Observe(context.Background(), Observation{Time: t0.Add(time.Duration(i) * 10 * time.Second), Structure: "alder-creek", Members: []Member{m}})
+			if err != nil {
+				t.Fatal(err)
+			}
+			for _, e := range evs {
+				if e.Rule == RuleMemberShifted && e.Kind == Raised && raised < 0 {
+					raised = i
+				}
+			}
+		}
+		switch {
+		case raised >= 0 && raised < clean+shifted:
+			t.Errorf("restart %v: raised at epoch %d, before the change: the test's shift is too large", restart, raised)
+		case restart && raised >= 0:
+			t.Errorf("restarted window: MemberShifted raised at epoch %d", raised)
+		case !restart && raised < 0:
+			t.Errorf("without the restart MemberShifted did not rise: the test does not reproduce the case")
+		}
 	}
 }

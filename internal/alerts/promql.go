@@ -129,7 +129,9 @@ func recording(sig Signal, s string) (name, expr string) {
 // member that stopped being checkable for the whole hold-off, where the
 // evaluator holds an alarm whose member was not measured at all (the
 // metrics keep an unmeasured member's last values, so Prometheus holds it
-// too).
+// too). And the evaluator restarts a member's window when its w begins to
+// come from another fit (Member.Restart: adaptation began, changed or
+// ended), where Prometheus averages the w series across the change.
 func meanExpr(r Rule, s string) string {
 	sel := "{structure=" + strconv.Quote(s) + "}"
 	rec := RecordedMemberW + sel

@@ -195,13 +195,13 @@ func isNaN(v float64) bool { return v != v }
 // 40): held.
 //
 // MemberShifted decides on the mean over the last hour (all samples here)
-// against max(1, 5.33/sqrt(n)) and does not raise on a member whose
+// against max(0.5, 5.33/sqrt(n)) and does not raise on a member whose
 // MemberDiverging alarm fires: B4 at 9 has 19/10 = 1.9 > 1.69 but
 // MemberDiverging fires; at 10 16/11 = 1.45 < 1.61, at 11 18/12 = 1.5 <
 // 1.54; at 12 21.6/13 = 1.66 > 1.48 and at 13 25.2/14 = 1.8 > 1.42, but
 // B4's own |w| of 3.6 is above k = 3.29 (DeferAbove: a deviation that
 // large is MemberDiverging's to raise); at 14 (|w| 1.0) 26.2/15 = 1.75 >
-// 1.38: raised; at 17 the mean is 14.2/18 = 0.79, held above max(0.5,
+// 1.38: raised; at 17 the mean is 14.2/18 = 0.79, held above max(0.25,
 // 3.29/sqrt(18)) = 0.775, at 18 10.2/19 = 0.54 < 0.755: cleared. D2 never:
 // its MemberDiverging alarm fires from 26 on.
 var expectedFiring = map[string][][2]int{

@@ -3,6 +3,7 @@ package dashboard
 import (
 	"encoding/json"
 	"io"
+	"math"
 	"net/http"
 	"net/http/httptest"
 	"net/url"
@@ -323,4 +324,94 @@ func FuzzTimeRange(f *testing.F) {
 			}
 		}
 	})
+}
+
+// TestStateAlarmsJSON: the state carries the active alarms with their
+// causes in groups, each size with its standard deviation and the time of
+// its latest revision, the unknown loads flagged when the alarm rose, the
+// adapted fit, and the nominal w beside the adapted one (null while the
+// fit is not adapted).
+func TestStateAlarmsJSON(t *testing.T) {
+	src, h := fixture(t)
+	src.mu.Lock()
+	last := &src.history[len(src.history)-1]
+	revised := last.Epoch
+	last.Alarms = []ActiveAlarm{{Rule: "MemberDiverging", Subject: "D2", Since: t0.Add(48 * time.Second), FiredAt: t0.Add(53 * time.Second),
+		Causes: []Cause{
+			{Kind: "gauge_fault", Subject: "D2", Label: "gauge D2", T: 410, Size: 3050, Unit: "N", Std: 40, Group: 1},
+			{Kind: "stiffness_change", Subject: "D2", Label: "E A of D2", T: 410, Size: -29.6, Unit: "%", Std: 0.3, Group: 1},
+		},
+		CausesAt:   revised,
+		LoadShifts: []LoadShift{{Pattern: "crowd", Value: -0.41, Mean: 0.02, StdDev: 0.03, Unit: "kPa", Z: -9.8}}}}
+	last.Adapted = &AdaptedFit{Hypotheses: []Cause{{Kind: "stiffness_change", Subject: "D2", Label: "E A of D2", Size: -29.9, Unit: "%", Std: 0.6}},
+		ChiSquare: 12.5, DOF: 6, PValue: 0.052}
+	last.Gauged[0].WNominal = 4.4
+	for i := 1; i < len(last.Gauged); i++ {
+		last.Gauged[i].WNominal = math.NaN()
+	}
+	src.mu.Unlock()
+	code, body, _ := get(t, h, "/api/structures/alder-creek/state")
+	if code != 200 {
+		t.Fatalf("status %d: %s", code, body)
+	}
+	var st struct {
+		Alarms []struct {
+			Rule     string  `json:"rule"`
+			FiredAt  string  `json:"fired_at"`
+			CausesAt *string `json:"causes_at"`
+			Causes   []struct {
+				Label string   `json:"label"`
+				Size  *float64 `json:"size"`
+				Std   *float64 `json:"std"`
+				Group int      `json:"group"`
+			} `json:"causes"`
+			LoadShifts []struct {
+				Pattern string   `json:"pattern"`
+				Z       *float64 `json:"z"`
+				Unit    string   `json:"unit"`
+			} `json:"load_shifts"`
+		} `json:"alarms"`
+		Adapted *struct {
+			Hypotheses []struct {
+				Label string   `json:"label"`
+				Std   *float64 `json:"std"`
+			} `json:"hypotheses"`
+			DOF int `json:"dof"`
+		} `json:"adapted"`
+		Gauged []struct {
+			WNominal *float64 `json:"w_nominal"`
+		} `json:"gauged"`
+	}
+	if err := json.Unmarshal([]byte(body), &st); err != nil {
+		t.Fatal(err)
+	}
+	if len(st.Alarms) != 1 {
+		t.Fatalf("alarms %+v", st.Alarms)
+	}
+	a := st.Alarms[0]
+	if a.Rule != "MemberDiverging" || a.FiredAt != "2026-06-14T09:00:53Z" || a.CausesAt == nil || *a.CausesAt != revised.Format(time.RFC3339Nano) {
+		t.Errorf("alarm %+v", a)
+	}
+	if len(a.Causes) != 2 || a.Causes[1].Label != "E A of D2" || *a.Causes[1].Size != -29.6 || *a.Causes[1].Std != 0.3 || a.Causes[0].Group != 1 || a.Causes[1].Group != 1 {
+		t.Errorf("alarm causes %+v", a.Causes)
+	}
+	if len(a.LoadShifts) != 1 || a.LoadShifts[0].Pattern != "crowd" || *a.LoadShifts[0].Z != -9.8 || a.LoadShifts[0].Unit != "kPa" {
+		t.Errorf("load shifts %+v", a.LoadShifts)
+	}
+	if st.Adapted == nil || st.Adapted.DOF != 6 || len(st.Adapted.Hypotheses) != 1 || *st.Adapted.Hypotheses[0].Std != 0.6 {
+		t.Errorf("adapted %+v", st.Adapted)
+	}
+	if st.Gauged[0].WNominal == nil || *st.Gauged[0].WNominal != 4.4 || st.Gauged[1].WNominal != nil {
+		t.Errorf("w_nominal %v, %v; want 4.4 and null", st.Gauged[0].WNominal, st.Gauged[1].WNominal)
+	}
+	// Without an active alarm: an empty list and no adapted fit.
+	_, h = fixture(t)
+	_, body, _ = get(t, h, "/api/structures/alder-creek/state")
+	var plain map[string]any
+	if err := json.Unmarshal([]byte(body), &plain); err != nil {
+		t.Fatal(err)
+	}
+	if al, ok := plain["alarms"].([]any); !ok || len(al) != 0 || plain["adapted"] != nil {
+		t.Errorf("state without an alarm: alarms %v, adapted %v; want [] and null", plain["alarms"], plain["adapted"])
+	}
 }

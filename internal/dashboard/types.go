@@ -75,8 +75,58 @@ type State struct {
 	// the structure declares none).
 	Members []MemberTotal
 	Design  *Design
+	// Alarms are the alarms active after the latest epoch, each with its
+	// causes as of its latest revision.
+	Alarms []ActiveAlarm
+	// Adapted is the fit carrying the identified hypotheses while an alarm
+	// is active (nil when none is carried): the members' W and the Loads
+	// then come from it, Fit stays the nominal model's test.
+	Adapted *AdaptedFit
 	// Caution is the safety text; the handler substitutes Caution when empty.
 	Caution string
+}
+
+// ActiveAlarm is one firing alarm.
+type ActiveAlarm struct {
+	// Rule and Subject name the alarm.
+	Rule, Subject string
+	// Since is when its raise condition first held, FiredAt when it was
+	// raised.
+	Since, FiredAt time.Time
+	// Causes are its causes in separability groups; for a statistical
+	// alarm their sizes are estimated over the epochs since the fault
+	// began, as of CausesAt (zero: as of the raise).
+	Causes   []Cause
+	CausesAt time.Time
+	// LoadShifts are the unknown-load estimates that left their recent
+	// distribution when the alarm rose: they may be absorbing the fault.
+	LoadShifts []LoadShift
+}
+
+// LoadShift is an unknown-load estimate that left its recent distribution
+// when an alarm rose.
+type LoadShift struct {
+	// Pattern is the load pattern's name.
+	Pattern string
+	// Value is the estimate when the alarm rose, Mean and StdDev those of
+	// the recent accepted epochs before it, all in Unit.
+	Value, Mean, StdDev float64
+	Unit                string
+	// Z is the shift in combined standard deviations.
+	Z float64
+}
+
+// AdaptedFit is the fit with the hypotheses carried while alarms are
+// active.
+type AdaptedFit struct {
+	// Hypotheses are the carried hypotheses with their sizes in the
+	// adapted fit (Cause.T is 0: they are parameters, not tests).
+	Hypotheses []Cause
+	// ChiSquare, DOF, PValue and Rejected are the adapted fit's global test.
+	ChiSquare float64
+	DOF       int
+	PValue    float64
+	Rejected  bool
 }
 
 // Geometry is the drawn shape of a truss in metres.
@@ -150,8 +200,13 @@ type MemberState struct {
 	// SigmaResidual is the standard deviation of the residual e in N,
 	// sqrt((Q_e)_ii).
 	SigmaResidual float64
-	// W is Baarda's normalised residual e_i / sqrt((Q_e)_ii).
+	// W is Baarda's normalised residual e_i / sqrt((Q_e)_ii); while the
+	// fit carries adapted hypotheses, that of the adapted fit (the alarm's
+	// own member keeps its nominal w).
 	W float64
+	// WNominal is the w of the nominal fit while the fit is adapted, NaN
+	// otherwise (written as null).
+	WNominal float64
 	// Redundancy is the redundancy number r_i = (Q_e W)_ii, in [0, 1].
 	Redundancy float64
 	// MDB is the minimal detectable bias in N.
@@ -243,6 +298,11 @@ type Event struct {
 	Message string
 	// Causes are the top-ranked candidate causes, best first.
 	Causes []Cause
+	// CausesAt is the epoch of the latest revision of a raised event's
+	// causes while its alarm was active (zero: the raising epoch's).
+	CausesAt time.Time
+	// LoadShifts are the unknown loads flagged when the alarm rose.
+	LoadShifts []LoadShift
 }
 
 // Cause is one ranked candidate cause of a rejection.
@@ -258,6 +318,8 @@ type Cause struct {
 	Size float64
 	// Unit of Size, e.g. "N", "1" (relative EA change), "m".
 	Unit string
+	// Label is the cause as worded by the monitor ("E A of D2").
+	Label string
 	// Std is the standard deviation of Size (0: not given); Group the
 	// separability group from 1 (causes of one group cannot be told apart
 	// and carry no order; 0: not grouped); Implausible marks a size

@@ -39,6 +39,8 @@ type stateJSON struct {
 	Loads         []loadEstimateJSON `json:"loads"`
 	Members       []memberTotalJSON  `json:"members"`
 	Design        *designJSON        `json:"design"`
+	Alarms        []activeAlarmJSON  `json:"alarms"`
+	Adapted       *adaptedFitJSON    `json:"adapted"`
 	Caution       string             `json:"caution"`
 	ClockNote     string             `json:"clock_note"`
 }
@@ -99,10 +101,38 @@ type memberStateJSON struct {
 	BandLow       num    `json:"band_low_n"`
 	BandHigh      num    `json:"band_high_n"`
 	W             num    `json:"w"`
+	WNominal      num    `json:"w_nominal"`
 	Redundancy    num    `json:"redundancy"`
 	MDB           num    `json:"mdb_n"`
 	Checkable     bool   `json:"checkable"`
 	Alarm         bool   `json:"alarm"`
+}
+
+type activeAlarmJSON struct {
+	Rule       string          `json:"rule"`
+	Subject    string          `json:"subject"`
+	Since      string          `json:"since"`
+	FiredAt    string          `json:"fired_at"`
+	Causes     []causeJSON     `json:"causes"`
+	CausesAt   *string         `json:"causes_at"`
+	LoadShifts []loadShiftJSON `json:"load_shifts"`
+}
+
+type loadShiftJSON struct {
+	Pattern string `json:"pattern"`
+	Value   num    `json:"value"`
+	Mean    num    `json:"recent_mean"`
+	StdDev  num    `json:"recent_std_dev"`
+	Unit    string `json:"unit"`
+	Z       num    `json:"z"`
+}
+
+type adaptedFitJSON struct {
+	Hypotheses []causeJSON `json:"hypotheses"`
+	ChiSquare  num         `json:"chi_square"`
+	DOF        int         `json:"dof"`
+	PValue     num         `json:"p_value"`
+	Rejected   bool        `json:"rejected"`
 }
 
 type fitJSON struct {
@@ -152,20 +182,23 @@ type eventsJSON struct {
 }
 
 type eventJSON struct {
-	Time     string      `json:"time"`
-	Rule     string      `json:"rule"`
-	Subject  string      `json:"subject"`
-	Kind     string      `json:"kind"`
-	W        num         `json:"w"`
-	Size     num         `json:"size"`
-	SizeUnit string      `json:"size_unit"`
-	Message  string      `json:"message"`
-	Causes   []causeJSON `json:"causes"`
+	Time       string          `json:"time"`
+	Rule       string          `json:"rule"`
+	Subject    string          `json:"subject"`
+	Kind       string          `json:"kind"`
+	W          num             `json:"w"`
+	Size       num             `json:"size"`
+	SizeUnit   string          `json:"size_unit"`
+	Message    string          `json:"message"`
+	Causes     []causeJSON     `json:"causes"`
+	CausesAt   *string         `json:"causes_at"`
+	LoadShifts []loadShiftJSON `json:"load_shifts"`
 }
 
 type causeJSON struct {
 	Kind        string `json:"kind"`
 	Subject     string `json:"subject"`
+	Label       string `json:"label"`
 	T           num    `json:"t"`
 	Size        num    `json:"size"`
 	Unit        string `json:"unit"`
@@ -228,13 +261,38 @@ func toStateJSON(s State) stateJSON {
 		lo, hi := band(m.Predicted, m.SigmaResidual, s.CriticalValue)
 		out.Gauged = append(out.Gauged, memberStateJSON{
 			ID: m.ID, Measured: n(m.Measured), Predicted: n(m.Predicted), SigmaResidual: n(m.SigmaResidual),
-			BandLow: n(lo), BandHigh: n(hi), W: n(m.W), Redundancy: n(m.Redundancy), MDB: n(m.MDB),
+			BandLow: n(lo), BandHigh: n(hi), W: n(m.W), WNominal: n(m.WNominal), Redundancy: n(m.Redundancy), MDB: n(m.MDB),
 			Checkable: m.Checkable, Alarm: m.Alarm,
 		})
 	}
 	for _, l := range s.Loads {
 		out.Loads = append(out.Loads, loadEstimateJSON{Pattern: l.Pattern, Value: n(l.Value), StdDev: n(l.StdDev), Unit: l.Unit,
 			Factor: n(l.Factor), FactorStdDev: n(l.FactorStdDev)})
+	}
+	out.Alarms = make([]activeAlarmJSON, 0, len(s.Alarms))
+	for _, a := range s.Alarms {
+		out.Alarms = append(out.Alarms, activeAlarmJSON{Rule: a.Rule, Subject: a.Subject, Since: timeText(a.Since), FiredAt: timeText(a.FiredAt),
+			Causes: toCausesJSON(a.Causes), CausesAt: optTime(a.CausesAt), LoadShifts: toLoadShiftsJSON(a.LoadShifts)})
+	}
+	if a := s.Adapted; a != nil {
+		out.Adapted = &adaptedFitJSON{Hypotheses: toCausesJSON(a.Hypotheses), ChiSquare: n(a.ChiSquare), DOF: a.DOF, PValue: n(a.PValue), Rejected: a.Rejected}
+	}
+	return out
+}
+
+func toCausesJSON(cs []Cause) []causeJSON {
+	out := make([]causeJSON, 0, len(cs))
+	for _, c := range cs {
+		out = append(out, causeJSON{Kind: c.Kind, Subject: c.Subject, Label: c.Label, T: n(c.T), Size: n(c.Size), Unit: c.Unit,
+			Std: n(c.Std), Group: c.Group, Implausible: c.Implausible})
+	}
+	return out
+}
+
+func toLoadShiftsJSON(ls []LoadShift) []loadShiftJSON {
+	out := make([]loadShiftJSON, 0, len(ls))
+	for _, l := range ls {
+		out = append(out, loadShiftJSON{Pattern: l.Pattern, Value: n(l.Value), Mean: n(l.Mean), StdDev: n(l.StdDev), Unit: l.Unit, Z: n(l.Z)})
 	}
 	return out
 }
@@ -252,11 +310,7 @@ func toEventJSON(e Event) eventJSON {
 	out := eventJSON{
 		Time: timeText(e.Time), Rule: e.Rule, Subject: e.Subject, Kind: e.Kind,
 		W: n(e.W), Size: n(e.Size), SizeUnit: e.SizeUnit, Message: e.Message,
-		Causes: make([]causeJSON, 0, len(e.Causes)),
-	}
-	for _, c := range e.Causes {
-		out.Causes = append(out.Causes, causeJSON{Kind: c.Kind, Subject: c.Subject, T: n(c.T), Size: n(c.Size), Unit: c.Unit,
-			Std: n(c.Std), Group: c.Group, Implausible: c.Implausible})
+		Causes: toCausesJSON(e.Causes), CausesAt: optTime(e.CausesAt), LoadShifts: toLoadShiftsJSON(e.LoadShifts),
 	}
 	return out
 }

@@ -119,8 +119,9 @@ func (l *Live) add(name string, r *pipeline.Result) {
 		return
 	}
 	for _, ev := range r.Events {
-		e.recent = append(e.recent, dashboardEvent(ev))
+		e.recent = append(e.recent, e.dashboardEvent(ev))
 	}
+	e.reviseRecent(r.Active)
 	if len(e.recent) > 1000 {
 		e.recent = append([]dashboard.Event(nil), e.recent[len(e.recent)-1000:]...)
 	}
@@ -149,10 +150,12 @@ func (l *Live) add(name string, r *pipeline.Result) {
 	}
 }
 
+// alarmSet lists the members with an active member alarm: the short
+// window's (MemberDiverging) or the hour's (MemberShifted).
 func alarmSet(active []alerts.Alarm) map[string]bool {
 	out := map[string]bool{}
 	for _, a := range active {
-		if a.Rule == alerts.RuleMemberDiverging {
+		if a.Rule == alerts.RuleMemberDiverging || a.Rule == alerts.RuleMemberShifted {
 			out[a.Subject] = true
 		}
 	}
@@ -169,7 +172,52 @@ func seriesPoint(t time.Time, m reconcile.MemberResult, alarm bool) dashboard.Se
 	return sp
 }
 
-func dashboardEvent(ev alerts.Event) dashboard.Event {
+// reviseRecent gives the raised events of the active alarms their
+// latest causes.
+func (e *entry) reviseRecent(active []alerts.Alarm) {
+	for _, a := range active {
+		if a.CausesAt.IsZero() {
+			continue
+		}
+		for i := len(e.recent) - 1; i >= 0; i-- {
+			ev := &e.recent[i]
+			if ev.Kind == alerts.Raised && ev.Rule == a.Rule && ev.Subject == a.Subject && ev.Time.Equal(a.FiredAt) {
+				ev.Causes, ev.CausesAt = dashboardCauses(a.Causes), a.CausesAt
+				break
+			}
+		}
+	}
+}
+
+// dashboardCauses converts alarm causes for the dashboard.
+func dashboardCauses(cs []alerts.Cause) []dashboard.Cause {
+	out := make([]dashboard.Cause, 0, len(cs))
+	for _, c := range cs {
+		out = append(out, dashboard.Cause{Kind: c.Kind, Subject: causeSubject(c.Label), Label: c.Label, T: c.T, Size: c.Size, Unit: c.Unit,
+			Std: c.Std, Group: c.Group, Implausible: c.Implausible})
+	}
+	return out
+}
+
+// loadShifts presents flagged unknown loads in their pattern's
+// engineering unit (or as pattern factors).
+func (e *entry) loadShifts(ls []alerts.LoadShift) []dashboard.LoadShift {
+	var out []dashboard.LoadShift
+	for _, l := range ls {
+		d := dashboard.LoadShift{Pattern: l.Pattern, Value: l.Value, Mean: l.Mean, StdDev: l.Std, Unit: "pattern factor", Z: l.Z}
+		if p, ok := e.patterns[l.Pattern]; ok {
+			if v, unit, ok := p.InReferenceUnit(l.Value); ok {
+				d.Value, d.Unit = v, unit
+				d.Mean, _, _ = p.InReferenceUnit(l.Mean)
+				d.StdDev, _, _ = p.InReferenceUnit(l.Std)
+			}
+		}
+		out = append(out, d)
+	}
+	return out
+}
+
+func (e *entry) dashboardEvent(ev alerts.Event) dashboard.Event {
 	d := dashboard.Event{Time: ev.Time, Rule: ev.Rule, Subject: ev.Subject, Kind: ev.Kind, W: ev.Evidence.W, Size: ev.Evidence.Bias}
 	// Only a member's event has a w and an estimated gauge bias; the others
 	// show none (NaN is written as null).
@@ -182,10 +230,9 @@ func dashboardEvent(ev alerts.Event) dashboard.Event {
 		d.Size = nan()
 	}
 	d.Message = alerts.Message(ev)
-	for _, c := range ev.Evidence.Causes {
-		d.Causes = append(d.Causes, dashboard.Cause{Kind: c.Kind, Subject: causeSubject(c.Label), T: c.T, Size: c.Size, Unit: c.Unit,
-			Std: c.Std, Group: c.Group, Implausible: c.Implausible})
-	}
+	d.Causes = dashboardCauses(ev.Evidence.Causes)
+	d.CausesAt = ev.Evidence.CausesAt
+	d.LoadShifts = e.loadShifts(ev.Evidence.LoadShifts)
 	return d
 }
 
@@ -237,8 +284,22 @@ func (l *Live) State(name string) (dashboard.State, error) {
 	alarm := alarmSet(r.Active)
 	for _, m := range r.Members {
 		sp := seriesPoint(r.Time, m, alarm[m.Member])
+		wn := nan()
+		if r.Adapted != nil && m.Available {
+			wn = m.WNominal
+		}
 		st.Gauged = append(st.Gauged, dashboard.MemberState{ID: m.Member, Measured: sp.Measured, Predicted: sp.Predicted,
-			SigmaResidual: sp.SigmaResidual, W: sp.W, Redundancy: m.Redundancy, MDB: m.MDBN, Checkable: m.Checkable, Alarm: alarm[m.Member]})
+			SigmaResidual: sp.SigmaResidual, W: sp.W, WNominal: wn, Redundancy: m.Redundancy, MDB: m.MDBN, Checkable: m.Checkable, Alarm: alarm[m.Member]})
+	}
+	for _, a := range r.Active {
+		st.Alarms = append(st.Alarms, dashboard.ActiveAlarm{Rule: a.Rule, Subject: a.Subject, Since: a.Since, FiredAt: a.FiredAt,
+			Causes: dashboardCauses(a.Causes), CausesAt: a.CausesAt, LoadShifts: e.loadShifts(a.LoadShifts)})
+	}
+	if ad := r.Adapted; ad != nil {
+		st.Adapted = &dashboard.AdaptedFit{ChiSquare: ad.ChiSquare, DOF: ad.DOF, PValue: ad.PValue, Rejected: ad.Rejected}
+		for _, h := range ad.Hypotheses {
+			st.Adapted.Hypotheses = append(st.Adapted.Hypotheses, dashboard.Cause{Kind: h.Kind, Subject: h.Subject, Label: h.Label, Size: h.Size, Unit: h.Unit, Std: h.Std})
+		}
 	}
 	st.Fit.ChiSquare, st.Fit.DOF, st.Fit.PValue, st.Fit.Rejected = r.ChiSquare, r.DOF, r.PValue, r.Rejected
 	for _, ld := range r.Loads {
@@ -300,8 +361,16 @@ func (l *Live) Events(ctx context.Context, name string, from, to time.Time) ([]d
 			if err := json.Unmarshal(se.Evidence, &ev); err != nil {
 				return nil, fmt.Errorf("structure %q: event %s/%s at %s: evidence: %w", name, se.Rule, se.Subject, se.Time, err)
 			}
-			out = append(out, dashboardEvent(alerts.Event{Structure: se.Structure, Rule: se.Rule, Subject: se.Subject, Kind: se.Kind, Time: se.Time, Evidence: ev}))
+			out = append(out, e.dashboardEvent(alerts.Event{Structure: se.Structure, Rule: se.Rule, Subject: se.Subject, Kind: se.Kind, Time: se.Time, Evidence: ev}))
 		}
+		// The store holds a revision at most a minute old; the active
+		// alarms in memory hold this epoch's.
+		l.mu.RLock()
+		if e.latest != nil {
+			tmp := entry{recent: out}
+			tmp.reviseRecent(e.latest.Active)
+		}
+		l.mu.RUnlock()
 		return out, nil
 	}
 	var out []dashboard.Event

@@ -17,7 +17,7 @@ func TestEventWordingLikeReplay(t *testing.T) {
 		{Rule: "FitRejected", Subject: "alder-creek", Kind: alerts.Cleared, Time: time.Unix(200, 0),
 			Evidence: alerts.Evidence{Signal: "fit_p_value", Value: 0.2, Threshold: 0.01}},
 	} {
-		if got, want := dashboardEvent(ev).Message, alerts.Message(ev); got != want {
+		if got, want := (&entry{}).dashboardEvent(ev).Message, alerts.Message(ev); got != want {
 			t.Errorf("dashboard message %q, want the report's %q", got, want)
 		}
 	}

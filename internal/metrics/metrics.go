@@ -74,6 +74,7 @@ type Metrics struct {
 	alarms                                                   *prometheus.GaugeVec
 	dropped                                                  prometheus.Counter
 	state                                                    *stateVecs
+	adapt                                                    *adaptVecs
 	loads                                                    *loadVecs
 	deadDropped                                              prometheus.Counter
 	commitFailures, reconnects                               *prometheus.CounterVec
@@ -112,7 +113,7 @@ func New(reg prometheus.Registerer) (*Metrics, error) {
 		measured:   g(MemberMeasured, "Measured change of the gauged member's axial force since its gauges' zero reading, last epoch (tension positive), newtons; the total is shm_member_force_total_newtons.", sm),
 		predicted:  g(MemberPredicted, "Change of the gauged member's axial force since the zero reading predicted by the model under the recorded and estimated loads, newtons.", sm),
 		residual:   g(MemberResidual, "Residual r = measured - predicted member force, newtons.", sm),
-		w:          g(MemberW, "Baarda's w statistic of the member's adjusted residual (standard normal without a fault).", sm),
+		w:          g(MemberW, "Baarda's w statistic of the member's adjusted residual (standard normal without a fault); while an alarm's identified causes are carried in the fit, that of the adapted fit (the alarm's own member keeps its nominal w), see "+MemberWNominal+".", sm),
 		mdb:        g(MemberMDB, "Minimal detectable bias of the member's gauge, newtons (0 when the member cannot be checked at all).", sm),
 		redund:     g(MemberRedundancy, "Redundancy number r_i of the gauged member (0 to 1).", sm),
 		checkable:  g(MemberCheckable, "1 when the member's redundancy allows its w-test to alarm, else 0.", sm),
@@ -138,6 +139,7 @@ func New(reg prometheus.Registerer) (*Metrics, error) {
 		alarms:  g(AlarmsFiring, "Number of alarms of the rule currently firing.", []string{"structure", "rule"}),
 		dropped: prometheus.NewCounter(prometheus.CounterOpts{Name: BrokerDroppedMessage, Help: "Messages the embedded broker dropped (in-flight or queue limits)."}),
 		state:   newStateVecs(),
+		adapt:   newAdaptVecs(),
 		loads:   newLoadVecs(),
 		deadDropped: prometheus.NewCounter(prometheus.CounterOpts{Name: DeadLettersDropped,
 			Help: "Oldest dead letters deleted to keep the dead-letter table under its row cap."}),
@@ -161,7 +163,7 @@ func New(reg prometheus.Registerer) (*Metrics, error) {
 	for _, col := range append([]prometheus.Collector{m.measured, m.predicted, m.residual, m.w, m.mdb, m.redund, m.checkable,
 		m.chi2, m.dof, m.pvalue, m.load, m.loadStd, m.epochs, m.messages, m.readings, m.rejections, m.skew,
 		m.lastReading, m.watchedSince, m.latency, m.alarms, m.dropped, m.deadDropped, m.commitFailures, m.reconnects, m.connected,
-		m.queueDepth, m.queueOverflow, m.queueDropped}, append(m.state.collectors(), m.loads.collectors()...)...) {
+		m.queueDepth, m.queueOverflow, m.queueDropped}, append(append(m.state.collectors(), m.loads.collectors()...), m.adapt.collectors()...)...) {
 		if err := reg.Register(col); err != nil {
 			return nil, fmt.Errorf("metrics: registering collectors: %w (is a second Metrics registered on the same registry?)", err)
 		}

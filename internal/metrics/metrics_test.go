@@ -71,6 +71,25 @@ func example(t testing.TB) (*prometheus.Registry, *Metrics) {
 	if err := s.SetUnknownLoad(0, 3.25, 0.41); err != nil {
 		t.Fatal(err)
 	}
+	// D2's alarm carries its stiffness change: B4's w comes from the
+	// adapted fit, its nominal w beside it; the crowd is flagged.
+	ad := m.Adaptation("alder-creek", []string{"B4", "D2"}, []string{"crowd"})
+	if err := ad.SetNominalW(0, -2.31); err != nil {
+		t.Fatal(err)
+	}
+	if err := ad.SetNominalW(1, 4.12); err != nil {
+		t.Fatal(err)
+	}
+	if err := ad.SetNominalW(2, 0); err == nil {
+		t.Fatal("member index 2 of 2 accepted")
+	}
+	ad.SetAdapted(1, 9.8, 12)
+	if err := ad.SetLoadShift(0, true, -6.4); err != nil {
+		t.Fatal(err)
+	}
+	if err := ad.SetLoadShift(1, true, 1); err == nil {
+		t.Fatal("pattern index 1 of 1 accepted")
+	}
 	m.Epoch("alder-creek", EpochAccepted, 85*time.Microsecond)
 	m.Epoch("alder-creek", EpochRejected, 120*time.Microsecond)
 	m.MessageHandled("alder-creek", "stored")
@@ -198,4 +217,31 @@ func BenchmarkObserver(b *testing.B) {
 			_ = s.SetMember(0, MemberValues{W: 1})
 		}
 	})
+}
+
+// TestAdaptationEnds: when the last statistical alarm clears the adapted
+// fit's series and the flagged load's z go away; the count and the flag
+// read 0.
+func TestAdaptationEnds(t *testing.T) {
+	reg, m := example(t)
+	ad := m.Adaptation("alder-creek", []string{"B4", "D2"}, []string{"crowd"})
+	ad.SetAdapted(1, 9.8, 12)
+	if err := ad.SetLoadShift(0, true, -6.4); err != nil {
+		t.Fatal(err)
+	}
+	ad.SetAdapted(0, 0, 0)
+	if err := ad.SetLoadShift(0, false, 0); err != nil {
+		t.Fatal(err)
+	}
+	const want = `
+# HELP shm_adapted_hypotheses Number of identified hypotheses the fit carries as parameters while statistical alarms are active (0: the nominal fit).
+# TYPE shm_adapted_hypotheses gauge
+shm_adapted_hypotheses{structure="alder-creek"} 0
+# HELP shm_unknown_load_shift_flagged 1 while an active alarm flags the unknown load's estimate as having left its recent distribution when the alarm rose (it may be absorbing the fault), else 0.
+# TYPE shm_unknown_load_shift_flagged gauge
+shm_unknown_load_shift_flagged{pattern="crowd",structure="alder-creek"} 0
+`
+	if err := testutil.GatherAndCompare(reg, strings.NewReader(want), AdaptedHypotheses, AdaptedChiSquare, AdaptedDOF, UnknownLoadShifted, UnknownLoadShiftZ); err != nil {
+		t.Error(err)
+	}
 }

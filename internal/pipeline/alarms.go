@@ -2,27 +2,28 @@ package pipeline
 
 import (
 	"math"
+	"strings"
 
 	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/reconcile"
 )
 
 // adaptAfter starts and ends adaptation from the alarms of an epoch: a
-// raised statistical alarm (MemberDiverging, FitRejected) makes the fit
-// carry the causes of its first group and
+// raised statistical alarm (MemberDiverging, FitRejected, MemberShifted)
+// makes the fit carry the causes of its first group and
 // flags the unknown loads that left their recent distribution; when no
 // statistical alarm is active any more the fit returns to the nominal
 // model.
 func adaptAfter(p *reconcile.Processor, res *Result) {
 	for _, ev := range res.Events {
-		if ev.Kind != alerts.Raised || (ev.Rule != alerts.RuleMemberDiverging && ev.Rule != alerts.RuleFitRejected) {
+		if ev.Kind != alerts.Raised || !adapting(ev.Rule) {
 			continue
 		}
 		if shifts := p.LoadShifts(res.EpochResult, reconcile.LoadShiftK); len(shifts) > 0 {
 			res.LoadShifts = shifts
 		}
 		keep := ""
-		if ev.Rule == alerts.RuleMemberDiverging {
+		if ev.Rule == alerts.RuleMemberDiverging || ev.Rule == alerts.RuleMemberShifted {
 			keep = ev.Subject
 		}
 		// The whole first group: its causes are (nearly) one direction in
@@ -43,12 +44,49 @@ func adaptAfter(p *reconcile.Processor, res *Result) {
 	}
 	active := false
 	for _, a := range res.Active {
-		if a.Rule == alerts.RuleMemberDiverging || a.Rule == alerts.RuleFitRejected {
+		if adapting(a.Rule) {
 			active = true
 		}
 	}
 	if !active && len(p.Adapted()) > 0 {
 		p.Unadapt()
+	}
+}
+
+// adapting reports whether an alarm of the rule makes the fit carry its
+// causes: the statistical rules.
+func adapting(rule string) bool {
+	return rule == alerts.RuleMemberDiverging || rule == alerts.RuleFitRejected || rule == alerts.RuleMemberShifted
+}
+
+// fitModel follows which fit the members' w come from: the carried
+// hypotheses of the epoch's fit. When they change (adaptation began,
+// changed or ended), the w of every member not kept nominal tests another
+// model from then on, and the mean rules restart its window
+// (alerts.Member.Restart): otherwise the window alarm's hour of w from the
+// fit before adaptation raised on every member the fault had moved, one
+// fault showing as several alarms.
+type fitModel struct{ carried string }
+
+// mark sets Restart on the observation's members when the carried
+// hypotheses of this epoch's fit (p.Adapted after Process) differ from
+// the previous epoch's.
+func (f *fitModel) mark(o *alerts.Observation, p *reconcile.Processor, res *reconcile.EpochResult) {
+	carried := strings.Join(p.Adapted(), "\x00")
+	if carried == f.carried {
+		return
+	}
+	f.carried = carried
+	kept := map[string]bool{}
+	if res.Adapted != nil {
+		for _, m := range res.Adapted.Kept {
+			kept[m] = true
+		}
+	}
+	for i := range o.Members {
+		if !kept[o.Members[i].Member] {
+			o.Members[i].Restart = true
+		}
 	}
 }
 

@@ -118,6 +118,7 @@ func runIdScenario(t *testing.T, f *scnFixture, sc idScenario) idOutcome {
 		memberIdx[i], _ = f.st.MemberIndex(n)
 	}
 	start := time.Time{}
+	var model fitModel
 	step := 0
 	f.run(t, scnOptions(t, sc.seed, lead+after, sc.rate, faults...), func(g *simulate.Generator, s simulate.Step, values map[string]float64) {
 		if start.IsZero() {
@@ -142,6 +143,9 @@ func runIdScenario(t *testing.T, f *scnFixture, sc idScenario) idOutcome {
 		res := &Result{EpochResult: p.Process(s.Time, f.sm.Evaluate(values), nil)}
 		obs := alerts.Observation{Time: s.Time, Structure: f.st.Name}
 		fitObservation(&obs, res.EpochResult)
+		if res.Outcome == reconcile.OutcomeAccepted || res.Outcome == reconcile.OutcomeRejected {
+			model.mark(&obs, p, res.EpochResult)
+		}
 		evs, err := ev.Observe(context.Background(), obs)
 		if err != nil {
 			t.Fatal(err)
@@ -397,11 +401,15 @@ func TestScenarioCleanAlarms(t *testing.T) {
 				t.Fatal(err)
 			}
 			var raised []string
+			var model fitModel
 			n := 0
 			f.run(t, scnOptions(t, uint64(900+i), time.Duration(days)*24*time.Hour, 10*time.Minute), func(g *simulate.Generator, s simulate.Step, values map[string]float64) {
 				res := &Result{EpochResult: p.Process(s.Time, f.sm.Evaluate(values), nil)}
 				obs := alerts.Observation{Time: s.Time, Structure: f.st.Name}
 				fitObservation(&obs, res.EpochResult)
+				if res.Outcome == reconcile.OutcomeAccepted || res.Outcome == reconcile.OutcomeRejected {
+					model.mark(&obs, p, res.EpochResult)
+				}
 				evs, err := ev.Observe(context.Background(), obs)
 				if err != nil {
 					t.Fatal(err)

@@ -126,6 +126,7 @@ type Pipeline struct {
 	lastFeed  time.Time // receiver clock at the last Feed (live only)
 	stats     Stats
 	logged    map[string]time.Time
+	model     fitModel // which fit the members' w come from (alarms.go)
 }
 
 // New builds the pipeline of model m with sensor map sm.
@@ -320,7 +321,14 @@ func (p *Pipeline) process(ctx context.Context, e epoch.Epoch) {
 	if t.Before(p.lastEval) {
 		p.stats.AlarmOutOfOrder++
 	} else {
-		evs, err := p.eval.Observe(ctx, p.observation(t, res.EpochResult))
+		obs := p.observation(t, res.EpochResult)
+		if res.Outcome == reconcile.OutcomeAccepted || res.Outcome == reconcile.OutcomeRejected {
+			p.model.mark(&obs, p.proc, res.EpochResult)
+			// An alarm rising now carries the unknown loads that left
+			// their recent distribution (they may absorb the fault).
+			obs.LoadShifts = alertLoadShifts(p.proc.LoadShifts(res.EpochResult, reconcile.LoadShiftK))
+		}
+		evs, err := p.eval.Observe(ctx, obs)
 		if err != nil {
 			p.logOnce("alarm", "alarm evaluation", "structure", p.structure, "error", err)
 		}
@@ -331,6 +339,9 @@ func (p *Pipeline) process(ctx context.Context, e epoch.Epoch) {
 				res.Window = p.proc.WindowCauses()
 				break
 			}
+		}
+		if err := p.reviseAlarms(ctx, res); err != nil {
+			p.logOnce("alarm", "alarm causes not stored yet; retrying", "structure", p.structure, "error", err)
 		}
 	}
 	res.Active = p.eval.Active(p.structure)
@@ -381,13 +392,11 @@ func fitObservation(o *alerts.Observation, res *reconcile.EpochResult) {
 	// The first group is kept whole (its causes carry no order), then
 	// further causes up to three.
 	causes := res.Causes
-	for i, c := range causes {
-		if i >= 3 && c.Group != 1 {
-			break
-		}
-		o.Causes = append(o.Causes, alerts.Cause{Label: c.Label, Kind: c.Kind, T: c.T, Size: c.Size, Unit: c.Unit,
-			Std: c.Std, MDS: c.MDS, Group: c.Group, Implausible: c.Implausible})
+	n := 0
+	for n < len(causes) && (n < 3 || causes[n].Group == 1) {
+		n++
 	}
+	o.Causes = alertCauses(causes[:n])
 	for _, m := range res.Members {
 		if !m.Available {
 			continue

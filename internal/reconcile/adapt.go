@@ -36,6 +36,9 @@ type AdaptedFit struct {
 	DOF        int
 	PValue     float64
 	Rejected   bool
+	// Kept are the gauged members whose w stays that of the nominal fit
+	// (the alarm's own member, the subjects of gauge hypotheses).
+	Kept []string
 }
 
 // LoadShift flags an unknown-load estimate that left its recent
@@ -292,6 +295,7 @@ func (p *Processor) adaptedFitWith(res *EpochResult, s *Solver, cands []Candidat
 		mr := &res.Members[g]
 		mr.WNominal = mr.W
 		if keep[g] {
+			fit.Kept = append(fit.Kept, mr.Member)
 			continue
 		}
 		mr.AdjustedN = r.Adjusted[g]

@@ -151,6 +151,7 @@ type Processor struct {
 	adapted   []adaptedHypothesis
 	adaptedN  int // epochs since the first hypothesis was carried
 	recent    *RecentRanker
+	faults    map[string]*FaultRanker // by active alarm (faults.go)
 	loadHist  loadHistory
 	fixed     []Candidate       // gauge, channel, settlement and nodal-load candidates
 	subjects  map[string]string // candidate label -> subject
@@ -448,6 +449,9 @@ func (p *Processor) fill(res *EpochResult, r *Result, s *Solver, missing []strin
 	p.lastID = id
 	p.window.Add(id.Causes)
 	p.recent.Add(res.Time, id.Causes)
+	for _, f := range p.faults {
+		f.Add(id.Causes)
+	}
 	if r.Rejected {
 		// The causes summed over the epochs of the last CauseSpan (the
 		// epochs an alarm's decision rests on), grouped by this epoch's

@@ -1033,6 +1033,22 @@ func BenchmarkProcess(b *testing.B) {
 					}
 				}
 			})
+			// The same with one active alarm whose causes are summed over
+			// the fault's epochs and revised at every epoch (what the
+			// pipeline adds per epoch and alarm: FaultRanker.Add in
+			// Process, FaultCauses with its grouping).
+			b.Run("revised", func(b *testing.B) {
+				p.TrackFault("alarm")
+				defer p.DropFaults(nil)
+				b.ReportAllocs()
+				for i := 0; i < b.N; i++ {
+					e := epochs[i%len(epochs)]
+					p.Process(e.t, e.snap, nil)
+					if len(p.FaultCauses("alarm")) == 0 {
+						b.Fatal("no causes")
+					}
+				}
+			})
 		})
 	}
 }

@@ -20,8 +20,13 @@ import (
 // every member's running totals and which pattern columns were used.
 // Nothing measured on the wall clock (Result.Took) is kept.
 type collector struct {
-	stream   *report.Stream
-	events   []alerts.Event
+	stream *report.Stream
+	events []alerts.Event
+	// raised indexes the raised events of identifying alarms by rule,
+	// subject and time; adapted holds each one's carried hypotheses at
+	// its latest epoch active.
+	raised   map[alarmKey]int
+	adapted  map[int][]reconcile.RankedCause
 	subjects map[string]string // cause label -> subject, from the pipeline's causes
 	totals   memberTotals      // every member's total state (members.go)
 	// col maps a load pattern to its report column; scale is the column's
@@ -29,6 +34,7 @@ type collector struct {
 	// epoch gave an estimate (estimable or not) for.
 	col   map[string]int
 	scale []float64
+	units []string
 	used  []bool
 	// members and loads are the row buffers handed to the stream.
 	members []report.MemberResult
@@ -63,9 +69,11 @@ func reportPatterns(unknown []string, sm *sensors.Map, estimateMissing bool) []s
 // newCollector streams into s, whose head lists the columns; scale holds
 // each pattern column's reference load (referenceUnits).
 func newCollector(s *report.Stream, head *report.Report, scale []float64) *collector {
-	c := &collector{stream: s, subjects: map[string]string{}, col: map[string]int{}, scale: scale}
+	c := &collector{stream: s, subjects: map[string]string{}, col: map[string]int{}, scale: scale,
+		raised: map[alarmKey]int{}, adapted: map[int][]reconcile.RankedCause{}}
 	for j, p := range head.Patterns {
 		c.col[p.Name] = j
+		c.units = append(c.units, p.Unit)
 	}
 	c.used = make([]bool, len(head.Patterns))
 	c.members = make([]report.MemberResult, len(head.Members))
@@ -82,7 +90,13 @@ func (c *collector) Epoch(r *pipeline.Result) {
 			}
 		}
 	}
-	c.events = append(c.events, r.Events...)
+	for _, ev := range r.Events {
+		if ev.Kind == alerts.Raised {
+			c.raised[alarmKey{ev.Rule, ev.Subject, ev.Time.UnixNano()}] = len(c.events)
+		}
+		c.events = append(c.events, ev)
+	}
+	c.revise(r)
 	if r.Outcome != reconcile.OutcomeAccepted && r.Outcome != reconcile.OutcomeRejected {
 		return
 	}
@@ -122,6 +136,32 @@ func (c *collector) Epoch(r *pipeline.Result) {
 	c.err = c.stream.Add(report.Epoch{Time: r.Time, Members: c.members, Fit: report.Fit{ChiSquare: r.ChiSquare, DOF: r.DOF, PValue: r.PValue, Rejected: r.Rejected}, Loads: c.loads})
 }
 
+// alarmKey names an alarm by rule, subject and raise time.
+type alarmKey struct {
+	rule, subject string
+	fired         int64
+}
+
+// revise gives the raised events of the alarms active after r their
+// latest causes (estimated over the epochs since the fault began) and the
+// hypotheses the fit carries.
+func (c *collector) revise(r *pipeline.Result) {
+	for _, a := range r.Active {
+		if !a.Identifies {
+			continue
+		}
+		i, ok := c.raised[alarmKey{a.Rule, a.Subject, a.FiredAt.UnixNano()}]
+		if !ok {
+			continue
+		}
+		ev := &c.events[i].Evidence
+		ev.Causes, ev.CausesAt = append([]alerts.Cause(nil), a.Causes...), a.CausesAt
+		if r.Adapted != nil {
+			c.adapted[i] = append([]reconcile.RankedCause(nil), r.Adapted.Hypotheses...)
+		}
+	}
+}
+
 // keep says which pattern columns stay: every unknown pattern (the first
 // nUnknown) and the measured patterns some epoch estimated.
 func (c *collector) keep(nUnknown int) []bool {
@@ -135,8 +175,12 @@ func (c *collector) keep(nUnknown int) []bool {
 // reportEvents turns the alarm events into report rows.
 func (c *collector) reportEvents() []report.Event {
 	var out []report.Event
-	for _, ev := range c.events {
-		out = append(out, c.event(ev))
+	for i, ev := range c.events {
+		row := c.event(ev)
+		for _, h := range c.adapted[i] {
+			row.Adapted = append(row.Adapted, report.Cause{Kind: h.Kind, Subject: h.Subject, Size: h.Size, Std: h.Std, Unit: h.Unit})
+		}
+		out = append(out, row)
 	}
 	return out
 }
@@ -152,6 +196,16 @@ func (c *collector) event(e alerts.Event) report.Event {
 	out.Message = alerts.Message(e)
 	for _, k := range ev.Causes {
 		out.Causes = append(out.Causes, report.Cause{Kind: k.Kind, Subject: c.subject(k.Label), T: k.T, Size: k.Size, Std: k.Std, Unit: k.Unit, Group: k.Group, Implausible: k.Implausible})
+	}
+	out.CausesAt = ev.CausesAt
+	for _, l := range ev.LoadShifts {
+		// In the report's unit of the pattern's column (its reference
+		// load, or a bare factor).
+		ls := report.LoadShift{Pattern: l.Pattern, Value: l.Value, Mean: l.Mean, StdDev: l.Std, Unit: "1", Z: l.Z}
+		if j, ok := c.col[l.Pattern]; ok {
+			ls.Value, ls.Mean, ls.StdDev, ls.Unit = l.Value*c.scale[j], l.Mean*c.scale[j], l.Std*c.scale[j], c.units[j]
+		}
+		out.LoadShifts = append(out.LoadShifts, ls)
 	}
 	return out
 }

@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"encoding/csv"
 	"strconv"
+	"strings"
 )
 
 // floatText writes x with strconv 'g' -1: the shortest text that parses
@@ -34,14 +35,18 @@ func epochsHeader(r *Report) []string {
 // maxCauses is the number of ranked causes written per event.
 const maxCauses = 3
 
-// eventsHeader is the fixed column order of events.csv.
+// eventsHeader is the fixed column order of events.csv: the event, the
+// first maxCauses causes (with their size's standard deviation and their
+// separability group, 0 when not grouped), the epoch the sizes are as of,
+// and the unknown loads flagged when the alarm rose ("pattern z=..."
+// joined by "; ").
 func eventsHeader() []string {
 	h := []string{"time", "rule", "subject", "kind", "w", "size", "size_unit", "message"}
 	for i := 1; i <= maxCauses; i++ {
 		p := "cause" + strconv.Itoa(i) + "_"
-		h = append(h, p+"kind", p+"subject", p+"t", p+"size", p+"unit")
+		h = append(h, p+"kind", p+"subject", p+"t", p+"size", p+"std", p+"unit", p+"group")
 	}
-	return h
+	return append(h, "causes_at", "load_shifts")
 }
 
 func writeEventsCSV(buf *bytes.Buffer, r *Report) error {
@@ -54,11 +59,20 @@ func writeEventsCSV(buf *bytes.Buffer, r *Report) error {
 		for i := 0; i < maxCauses; i++ {
 			if i < len(e.Causes) {
 				c := e.Causes[i]
-				row = append(row, c.Kind, c.Subject, floatText(c.T), floatText(c.Size), c.Unit)
+				row = append(row, c.Kind, c.Subject, floatText(c.T), floatText(c.Size), floatText(c.Std), c.Unit, strconv.Itoa(c.Group))
 				continue
 			}
-			row = append(row, "", "", "", "", "")
+			row = append(row, "", "", "", "", "", "", "")
 		}
+		at := ""
+		if !e.CausesAt.IsZero() {
+			at = timeText(e.CausesAt)
+		}
+		var shifts []string
+		for _, l := range e.LoadShifts {
+			shifts = append(shifts, l.Pattern+" z="+floatText(l.Z))
+		}
+		row = append(row, at, strings.Join(shifts, "; "))
 		if err := w.Write(row); err != nil {
 			return err
 		}

@@ -65,6 +65,7 @@ svg text{font-size:11px;fill:#44505b}
 .key{stroke:none}.key.measured{fill:#1d2a35}.key.predicted{fill:#3d6a8f}.key.band{fill:#7890a6;fill-opacity:.5}.key.wline{fill:#7a4e12}
 .key.pline{fill:#2f5d50}.key.lline{fill:#4b3d78}.key.band-sd{fill:#8a7bb0;fill-opacity:.5}.key.critical{fill:#c4161c}
 .alarm{fill:#c4161c}.reject{fill:#de9f2c}.row-label{fill:#1d2a35}.note{fill:#66727d}
+.sizes-note{color:#55616c}.adapted{color:#2f5d50}.load-shift{color:#8a4b00}
 tr.raised td:nth-child(2){color:#b3141c;font-weight:bold}`
 
 // writeHTML writes the self-contained report page. The markup is also
@@ -210,6 +211,26 @@ func writeTimeline(sb *strings.Builder, r *Report, sum *epochSummary) {
 	sb.WriteString("</svg>\n</section>\n")
 }
 
+// causeText words a cause with its group, its size and the size's
+// standard deviation (T left out for a carried hypothesis, whose T is 0).
+func causeText(c Cause) string {
+	grp, size := "", sizeText(c.Size, c.Unit)
+	if c.Group > 0 {
+		grp = fmt.Sprintf("[group %d] ", c.Group)
+	}
+	if c.Std > 0 && !math.IsInf(c.Std, 0) {
+		size += " ± " + sizeText(c.Std, c.Unit)
+	}
+	if c.Implausible {
+		size += " (implausible size)"
+	}
+	t := ""
+	if c.T != 0 {
+		t = "T = " + num(c.T, 1) + ", "
+	}
+	return fmt.Sprintf("%s%s %s: %ssize %s", grp, strings.ReplaceAll(c.Kind, "_", " "), c.Subject, t, size)
+}
+
 func writeEventTable(sb *strings.Builder, r *Report) {
 	sb.WriteString("<section id=\"events\">\n<h2>Events</h2>\n")
 	sb.WriteString("<table id=\"event-table\">\n<thead><tr><th>time (UTC)</th><th>kind</th><th>rule</th><th>subject</th><th>w</th><th>estimated size</th><th>ranked causes (test statistic T, estimated size)</th></tr></thead>\n<tbody>\n")
@@ -223,24 +244,28 @@ func writeEventTable(sb *strings.Builder, r *Report) {
 			fmt.Fprintf(sb, "%s", esc(e.Message))
 		}
 		if len(e.Causes) > 0 {
+			if !e.CausesAt.IsZero() && !e.CausesAt.Equal(e.Time) {
+				fmt.Fprintf(sb, "<div class=\"sizes-note\">sizes over the epochs since the fault began, as of %s</div>", esc(timeText(e.CausesAt)))
+			}
 			sb.WriteString("<ol>")
 			for i, c := range e.Causes {
-				if i == maxCauses {
+				if i >= maxCauses && c.Group != 1 {
 					break
 				}
-				grp, size := "", sizeText(c.Size, c.Unit)
-				if c.Group > 0 {
-					grp = fmt.Sprintf("[group %d] ", c.Group)
-				}
-				if c.Std > 0 && !math.IsInf(c.Std, 0) {
-					size += " ± " + sizeText(c.Std, c.Unit)
-				}
-				if c.Implausible {
-					size += " (implausible size)"
-				}
-				fmt.Fprintf(sb, "<li>%s%s %s: T = %s, size %s</li>", esc(grp), esc(strings.ReplaceAll(c.Kind, "_", " ")), esc(c.Subject), num(c.T, 1), esc(size))
+				fmt.Fprintf(sb, "<li>%s</li>", esc(causeText(c)))
 			}
 			sb.WriteString("</ol>")
+		}
+		if len(e.Adapted) > 0 {
+			var hs []string
+			for _, h := range e.Adapted {
+				hs = append(hs, causeText(h))
+			}
+			fmt.Fprintf(sb, "<div class=\"adapted\">carried in the adapted fit: %s</div>", esc(strings.Join(hs, "; ")))
+		}
+		for _, l := range e.LoadShifts {
+			fmt.Fprintf(sb, "<div class=\"load-shift\">unknown load %s left its recent distribution when the alarm rose: %s against %s ± %s (z = %s); it may be absorbing the fault</div>",
+				esc(l.Pattern), esc(sizeText(l.Value, l.Unit)), esc(sizeText(l.Mean, l.Unit)), esc(sizeText(l.StdDev, l.Unit)), num(l.Z, 1))
 		}
 		sb.WriteString("</td></tr>\n")
 	}

@@ -133,8 +133,29 @@ type Event struct {
 	// Message is a one-line summary.
 	Message string
 	// Causes are the ranked candidate causes, best first; the report shows
-	// the first three.
+	// the first three and the rest of the first group.
 	Causes []Cause
+	// CausesAt is the epoch the causes' sizes are estimated as of: for a
+	// raised statistical alarm, its last epoch active in the period (the
+	// sizes over the epochs since the fault began); zero when not given.
+	CausesAt time.Time
+	// LoadShifts are the unknown loads flagged when the alarm rose.
+	LoadShifts []LoadShift
+	// Adapted are the hypotheses the fit carried for the alarm, with
+	// their sizes in the adapted fit at CausesAt (T is 0).
+	Adapted []Cause
+}
+
+// LoadShift is an unknown-load estimate that left its recent
+// distribution when an alarm rose: it may be absorbing the fault.
+type LoadShift struct {
+	Pattern string
+	// Value, Mean and StdDev are the estimate and the mean and standard
+	// deviation of the recent accepted epochs before it, in Unit; Z the
+	// shift in combined standard deviations.
+	Value, Mean, StdDev float64
+	Unit                string
+	Z                   float64
 }
 
 // Cause is one ranked candidate cause.

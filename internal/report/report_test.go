@@ -59,6 +59,17 @@ func smallReport() *Report {
 			}},
 		{Time: t0.Add(4*time.Second + 250*time.Millisecond), Rule: "fit_rejected", Subject: "alder-creek", Kind: "raised",
 			W: math.NaN(), Size: math.NaN(), Message: "global test rejected for 2 epochs"},
+		{Time: t0.Add(4*time.Second + 500*time.Millisecond), Rule: "member_shifted", Subject: "B4", Kind: "raised",
+			W: 2.1, Size: 1210.5, SizeUnit: "N", Message: "B4 shifted",
+			Causes: []Cause{
+				{Kind: "stiffness_change", Subject: "B4", T: 51.2, Size: -29.6, Std: 0.41, Unit: "%", Group: 1},
+				{Kind: "gauge_fault", Subject: "B4", T: 51.2, Size: 1210.5, Std: 17.5, Unit: "N", Group: 1},
+				{Kind: "nodal_load", Subject: "U3 y", T: 12.5, Size: -2100, Std: 600, Unit: "N", Group: 2},
+				{Kind: "support_settlement", Subject: "L8 y", T: 11.5, Size: 2.5, Std: 0.8, Unit: "mm", Group: 3, Implausible: true},
+			},
+			CausesAt:   t0.Add(5 * time.Second),
+			LoadShifts: []LoadShift{{Pattern: "crowd", Value: -0.31, Mean: 0.02, StdDev: 0.04, Unit: "kPa", Z: -7.31}},
+			Adapted:    []Cause{{Kind: "stiffness_change", Subject: "B4", Size: -29.9, Std: 0.6, Unit: "%"}}},
 		{Time: t0.Add(5*time.Second + 750*time.Millisecond), Rule: "fit_rejected", Subject: "alder-creek", Kind: "cleared",
 			W: math.NaN(), Size: math.NaN()},
 	}
@@ -259,8 +270,27 @@ func TestHTMLStructure(t *testing.T) {
 			rows = append(rows, n)
 		}
 	})
-	if len(rows) != 3 {
-		t.Fatalf("event table has %d rows, want 3", len(rows))
+	if len(rows) != 4 {
+		t.Fatalf("event table has %d rows, want 4", len(rows))
+	}
+	// The B4 alarm: its sizes' epoch, its first group whole with each
+	// size's standard deviation, the carried hypothesis and the flagged
+	// load; the implausible fourth cause (group 3) is cut.
+	b4 := rows[2].text()
+	for _, want := range []string{
+		"sizes over the epochs since the fault began, as of 2026-06-14T09:00:05Z",
+		"[group 1] stiffness change B4: T = 51.2, size -29.6 % ± 0.41 %",
+		"[group 1] gauge fault B4: T = 51.2, size 1.21 kN ± 0.02 kN",
+		"[group 2] nodal load U3 y",
+		"carried in the adapted fit: stiffness change B4: size -29.9 % ± 0.6 %",
+		"unknown load crowd left its recent distribution when the alarm rose: -0.31 kPa against 0.02 kPa ± 0.04 kPa (z = -7.3)",
+	} {
+		if !strings.Contains(b4, want) {
+			t.Errorf("B4 event lacks %q: %q", want, b4)
+		}
+	}
+	if strings.Contains(b4, "L8 y") {
+		t.Errorf("B4 event lists the fourth cause (not of the first group): %q", b4)
 	}
 	li := 0
 	rows[0].walk(func(n *xmlTree) {

@@ -194,7 +194,7 @@ func (s *Service) addStructure(mon *instrumented.Structure) error {
 		return fmt.Errorf("structure %q: %w", name, err)
 	}
 	p.AddSink(&metricsSink{m: s.met, sm: s.met.Structure(name, proc.Gauged(), proc.Unknown()), name: name, rules: s.rules, last: map[string]int{},
-		state: s.met.MemberState(name, proc.Members()), loads: loads})
+		state: s.met.MemberState(name, proc.Members()), loads: loads, adapt: s.met.Adaptation(name, proc.Gauged(), proc.Unknown()), unknown: proc.Unknown()})
 	p.AddSink(s.results)
 	s.pipes[name] = p
 	limit := s.cfg.Epochs.QueueReadings
@@ -571,4 +571,16 @@ func (e eventSink) PutEvent(ctx context.Context, ev alerts.Event) error {
 		return err
 	}
 	return e.st.PutEvent(ctx, store.Event{Structure: ev.Structure, Rule: ev.Rule, Subject: ev.Subject, Kind: ev.Kind, Time: ev.Time, Evidence: evidence})
+}
+
+// ReviseEvent replaces the evidence of a stored raised event (its causes
+// revised while the alarm is active); a row removed by retention is left
+// alone.
+func (e eventSink) ReviseEvent(ctx context.Context, ev alerts.Event) error {
+	evidence, err := json.Marshal(ev.Evidence)
+	if err != nil {
+		return err
+	}
+	_, err = e.st.ReviseEvent(ctx, store.Event{Structure: ev.Structure, Rule: ev.Rule, Subject: ev.Subject, Kind: ev.Kind, Time: ev.Time, Evidence: evidence})
+	return err
 }

@@ -24,6 +24,10 @@ type metricsSink struct {
 	skewN uint64
 	state *metrics.MemberStateMetrics // every member's total state
 	loads *metrics.UnknownLoadMetrics // unknown loads in their engineering quantity
+	// adapt are the adaptation gauges; unknown the unknown patterns in
+	// their order.
+	adapt   *metrics.AdaptationMetrics
+	unknown []string
 }
 
 // Epoch updates the member, fit, load, epoch and alarm metrics.
@@ -42,6 +46,7 @@ func (ms *metricsSink) Epoch(r *pipeline.Result) {
 				W: mr.W, MDB: mr.MDBN, Redundancy: mr.Redundancy, Checkable: mr.Checkable})
 		}
 		ms.sm.SetFit(r.ChiSquare, r.DOF, r.PValue)
+		ms.setAdaptation(r)
 		setMemberState(ms.state, r.State)
 		for j, ld := range r.Loads {
 			if j < len(r.Loads) && ld.Estimable {
@@ -59,6 +64,37 @@ func (ms *metricsSink) Epoch(r *pipeline.Result) {
 			ms.m.AlarmsFiring(ms.name, rule.Name, n)
 			ms.last[rule.Name] = n
 		}
+	}
+}
+
+// setAdaptation sets the nominal w, the adapted fit and the flagged
+// unknown loads of a fitted epoch.
+func (ms *metricsSink) setAdaptation(r *pipeline.Result) {
+	for i, mr := range r.Members {
+		if !mr.Available {
+			continue
+		}
+		w := mr.W
+		if r.Adapted != nil {
+			w = mr.WNominal
+		}
+		_ = ms.adapt.SetNominalW(i, w)
+	}
+	if r.Adapted != nil {
+		ms.adapt.SetAdapted(len(r.Adapted.Hypotheses), r.Adapted.ChiSquare, r.Adapted.DOF)
+	} else {
+		ms.adapt.SetAdapted(0, 0, 0)
+	}
+	// A load stays flagged while an alarm that flagged it is active.
+	z := map[string]float64{}
+	for _, a := range r.Active {
+		for _, l := range a.LoadShifts {
+			z[l.Pattern] = l.Z
+		}
+	}
+	for j, p := range ms.unknown {
+		v, ok := z[p]
+		_ = ms.adapt.SetLoadShift(j, ok, v)
 	}
 }
 

@@ -31,6 +31,11 @@ const (
 	// fault time on, through the structure's settlement pattern for that node
 	// or, if there is none, a prescribed displacement along gravity.
 	FaultSettlement FaultKind = "settlement"
+	// FaultSpring changes the stiffness of every spring of one support node
+	// by a fraction from the fault time on (-0.5: half as stiff, a worn
+	// bearing; +0.5: half as stiff again, a seized one). Forces come from
+	// the re-analysed structure.
+	FaultSpring FaultKind = "spring"
 )
 
 // DefaultStiffnessLoss is the fraction of E*A lost when a stiffness fault
@@ -52,8 +57,9 @@ type Fault struct {
 	At time.Time
 	// Size is the drift rate in engineering units per second (drift), the
 	// fraction of E*A lost (stiffness, 0 < Size < 1) or the settlement in
-	// metres along gravity (settlement, positive = downwards). Unused for
-	// stuck.
+	// metres along gravity (settlement, positive = downwards) or the
+	// relative change of the spring stiffness (spring, Size > -1, not 0).
+	// Unused for stuck.
 	Size float64
 	// Spec is the text the fault was parsed from, for messages.
 	Spec string
@@ -96,6 +102,7 @@ var ErrFaultSpec = errors.New("bad fault specification")
 //	drift:B4_a:2h:50e-6/h             channel B4_a drifts by 50e-6 (strain) per hour from 2 h on
 //	stuck:T4_a:1h                     channel T4_a freezes 1 h after the start
 //	settlement:L8:3h:0.005            support L8 settles 5 mm (also "5 mm") at 3 h
+//	spring:L8:3h:-0.5                 the springs of support L8 lose half their stiffness at 3 h
 //
 // AT is a Go duration from the scenario start (10m, 2h, 14h30m) or an
 // absolute RFC 3339 time. A drift rate is per hour unless written with /s,
@@ -116,9 +123,9 @@ func ParseFault(spec string) (Fault, error) {
 		return fail("the target (channel, member or node id) is empty")
 	}
 	switch f.Kind {
-	case FaultDrift, FaultStuck, FaultStiffness, FaultSettlement:
+	case FaultDrift, FaultStuck, FaultStiffness, FaultSettlement, FaultSpring:
 	default:
-		return fail("unknown kind %q (want drift, stuck, stiffness or settlement)", parts[0])
+		return fail("unknown kind %q (want drift, stuck, stiffness, settlement or spring)", parts[0])
 	}
 	atText, sizeText, err := splitAt(parts[2])
 	if err != nil {
@@ -155,6 +162,12 @@ func ParseFault(spec string) (Fault, error) {
 		v, err := parseRate(sizeText)
 		if err != nil {
 			return fail("%v", err)
+		}
+		f.Size = v
+	case FaultSpring:
+		v, err := strconv.ParseFloat(sizeText, 64)
+		if sizeText == "" || err != nil || !(v > -1) || v == 0 || math.IsInf(v, 0) {
+			return fail("the spring change %q must be a relative change of the spring stiffness above -1 and not 0 (-0.5 = half as stiff)", sizeText)
 		}
 		f.Size = v
 	case FaultSettlement:

@@ -34,6 +34,8 @@ func TestParseFault(t *testing.T) {
 		{"settlement:L8:3h:0.005", FaultSettlement, "L8", 3 * time.Hour, time.Time{}, 0.005},
 		{"settlement:L8:3h:5 mm", FaultSettlement, "L8", 3 * time.Hour, time.Time{}, 0.005},
 		{"settlement:L8:3h:0.25in", FaultSettlement, "L8", 3 * time.Hour, time.Time{}, 0.00635}, // 1 in = 25.4 mm exactly (NIST SP 811)
+		{"spring:L8:3h:-0.5", FaultSpring, "L8", 3 * time.Hour, time.Time{}, -0.5},
+		{"spring:L8:3h:2", FaultSpring, "L8", 3 * time.Hour, time.Time{}, 2},
 	} {
 		f, err := ParseFault(tc.spec)
 		if err != nil {
@@ -75,6 +77,9 @@ func TestParseFaultErrors(t *testing.T) {
 		{"settlement:L8:1h", "needs a size"},
 		{"settlement:L8:1h:5 kN", "settlement size"},
 		{"settlement:L8:1h:0.1:2", "too many fields"},
+		{"spring:L8:1h", "relative change of the spring stiffness"},
+		{"spring:L8:1h:-1", "above -1"},
+		{"spring:L8:1h:0", "not 0"},
 	} {
 		_, err := ParseFault(tc.spec)
 		if err == nil {

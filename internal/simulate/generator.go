@@ -249,6 +249,7 @@ func copyStructure(s *model.Structure) *model.Structure {
 	c := *s
 	c.Members = append([]model.Member(nil), s.Members...)
 	c.Patterns = append([]model.Pattern(nil), s.Patterns...)
+	c.Supports = append([]model.Support(nil), s.Supports...)
 	return &c
 }
 
@@ -413,6 +414,11 @@ func (g *Generator) prepareFaults() error {
 				return fmt.Errorf("simulate: fault %s: stiffness loss %g must be between 0 and 1", f, f.Size)
 			}
 			structural = append(structural, f)
+		case FaultSpring:
+			if g.springSupport(f.Target) < 0 {
+				return fmt.Errorf("simulate: fault %s: node %q is not a support held by a spring in structure %q", f, f.Target, g.st.Name)
+			}
+			structural = append(structural, f)
 		case FaultSettlement:
 			n, ok := g.st.NodeIndex(f.Target)
 			if !ok {
@@ -431,6 +437,21 @@ func (g *Generator) prepareFaults() error {
 	})
 	g.opt.Faults = append(append([]Fault(nil), nonStructural(g.opt.Faults)...), structural...)
 	return nil
+}
+
+// springSupport returns the index of the support of node id that has a
+// spring, -1 when there is none.
+func (g *Generator) springSupport(id string) int {
+	n, ok := g.st.NodeIndex(id)
+	if !ok {
+		return -1
+	}
+	for i, s := range g.st.Supports {
+		if s.Node == n && (s.Spring[0] != 0 || s.Spring[1] != 0 || s.Spring[2] != 0) {
+			return i
+		}
+	}
+	return -1
 }
 
 func nonStructural(fs []Fault) []Fault {
@@ -600,18 +621,26 @@ func (g *Generator) analyse() error {
 		return err
 	}
 	for _, f := range g.opt.Faults {
-		if f.Kind != FaultStiffness && f.Kind != FaultSettlement {
+		if f.Kind != FaultStiffness && f.Kind != FaultSettlement && f.Kind != FaultSpring {
 			continue
 		}
 		next := cur
-		if f.Kind == FaultStiffness {
+		switch f.Kind {
+		case FaultStiffness, FaultSpring:
 			next = copyStructure(cur)
-			m, _ := next.MemberIndex(f.Target)
-			next.Members[m].E *= 1 - f.Size
+			if f.Kind == FaultStiffness {
+				m, _ := next.MemberIndex(f.Target)
+				next.Members[m].E *= 1 - f.Size
+			} else {
+				sp := &next.Supports[g.springSupport(f.Target)]
+				for k := range sp.Spring {
+					sp.Spring[k] *= 1 + f.Size
+				}
+			}
 			if err := solve(next, "structure "+g.st.Name+" after fault "+f.String()); err != nil {
 				return err
 			}
-		} else {
+		default:
 			// A settlement does not change the stiffness: same state.
 			g.states = append(g.states, g.states[len(g.states)-1])
 		}

@@ -390,6 +390,95 @@ func stiffnessCase(t *testing.T, member string, redistribute bool) {
 	t.Logf("%s: largest force change %.3g N (in %s); dead-load force %.0f N, measured-force jump %.0f N", member, maxChange, maxMember, zero.Forces[mb], jump)
 }
 
+// TestSpringChangeMatchesResolve: after a spring fault at L8 (the
+// footbridge's horizontal bearing spring, 20 MN/m, half as stiff) every
+// member force equals a direct stiffness re-solve of the structure with
+// the spring halved under the same loads and temperatures; before it,
+// the intact structure's; and the generator leaves the structure it was
+// given unchanged.
+func TestSpringChangeMatchesResolve(t *testing.T) {
+	opt := DefaultOptions()
+	opt.Duration = 2 * time.Hour
+	opt.Start = time.Date(2026, 6, 1, 13, 0, 0, 0, time.UTC)
+	opt.Rate = 10 * time.Minute
+	opt.BadRate = 0
+	g := newGen(t, opt, "spring:L8:1h:-0.5")
+	intact, _ := load(t, footStruct, footSensors)
+	changed := copyStructure(intact)
+	sp := -1
+	for i, s := range changed.Supports {
+		if changed.Nodes[s.Node].ID == "L8" {
+			sp = i
+		}
+	}
+	if sp < 0 || changed.Supports[sp].Spring[0] != 20e6 {
+		t.Fatalf("footbridge support L8 has no 20 MN/m spring in x (testdata/footbridge/structure.yaml)")
+	}
+	changed.Supports[sp].Spring[0] = 10e6
+	if g.Structure().Supports[sp].Spring[0] != 20e6 {
+		t.Fatalf("the generator changed the given structure's spring to %g N/m", g.Structure().Supports[sp].Spring[0])
+	}
+	mi, err := model.Analyze(intact)
+	if err != nil {
+		t.Fatal(err)
+	}
+	mc, err := model.Analyze(changed)
+	if err != nil {
+		t.Fatal(err)
+	}
+	chs := g.Channels()
+	tTop, tBot := -1, -1
+	for i, c := range chs {
+		switch c.ID {
+		case "temp_top":
+			tTop = i
+		case "temp_bottom":
+			tBot = i
+		}
+	}
+	var largest float64
+	for s, err := range g.All() {
+		if err != nil {
+			t.Fatal(err)
+		}
+		m, after := mi, !s.Time.Before(opt.Start.Add(time.Hour))
+		if after {
+			m = mc
+		}
+		var fs []model.Factor
+		for p, v := range s.Truth.Factors {
+			if v != 0 {
+				fs = append(fs, model.Factor{Pattern: intact.Patterns[p].Name, Factor: v})
+			}
+		}
+		fs = append(fs, model.Factor{Pattern: "temp_top", Factor: s.Truth.Engineering[tTop] - 15},
+			model.Factor{Pattern: "temp_bottom", Factor: s.Truth.Engineering[tBot] - 15})
+		res, err := m.SolveFactors(fs)
+		if err != nil {
+			t.Fatal(err)
+		}
+		ref, err := mi.SolveFactors(fs)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for k, n := range res.Forces {
+			if math.Abs(n-s.Truth.Forces[k]) > 1e-6*(1+math.Abs(n)) {
+				t.Fatalf("%s: member %s truth %.6g N, re-solve %.6g N", s.Time, intact.Members[k].ID, s.Truth.Forces[k], n)
+			}
+			if after {
+				largest = math.Max(largest, math.Abs(n-ref.Forces[k]))
+			}
+		}
+	}
+	// The spring restrains the truss's thermal expansion: halving it
+	// changes the chord forces whenever the temperature is off the zero
+	// state's 15 degC.
+	if largest < 100 {
+		t.Errorf("halving the bearing spring changed member forces by at most %.3g N", largest)
+	}
+	t.Logf("largest force change from halving the spring: %.0f N", largest)
+}
+
 func TestSettlement(t *testing.T) {
 	opt := DefaultOptions()
 	opt.Duration = time.Hour

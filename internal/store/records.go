@@ -359,6 +359,28 @@ func (s *Store) PutEvent(ctx context.Context, e Event) error {
 	return nil
 }
 
+// ReviseEvent replaces the evidence of the stored raised event of
+// e.Structure, e.Rule and e.Subject at e.Time (an alarm's causes revised
+// while it is active). It reports whether such a row was stored: a
+// raised event already removed by retention has nothing to revise, and
+// that is not an error.
+func (s *Store) ReviseEvent(ctx context.Context, e Event) (bool, error) {
+	if len(e.Evidence) == 0 || !json.Valid(e.Evidence) {
+		return false, fmt.Errorf("store: revising event %s/%s %s at %s: evidence is not a JSON object", e.Structure, e.Rule, e.Subject, e.Time.UTC().Format(time.RFC3339Nano))
+	}
+	res, err := s.db.ExecContext(ctx,
+		`UPDATE events SET evidence = ? WHERE structure = ? AND ts = ? AND rule = ? AND subject = ? AND kind = 'raised'`,
+		string(e.Evidence), e.Structure, clampNs(e.Time), e.Rule, e.Subject)
+	if err != nil {
+		return false, fmt.Errorf("store: revising event %s/%s %s at %s: %w", e.Structure, e.Rule, e.Subject, e.Time.UTC().Format(time.RFC3339Nano), err)
+	}
+	n, err := res.RowsAffected()
+	if err != nil {
+		return false, fmt.Errorf("store: revising event %s/%s %s: %w", e.Structure, e.Rule, e.Subject, err)
+	}
+	return n > 0, nil
+}
+
 // Events returns the events of structure (all structures when "") in
 // [from, to) (zero times unbounded), in time order.
 func (s *Store) Events(ctx context.Context, structure string, from, to time.Time) ([]Event, error) {

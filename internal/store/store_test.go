@@ -368,6 +368,30 @@ func TestModelsEventsResults(t *testing.T) {
 		t.Fatalf("events %+v, %v", ev, err)
 	}
 
+	// A revision replaces the raised row's evidence only; the cleared row
+	// and a raised row of another subject stay; a row not stored is
+	// reported, not an error; evidence that is not JSON is refused.
+	s.PutEvent(ctx, Event{Structure: "harbour-hall", Rule: "w", Subject: "m13", Kind: Raised, Time: t0.Add(time.Second), Evidence: json.RawMessage(`{"w":3.9}`)})
+	if ok, err := s.ReviseEvent(ctx, Event{Structure: "harbour-hall", Rule: "w", Subject: "m12", Time: t0.Add(time.Second), Evidence: json.RawMessage(`{"w":4.1,"causes":[{"size":-29.7}]}`)}); !ok || err != nil {
+		t.Fatalf("revising the stored raised event: %v, %v", ok, err)
+	}
+	if ok, err := s.ReviseEvent(ctx, Event{Structure: "harbour-hall", Rule: "w", Subject: "m12", Time: t0.Add(3 * time.Second), Evidence: json.RawMessage(`{}`)}); ok || err != nil {
+		t.Errorf("revising an event never stored: %v, %v; want false, nil", ok, err)
+	}
+	if _, err := s.ReviseEvent(ctx, Event{Structure: "harbour-hall", Rule: "w", Subject: "m12", Time: t0.Add(time.Second), Evidence: json.RawMessage(`{`)}); err == nil {
+		t.Error("revision with invalid JSON evidence accepted")
+	}
+	ev, err = s.Events(ctx, "harbour-hall", time.Time{}, time.Time{})
+	if err != nil || len(ev) != 3 {
+		t.Fatalf("events after the revision %+v, %v", ev, err)
+	}
+	for _, e := range ev {
+		want := map[string]string{"m12" + Raised: `{"w":4.1,"causes":[{"size":-29.7}]}`, "m12" + Cleared: "{}", "m13" + Raised: `{"w":3.9}`}[e.Subject+e.Kind]
+		if string(e.Evidence) != want {
+			t.Errorf("%s %s evidence %s, want %s", e.Subject, e.Kind, e.Evidence, want)
+		}
+	}
+
 	s.PutResult(ctx, Result{Structure: "harbour-hall", Time: t0, Payload: json.RawMessage(`{"T":1}`)})
 	s.PutResult(ctx, Result{Structure: "harbour-hall", Time: t0, Payload: json.RawMessage(`{"T":2}`)})
 	if err := s.PutResult(ctx, Result{Structure: "harbour-hall", Time: t0, Payload: json.RawMessage(`{`)}); err == nil {

@@ -480,6 +480,58 @@ function drawFit() {
   ]);
 }
 
+// causeText words one cause with its group and its size's uncertainty.
+function causeText(c) {
+  // Causes of one group cannot be told apart by the gauges: shown with
+  // their group number, in no order of likelihood.
+  const grp = c.group ? `[group ${c.group}] ` : '';
+  const std = c.std ? ` ± ${fmtSize(c.std, c.unit)}` : '';
+  const odd = c.implausible ? ' (implausible size)' : '';
+  const t = c.t ? `T = ${fmtNum(c.t, 1)}, ` : '';
+  return `${grp}${c.kind.replace(/_/g, ' ')} ${c.subject}: ${t}size ${fmtSize(c.size, c.unit)}${std}${odd}`;
+}
+
+// shiftText words an unknown load flagged when an alarm rose.
+function shiftText(l) {
+  return `unknown load ${l.pattern} left its recent distribution when the alarm rose: ${fmtSize(l.value, l.unit)} against ` +
+    `${fmtSize(l.recent_mean, l.unit)} ± ${fmtSize(l.recent_std_dev, l.unit)} (z = ${fmtNum(l.z, 1)}); it may be absorbing the fault`;
+}
+
+function drawAlarms() {
+  const box = document.getElementById('alarms');
+  box.replaceChildren();
+  const list = app.state.alarms || [];
+  if (!list.length) {
+    html('p', 'none', box);
+    return;
+  }
+  for (const a of list) {
+    const div = html('div', null, box, { class: 'alarm', 'data-rule': a.rule, 'data-subject': a.subject });
+    const asOf = a.causes_at && a.causes_at !== a.fired_at ? `sizes as of ${fmtTime(a.causes_at)}` : 'sizes as of the raise';
+    html('h3', `${a.rule}${a.subject ? ' ' + a.subject : ''}`, div);
+    html('p', `raised ${fmtTime(a.fired_at)} UTC (condition since ${fmtTime(a.since)}); ${asOf}`, div, { class: 'note' });
+    if (a.causes.length) {
+      const ol = html('ol', null, div);
+      for (const c of a.causes) html('li', causeText(c), ol, { 'data-group': c.group || 0 });
+    }
+    for (const l of a.load_shifts) html('p', shiftText(l), div, { class: 'load-shift', 'data-pattern': l.pattern });
+  }
+}
+
+function drawAdapted() {
+  const box = document.getElementById('adapted');
+  const a = app.state.adapted;
+  box.hidden = !a;
+  if (!a) return;
+  rows(document.querySelector('#adapted-fit tbody'), [
+    ...a.hypotheses.map((h) => ['carried: ' + h.kind.replace(/_/g, ' ') + ' ' + h.subject, fmtSize(h.size, h.unit) + ' ± ' + fmtSize(h.std, h.unit)]),
+    ['chi-square T', fmtNum(a.chi_square, 2)],
+    ['degrees of freedom', String(a.dof)],
+    ['p-value', fmtP(a.p_value)],
+    ['verdict', a.rejected ? 'rejected: a further cause may be present' : 'accepted'],
+  ]);
+}
+
 function drawLoads() {
   const tbody = document.querySelector('#loads tbody');
   tbody.replaceChildren();
@@ -517,7 +569,8 @@ function drawMemberDetail() {
     ['measured (change since zeroing)', fmtForce(r.measured_n)],
     ['predicted (change since zeroing)', fmtForce(r.predicted_n)],
     ['acceptance band', fmtForce(r.band_low_n) + ' … ' + fmtForce(r.band_high_n)],
-    ['w', fmtNum(r.w, 2)],
+    ...(r.w_nominal === null ? [['w', fmtNum(r.w, 2)]]
+      : [['w (adapted fit)', fmtNum(r.w, 2)], ['w (nominal fit)', fmtNum(r.w_nominal, 2)]]),
     ['redundancy r', fmtNum(r.redundancy, 3)],
     ['MDB', fmtForce(r.mdb_n)],
   ]);
@@ -634,16 +687,11 @@ function drawEvents(evs) {
     const td = html('td', null, tr);
     if (e.message) html('div', e.message, td);
     if (e.causes.length) {
+      if (e.causes_at && e.causes_at !== e.time) html('div', `sizes over the fault's epochs, as of ${fmtTime(e.causes_at)} UTC`, td, { class: 'note' });
       const ol = html('ol', null, td);
-      for (const c of e.causes.filter((c, i) => i < 3 || c.group === 1)) {
-        // Causes of one group cannot be told apart by the gauges: shown
-        // with their group number, in no order of likelihood.
-        const grp = c.group ? `[group ${c.group}] ` : '';
-        const std = c.std ? ` ± ${fmtSize(c.std, c.unit)}` : '';
-        const odd = c.implausible ? ' (implausible size)' : '';
-        html('li', `${grp}${c.kind.replace(/_/g, ' ')} ${c.subject}: T = ${fmtNum(c.t, 1)}, size ${fmtSize(c.size, c.unit)}${std}${odd}`, ol);
-      }
+      for (const c of e.causes.filter((c, i) => i < 3 || c.group === 1)) html('li', causeText(c), ol);
     }
+    for (const l of e.load_shifts) html('div', shiftText(l), td, { class: 'load-shift' });
   }
 }
 
@@ -686,7 +734,9 @@ async function poll() {
     document.getElementById('caution').textContent = st.caution;
     if (key !== app.geomKey) { app.geomKey = key; drawTruss(); drawLegend(st.critical_value || 3.29); }
     else paintMembers();
+    drawAlarms();
     drawFit();
+    drawAdapted();
     drawLoads();
     drawTotals(); // state.js
     drawMemberDetail();

@@ -1,0 +1,103 @@
+package reconcile
+
+// FaultRanker sums the cause statistics of every epoch since a fault
+// began, for as long as its alarm is active, so that the sizes an alarm
+// carries are estimated over all the fault's epochs and improve while it
+// stays (DESIGN.md, Identification and adaptation: "the event carries the
+// size estimated over the epochs since the fault began and updates it
+// while the alarm is active").
+//
+// It starts from a RecentRanker (RecentRanker.Fault) when the alarm rises:
+// per candidate, the test statistic's sums are those of the whole span
+// and the size's sums those since the candidate's estimated onset (as
+// RecentRanker.Causes). Every later epoch adds its n_k = c_k^T W e_k and
+// d_k = c_k^T W Q_e,k W c_k to both, so that
+//
+//	T = (sum n_k)^2 / (sum d_k),   size = (sum' n_k) / (sum' d_k)
+//
+// (sum' over the epochs since the onset) are again the chi-square(1)
+// statistic and the least-squares estimate of a constant size, whose
+// standard deviation 1/sqrt(sum' d_k) shrinks as the fault's epochs
+// accumulate. The sums are running sums: memory does not grow with the
+// alarm's length, and the same epochs in the same order give the same
+// numbers to the last bit. FaultRanker is not safe for concurrent use.
+type FaultRanker struct {
+	index          map[string]int
+	proto          []Cause
+	num, den, sig2 []float64 // whole-span sums (the test statistic)
+	sNum, sDen     []float64 // sums since the onset (the size)
+	count          []int
+}
+
+// Fault returns a FaultRanker seeded with the epochs held now: call it at
+// the epoch an alarm rises, then Add every later epoch's causes.
+func (r *RecentRanker) Fault() *FaultRanker {
+	n := len(r.proto)
+	f := &FaultRanker{index: make(map[string]int, n), proto: append([]Cause(nil), r.proto...),
+		num: make([]float64, n), den: make([]float64, n), sig2: make([]float64, n),
+		sNum: make([]float64, n), sDen: make([]float64, n), count: make([]int, n)}
+	for k, p := range r.proto {
+		f.index[p.Label] = k
+	}
+	for _, e := range r.queue {
+		for i, k := range e.idx {
+			f.num[k] += e.num[i]
+			f.den[k] += e.den[i]
+			f.sig2[k] += e.sig2[i]
+			f.count[k]++
+		}
+	}
+	for k := range f.proto {
+		if sn, sd, ok := r.onsetSums(k); ok {
+			f.sNum[k], f.sDen[k] = sn, sd
+		} else {
+			f.sNum[k], f.sDen[k] = f.num[k], f.den[k]
+		}
+	}
+	return f
+}
+
+// Add folds one epoch's causes (as Identification.Causes) into the sums.
+func (f *FaultRanker) Add(causes []Cause) {
+	for _, c := range causes {
+		k, ok := f.index[c.Label]
+		if !ok {
+			k = len(f.proto)
+			f.index[c.Label] = k
+			f.proto = append(f.proto, c)
+			f.num, f.den, f.sig2 = append(f.num, 0), append(f.den, 0), append(f.sig2, 0)
+			f.sNum, f.sDen, f.count = append(f.sNum, 0), append(f.sDen, 0), append(f.count, 0)
+		}
+		f.num[k] += c.Num
+		f.den[k] += c.Den
+		f.sig2[k] += c.sig2
+		f.sNum[k] += c.Num
+		f.sDen[k] += c.Den
+		f.count[k]++
+	}
+}
+
+// Causes returns every candidate's statistics over the fault's epochs, in
+// first-seen order (group them with Identification.Groups): T from the
+// whole sums, the size and its standard deviation from the sums since the
+// candidate's onset.
+func (f *FaultRanker) Causes() []Cause {
+	out := make([]Cause, 0, len(f.proto))
+	for k, p := range f.proto {
+		if f.count[k] == 0 {
+			continue
+		}
+		c := finishCause(p.Kind, p.Label, f.num[k], f.den[k], f.sig2[k], f.count[k])
+		c.info = p.info
+		c.finishSizes()
+		if c.Separable && f.sDen[k] > 0 && (f.sNum[k] != f.num[k] || f.sDen[k] != f.den[k]) {
+			sized := c
+			sized.Num, sized.Den = f.sNum[k], f.sDen[k]
+			sized.finishSizes()
+			c.Size, c.DisplaySize, c.Std, c.Implausible = sized.Size, sized.DisplaySize, sized.Std, sized.Implausible
+			c.Strain, c.StrainStd = sized.Strain, sized.StrainStd
+		}
+		out = append(out, c)
+	}
+	return out
+}
