@@ -4,7 +4,6 @@ import (
 	"context"
 	"database/sql"
 	"fmt"
-	"math"
 	"sort"
 	"time"
 
@@ -13,9 +12,10 @@ import (
 
 // Readings live in two places. Recent ones are rows of the keyed table
 // `readings` (channel, ts) as ingest commits them; Compact moves the
-// readings of closed periods (one BlockSpan of one channel, entirely older
-// than the compaction horizon) into one compressed row of `reading_blocks`
-// (internal/blocks: about 1-4 bytes a reading instead of 26.5). Every read
+// readings of closed hours (entirely older than the compaction horizon)
+// into the compressed row of `reading_blocks` of the channel's block period
+// holding them (internal/blocks: about 1-4 bytes a reading instead of
+// 26.5; a period fits the channel's rate, blockspan.go). Every read
 // (ReadReadings, CountReadings, LastReadings, retention) sees the union, and
 // every promise of the row store holds for blocks too:
 //
@@ -31,35 +31,19 @@ import (
 //   - retention deletes whole blocks older than the cut and rewrites the
 //     block that straddles it; VACUUM INTO copies both tables.
 
-// BlockSpan is the period of one block: an hour of one channel (3600
-// readings at 1 Hz, 720,000 at 200 Hz).
+// BlockSpan is the step of compaction (Compact moves closed hours) and the
+// shortest block period: an hour of one channel (3600 readings at 1 Hz,
+// 720,000 at 200 Hz). Slower channels get longer periods (blockspan.go).
 const BlockSpan = time.Hour
 
 const spanNs = int64(BlockSpan)
 
 // CompactAfter is how old readings are before the service compacts them:
-// a block period is closed once it ended one more BlockSpan ago, so the
+// an hour is closed once it ended one more BlockSpan ago, so the
 // dashboard's recent series and a logger's normal lateness stay in rows,
-// and compaction rewrites a block only for a backlog that arrives later.
+// and compaction rewrites a block for the hours of its open period and for
+// a backlog that arrives later.
 const CompactAfter = 2 * BlockSpan
-
-// blockStart is the start of the block period holding ts.
-func blockStart(ts int64) int64 {
-	s := ts - ts%spanNs
-	if ts%spanNs < 0 {
-		s -= spanNs
-	}
-	return s
-}
-
-// earliestStart is the smallest block start that can hold a reading at or
-// after ts (ts minus one span, without overflowing).
-func earliestStart(ts int64) int64 {
-	if ts < math.MinInt64+spanNs {
-		return math.MinInt64
-	}
-	return ts - spanNs
-}
 
 // CompactStats counts what one Compact did.
 type CompactStats struct {
@@ -67,13 +51,15 @@ type CompactStats struct {
 	Readings int64 // readings moved from rows into blocks
 }
 
-// Compact moves the readings of every closed block period (ending at or
-// before `before`, rounded down to BlockSpan) from rows into blocks, one
-// block per transaction. Readings that arrive later for such a period are
-// kept as rows and merged into the block by the next Compact.
+// Compact moves the readings of every closed hour (ending at or before
+// `before`, rounded down to BlockSpan) from rows into the block of the
+// channel's period holding it, one block per transaction; a channel's
+// first Compact chooses its block period (choosePlan). Readings that
+// arrive later for such an hour are kept as rows and merged into the block
+// by the next Compact.
 func (s *Store) Compact(ctx context.Context, before time.Time) (CompactStats, error) {
 	var st CompactStats
-	horizon := blockStart(clampNs(before))
+	horizon := floorTo(clampNs(before), spanNs)
 	rows, err := s.db.QueryContext(ctx, `SELECT id FROM channels ORDER BY id`)
 	if err != nil {
 		return st, fmt.Errorf("store: compact: %w", err)
@@ -94,6 +80,7 @@ func (s *Store) Compact(ctx context.Context, before time.Time) (CompactStats, er
 	}
 	for _, id := range ids {
 		from := int64(-1 << 63)
+		var plan *blockPlan
 		for {
 			if err := ctx.Err(); err != nil {
 				return st, err
@@ -103,31 +90,41 @@ func (s *Store) Compact(ctx context.Context, before time.Time) (CompactStats, er
 				`SELECT min(ts) FROM readings WHERE channel = ? AND ts >= ? AND ts < ?`, id, from, horizon).Scan(&ts); err != nil {
 				return st, fmt.Errorf("store: compact channel id %d: %w", id, err)
 			}
-			start, staged, err := firstStagedPeriod(ctx, s.db, id, from, horizon)
+			first, staged, err := firstStagedLast(ctx, s.db, id, from, horizon)
 			if err != nil {
 				return st, err
 			}
-			if ts.Valid && (!staged || blockStart(ts.Int64) < start) {
-				start, staged = blockStart(ts.Int64), true
+			if ts.Valid && (!staged || ts.Int64 < first) {
+				first, staged = ts.Int64, true
 			}
 			if !staged {
 				break
 			}
-			n, err := s.compactBlock(ctx, id, start)
+			if plan == nil {
+				p, err := s.choosePlan(ctx, id)
+				if err != nil {
+					return st, err
+				}
+				plan = &p
+			}
+			start, end := plan.period(first)
+			end = min(end, horizon)
+			n, err := s.compactBlock(ctx, id, start, end)
 			if err != nil {
 				return st, err
 			}
 			st.Blocks++
 			st.Readings += n
-			from = start + spanNs
+			from = end
 		}
 	}
 	return st, nil
 }
 
-// compactBlock merges the rows of one channel's block period into its
-// block in one transaction and returns how many rows it moved.
-func (s *Store) compactBlock(ctx context.Context, ch, start int64) (int64, error) {
+// compactBlock merges the rows of channel ch in [start, end) (the block
+// period starting at start, or its closed part) into the period's block in
+// one transaction and returns how many rows it moved.
+func (s *Store) compactBlock(ctx context.Context, ch, start, end int64) (int64, error) {
 	tx, err := s.db.BeginTx(ctx, nil)
 	if err != nil {
 		return 0, fmt.Errorf("store: compact: %w", err)
@@ -137,7 +134,7 @@ func (s *Store) compactBlock(ctx context.Context, ch, start int64) (int64, error
 	if err != nil {
 		return 0, err
 	}
-	rows, err := tx.QueryContext(ctx, `SELECT ts, value FROM readings WHERE channel = ? AND ts >= ? AND ts < ? ORDER BY ts`, ch, start, start+spanNs)
+	rows, err := tx.QueryContext(ctx, `SELECT ts, value FROM readings WHERE channel = ? AND ts >= ? AND ts < ? ORDER BY ts`, ch, start, end)
 	if err != nil {
 		return 0, fmt.Errorf("store: compact channel id %d: %w", ch, err)
 	}
@@ -157,7 +154,7 @@ func (s *Store) compactBlock(ctx context.Context, ch, start int64) (int64, error
 	}
 	// Staged runs (staged.go) of the period join the rows; their times are
 	// distinct from the rows' and the block's (the commit checks).
-	staged, err := stagedPeriod(ctx, tx, ch, start)
+	staged, err := stagedPeriod(ctx, tx, ch, start, end)
 	if err != nil {
 		return 0, err
 	}
@@ -168,15 +165,17 @@ func (s *Store) compactBlock(ctx context.Context, ch, start int64) (int64, error
 	if err := putBlock(ctx, tx, ch, start, merged); err != nil {
 		return 0, err
 	}
-	if _, err := tx.ExecContext(ctx, `DELETE FROM readings WHERE channel = ? AND ts >= ? AND ts < ?`, ch, start, start+spanNs); err != nil {
+	if _, err := tx.ExecContext(ctx, `DELETE FROM readings WHERE channel = ? AND ts >= ? AND ts < ?`, ch, start, end); err != nil {
 		return 0, fmt.Errorf("store: compact channel id %d: %w", ch, err)
 	}
 	if len(staged) > 0 {
-		if err := deleteStagedPeriod(ctx, tx, ch, start); err != nil {
+		if err := deleteStagedPeriod(ctx, tx, ch, start, end); err != nil {
 			return 0, err
 		}
 	}
-	s.noteBlock(ch, start)
+	if len(merged) > 0 {
+		s.noteBlock(ch, merged[len(merged)-1].Time)
+	}
 	if err := tx.Commit(); err != nil {
 		return 0, fmt.Errorf("store: compact channel id %d: %w", ch, err)
 	}
@@ -249,35 +248,36 @@ func putBlock(ctx context.Context, tx *sql.Tx, ch, start int64, pts []blocks.Poi
 	return nil
 }
 
-// noteBlock records that channel ch has a block starting at start, so that
-// commits check readings of that period against it.
-func (s *Store) noteBlock(ch, start int64) {
+// noteBlock records that channel ch has a block reading at last, so that
+// commits check readings at or before it against the blocks.
+func (s *Store) noteBlock(ch, last int64) {
 	s.mu.Lock()
 	defer s.mu.Unlock()
-	if end := start + spanNs; end > s.blockedUntil[ch] {
+	if end := addNs(last, 1); end > s.blockedUntil[ch] {
 		s.blockedUntil[ch] = end
 	}
 }
 
-// loadBlockHorizons reads, per channel, the end of its latest block period.
+// loadBlockHorizons reads, per channel, its latest block reading.
 func (s *Store) loadBlockHorizons(ctx context.Context) error {
-	rows, err := s.db.QueryContext(ctx, `SELECT channel, max(start) FROM reading_blocks GROUP BY channel`)
+	rows, err := s.db.QueryContext(ctx, `SELECT channel, max(last) FROM reading_blocks GROUP BY channel`)
 	if err != nil {
 		return fmt.Errorf("store: block horizons: %w", err)
 	}
 	defer rows.Close()
 	for rows.Next() {
-		var ch, start int64
-		if err := rows.Scan(&ch, &start); err != nil {
+		var ch, last int64
+		if err := rows.Scan(&ch, &last); err != nil {
 			return fmt.Errorf("store: block horizons: %w", err)
 		}
-		s.blockedUntil[ch] = start + spanNs
+		s.blockedUntil[ch] = addNs(last, 1)
 	}
 	return rows.Err()
 }
 
-// blockedBefore reports, per row, whether its reading may fall in a period
-// that already has a block. Called inside a write transaction, after the
+// blockedBefore reports, per row, whether its reading may be held by a
+// block: whether it is not later than the channel's latest block reading
+// (a time after it is in no block, whatever the block periods). Called inside a write transaction, after the
 // lock is taken, so a concurrent Compact has either finished (and noted its
 // block) or not started.
 func (s *Store) blockedBefore(rows []batchRow) []bool {
@@ -294,8 +294,9 @@ func (s *Store) blockedBefore(rows []batchRow) []bool {
 type blockCache map[[2]int64]map[int64]float64
 
 // storedInBlock returns the value a block keeps for channel ch at ts.
-func (c blockCache) storedInBlock(ctx context.Context, tx *sql.Tx, ch, ts int64) (float64, bool, error) {
-	key := [2]int64{ch, blockStart(ts)}
+func (c blockCache) storedInBlock(ctx context.Context, s *Store, tx *sql.Tx, ch, ts int64) (float64, bool, error) {
+	start, _ := s.plan(ch).period(ts)
+	key := [2]int64{ch, start}
 	vals, ok := c[key]
 	if !ok {
 		pts, err := blockPoints(ctx, tx, ch, key[1])
@@ -322,15 +323,15 @@ type blockReader struct {
 
 // points appends the block points in [lo, hi) of every channel to fn.
 func (br *blockReader) points(ctx context.Context, lo, hi int64, fn func(ch int64, p blocks.Point)) error {
-	for key := range br.cache {
-		if key[1]+spanNs <= lo {
+	for key, pts := range br.cache {
+		if len(pts) == 0 || pts[len(pts)-1].Time < lo {
 			delete(br.cache, key)
 		}
 	}
 	for _, ch := range br.ids {
 		rows, err := br.s.db.QueryContext(ctx,
 			`SELECT start FROM reading_blocks WHERE channel = ? AND start > ? AND start < ? AND last >= ? AND first < ?`,
-			ch, earliestStart(lo), hi, lo, hi)
+			ch, br.s.plan(ch).earliestStart(lo), hi, lo, hi)
 		if err != nil {
 			return fmt.Errorf("store: blocks of channel id %d: %w", ch, err)
 		}
@@ -374,7 +375,7 @@ func (s *Store) firstBlockTime(ctx context.Context, ids []int64, from, to int64)
 		var start, first int64
 		err := s.db.QueryRowContext(ctx,
 			`SELECT start, first FROM reading_blocks WHERE channel = ? AND start > ? AND start < ? AND last >= ? ORDER BY start LIMIT 1`,
-			ch, earliestStart(from), to, from).Scan(&start, &first)
+			ch, s.plan(ch).earliestStart(from), to, from).Scan(&start, &first)
 		if err == sql.ErrNoRows {
 			continue
 		}

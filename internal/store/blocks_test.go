@@ -9,6 +9,7 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"slices"
 	"strconv"
 	"strings"
 	"testing"
@@ -272,12 +273,18 @@ func TestMigrationToBlocks(t *testing.T) {
 }
 
 // hourReadings returns the readings of hour h (from dayStart) of the kill
-// test: channels a and b every second, values depending on the hour.
+// test: channels a and b every second (one-hour blocks) and channel slow
+// once a minute (a two-day block that every compaction rewrites), values
+// depending on the hour.
 func hourReadings(h int) []Reading {
 	rs := someReadings(1, uint64(100+h))
+	for m := range 60 {
+		rs = append(rs, Reading{Channel: "slow", Time: dayStart.Add(time.Duration(m) * time.Minute), Value: float64(1000*h + m)})
+	}
 	for i := range rs {
 		rs[i].Time = rs[i].Time.Add(time.Duration(h) * time.Hour)
 	}
+	slices.SortStableFunc(rs, func(x, y Reading) int { return x.Time.Compare(y.Time) })
 	return rs
 }
 
@@ -358,6 +365,16 @@ func TestCompactKilled(t *testing.T) {
 	check("after the final compaction")
 	if n := rowCount(t, st); n != 0 {
 		t.Errorf("%d rows left after compacting everything", n)
+	}
+	// The slow channel's hours went into its long blocks, rewritten hour
+	// by hour: one block per two-day period its readings touch.
+	var span, nb int64
+	if err := st.db.QueryRow(`SELECT c.block_span, (SELECT count(*) FROM reading_blocks b WHERE b.channel = c.id) FROM channels c WHERE c.name = 'slow'`).Scan(&span, &nb); err != nil {
+		t.Fatal(err)
+	}
+	first, last := dayStart.UnixNano(), dayStart.Add(rounds*hoursPerRound*time.Hour-time.Minute).UnixNano()
+	if want := (floorTo(last, span)-floorTo(first, span))/span + 1; span != int64(48*time.Hour) || nb != want {
+		t.Errorf("slow channel: block period %v, %d blocks; want 48h and %d blocks", time.Duration(span), nb, want)
 	}
 }
 

@@ -124,6 +124,13 @@ var migrations = []string{
 	);
 	CREATE UNIQUE INDEX staged_by_last ON staged_readings (channel, last);
 	CREATE INDEX staged_by_first ON staged_readings (channel, first);`,
+	// 8 (block periods): each channel's block period, chosen at its first
+	// compaction from its sample interval (blockspan.go). Blocks written
+	// before are one hour long: block_from is the end of a channel's last
+	// one, and its periods before block_from stay hours.
+	`ALTER TABLE channels ADD COLUMN block_span INTEGER; -- ns; NULL until chosen
+	ALTER TABLE channels ADD COLUMN block_from INTEGER; -- Unix ns; NULL: no one-hour blocks before
+	UPDATE channels SET block_from = (SELECT max(b.start) + 3600000000000 FROM reading_blocks b WHERE b.channel = channels.id);`,
 }
 
 // schemaVersion returns the version recorded in the file, 0 for a new file.

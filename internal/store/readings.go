@@ -347,7 +347,7 @@ func (s *Store) writeRuns(ctx context.Context, tx *sql.Tx, rows []batchRow, res 
 			case ok:
 				kept = v
 			case blocked[i]:
-				v, inBlock, err := inBlocks.storedInBlock(ctx, tx, r.key.ch, r.key.ts)
+				v, inBlock, err := inBlocks.storedInBlock(ctx, s, tx, r.key.ch, r.key.ts)
 				if err != nil {
 					return err
 				}

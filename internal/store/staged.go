@@ -43,8 +43,9 @@ import (
 //     all three tables.
 
 // StageSpan bounds the time a staged row covers: a run is cut at every
-// multiple of StageSpan (which divides BlockSpan, so a staged row also lies
-// inside one block period). Every lookup of the rows that overlap a time
+// multiple of StageSpan (which divides every block period and the
+// compaction step BlockSpan, so a staged row also lies inside one block
+// period and one compaction step). Every lookup of the rows that overlap a time
 // range [lo, hi] is then the bounded index range lo <= last < hi+StageSpan.
 const StageSpan = time.Minute
 
@@ -361,10 +362,11 @@ func (s *Store) checkChannels(ctx context.Context, tx *sql.Tx, rows []stagedRow)
 	return nil
 }
 
-// stagedPeriod returns the staged readings of channel ch in the block
-// period starting at start, time-ordered.
-func stagedPeriod(ctx context.Context, q querier, ch, start int64) ([]blocks.Point, error) {
-	rows, err := q.QueryContext(ctx, `SELECT data FROM staged_readings WHERE channel = ? AND last >= ? AND last < ?`, ch, start, start+spanNs)
+// stagedPeriod returns the staged readings of channel ch in [start, end)
+// (both multiples of StageSpan, so a staged row lies wholly inside or
+// outside), time-ordered.
+func stagedPeriod(ctx context.Context, q querier, ch, start, end int64) ([]blocks.Point, error) {
+	rows, err := q.QueryContext(ctx, `SELECT data FROM staged_readings WHERE channel = ? AND last >= ? AND last < ?`, ch, start, end)
 	if err != nil {
 		return nil, fmt.Errorf("store: staged runs of channel id %d: %w", ch, err)
 	}
@@ -386,18 +388,18 @@ func stagedPeriod(ctx context.Context, q querier, ch, start int64) ([]blocks.Poi
 	return pts, nil
 }
 
-// deleteStagedPeriod deletes the staged rows of channel ch in the block
-// period starting at start.
-func deleteStagedPeriod(ctx context.Context, tx *sql.Tx, ch, start int64) error {
-	if _, err := tx.ExecContext(ctx, `DELETE FROM staged_readings WHERE channel = ? AND last >= ? AND last < ?`, ch, start, start+spanNs); err != nil {
+// deleteStagedPeriod deletes the staged rows of channel ch in [start, end)
+// (multiples of StageSpan, as for stagedPeriod).
+func deleteStagedPeriod(ctx context.Context, tx *sql.Tx, ch, start, end int64) error {
+	if _, err := tx.ExecContext(ctx, `DELETE FROM staged_readings WHERE channel = ? AND last >= ? AND last < ?`, ch, start, end); err != nil {
 		return fmt.Errorf("store: compact staged runs of channel id %d: %w", ch, err)
 	}
 	return nil
 }
 
-// firstStagedPeriod returns the start of the earliest block period of
-// channel ch with staged rows whose last reading lies in [from, horizon).
-func firstStagedPeriod(ctx context.Context, q querier, ch, from, horizon int64) (int64, bool, error) {
+// firstStagedLast returns the earliest last reading of the staged rows of
+// channel ch whose last reading lies in [from, horizon).
+func firstStagedLast(ctx context.Context, q querier, ch, from, horizon int64) (int64, bool, error) {
 	var last sql.NullInt64
 	if err := q.QueryRowContext(ctx,
 		`SELECT min(last) FROM staged_readings WHERE channel = ? AND last >= ? AND last < ?`, ch, from, horizon).Scan(&last); err != nil {
@@ -406,7 +408,7 @@ func firstStagedPeriod(ctx context.Context, q querier, ch, from, horizon int64) 
 	if !last.Valid {
 		return 0, false, nil
 	}
-	return blockStart(last.Int64), true, nil
+	return last.Int64, true, nil
 }
 
 // stagedReader yields the staged points of a set of channels over a time

@@ -34,6 +34,10 @@ type Options struct {
 	// MaxDeadLetters caps the dead-letter rows; the oldest are dropped
 	// first. Zero means DefaultMaxDeadLetters.
 	MaxDeadLetters int
+	// BlockSpan, when not zero, is the block period given to every channel
+	// that has none yet, instead of one chosen from its sample interval
+	// (blockspan.go); it must be a whole number of hours (BlockSpan).
+	BlockSpan time.Duration
 }
 
 // Store is an open store file. Its methods are safe for concurrent use.
@@ -47,9 +51,11 @@ type Store struct {
 	stmts    map[stmtKey]*sql.Stmt // prepared inserts by row count
 	named    map[string]*sql.Stmt  // other statements prepared once, by text
 	rowBufs  sync.Pool             // *[2][]batchRow, Commit's row buffers
-	// blockedUntil is, per channel id, the end of its latest block
-	// period: a reading before it may be in a block (blocks.go).
+	// blockedUntil is, per channel id, just after its latest block
+	// reading: a reading before it may be in a block (blocks.go).
 	blockedUntil map[int64]int64
+	// plans are the channels' block periods (blockspan.go), guarded by mu.
+	plans map[int64]blockPlan
 }
 
 type chanKey struct{ structure, name string }
@@ -71,6 +77,9 @@ func Open(path string, opts Options) (*Store, error) {
 	if opts.ReadChunk <= 0 {
 		opts.ReadChunk = time.Minute
 	}
+	if opts.BlockSpan < 0 || opts.BlockSpan%BlockSpan != 0 {
+		return nil, fmt.Errorf("store: open %s: block period %v is not a whole number of hours; give 0 (chosen per channel from its rate) or a multiple of %v", path, opts.BlockSpan, BlockSpan)
+	}
 	q := url.Values{}
 	q.Add("_pragma", "journal_mode(WAL)")
 	q.Add("_pragma", "synchronous(NORMAL)")
@@ -82,7 +91,7 @@ func Open(path string, opts Options) (*Store, error) {
 	if err != nil {
 		return nil, fmt.Errorf("store: open %s: %w", path, err)
 	}
-	s := &Store{db: db, path: path, opts: opts, channels: map[chanKey]int64{}, stmts: map[stmtKey]*sql.Stmt{}, named: map[string]*sql.Stmt{}, blockedUntil: map[int64]int64{}}
+	s := &Store{db: db, path: path, opts: opts, channels: map[chanKey]int64{}, stmts: map[stmtKey]*sql.Stmt{}, named: map[string]*sql.Stmt{}, blockedUntil: map[int64]int64{}, plans: map[int64]blockPlan{}}
 	if err := s.verifyPragmas(); err != nil {
 		db.Close()
 		return nil, err
@@ -92,6 +101,10 @@ func Open(path string, opts Options) (*Store, error) {
 		return nil, fmt.Errorf("store: %s: %w", path, err)
 	}
 	if err := s.loadBlockHorizons(context.Background()); err != nil {
+		db.Close()
+		return nil, fmt.Errorf("store: %s: %w", path, err)
+	}
+	if err := s.loadPlans(context.Background()); err != nil {
 		db.Close()
 		return nil, fmt.Errorf("store: %s: %w", path, err)
 	}
