@@ -44,11 +44,19 @@ func fileSize(b *testing.B, st *store.Store, dir, name string) (int64, string) {
 // sum of the block payloads alone (the rest of the blocks file is the
 // SQLite row of each block, page fill and the schema).
 type storageSize struct {
-	readings             int64
-	empty                int64 // the compact copy of the store before any reading
-	rows, blocks, blobs  int64
-	blockRows            int64
-	valueBound, timeBits float64 // bits per reading, see noiseBound
+	readings int64
+	empty    int64 // the compact copy of the store before any reading
+	rows     int64
+	// blocks with each channel's period chosen from its rate, and with
+	// one-hour blocks for every channel (store.Options.BlockSpan, the
+	// store before block periods fitted the rate).
+	fitted, hourly blockSize
+}
+
+// blockSize is the file after compaction: its compact copy, the block
+// payloads alone and the number of blocks.
+type blockSize struct {
+	file, blobs, blockRows int64
 }
 
 // storeAndCompact commits the readings (time-ordered, one batch per time
@@ -87,25 +95,55 @@ func storeAndCompact(b *testing.B, name string, rs []store.Reading) storageSize 
 	if sz.readings != int64(len(rs)) {
 		b.Fatalf("stored %d of %d readings", sz.readings, len(rs))
 	}
-	sz.rows, _ = fileSize(b, db, dir, "rows.db")
+	var rowsPath string
+	sz.rows, rowsPath = fileSize(b, db, dir, "rows.db")
+	// The same rows compacted side by side: periods fitted to the rate,
+	// and one-hour periods.
+	sz.fitted = compactCopy(b, rowsPath, filepath.Join(dir, "fitted"), store.Options{}, last, sz.readings)
+	sz.hourly = compactCopy(b, rowsPath, filepath.Join(dir, "hourly"), store.Options{BlockSpan: time.Hour}, last, sz.readings)
+	return sz
+}
+
+// compactCopy opens a copy of the rows file at rowsPath in dir with opts,
+// compacts every reading up to last into blocks and measures the file.
+func compactCopy(b *testing.B, rowsPath, dir string, opts store.Options, last time.Time, readings int64) blockSize {
+	b.Helper()
+	ctx := context.Background()
+	if err := os.MkdirAll(dir, 0o755); err != nil {
+		b.Fatal(err)
+	}
+	data, err := os.ReadFile(rowsPath)
+	if err != nil {
+		b.Fatal(err)
+	}
+	path := filepath.Join(dir, "monitor.db")
+	if err := os.WriteFile(path, data, 0o644); err != nil {
+		b.Fatal(err)
+	}
+	db, err := store.Open(path, opts)
+	if err != nil {
+		b.Fatal(err)
+	}
+	defer db.Close()
 	cs, err := db.Compact(ctx, last.Add(2*store.BlockSpan))
 	if err != nil {
 		b.Fatal(err)
 	}
-	if cs.Readings != sz.readings {
-		b.Fatalf("compacted %d of %d readings", cs.Readings, sz.readings)
+	if cs.Readings != readings {
+		b.Fatalf("compacted %d of %d readings", cs.Readings, readings)
 	}
-	var path string
-	sz.blocks, path = fileSize(b, db, dir, "blocks.db")
-	copyDB, err := sql.Open("sqlite", path)
+	var bs blockSize
+	var copyPath string
+	bs.file, copyPath = fileSize(b, db, dir, "blocks.db")
+	copyDB, err := sql.Open("sqlite", copyPath)
 	if err != nil {
 		b.Fatal(err)
 	}
 	defer copyDB.Close()
-	if err := copyDB.QueryRowContext(ctx, `SELECT count(*), coalesce(sum(length(data)), 0) FROM reading_blocks`).Scan(&sz.blockRows, &sz.blobs); err != nil {
+	if err := copyDB.QueryRowContext(ctx, `SELECT count(*), coalesce(sum(length(data)), 0) FROM reading_blocks`).Scan(&bs.blockRows, &bs.blobs); err != nil {
 		b.Fatal(err)
 	}
-	return sz
+	return bs
 }
 
 // noiseBound returns the bits per reading that the noise of the readings
@@ -267,7 +305,11 @@ func recordedDay(b *testing.B, quantise bool) (string, []store.Reading, map[stri
 // row of each block and page fill), the blocks file less the empty store's
 // (its schema: 18 pages, 72 KiB, a fixed cost that a year of readings
 // makes negligible, "net"), and the noise bound ("bound", bits per
-// reading for the values, noiseBound). The days: storage-hours of the
+// reading for the values, noiseBound). The blocks figures are given twice,
+// for the same rows compacted in the same run: with each channel's block
+// period fitted to its rate (the store's default) and with one-hour
+// periods for every channel ("hourly-", Options.BlockSpan, as before
+// periods were fitted). The days: storage-hours of the
 // 100-channel footbridge at 1 Hz ("bridge"), and the recorded day
 // (testdata/replay, "recorded"), each with values as the logger's CSV
 // carries them, 8 significant digits ("8sig"), and at the fixed resolution
@@ -297,14 +339,19 @@ func BenchmarkStorageBytes(b *testing.B) {
 			n := float64(sz.readings)
 			bound := noiseBound(rs, decimals, digits)
 			b.ReportMetric(float64(sz.rows)/n, day.name+"-rows-B/reading")
-			b.ReportMetric(float64(sz.blocks)/n, day.name+"-blocks-B/reading")
-			b.ReportMetric(float64(sz.blobs)/n, day.name+"-blobs-B/reading")
-			b.ReportMetric(float64(sz.blocks-sz.empty)/n, day.name+"-net-B/reading")
 			b.ReportMetric(bound/8, day.name+"-bound-B/reading")
-			if testing.Verbose() {
-				fmt.Printf("%s: %d readings, %d blocks; rows %.2f B, blocks %.2f B (%.2f B without the %d B empty file; %.0f B a block besides its payload), blobs %.2f B, value bound %.2f bits a reading\n",
-					day.name, sz.readings, sz.blockRows, float64(sz.rows)/n, float64(sz.blocks)/n, float64(sz.blocks-sz.empty)/n, sz.empty,
-					float64(sz.blocks-sz.empty-sz.blobs)/float64(sz.blockRows), float64(sz.blobs)/n, bound)
+			for _, v := range []struct {
+				prefix string
+				bs     blockSize
+			}{{"", sz.fitted}, {"hourly-", sz.hourly}} {
+				b.ReportMetric(float64(v.bs.file)/n, day.name+"-"+v.prefix+"blocks-B/reading")
+				b.ReportMetric(float64(v.bs.blobs)/n, day.name+"-"+v.prefix+"blobs-B/reading")
+				b.ReportMetric(float64(v.bs.file-sz.empty)/n, day.name+"-"+v.prefix+"net-B/reading")
+				if testing.Verbose() {
+					fmt.Printf("%s %s: %d readings, %d blocks; rows %.2f B, blocks %.2f B (%.2f B without the %d B empty file; %.0f B a block besides its payload), blobs %.2f B, value bound %.2f bits a reading\n",
+						day.name, v.prefix, sz.readings, v.bs.blockRows, float64(sz.rows)/n, float64(v.bs.file)/n, float64(v.bs.file-sz.empty)/n, sz.empty,
+						float64(v.bs.file-sz.empty-v.bs.blobs)/float64(v.bs.blockRows), float64(v.bs.blobs)/n, bound)
+				}
 			}
 		}
 	}
