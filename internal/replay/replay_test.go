@@ -630,38 +630,59 @@ func TestModelRecordedAfterFirstReading(t *testing.T) {
 // TestReplayFromBlocks replays the recorded day from rows, compacts the
 // store into blocks, replays again, and requires byte-identical epochs.csv
 // and events.csv: the block store changes where readings sit, not what a
-// replay computes.
+// replay computes. It does so with block periods fitted to the rate (two
+// days at the day's one reading a minute: the day in one block per
+// channel) and with one-hour periods (24 blocks per channel).
 func TestReplayFromBlocks(t *testing.T) {
-	path := importDay(t, true)
-	out1, out2 := t.TempDir(), t.TempDir()
-	opt := replay.Options{DB: path, From: dayStart, To: dayEnd, SensorsFile: sensorsFile, OutDir: out1, Window: time.Minute}
-	if _, err := replay.Run(context.Background(), opt); err != nil {
-		t.Fatal(err)
+	for _, c := range []struct {
+		name   string
+		span   time.Duration
+		blocks int
+	}{
+		{"fitted", 0, 46 * periodsTouched(dayStart, dayEnd, 48*time.Hour)},
+		{"hourly", time.Hour, 46 * 24},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			path := importDay(t, true)
+			out1, out2 := t.TempDir(), t.TempDir()
+			opt := replay.Options{DB: path, From: dayStart, To: dayEnd, SensorsFile: sensorsFile, OutDir: out1, Window: time.Minute}
+			if _, err := replay.Run(context.Background(), opt); err != nil {
+				t.Fatal(err)
+			}
+			db, err := store.Open(path, store.Options{BlockSpan: c.span})
+			if err != nil {
+				t.Fatal(err)
+			}
+			cs, err := db.Compact(context.Background(), dayEnd)
+			db.Close()
+			if err != nil {
+				t.Fatal(err)
+			}
+			if cs.Readings != 1440*46 || cs.Blocks != c.blocks {
+				t.Fatalf("compacted %+v; want every reading of the day in %d blocks", cs, c.blocks)
+			}
+			opt.OutDir = out2
+			if _, err := replay.Run(context.Background(), opt); err != nil {
+				t.Fatal(err)
+			}
+			for _, name := range []string{report.EpochsFile, report.EventsFile} {
+				a, err1 := os.ReadFile(filepath.Join(out1, name))
+				b, err2 := os.ReadFile(filepath.Join(out2, name))
+				if err1 != nil || err2 != nil {
+					t.Fatal(err1, err2)
+				}
+				if !bytes.Equal(a, b) {
+					t.Errorf("%s differs between the row store and the block store", name)
+				}
+			}
+		})
 	}
-	db, err := store.Open(path, store.Options{})
-	if err != nil {
-		t.Fatal(err)
-	}
-	cs, err := db.Compact(context.Background(), dayEnd)
-	db.Close()
-	if err != nil {
-		t.Fatal(err)
-	}
-	if cs.Readings != 1440*46 || cs.Blocks != 24*46 {
-		t.Fatalf("compacted %+v; want every reading of the day in 24 blocks per channel", cs)
-	}
-	opt.OutDir = out2
-	if _, err := replay.Run(context.Background(), opt); err != nil {
-		t.Fatal(err)
-	}
-	for _, name := range []string{report.EpochsFile, report.EventsFile} {
-		a, err1 := os.ReadFile(filepath.Join(out1, name))
-		b, err2 := os.ReadFile(filepath.Join(out2, name))
-		if err1 != nil || err2 != nil {
-			t.Fatal(err1, err2)
-		}
-		if !bytes.Equal(a, b) {
-			t.Errorf("%s differs between the row store and the block store", name)
-		}
-	}
+}
+
+// periodsTouched counts the span-aligned periods (from the Unix epoch)
+// that [from, to) touches.
+func periodsTouched(from, to time.Time, span time.Duration) int {
+	first := from.UnixNano() / int64(span)
+	last := (to.UnixNano() - 1) / int64(span)
+	return int(last-first) + 1
 }
