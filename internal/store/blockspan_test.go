@@ -76,8 +76,9 @@ func TestBlockPlanPeriods(t *testing.T) {
 // (CompactAfter). It checks that the channels get two-day blocks, that
 // every closed hour is compacted at once (no reading older than the
 // horizon's hour stays in rows), that commits and reads match the model
-// throughout, and that retention inside a long block, a reopened store and
-// a backup keep them.
+// throughout, that counts and partial reads cut long blocks right, and
+// that retention inside a long block, a reopened store and a backup keep
+// them.
 func TestSlowChannelKeepsEveryPromise(t *testing.T) {
 	ctx := context.Background()
 	st := openTemp(t)
@@ -138,6 +139,26 @@ func TestSlowChannelKeepsEveryPromise(t *testing.T) {
 	// Five days from dayStart touch three or four two-day periods.
 	if nb < 3*len(chans) || nb > 4*len(chans) {
 		t.Errorf("%d blocks, want 3 or 4 per channel", nb)
+	}
+
+	// Counts and partial reads over ranges that cut long blocks.
+	for _, c := range [][2]time.Duration{{0, 5 * 24 * time.Hour}, {13 * time.Hour, 13*time.Hour + 90*time.Second}, {47 * time.Hour, 50 * time.Hour}, {-time.Hour, 30 * time.Hour}} {
+		lo, hi := dayStart.Add(c[0]), dayStart.Add(c[1])
+		want := model.readings(lo.UnixNano(), hi.UnixNano())
+		n, err := st.CountReadings(ctx, "bridge", lo, hi)
+		if err != nil || n != int64(len(want)) {
+			t.Errorf("count [%v, %v): %d (%v), want %d", c[0], c[1], n, err, len(want))
+		}
+		var got []Reading
+		if err := st.ReadReadings(ctx, "bridge", lo, hi, func(r Reading) error {
+			got = append(got, r)
+			return nil
+		}); err != nil {
+			t.Fatal(err)
+		}
+		if err := sameReadings(want, got); err != nil {
+			t.Errorf("read [%v, %v): %v", c[0], c[1], err)
+		}
 	}
 
 	// Retention cuts inside a long block.
@@ -350,5 +371,22 @@ func TestMedianInterval(t *testing.T) {
 	}
 	if got := medianInterval([]int64{5, 5}, intervalSample); got != 0 {
 		t.Errorf("one distinct time: %v, want 0", got)
+	}
+}
+
+// TestOpenRefusesBlockSpan checks that Options.BlockSpan must be a whole
+// number of hours.
+func TestOpenRefusesBlockSpan(t *testing.T) {
+	for _, c := range []struct {
+		span time.Duration
+		ok   bool
+	}{{0, true}, {time.Hour, true}, {48 * time.Hour, true}, {30 * time.Minute, false}, {90 * time.Minute, false}, {-time.Hour, false}} {
+		st, err := Open(filepath.Join(t.TempDir(), "s.db"), Options{BlockSpan: c.span})
+		if (err == nil) != c.ok {
+			t.Errorf("block period %v: error %v, want ok %v", c.span, err, c.ok)
+		}
+		if err == nil {
+			st.Close()
+		}
 	}
 }
