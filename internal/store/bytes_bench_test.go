@@ -44,11 +44,10 @@ func fileSize(b *testing.B, st *store.Store, dir, name string) (int64, string) {
 // sum of the block payloads alone (the rest of the blocks file is the
 // SQLite row of each block, page fill and the schema).
 type storageSize struct {
-	readings             int64
-	empty                int64 // the compact copy of the store before any reading
-	rows, blocks, blobs  int64
-	blockRows            int64
-	valueBound, timeBits float64 // bits per reading, see noiseBound
+	readings            int64
+	empty               int64 // the compact copy of the store before any reading
+	rows, blocks, blobs int64
+	blockRows           int64
 }
 
 // storeAndCompact commits the readings (time-ordered, one batch per time
