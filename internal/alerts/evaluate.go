@@ -8,6 +8,7 @@ import (
 	"sort"
 	"sync"
 	"time"
+	"trussmonitor/internal/reconcile"
 )
 
 // Lookback is how far back an absent counter sample is looked for, as
@@ -38,7 +39,7 @@ type Observation struct {
 	CommitFailures  uint64
 	BrokerConnected *bool
 	// Causes are the epoch's top-ranked causes (most likely first).
-	Causes []Cause
+	Causes []reconcile.RankedCause
 	// Utilisation are the members' utilisations of a fitted epoch
 	// (structures with a design basis only).
 	Utilisation []Utilisation
@@ -63,8 +64,8 @@ type Member struct {
 	Member        string
 	W             float64
 	Checkable     bool
-	EstimatedBias float64 // gauge-fault estimate e_i / r_i, newtons
-	Causes        []Cause // optional: causes ranked for this member
+	EstimatedBias float64                 // gauge-fault estimate e_i / r_i, newtons
+	Causes        []reconcile.RankedCause // optional: causes ranked for this member
 }
 
 // Channel is a channel's freshness.
@@ -75,24 +76,6 @@ type Channel struct {
 	// start). A channel with no reading known is silent since then; zero
 	// (replay) leaves such a channel without a value.
 	WatchedSince time.Time
-}
-
-// Cause is evidence of one ranked cause.
-type Cause struct {
-	Label string  `json:"label"`
-	Kind  string  `json:"kind"`
-	T     float64 `json:"t"`
-	Size  float64 `json:"size"` // in Unit
-	Unit  string  `json:"unit"`
-	// Std is the standard deviation of Size and MDS the minimal detectable
-	// size, in Unit.
-	Std float64 `json:"std,omitempty"`
-	MDS float64 `json:"mds,omitempty"`
-	// Group numbers the separability group (from 1): causes of one group
-	// cannot be told apart by the gauges and carry no order.
-	Group int `json:"group,omitempty"`
-	// Implausible marks a size outside its plausible range.
-	Implausible bool `json:"implausible,omitempty"`
 }
 
 // Event kinds.
@@ -113,16 +96,16 @@ type Event struct {
 
 // Evidence is what was seen when the event happened.
 type Evidence struct {
-	Signal      string    `json:"signal"`
-	Value       float64   `json:"value"`     // the signal's value (0 when it has none)
-	Threshold   float64   `json:"threshold"` // Raise for raised, Clear for cleared
-	ActiveSince time.Time `json:"active_since"`
-	W           float64   `json:"w,omitempty"`
-	Bias        float64   `json:"estimated_bias_newtons,omitempty"`
-	PValue      float64   `json:"p_value,omitempty"`
-	ChiSquare   float64   `json:"chi_square,omitempty"`
-	DOF         int       `json:"dof,omitempty"`
-	Causes      []Cause   `json:"causes,omitempty"` // top three, or the whole first group
+	Signal      string                  `json:"signal"`
+	Value       float64                 `json:"value"`     // the signal's value (0 when it has none)
+	Threshold   float64                 `json:"threshold"` // Raise for raised, Clear for cleared
+	ActiveSince time.Time               `json:"active_since"`
+	W           float64                 `json:"w,omitempty"`
+	Bias        float64                 `json:"estimated_bias_newtons,omitempty"`
+	PValue      float64                 `json:"p_value,omitempty"`
+	ChiSquare   float64                 `json:"chi_square,omitempty"`
+	DOF         int                     `json:"dof,omitempty"`
+	Causes      []reconcile.RankedCause `json:"causes,omitempty"` // top three, or the whole first group
 	// Epochs is the number of epochs behind Value for a mean rule (Value
 	// is then the mean of the statistic over the for-duration, or over the
 	// hold-off for a cleared event).
@@ -181,7 +164,7 @@ type structState struct {
 	skew, rej   []sample
 	commitFail  []sample
 	broker      *bool
-	causes      []Cause
+	causes      []reconcile.RankedCause
 	alarms      map[[2]string]*alarmState // rule name, subject
 	firingCount map[string]int
 	keep        time.Duration // counter history kept: longest window + Lookback
@@ -692,7 +675,7 @@ func (s *structState) event(r Rule, o Observation, in instance, kind string, a *
 	for n < len(causes) && causes[n].Group == 1 {
 		n++
 	}
-	ev.Evidence.Causes = append([]Cause(nil), causes[:n]...)
+	ev.Evidence.Causes = append([]reconcile.RankedCause(nil), causes[:n]...)
 	return ev
 }
 

@@ -9,6 +9,7 @@ import (
 	"strings"
 	"testing"
 	"time"
+	"trussmonitor/internal/reconcile"
 )
 
 var t0 = time.Date(2026, 6, 14, 9, 0, 0, 0, time.UTC)
@@ -28,10 +29,10 @@ func fixture(t testing.TB) (*memSource, http.Handler) {
 	src.addEvent(Event{
 		Time: t0.Add(53 * time.Second), Rule: "member_residual", Subject: "D2", Kind: "raised",
 		W: 5.3, Size: 3100, SizeUnit: "N", Message: "D2 strays from prediction",
-		Causes: []Cause{
-			{Kind: "gauge_fault", Subject: "D2-a", T: 28.1, Size: 3100, Unit: "N"},
-			{Kind: "stiffness_change", Subject: "D2", T: 24.9, Size: -0.08, Unit: "1"},
-			{Kind: "node_load", Subject: "L2", T: 9.2, Size: 5200, Unit: "N"},
+		Causes: []reconcile.RankedCause{
+			{Kind: reconcile.GaugeFault, Subject: "D2-a", T: 28.1, Size: 3100, Unit: "N"},
+			{Kind: reconcile.StiffnessChange, Subject: "D2", T: 24.9, Size: -0.08, Unit: "1"},
+			{Kind: reconcile.NodalLoad, Subject: "L2", T: 9.2, Size: 5200, Unit: "N"},
 		},
 	})
 	h := New(src, Options{Now: func() time.Time { return t0.Add(60 * time.Second) }})

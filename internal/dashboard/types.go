@@ -16,6 +16,7 @@ package dashboard
 import (
 	"errors"
 	"time"
+	"trussmonitor/internal/reconcile"
 )
 
 // Caution is the safety text shown on the page and returned in every state
@@ -240,27 +241,5 @@ type Event struct {
 	// Message is a one-line human-readable summary.
 	Message string
 	// Causes are the top-ranked candidate causes, best first.
-	Causes []Cause
-}
-
-// Cause is one ranked candidate cause of a rejection.
-type Cause struct {
-	// Kind is the signature's kind, e.g. "gauge_fault", "stiffness_change",
-	// "support_settlement", "node_load".
-	Kind string
-	// Subject is the gauge, member, support or node concerned.
-	Subject string
-	// T is the test statistic T_c = (c^T W e)^2 / (c^T W Q_e W c).
-	T float64
-	// Size is the estimated size (c^T W e) / (c^T W Q_e W c) in Unit.
-	Size float64
-	// Unit of Size, e.g. "N", "1" (relative EA change), "m".
-	Unit string
-	// Std is the standard deviation of Size (0: not given); Group the
-	// separability group from 1 (causes of one group cannot be told apart
-	// and carry no order; 0: not grouped); Implausible marks a size
-	// outside its plausible range.
-	Std         float64
-	Group       int
-	Implausible bool
+	Causes []reconcile.RankedCause
 }

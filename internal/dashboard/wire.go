@@ -255,7 +255,7 @@ func toEventJSON(e Event) eventJSON {
 		Causes: make([]causeJSON, 0, len(e.Causes)),
 	}
 	for _, c := range e.Causes {
-		out.Causes = append(out.Causes, causeJSON{Kind: c.Kind, Subject: c.Subject, T: n(c.T), Size: n(c.Size), Unit: c.Unit,
+		out.Causes = append(out.Causes, causeJSON{Kind: c.Kind.String(), Subject: c.Subject, T: n(c.T), Size: n(c.Size), Unit: c.Unit,
 			Std: n(c.Std), Group: c.Group, Implausible: c.Implausible})
 	}
 	return out

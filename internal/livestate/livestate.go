@@ -11,7 +11,6 @@ import (
 	"fmt"
 	"math"
 	"sort"
-	"strings"
 	"sync"
 	"time"
 
@@ -182,23 +181,8 @@ func dashboardEvent(ev alerts.Event) dashboard.Event {
 		d.Size = nan()
 	}
 	d.Message = alerts.Message(ev)
-	for _, c := range ev.Evidence.Causes {
-		d.Causes = append(d.Causes, dashboard.Cause{Kind: c.Kind, Subject: causeSubject(c.Label), T: c.T, Size: c.Size, Unit: c.Unit,
-			Std: c.Std, Group: c.Group, Implausible: c.Implausible})
-	}
+	d.Causes = ev.Evidence.Causes
 	return d
-}
-
-// causeSubject returns what a cause label is about: "gauge D2" -> "D2",
-// "E A of D2" -> "D2", "settlement L8 y" -> "L8 y", "load at U2 y" -> "U2 y"
-// (the labels the pipeline gives its candidates).
-func causeSubject(label string) string {
-	for _, p := range []string{"gauge ", "E A of ", "settlement ", "load at "} {
-		if rest, ok := strings.CutPrefix(label, p); ok {
-			return rest
-		}
-	}
-	return label
 }
 
 // Structures lists the registered structures in registration order.

@@ -60,7 +60,7 @@ func TestLiveState(t *testing.T) {
 		}
 		r := result(p, t0.Add(time.Duration(i)*time.Second), float64(i), active)
 		if i == 4 {
-			r.Events = []alerts.Event{{Structure: "alder-creek", Rule: "MemberDiverging", Subject: "B2", Kind: "raised", Time: r.Time, Evidence: alerts.Evidence{W: 4, Causes: []alerts.Cause{{Label: "gauge B2", Kind: "gauge_fault", T: 16, Size: 200, Unit: "N"}}}}}
+			r.Events = []alerts.Event{{Structure: "alder-creek", Rule: "MemberDiverging", Subject: "B2", Kind: "raised", Time: r.Time, Evidence: alerts.Evidence{W: 4, Causes: []reconcile.RankedCause{{Label: "gauge B2", Subject: "B2", Kind: reconcile.GaugeFault, T: 16, Size: 200, Unit: "N"}}}}}
 		}
 		sink.Epoch(r)
 	}
@@ -85,7 +85,7 @@ func TestLiveState(t *testing.T) {
 		t.Errorf("series: %+v", ser.Points)
 	}
 	evs, err := l.Events("alder-creek", t0, t0.Add(time.Minute))
-	if err != nil || len(evs) != 1 || evs[0].Subject != "B2" || len(evs[0].Causes) != 1 || evs[0].Causes[0].Subject != "B2" || evs[0].Causes[0].Kind != "gauge_fault" {
+	if err != nil || len(evs) != 1 || evs[0].Subject != "B2" || len(evs[0].Causes) != 1 || evs[0].Causes[0].Subject != "B2" || evs[0].Causes[0].Kind != reconcile.GaugeFault {
 		t.Errorf("events: %+v, %v", evs, err)
 	}
 	if !math.IsNaN(evs[0].Size) {

@@ -36,7 +36,7 @@ func adaptAfter(p *reconcile.Processor, res *Result) {
 			causes = p.RecentCauses()
 		}
 		for _, c := range causes {
-			if c.Group == 1 && c.Kind != reconcile.ChannelBias.String() {
+			if c.Group == 1 && c.Kind != reconcile.ChannelBias {
 				p.Adapt(c.Label, keep)
 			}
 		}

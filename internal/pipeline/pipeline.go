@@ -378,8 +378,7 @@ func fitObservation(o *alerts.Observation, res *reconcile.EpochResult) {
 		if i >= 3 && c.Group != 1 {
 			break
 		}
-		o.Causes = append(o.Causes, alerts.Cause{Label: c.Label, Kind: c.Kind, T: c.T, Size: c.Size, Unit: c.Unit,
-			Std: c.Std, MDS: c.MDS, Group: c.Group, Implausible: c.Implausible})
+		o.Causes = append(o.Causes, c)
 	}
 	for _, m := range res.Members {
 		if !m.Available {

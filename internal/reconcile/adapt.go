@@ -211,7 +211,7 @@ func (p *Processor) identifiedGroup(res *EpochResult, k float64) []adaptedHypoth
 			break
 		}
 		best = math.Max(best, c.T)
-		if c.Kind != ChannelBias.String() && len(out) < MaxAdapted {
+		if c.Kind != ChannelBias && len(out) < MaxAdapted {
 			out = append(out, adaptedHypothesis{label: c.Label, keep: -1})
 		}
 	}
@@ -284,7 +284,7 @@ func (p *Processor) adaptedFitWith(res *EpochResult, s *Solver, cands []Candidat
 			size = x / (1 - c.Kappa*x)
 			std = sd / ((1 - c.Kappa*x) * (1 - c.Kappa*x))
 		}
-		fit.Hypotheses = append(fit.Hypotheses, RankedCause{Kind: c.Kind.String(), Subject: p.subjects[c.Label], Label: c.Label,
+		fit.Hypotheses = append(fit.Hypotheses, RankedCause{Kind: c.Kind, Subject: p.subjects[c.Label], Label: c.Label,
 			Size: size * scale, Std: std * scale, Unit: unit, Separable: r.Estimable[cols+j]})
 	}
 	res.Adapted = fit

@@ -4,7 +4,6 @@ import (
 	"fmt"
 	"math"
 	"sort"
-	"strings"
 
 	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/pipeline"
@@ -16,14 +15,12 @@ import (
 // collector is the pipeline sink of a replay: it hands every fitted
 // epoch to the report's stream as it comes (epochs.csv row by row, the
 // plots as bounded summaries) and keeps only what does not grow with the
-// period's length: the alarm events (few), the pipeline's cause subjects,
-// every member's running totals and which pattern columns were used.
+// period's length: the alarm events (few), every member's running totals and which pattern columns were used.
 // Nothing measured on the wall clock (Result.Took) is kept.
 type collector struct {
-	stream   *report.Stream
-	events   []alerts.Event
-	subjects map[string]string // cause label -> subject, from the pipeline's causes
-	totals   memberTotals      // every member's total state (members.go)
+	stream *report.Stream
+	events []alerts.Event
+	totals memberTotals // every member's total state (members.go)
 	// col maps a load pattern to its report column; scale is the column's
 	// reference load (1: a bare factor); used marks the columns some
 	// epoch gave an estimate (estimable or not) for.
@@ -63,7 +60,7 @@ func reportPatterns(unknown []string, sm *sensors.Map, estimateMissing bool) []s
 // newCollector streams into s, whose head lists the columns; scale holds
 // each pattern column's reference load (referenceUnits).
 func newCollector(s *report.Stream, head *report.Report, scale []float64) *collector {
-	c := &collector{stream: s, subjects: map[string]string{}, col: map[string]int{}, scale: scale}
+	c := &collector{stream: s, col: map[string]int{}, scale: scale}
 	for j, p := range head.Patterns {
 		c.col[p.Name] = j
 	}
@@ -75,13 +72,6 @@ func newCollector(s *report.Stream, head *report.Report, scale []float64) *colle
 
 // Epoch implements pipeline.Sink.
 func (c *collector) Epoch(r *pipeline.Result) {
-	for _, cs := range [][]reconcile.RankedCause{r.Causes, r.Window} {
-		for _, k := range cs {
-			if k.Subject != "" {
-				c.subjects[k.Label] = k.Subject
-			}
-		}
-	}
 	c.events = append(c.events, r.Events...)
 	if r.Outcome != reconcile.OutcomeAccepted && r.Outcome != reconcile.OutcomeRejected {
 		return
@@ -150,22 +140,6 @@ func (c *collector) event(e alerts.Event) report.Event {
 		out.Size, out.SizeUnit = ev.Bias, "N"
 	}
 	out.Message = alerts.Message(e)
-	for _, k := range ev.Causes {
-		out.Causes = append(out.Causes, report.Cause{Kind: k.Kind, Subject: c.subject(k.Label), T: k.T, Size: k.Size, Std: k.Std, Unit: k.Unit, Group: k.Group, Implausible: k.Implausible})
-	}
+	out.Causes = ev.Causes
 	return out
-}
-
-// subject returns the item a cause concerns: the pipeline's subject for its
-// label, or the label without its kind prefix.
-func (c *collector) subject(label string) string {
-	if s, ok := c.subjects[label]; ok {
-		return s
-	}
-	for _, p := range []string{"E A of ", "gauge ", "settlement ", "load at "} {
-		if strings.HasPrefix(label, p) {
-			return strings.TrimPrefix(label, p)
-		}
-	}
-	return label
 }

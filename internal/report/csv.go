@@ -54,7 +54,7 @@ func writeEventsCSV(buf *bytes.Buffer, r *Report) error {
 		for i := 0; i < maxCauses; i++ {
 			if i < len(e.Causes) {
 				c := e.Causes[i]
-				row = append(row, c.Kind, c.Subject, floatText(c.T), floatText(c.Size), c.Unit)
+				row = append(row, c.Kind.String(), c.Subject, floatText(c.T), floatText(c.Size), c.Unit)
 				continue
 			}
 			row = append(row, "", "", "", "", "")

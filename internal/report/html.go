@@ -238,7 +238,7 @@ func writeEventTable(sb *strings.Builder, r *Report) {
 				if c.Implausible {
 					size += " (implausible size)"
 				}
-				fmt.Fprintf(sb, "<li>%s%s %s: T = %s, size %s</li>", esc(grp), esc(strings.ReplaceAll(c.Kind, "_", " ")), esc(c.Subject), num(c.T, 1), esc(size))
+				fmt.Fprintf(sb, "<li>%s%s %s: T = %s, size %s</li>", esc(grp), esc(strings.ReplaceAll(c.Kind.String(), "_", " ")), esc(c.Subject), num(c.T, 1), esc(size))
 			}
 			sb.WriteString("</ol>")
 		}

@@ -20,6 +20,7 @@ import (
 	"os"
 	"path/filepath"
 	"time"
+	"trussmonitor/internal/reconcile"
 )
 
 // Caution is the safety text printed in the report when Report.Caution is
@@ -134,25 +135,7 @@ type Event struct {
 	Message string
 	// Causes are the ranked candidate causes, best first; the report shows
 	// the first three.
-	Causes []Cause
-}
-
-// Cause is one ranked candidate cause.
-type Cause struct {
-	// Kind of signature, e.g. "gauge_fault", "stiffness_change",
-	// "support_settlement", "node_load"; Subject the item concerned.
-	Kind, Subject string
-	// T is the test statistic (c^T W e)^2 / (c^T W Q_e W c).
-	T float64
-	// Size is the estimated size (c^T W e) / (c^T W Q_e W c) in Unit
-	// (exact for a stiffness change), Std its standard deviation.
-	Size, Std float64
-	Unit      string
-	// Group numbers the separability group from 1 (0: not grouped):
-	// causes of one group cannot be told apart by the gauges.
-	Group int
-	// Implausible marks a size outside its plausible range.
-	Implausible bool
+	Causes []reconcile.RankedCause
 }
 
 // File names written by Write.

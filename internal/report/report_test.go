@@ -14,6 +14,7 @@ import (
 	"strings"
 	"testing"
 	"time"
+	"trussmonitor/internal/reconcile"
 )
 
 var update = flag.Bool("update", false, "rewrite the golden files in testdata/")
@@ -51,11 +52,11 @@ func smallReport() *Report {
 	r.Events = []Event{
 		{Time: t0.Add(4*time.Second + 250*time.Millisecond), Rule: "member_residual", Subject: "D2", Kind: "raised",
 			W: 5.28, Size: 3160.2, SizeUnit: "N", Message: "D2 strays from prediction, \"5.3 sigma\"",
-			Causes: []Cause{
-				{Kind: "gauge_fault", Subject: "D2-a", T: 27.9, Size: 3160.2, Unit: "N"},
-				{Kind: "stiffness_change", Subject: "D2", T: 24.1, Size: -0.081, Unit: "1"},
-				{Kind: "node_load", Subject: "L2", T: 9.4, Size: 5230, Unit: "N"},
-				{Kind: "support_settlement", Subject: "L0", T: 1.2, Size: 0.0004, Unit: "m"},
+			Causes: []reconcile.RankedCause{
+				{Kind: reconcile.GaugeFault, Subject: "D2-a", T: 27.9, Size: 3160.2, Unit: "N"},
+				{Kind: reconcile.StiffnessChange, Subject: "D2", T: 24.1, Size: -0.081, Unit: "1"},
+				{Kind: reconcile.NodalLoad, Subject: "L2", T: 9.4, Size: 5230, Unit: "N"},
+				{Kind: reconcile.SupportSettlement, Subject: "L0", T: 1.2, Size: 0.0004, Unit: "m"},
 			}},
 		{Time: t0.Add(4*time.Second + 250*time.Millisecond), Rule: "fit_rejected", Subject: "alder-creek", Kind: "raised",
 			W: math.NaN(), Size: math.NaN(), Message: "global test rejected for 2 epochs"},
