@@ -288,7 +288,7 @@ func TestAlertReachesWebhook(t *testing.T) {
 	}
 	var raised time.Time
 	for _, e := range evs {
-		if e.Rule == alerts.RuleChannelSilent && e.Subject == silentChannel && e.Kind == alerts.Raised {
+		if alerts.RuleName(e.Rule) == alerts.RuleChannelSilent && e.Subject == silentChannel && alerts.EventKind(e.Kind) == alerts.Raised {
 			raised = e.Time
 			break
 		}

@@ -27,7 +27,7 @@ type eventCollector struct{ events []string }
 
 func (c *eventCollector) Epoch(r *pipeline.Result) {
 	for _, e := range r.Events {
-		c.events = append(c.events, eventKey(e.Time, e.Rule, e.Subject, e.Kind))
+		c.events = append(c.events, eventKey(e.Time, string(e.Rule), e.Subject, string(e.Kind)))
 	}
 }
 
@@ -201,14 +201,14 @@ func TestReplayConfigMatchesLive(t *testing.T) {
 	// silence exceeds 3 minutes in the epoch ending 08:03.
 	var silentRaised, silentCleared bool
 	for _, e := range replayed {
-		silentRaised = silentRaised || strings.HasSuffix(e, alerts.RuleChannelSilent+" "+silentChannel+" "+alerts.Raised)
-		silentCleared = silentCleared || strings.HasSuffix(e, alerts.RuleChannelSilent+" "+silentChannel+" "+alerts.Cleared)
+		silentRaised = silentRaised || strings.HasSuffix(e, string(alerts.RuleChannelSilent)+" "+silentChannel+" "+string(alerts.Raised))
+		silentCleared = silentCleared || strings.HasSuffix(e, string(alerts.RuleChannelSilent)+" "+silentChannel+" "+string(alerts.Cleared))
 	}
 	if !silentRaised || !silentCleared {
 		t.Errorf("ChannelSilent %s raised %v, cleared %v; want both", silentChannel, silentRaised, silentCleared)
 	}
 	for _, e := range replayed {
-		if strings.Contains(e, alerts.RuleChannelSilent) && strings.HasSuffix(e, alerts.Raised) && !strings.HasPrefix(e, "2026-06-01T08:03:") && !strings.HasPrefix(e, "2026-06-01T08:04:") {
+		if strings.Contains(e, string(alerts.RuleChannelSilent)) && strings.HasSuffix(e, string(alerts.Raised)) && !strings.HasPrefix(e, "2026-06-01T08:03:") && !strings.HasPrefix(e, "2026-06-01T08:04:") {
 			t.Errorf("ChannelSilent raised at %s; want 08:03-08:04 (3 minutes after the last reading at 07:59, one epoch of 60 s)", e)
 		}
 	}

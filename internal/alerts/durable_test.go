@@ -70,7 +70,7 @@ func (s storeSink) PutEvent(ctx context.Context, e Event) error {
 	if err != nil {
 		return err
 	}
-	return s.st.PutEvent(ctx, store.Event{Structure: e.Structure, Rule: e.Rule, Subject: e.Subject, Kind: e.Kind, Time: e.Time, Evidence: ev})
+	return s.st.PutEvent(ctx, store.Event{Structure: e.Structure, Rule: string(e.Rule), Subject: e.Subject, Kind: string(e.Kind), Time: e.Time, Evidence: ev})
 }
 
 // TestEventsSurviveFullDisk: an alarm raised while the database's disk is

@@ -78,18 +78,21 @@ type Channel struct {
 	WatchedSince time.Time
 }
 
+// EventKind says whether an event raised or cleared its alarm.
+type EventKind string
+
 // Event kinds.
 const (
-	Raised  = "raised"
-	Cleared = "cleared"
+	Raised  EventKind = "raised"
+	Cleared EventKind = "cleared"
 )
 
 // Event is an alarm being raised or cleared.
 type Event struct {
 	Structure string
-	Rule      string
+	Rule      RuleName
 	Subject   string // member or channel; "" for the whole structure
-	Kind      string // Raised or Cleared
+	Kind      EventKind
 	Time      time.Time
 	Evidence  Evidence
 }
@@ -117,11 +120,18 @@ type EventSink interface {
 	PutEvent(ctx context.Context, e Event) error
 }
 
+// alarmKey identifies an alarm of a structure: its rule and subject.
+type alarmKey struct {
+	rule    RuleName
+	subject string
+}
+
 // Alarm is a firing alarm.
 type Alarm struct {
-	Rule, Subject string
-	Since         time.Time // when its raise condition first held
-	FiredAt       time.Time
+	Rule    RuleName
+	Subject string
+	Since   time.Time // when its raise condition first held
+	FiredAt time.Time
 }
 
 // Evaluator evaluates rules over observations. It is safe for concurrent
@@ -165,8 +175,8 @@ type structState struct {
 	commitFail  []sample
 	broker      *bool
 	causes      []reconcile.RankedCause
-	alarms      map[[2]string]*alarmState // rule name, subject
-	firingCount map[string]int
+	alarms      map[alarmKey]*alarmState
+	firingCount map[RuleName]int
 	keep        time.Duration // counter history kept: longest window + Lookback
 	// Per-epoch statistics of the mean rules: w of each member in the
 	// epochs where it was measured and checkable, the fit score of each
@@ -182,7 +192,7 @@ type structState struct {
 // NewEvaluator checks the rules and returns an evaluator that stores its
 // events in sink (nil: events are only returned).
 func NewEvaluator(rules []Rule, sink EventSink) (*Evaluator, error) {
-	seen := map[string]bool{}
+	seen := map[RuleName]bool{}
 	for _, r := range rules {
 		if err := r.Validate(); err != nil {
 			return nil, err
@@ -221,7 +231,7 @@ func (e *Evaluator) Observe(ctx context.Context, o Observation) ([]Event, error)
 	s := e.st[o.Structure]
 	if s == nil {
 		s = &structState{members: map[string]Member{}, util: map[string]float64{}, channels: map[string]time.Time{}, watched: map[string]time.Time{},
-			alarms: map[[2]string]*alarmState{}, firingCount: map[string]int{}, keep: e.keep,
+			alarms: map[alarmKey]*alarmState{}, firingCount: map[RuleName]int{}, keep: e.keep,
 			wHist: map[string][]sample{}, wSeen: map[string]time.Time{}, meanKeep: e.meanKeep, rules: e.rules}
 		e.st[o.Structure] = s
 	}
@@ -299,7 +309,7 @@ func (e *Evaluator) Active(structure string) []Alarm {
 	var out []Alarm
 	for k, a := range s.alarms {
 		if a.firing {
-			out = append(out, Alarm{Rule: k[0], Subject: k[1], Since: a.activeAt, FiredAt: a.fired})
+			out = append(out, Alarm{Rule: k.rule, Subject: k.subject, Since: a.activeAt, FiredAt: a.fired})
 		}
 	}
 	sort.Slice(out, func(i, j int) bool {
@@ -313,7 +323,7 @@ func (e *Evaluator) Active(structure string) []Alarm {
 
 // FiringCount returns how many alarms of rule are firing for structure
 // (the value of shm_alarms_firing).
-func (e *Evaluator) FiringCount(structure, rule string) int {
+func (e *Evaluator) FiringCount(structure string, rule RuleName) int {
 	e.mu.Lock()
 	defer e.mu.Unlock()
 	if s := e.st[structure]; s != nil {
@@ -517,8 +527,8 @@ func (s *structState) instances(r Rule, t time.Time) []instance {
 		have[in.subject] = true
 	}
 	for k := range s.alarms {
-		if k[0] == r.Name && !have[k[1]] {
-			out = append(out, instance{subject: k[1]})
+		if k.rule == r.Name && !have[k.subject] {
+			out = append(out, instance{subject: k.subject})
 		}
 	}
 	sort.Slice(out, func(i, j int) bool { return out[i].subject < out[j].subject })
@@ -538,7 +548,7 @@ func (s *structState) evaluate(r Rule, o Observation, events []Event) []Event {
 	}
 	t := o.Time
 	for _, in := range s.instances(r, t) {
-		key := [2]string{r.Name, in.subject}
+		key := alarmKey{r.Name, in.subject}
 		a := s.alarms[key]
 		raise := in.ok && r.raised(in.value)
 		hold := in.ok && r.held(in.value)
@@ -585,7 +595,7 @@ func (s *structState) suppressed(r Rule, subject string) bool {
 		return false
 	}
 	if by.Signal.Scope() == r.Signal.Scope() {
-		a := s.alarms[[2]string{by.Name, subject}]
+		a := s.alarms[alarmKey{by.Name, subject}]
 		return a != nil && a.firing
 	}
 	return s.firingCount[by.Name] > 0
@@ -602,7 +612,7 @@ func (s *structState) suppressed(r Rule, subject string) bool {
 func (s *structState) evaluateMean(r Rule, o Observation, events []Event) []Event {
 	t := o.Time
 	for _, in := range s.instances(r, t) {
-		key := [2]string{r.Name, in.subject}
+		key := alarmKey{r.Name, in.subject}
 		a := s.alarms[key]
 		raise := in.ok && in.value > MeanThreshold(r.Raise, r.ZRaise, in.n)
 		if a == nil {
@@ -634,7 +644,7 @@ func (s *structState) evaluateMean(r Rule, o Observation, events []Event) []Even
 	return events
 }
 
-func (s *structState) event(r Rule, o Observation, in instance, kind string, a *alarmState) Event {
+func (s *structState) event(r Rule, o Observation, in instance, kind EventKind, a *alarmState) Event {
 	ev := Event{Structure: o.Structure, Rule: r.Name, Subject: in.subject, Kind: kind, Time: o.Time}
 	ev.Evidence = Evidence{Signal: r.Signal.String(), ActiveSince: a.activeAt, Threshold: r.Raise}
 	if kind == Cleared {

@@ -89,8 +89,8 @@ func TestMemberAlarmEvidenceAndHold(t *testing.T) {
 		}
 		var kinds []string
 		for _, e := range events {
-			if e.Rule == "MemberDiverging" {
-				kinds = append(kinds, e.Kind)
+			if e.Rule == RuleMemberDiverging {
+				kinds = append(kinds, string(e.Kind))
 			}
 		}
 		if strings.Join(kinds, ",") != s.want {

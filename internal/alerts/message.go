@@ -41,3 +41,14 @@ func Message(e Event) string {
 	}
 	return fmt.Sprintf("%s = %.4g (threshold %.4g)%s", ev.Signal, ev.Value, ev.Threshold, since)
 }
+
+// MemberFigures returns the w and the estimated gauge bias (newtons) an
+// event of a member's |w| (signal abs_w) carries; ok is false for the
+// events of the other signals, which carry neither. The dashboard, the API
+// and the replay report show an event's w and size from it.
+func (e Event) MemberFigures() (w, bias float64, ok bool) {
+	if e.Evidence.Signal != SignalAbsW.String() {
+		return 0, 0, false
+	}
+	return e.Evidence.W, e.Evidence.Bias, true
+}

@@ -16,6 +16,7 @@ package dashboard
 import (
 	"errors"
 	"time"
+	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/reconcile"
 )
 
@@ -226,12 +227,12 @@ type Event struct {
 	// Time the event happened.
 	Time time.Time
 	// Rule is the alarm rule's name.
-	Rule string
+	Rule alerts.RuleName
 	// Subject is what the rule is about: a member, gauge, channel or the
 	// structure.
 	Subject string
-	// Kind is "raised" or "cleared".
-	Kind string
+	// Kind says whether the event raised or cleared its alarm.
+	Kind alerts.EventKind
 	// W is the normalised residual that raised it (0 when not applicable).
 	W float64
 	// Size is the estimated size of the deviation in SizeUnit.

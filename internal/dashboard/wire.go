@@ -250,7 +250,7 @@ func toSeriesPointJSON(p SeriesPoint, k float64) seriesPointJSON {
 
 func toEventJSON(e Event) eventJSON {
 	out := eventJSON{
-		Time: timeText(e.Time), Rule: e.Rule, Subject: e.Subject, Kind: e.Kind,
+		Time: timeText(e.Time), Rule: string(e.Rule), Subject: e.Subject, Kind: string(e.Kind),
 		W: n(e.W), Size: n(e.Size), SizeUnit: e.SizeUnit, Message: e.Message,
 		Causes: make([]causeJSON, 0, len(e.Causes)),
 	}

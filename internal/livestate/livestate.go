@@ -169,16 +169,11 @@ func seriesPoint(t time.Time, m reconcile.MemberResult, alarm bool) dashboard.Se
 }
 
 func dashboardEvent(ev alerts.Event) dashboard.Event {
-	d := dashboard.Event{Time: ev.Time, Rule: ev.Rule, Subject: ev.Subject, Kind: ev.Kind, W: ev.Evidence.W, Size: ev.Evidence.Bias}
+	d := dashboard.Event{Time: ev.Time, Rule: ev.Rule, Subject: ev.Subject, Kind: ev.Kind, W: nan(), Size: nan()}
 	// Only a member's event has a w and an estimated gauge bias; the others
 	// show none (NaN is written as null).
-	if ev.Evidence.W == 0 {
-		d.W = nan()
-	}
-	if ev.Evidence.Bias != 0 {
-		d.SizeUnit = "N"
-	} else {
-		d.Size = nan()
+	if w, bias, ok := ev.MemberFigures(); ok {
+		d.W, d.Size, d.SizeUnit = w, bias, "N"
 	}
 	d.Message = alerts.Message(ev)
 	d.Causes = ev.Evidence.Causes
@@ -284,7 +279,7 @@ func (l *Live) Events(name string, from, to time.Time) ([]dashboard.Event, error
 			if err := json.Unmarshal(se.Evidence, &ev); err != nil {
 				return nil, fmt.Errorf("structure %q: event %s/%s at %s: evidence: %w", name, se.Rule, se.Subject, se.Time, err)
 			}
-			out = append(out, dashboardEvent(alerts.Event{Structure: se.Structure, Rule: se.Rule, Subject: se.Subject, Kind: se.Kind, Time: se.Time, Evidence: ev}))
+			out = append(out, dashboardEvent(alerts.Event{Structure: se.Structure, Rule: alerts.RuleName(se.Rule), Subject: se.Subject, Kind: alerts.EventKind(se.Kind), Time: se.Time, Evidence: ev}))
 		}
 		return out, nil
 	}

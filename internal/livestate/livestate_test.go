@@ -56,16 +56,16 @@ func TestLiveState(t *testing.T) {
 	for i := 0; i < 5; i++ {
 		var active []alerts.Alarm
 		if i == 4 {
-			active = []alerts.Alarm{{Rule: "MemberDiverging", Subject: "B2"}}
+			active = []alerts.Alarm{{Rule: alerts.RuleMemberDiverging, Subject: "B2"}}
 		}
 		r := result(p, t0.Add(time.Duration(i)*time.Second), float64(i), active)
 		if i == 4 {
-			r.Events = []alerts.Event{{Structure: "alder-creek", Rule: "MemberDiverging", Subject: "B2", Kind: "raised", Time: r.Time, Evidence: alerts.Evidence{W: 4, Causes: []reconcile.RankedCause{{Label: "gauge B2", Subject: "B2", Kind: reconcile.GaugeFault, T: 16, Size: 200, Unit: "N"}}}}}
+			r.Events = []alerts.Event{{Structure: "alder-creek", Rule: alerts.RuleMemberDiverging, Subject: "B2", Kind: alerts.Raised, Time: r.Time, Evidence: alerts.Evidence{W: 4, Causes: []reconcile.RankedCause{{Label: "gauge B2", Subject: "B2", Kind: reconcile.GaugeFault, T: 16, Size: 200, Unit: "N"}}}}}
 		}
 		sink.Epoch(r)
 	}
 	// A skipped epoch keeps the last fitted state.
-	sink.Epoch(&pipeline.Result{EpochResult: &reconcile.EpochResult{Structure: "alder-creek", Time: t0.Add(5 * time.Second), Outcome: reconcile.OutcomeSkipped}, Active: []alerts.Alarm{{Rule: "MemberDiverging", Subject: "B2"}}})
+	sink.Epoch(&pipeline.Result{EpochResult: &reconcile.EpochResult{Structure: "alder-creek", Time: t0.Add(5 * time.Second), Outcome: reconcile.OutcomeSkipped}, Active: []alerts.Alarm{{Rule: alerts.RuleMemberDiverging, Subject: "B2"}}})
 	s, err := l.State("alder-creek")
 	if err != nil {
 		t.Fatal(err)

@@ -135,9 +135,8 @@ func (c *collector) reportEvents() []report.Event {
 func (c *collector) event(e alerts.Event) report.Event {
 	ev := e.Evidence
 	out := report.Event{Time: e.Time, Rule: e.Rule, Subject: e.Subject, Kind: e.Kind, W: math.NaN(), Size: math.NaN()}
-	if ev.Signal == "abs_w" {
-		out.W = ev.W
-		out.Size, out.SizeUnit = ev.Bias, "N"
+	if w, bias, ok := e.MemberFigures(); ok {
+		out.W, out.Size, out.SizeUnit = w, bias, "N"
 	}
 	out.Message = alerts.Message(e)
 	out.Causes = ev.Causes

@@ -96,7 +96,7 @@ type Summary struct {
 	ByOutcome map[string]int64
 	// Raised counts raised alarm events by rule; Events is the number of
 	// events (raised and cleared).
-	Raised map[string]int
+	Raised map[alerts.RuleName]int
 	Events int
 	// Report is the report (also when OutDir is empty) without its
 	// epochs: they were streamed to epochs.csv as they came and are not
@@ -176,7 +176,7 @@ func Run(ctx context.Context, opt Options) (*Summary, error) {
 	sum := &Summary{
 		Structure: mdl.name, ModelVersion: mdl.hash, ModelSource: mdl.source,
 		From: opt.From.UTC(), To: opt.To.UTC(), Warnings: mdl.warnings,
-		Raised: map[string]int{},
+		Raised: map[alerts.RuleName]int{},
 	}
 	sm, err := sensors.Parse(opt.SensorsFile, sensorData, mdl.st)
 	if err != nil {

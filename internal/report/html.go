@@ -9,6 +9,7 @@ import (
 	"strconv"
 	"strings"
 	"time"
+	"trussmonitor/internal/alerts"
 )
 
 // esc escapes text for HTML and XML alike (numeric entities only).
@@ -105,7 +106,7 @@ func writeSummary(sb *strings.Builder, r *Report, sum *epochSummary) {
 	rejected := sum.rejected
 	raised := 0
 	for _, e := range r.Events {
-		if e.Kind == "raised" {
+		if e.Kind == alerts.Raised {
 			raised++
 		}
 	}
@@ -139,18 +140,18 @@ func alarmRows(r *Report, tr timeRange) (keys []string, rows map[string][]interv
 	rows = map[string][]interval{}
 	open := map[string]int64{}
 	for _, e := range evs {
-		k := e.Rule + ": " + e.Subject
+		k := string(e.Rule) + ": " + e.Subject
 		if _, ok := rows[k]; !ok {
 			rows[k] = nil
 			keys = append(keys, k)
 		}
 		t := e.Time.UnixNano()
 		switch e.Kind {
-		case "raised":
+		case alerts.Raised:
 			if _, ok := open[k]; !ok {
 				open[k] = t
 			}
-		case "cleared":
+		case alerts.Cleared:
 			if from, ok := open[k]; ok {
 				rows[k] = append(rows[k], interval{from, t})
 				delete(open, k)
@@ -218,7 +219,7 @@ func writeEventTable(sb *strings.Builder, r *Report) {
 	}
 	for _, e := range r.Events {
 		fmt.Fprintf(sb, "<tr class=\"%s\" data-subject=\"%s\"><td>%s</td><td>%s</td><td>%s</td><td>%s</td><td class=\"num\">%s</td><td class=\"num\">%s</td><td>",
-			esc(idPart(e.Kind)), esc(e.Subject), esc(timeText(e.Time)), esc(e.Kind), esc(e.Rule), esc(e.Subject), num(e.W, 2), esc(sizeText(e.Size, e.SizeUnit)))
+			esc(idPart(string(e.Kind))), esc(e.Subject), esc(timeText(e.Time)), esc(string(e.Kind)), esc(string(e.Rule)), esc(e.Subject), num(e.W, 2), esc(sizeText(e.Size, e.SizeUnit)))
 		if e.Message != "" {
 			fmt.Fprintf(sb, "%s", esc(e.Message))
 		}

@@ -20,6 +20,7 @@ import (
 	"os"
 	"path/filepath"
 	"time"
+	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/reconcile"
 )
 
@@ -123,9 +124,10 @@ type Event struct {
 	Time time.Time
 	// Rule is the alarm rule's name; Subject the member, gauge, channel or
 	// structure it concerns.
-	Rule, Subject string
-	// Kind is "raised" or "cleared".
-	Kind string
+	Rule    alerts.RuleName
+	Subject string
+	// Kind says whether the event raised or cleared its alarm.
+	Kind alerts.EventKind
 	// W is the normalised residual that raised the event (NaN when none).
 	W float64
 	// Size is the estimated size of the deviation in SizeUnit.

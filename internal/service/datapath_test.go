@@ -16,6 +16,7 @@ import (
 
 	mqtt "github.com/eclipse/paho.mqtt.golang"
 
+	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/broker"
 	"trussmonitor/internal/config"
 	"trussmonitor/internal/pipeline"
@@ -125,7 +126,7 @@ func TestSilenceSurvivesRestart(t *testing.T) {
 		}
 		out := map[string]bool{}
 		for _, e := range evs {
-			if e.Rule == "ChannelSilent" && e.Kind == store.Raised {
+			if alerts.RuleName(e.Rule) == alerts.RuleChannelSilent && alerts.EventKind(e.Kind) == alerts.Raised {
 				out[e.Subject] = true
 			}
 		}

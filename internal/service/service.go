@@ -223,7 +223,7 @@ func (s *Service) addStructure(mon *Monitored) error {
 	if err != nil {
 		return fmt.Errorf("structure %q: %w", name, err)
 	}
-	p.AddSink(&metricsSink{m: s.met, sm: s.met.Structure(name, proc.Gauged(), proc.Unknown()), name: name, rules: s.rules, last: map[string]int{},
+	p.AddSink(&metricsSink{m: s.met, sm: s.met.Structure(name, proc.Gauged(), proc.Unknown()), name: name, rules: s.rules, last: map[alerts.RuleName]int{},
 		state: s.met.MemberState(name, proc.Members()), loads: loads})
 	p.AddSink(s.results)
 	s.pipes[name] = p
@@ -570,5 +570,5 @@ func (e eventSink) PutEvent(ctx context.Context, ev alerts.Event) error {
 	if err != nil {
 		return err
 	}
-	return e.st.PutEvent(ctx, store.Event{Structure: ev.Structure, Rule: ev.Rule, Subject: ev.Subject, Kind: ev.Kind, Time: ev.Time, Evidence: evidence})
+	return e.st.PutEvent(ctx, store.Event{Structure: ev.Structure, Rule: string(ev.Rule), Subject: ev.Subject, Kind: string(ev.Kind), Time: ev.Time, Evidence: evidence})
 }
