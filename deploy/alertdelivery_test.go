@@ -267,7 +267,7 @@ func TestAlertReachesWebhook(t *testing.T) {
 		}
 		mu.Lock()
 		for _, d := range got {
-			if d.alert.Status == "firing" && d.alert.Labels["alertname"] == alerts.RuleChannelSilent && d.alert.Labels["channel"] == silentChannel {
+			if d.alert.Status == "firing" && d.alert.Labels["alertname"] == string(alerts.RuleChannelSilent) && d.alert.Labels["channel"] == silentChannel {
 				a := d.alert
 				firing, firingPath = &a, d.path
 			}

@@ -107,13 +107,13 @@ type RuleName string
 // never by a string literal.
 const (
 	RuleMemberDiverging RuleName = "MemberDiverging"
-	RuleFitRejected              = "FitRejected"
-	RuleChannelSilent            = "ChannelSilent"
-	RuleClockSkew                = "ClockSkew"
-	RuleIngestRejects            = "IngestRejects"
-	RuleCommitsFailing           = "CommitsFailing"
-	RuleMemberShifted            = "MemberShifted"
-	RuleBrokerDown               = "BrokerDisconnected"
+	RuleFitRejected     RuleName = "FitRejected"
+	RuleChannelSilent   RuleName = "ChannelSilent"
+	RuleClockSkew       RuleName = "ClockSkew"
+	RuleIngestRejects   RuleName = "IngestRejects"
+	RuleCommitsFailing  RuleName = "CommitsFailing"
+	RuleMemberShifted   RuleName = "MemberShifted"
+	RuleBrokerDown      RuleName = "BrokerDisconnected"
 )
 
 // counting reports whether the signal is a counter's increase in a window.
