@@ -20,6 +20,7 @@ import (
 	"trussmonitor/internal/report"
 	"trussmonitor/internal/service"
 	"trussmonitor/internal/settings"
+	"trussmonitor/internal/store"
 )
 
 // eventCollector is a pipeline sink that keeps the alarm events.
@@ -136,7 +137,7 @@ func TestReplayConfigMatchesLive(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	var scan []pipeline.Reading
+	var scan []store.Reading
 	ctx := context.Background()
 	feed := func() {
 		if len(scan) == 0 {
@@ -151,7 +152,7 @@ func TestReplayConfigMatchesLive(t *testing.T) {
 		if len(scan) > 0 && !r.Time.Equal(scan[0].Time) {
 			feed()
 		}
-		scan = append(scan, pipeline.Reading{Channel: r.Channel, Time: r.Time, Value: r.Value})
+		scan = append(scan, store.Reading{Channel: r.Channel, Time: r.Time, Value: r.Value})
 		return nil
 	}); err != nil {
 		t.Fatal(err)

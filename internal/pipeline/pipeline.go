@@ -23,14 +23,8 @@ import (
 	"trussmonitor/internal/model"
 	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/sensors"
+	"trussmonitor/internal/store"
 )
-
-// Reading is one raw reading as the logger sent it (and as it is stored).
-type Reading struct {
-	Channel string
-	Time    time.Time
-	Value   float64
-}
 
 // Result is one epoch's reconciliation with what the pipeline added to it:
 // the alarm events the epoch raised or cleared, the alarms firing after it,
@@ -189,9 +183,9 @@ func (p *Pipeline) AddSink(s Sink) {
 	p.mu.Unlock()
 }
 
-// Feed calibrates raw readings, assembles them and processes every epoch
-// they close.
-func (p *Pipeline) Feed(ctx context.Context, rs []Reading) {
+// Feed calibrates raw readings (as the logger sent them and the store
+// keeps them), assembles them and processes every epoch they close.
+func (p *Pipeline) Feed(ctx context.Context, rs []store.Reading) {
 	p.mu.Lock()
 	defer p.mu.Unlock()
 	if p.cfg.Clock != nil && len(rs) > 0 {
@@ -208,7 +202,7 @@ func (p *Pipeline) Feed(ctx context.Context, rs []Reading) {
 		if r.Time.After(p.lastSeen[r.Channel]) {
 			p.lastSeen[r.Channel] = r.Time
 		}
-		for _, e := range p.asm.Add(epoch.Reading{Channel: r.Channel, Time: r.Time, Value: v}) {
+		for _, e := range p.asm.Add(epoch.Sample{Channel: r.Channel, Time: r.Time, Value: v}) {
 			p.process(ctx, e)
 		}
 	}

@@ -312,10 +312,10 @@ func feed(ctx context.Context, db *store.Store, pl *pipeline.Pipeline, structure
 	rctx, cancel := context.WithCancel(ctx)
 	defer cancel()
 	const buffers = 6
-	batches := make(chan []pipeline.Reading, buffers-2)
-	free := make(chan []pipeline.Reading, buffers)
+	batches := make(chan []store.Reading, buffers-2)
+	free := make(chan []store.Reading, buffers)
 	for range buffers {
-		free <- make([]pipeline.Reading, 0, opt.Batch)
+		free <- make([]store.Reading, 0, opt.Batch)
 	}
 	readErr := make(chan error, 1)
 	go func() {
@@ -336,7 +336,7 @@ func feed(ctx context.Context, db *store.Store, pl *pipeline.Pipeline, structure
 			return nil
 		}
 		err := db.ReadReadings(rctx, structure, opt.From, opt.To, func(r store.Reading) error {
-			buf = append(buf, pipeline.Reading(r))
+			buf = append(buf, r)
 			if len(buf) < opt.Batch {
 				return nil
 			}

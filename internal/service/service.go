@@ -372,11 +372,7 @@ func (s *Service) committed(structure string, rs []store.Reading) {
 		return
 	}
 	s.connected.Store(true)
-	in := make([]pipeline.Reading, len(rs))
-	for i, r := range rs {
-		in[i] = pipeline.Reading{Channel: r.Channel, Time: r.Time, Value: r.Value}
-	}
-	p.Feed(context.Background(), in)
+	p.Feed(context.Background(), rs)
 }
 
 // ready is the readiness of the present moment: ingest connected to the
