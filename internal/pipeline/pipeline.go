@@ -167,9 +167,6 @@ func New(m *model.Model, sm *sensors.Map, cfg Config, sinks ...Sink) (*Pipeline,
 	}, nil
 }
 
-// Structure returns the structure's name.
-func (p *Pipeline) Structure() string { return p.structure }
-
 // Sensors returns the sensor map.
 func (p *Pipeline) Sensors() *sensors.Map { return p.sm }
 
@@ -289,9 +286,6 @@ func (p *Pipeline) Stats() Stats {
 	s.Assembler = p.asm.Stats()
 	return s
 }
-
-// ActiveAlarms returns the firing alarms.
-func (p *Pipeline) ActiveAlarms() []alerts.Alarm { return p.eval.Active(p.structure) }
 
 // process reconciles one epoch, evaluates the alarms and hands the result
 // to the sinks. The epoch's time is its end: the instant by which all its
