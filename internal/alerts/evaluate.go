@@ -679,13 +679,7 @@ func (s *structState) event(r Rule, o Observation, in instance, kind EventKind, 
 	default:
 		causes = nil
 	}
-	// The top three causes, and the whole first group when it is larger
-	// (its causes cannot be told apart, so none of them may be cut).
-	n := min(len(causes), 3)
-	for n < len(causes) && causes[n].Group == 1 {
-		n++
-	}
-	ev.Evidence.Causes = append([]reconcile.RankedCause(nil), causes[:n]...)
+	ev.Evidence.Causes = append([]reconcile.RankedCause(nil), ShownCauses(causes)...)
 	return ev
 }
 

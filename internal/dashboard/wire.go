@@ -3,6 +3,7 @@ package dashboard
 import (
 	"math"
 	"time"
+	"trussmonitor/internal/alerts"
 )
 
 // The JSON wire format of the API. Non-finite numbers (NaN, +-Inf) are
@@ -164,6 +165,8 @@ type eventJSON struct {
 }
 
 type causeJSON struct {
+	// Text is the cause's wording (alerts.CauseText).
+	Text        string `json:"text"`
 	Kind        string `json:"kind"`
 	Subject     string `json:"subject"`
 	T           num    `json:"t"`
@@ -254,8 +257,8 @@ func toEventJSON(e Event) eventJSON {
 		W: n(e.W), Size: n(e.Size), SizeUnit: e.SizeUnit, Message: e.Message,
 		Causes: make([]causeJSON, 0, len(e.Causes)),
 	}
-	for _, c := range e.Causes {
-		out.Causes = append(out.Causes, causeJSON{Kind: c.Kind.String(), Subject: c.Subject, T: n(c.T), Size: n(c.Size), Unit: c.Unit,
+	for _, c := range alerts.ShownCauses(e.Causes) {
+		out.Causes = append(out.Causes, causeJSON{Text: alerts.CauseText(c), Kind: c.Kind.String(), Subject: c.Subject, T: n(c.T), Size: n(c.Size), Unit: c.Unit,
 			Std: n(c.Std), Group: c.Group, Implausible: c.Implausible})
 	}
 	return out

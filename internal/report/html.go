@@ -225,21 +225,8 @@ func writeEventTable(sb *strings.Builder, r *Report) {
 		}
 		if len(e.Causes) > 0 {
 			sb.WriteString("<ol>")
-			for i, c := range e.Causes {
-				if i == maxCauses {
-					break
-				}
-				grp, size := "", sizeText(c.Size, c.Unit)
-				if c.Group > 0 {
-					grp = fmt.Sprintf("[group %d] ", c.Group)
-				}
-				if c.Std > 0 && !math.IsInf(c.Std, 0) {
-					size += " ± " + sizeText(c.Std, c.Unit)
-				}
-				if c.Implausible {
-					size += " (implausible size)"
-				}
-				fmt.Fprintf(sb, "<li>%s%s %s: T = %s, size %s</li>", esc(grp), esc(strings.ReplaceAll(c.Kind.String(), "_", " ")), esc(c.Subject), num(c.T, 1), esc(size))
+			for _, c := range alerts.ShownCauses(e.Causes) {
+				fmt.Fprintf(sb, "<li>%s</li>", esc(alerts.CauseText(c)))
 			}
 			sb.WriteString("</ol>")
 		}

@@ -635,14 +635,10 @@ function drawEvents(evs) {
     if (e.message) html('div', e.message, td);
     if (e.causes.length) {
       const ol = html('ol', null, td);
-      for (const c of e.causes.filter((c, i) => i < 3 || c.group === 1)) {
-        // Causes of one group cannot be told apart by the gauges: shown
-        // with their group number, in no order of likelihood.
-        const grp = c.group ? `[group ${c.group}] ` : '';
-        const std = c.std ? ` ± ${fmtSize(c.std, c.unit)}` : '';
-        const odd = c.implausible ? ' (implausible size)' : '';
-        html('li', `${grp}${c.kind.replace(/_/g, ' ')} ${c.subject}: T = ${fmtNum(c.t, 1)}, size ${fmtSize(c.size, c.unit)}${std}${odd}`, ol);
-      }
+      // The service sends the top three causes, or the whole first group
+      // (its causes cannot be told apart by the gauges: shown with their
+      // group number, in no order of likelihood), each with its wording.
+      for (const c of e.causes) html('li', c.text, ol);
     }
   }
 }
