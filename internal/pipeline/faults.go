@@ -50,7 +50,6 @@ func (p *Pipeline) reviseAlarms(ctx context.Context, res *Result) error {
 	return first
 }
 
-
 // alertLoadShifts converts load shifts to alarm evidence.
 func alertLoadShifts(ls []reconcile.LoadShift) []alerts.LoadShift {
 	if len(ls) == 0 {
