@@ -8,6 +8,7 @@ import (
 	"sort"
 	"sync"
 	"time"
+	"trussmonitor/internal/reconcile"
 )
 
 // Lookback is how far back an absent counter sample is looked for, as
@@ -43,7 +44,7 @@ type Observation struct {
 	// 0 in replay).
 	ReconcileDropped uint64
 	// Causes are the epoch's top-ranked causes (most likely first).
-	Causes []Cause
+	Causes []reconcile.RankedCause
 	// Utilisation are the members' utilisations of a fitted epoch
 	// (structures with a design basis only).
 	Utilisation []Utilisation
@@ -86,8 +87,8 @@ type Member struct {
 	Member        string
 	W             float64
 	Checkable     bool
-	EstimatedBias float64 // gauge-fault estimate e_i / r_i, newtons
-	Causes        []Cause // optional: causes ranked for this member
+	EstimatedBias float64                 // gauge-fault estimate e_i / r_i, newtons
+	Causes        []reconcile.RankedCause // optional: causes ranked for this member
 	// Restart is true when the member's w comes from a changed fit from
 	// this epoch on (adaptation began, changed or ended): the mean rules
 	// forget its earlier samples, which test a model no longer in force.
@@ -104,52 +105,37 @@ type Channel struct {
 	WatchedSince time.Time
 }
 
-// Cause is evidence of one ranked cause.
-type Cause struct {
-	Label string  `json:"label"`
-	Kind  string  `json:"kind"`
-	T     float64 `json:"t"`
-	Size  float64 `json:"size"` // in Unit
-	Unit  string  `json:"unit"`
-	// Std is the standard deviation of Size and MDS the minimal detectable
-	// size, in Unit.
-	Std float64 `json:"std,omitempty"`
-	MDS float64 `json:"mds,omitempty"`
-	// Group numbers the separability group (from 1): causes of one group
-	// cannot be told apart by the gauges and carry no order.
-	Group int `json:"group,omitempty"`
-	// Implausible marks a size outside its plausible range.
-	Implausible bool `json:"implausible,omitempty"`
-}
+// EventKind says whether an event raised or cleared its alarm.
+type EventKind string
 
 // Event kinds.
 const (
-	Raised  = "raised"
-	Cleared = "cleared"
+	Raised  EventKind = "raised"
+	Cleared EventKind = "cleared"
 )
 
 // Event is an alarm being raised or cleared.
 type Event struct {
 	Structure string
-	Rule      string
+	Rule      RuleName
 	Subject   string // member or channel; "" for the whole structure
-	Kind      string // Raised or Cleared
+	Kind      EventKind
 	Time      time.Time
 	Evidence  Evidence
 }
 
 // Evidence is what was seen when the event happened.
 type Evidence struct {
-	Signal      string    `json:"signal"`
-	Value       float64   `json:"value"`     // the signal's value (0 when it has none)
-	Threshold   float64   `json:"threshold"` // Raise for raised, Clear for cleared
-	ActiveSince time.Time `json:"active_since"`
-	W           float64   `json:"w,omitempty"`
-	Bias        float64   `json:"estimated_bias_newtons,omitempty"`
-	PValue      float64   `json:"p_value,omitempty"`
-	ChiSquare   float64   `json:"chi_square,omitempty"`
-	DOF         int       `json:"dof,omitempty"`
-	Causes      []Cause   `json:"causes,omitempty"` // top three, or the whole first group
+	Signal      string                  `json:"signal"`
+	Value       float64                 `json:"value"`     // the signal's value (0 when it has none)
+	Threshold   float64                 `json:"threshold"` // Raise for raised, Clear for cleared
+	ActiveSince time.Time               `json:"active_since"`
+	W           float64                 `json:"w,omitempty"`
+	Bias        float64                 `json:"estimated_bias_newtons,omitempty"`
+	PValue      float64                 `json:"p_value,omitempty"`
+	ChiSquare   float64                 `json:"chi_square,omitempty"`
+	DOF         int                     `json:"dof,omitempty"`
+	Causes      []reconcile.RankedCause `json:"causes,omitempty"` // top three, or the whole first group
 	// Epochs is the number of epochs behind Value for a mean rule (Value
 	// is then the mean of the statistic over the for-duration, or over the
 	// hold-off for a cleared event).
@@ -175,17 +161,24 @@ type EventSink interface {
 	ReviseEvent(ctx context.Context, e Event) error
 }
 
+// alarmKey identifies an alarm of a structure: its rule and subject.
+type alarmKey struct {
+	rule    RuleName
+	subject string
+}
+
 // Alarm is a firing alarm.
 type Alarm struct {
-	Rule, Subject string
-	Since         time.Time // when its raise condition first held
-	FiredAt       time.Time
+	Rule    RuleName
+	Subject string
+	Since   time.Time // when its raise condition first held
+	FiredAt time.Time
 	// Identifies is true for the alarms of statistical rules, whose events
 	// carry identified causes (and whose causes Revise updates).
 	Identifies bool
 	// Causes are the alarm's causes: those of its raised event, or their
 	// latest revision, as of CausesAt (zero for a rule without causes).
-	Causes   []Cause
+	Causes   []reconcile.RankedCause
 	CausesAt time.Time
 	// LoadShifts are the unknown loads flagged when the alarm rose.
 	LoadShifts []LoadShift
@@ -251,9 +244,9 @@ type structState struct {
 	commitFail  []sample
 	recDrop     []sample
 	broker      *bool
-	causes      []Cause
-	alarms      map[[2]string]*alarmState // rule name, subject
-	firingCount map[string]int
+	causes      []reconcile.RankedCause
+	alarms      map[alarmKey]*alarmState
+	firingCount map[RuleName]int
 	keep        time.Duration // counter history kept: longest window + Lookback
 	// Per-epoch statistics of the mean rules: w of each member in the
 	// epochs where it was measured and checkable, the fit score of each
@@ -272,7 +265,7 @@ type structState struct {
 // NewEvaluator checks the rules and returns an evaluator that stores its
 // events in sink (nil: events are only returned).
 func NewEvaluator(rules []Rule, sink EventSink) (*Evaluator, error) {
-	seen := map[string]bool{}
+	seen := map[RuleName]bool{}
 	for _, r := range rules {
 		if err := r.Validate(); err != nil {
 			return nil, err
@@ -311,7 +304,7 @@ func (e *Evaluator) Observe(ctx context.Context, o Observation) ([]Event, error)
 	s := e.st[o.Structure]
 	if s == nil {
 		s = &structState{members: map[string]Member{}, util: map[string]float64{}, channels: map[string]time.Time{}, watched: map[string]time.Time{},
-			alarms: map[[2]string]*alarmState{}, firingCount: map[string]int{}, keep: e.keep,
+			alarms: map[alarmKey]*alarmState{}, firingCount: map[RuleName]int{}, keep: e.keep,
 			wHist: map[string][]sample{}, wSeen: map[string]time.Time{}, meanKeep: e.meanKeep, rules: e.rules}
 		e.st[o.Structure] = s
 	}
@@ -350,18 +343,18 @@ func (e *Evaluator) Observe(ctx context.Context, o Observation) ([]Event, error)
 // alarm clears. The causes are cut as an event's (the top three, and the
 // whole first group). It reports whether an alarm was revised; an error
 // is the sink's, as for Observe.
-func (e *Evaluator) Revise(ctx context.Context, structure, rule, subject string, causes []Cause, t time.Time) (bool, error) {
+func (e *Evaluator) Revise(ctx context.Context, structure string, rule RuleName, subject string, causes []reconcile.RankedCause, t time.Time) (bool, error) {
 	e.mu.Lock()
 	s := e.st[structure]
 	var a *alarmState
 	if s != nil {
-		a = s.alarms[[2]string{rule, subject}]
+		a = s.alarms[alarmKey{rule, subject}]
 	}
 	if a == nil || !a.firing || t.Before(a.fired) {
 		e.mu.Unlock()
 		return false, nil
 	}
-	a.raised.Evidence.Causes = cutCauses(causes)
+	a.raised.Evidence.Causes = append([]reconcile.RankedCause(nil), ShownCauses(causes)...)
 	a.raised.Evidence.CausesAt = t
 	a.causesAt = t
 	var pending []pendingEvent
@@ -378,20 +371,9 @@ func (e *Evaluator) Revise(ctx context.Context, structure, rule, subject string,
 
 // clone returns a copy of the event that shares no slice with it.
 func (ev Event) clone() Event {
-	ev.Evidence.Causes = append([]Cause(nil), ev.Evidence.Causes...)
+	ev.Evidence.Causes = append([]reconcile.RankedCause(nil), ev.Evidence.Causes...)
 	ev.Evidence.LoadShifts = append([]LoadShift(nil), ev.Evidence.LoadShifts...)
 	return ev
-}
-
-// cutCauses returns the top three causes, and the whole first group when
-// it is larger (its causes cannot be told apart, so none of them may be
-// cut).
-func cutCauses(causes []Cause) []Cause {
-	n := min(len(causes), 3)
-	for n < len(causes) && causes[n].Group == 1 {
-		n++
-	}
-	return append([]Cause(nil), causes[:n]...)
 }
 
 // Retry stores the events kept after a sink failure; nil when none are
@@ -459,7 +441,7 @@ func (e *Evaluator) Active(structure string) []Alarm {
 	for k, a := range s.alarms {
 		if a.firing {
 			ev := a.raised.clone()
-			out = append(out, Alarm{Rule: k[0], Subject: k[1], Since: a.activeAt, FiredAt: a.fired, Identifies: s.signal(k[0]).identifies(),
+			out = append(out, Alarm{Rule: k.rule, Subject: k.subject, Since: a.activeAt, FiredAt: a.fired, Identifies: s.signal(k.rule).identifies(),
 				Causes: ev.Evidence.Causes, CausesAt: ev.Evidence.CausesAt, LoadShifts: ev.Evidence.LoadShifts})
 		}
 	}
@@ -474,7 +456,7 @@ func (e *Evaluator) Active(structure string) []Alarm {
 
 // FiringCount returns how many alarms of rule are firing for structure
 // (the value of shm_alarms_firing).
-func (e *Evaluator) FiringCount(structure, rule string) int {
+func (e *Evaluator) FiringCount(structure string, rule RuleName) int {
 	e.mu.Lock()
 	defer e.mu.Unlock()
 	if s := e.st[structure]; s != nil {
@@ -484,7 +466,7 @@ func (e *Evaluator) FiringCount(structure, rule string) int {
 }
 
 // signal returns the signal of the rule named name (0 when none).
-func (s *structState) signal(name string) Signal {
+func (s *structState) signal(name RuleName) Signal {
 	for _, r := range s.rules {
 		if r.Name == name {
 			return r.Signal
@@ -694,8 +676,8 @@ func (s *structState) instances(r Rule, t time.Time) []instance {
 		have[in.subject] = true
 	}
 	for k := range s.alarms {
-		if k[0] == r.Name && !have[k[1]] {
-			out = append(out, instance{subject: k[1]})
+		if k.rule == r.Name && !have[k.subject] {
+			out = append(out, instance{subject: k.subject})
 		}
 	}
 	sort.Slice(out, func(i, j int) bool { return out[i].subject < out[j].subject })
@@ -715,7 +697,7 @@ func (s *structState) evaluate(r Rule, o Observation, events []Event) []Event {
 	}
 	t := o.Time
 	for _, in := range s.instances(r, t) {
-		key := [2]string{r.Name, in.subject}
+		key := alarmKey{r.Name, in.subject}
 		a := s.alarms[key]
 		raise := in.ok && r.raised(in.value)
 		hold := in.ok && r.held(in.value)
@@ -775,7 +757,7 @@ func (s *structState) suppressed(r Rule, subject string) bool {
 		return false
 	}
 	if by.Signal.Scope() == r.Signal.Scope() {
-		a := s.alarms[[2]string{by.Name, subject}]
+		a := s.alarms[alarmKey{by.Name, subject}]
 		return a != nil && a.firing
 	}
 	return s.firingCount[by.Name] > 0
@@ -792,7 +774,7 @@ func (s *structState) suppressed(r Rule, subject string) bool {
 func (s *structState) evaluateMean(r Rule, o Observation, events []Event) []Event {
 	t := o.Time
 	for _, in := range s.instances(r, t) {
-		key := [2]string{r.Name, in.subject}
+		key := alarmKey{r.Name, in.subject}
 		a := s.alarms[key]
 		raise := in.ok && in.value > MeanThreshold(r.Raise, r.ZRaise, in.n)
 		if a == nil {
@@ -826,7 +808,7 @@ func (s *structState) evaluateMean(r Rule, o Observation, events []Event) []Even
 	return events
 }
 
-func (s *structState) event(r Rule, o Observation, in instance, kind string, a *alarmState) Event {
+func (s *structState) event(r Rule, o Observation, in instance, kind EventKind, a *alarmState) Event {
 	ev := Event{Structure: o.Structure, Rule: r.Name, Subject: in.subject, Kind: kind, Time: o.Time}
 	ev.Evidence = Evidence{Signal: r.Signal.String(), ActiveSince: a.activeAt, Threshold: r.Raise}
 	if kind == Cleared {
@@ -861,7 +843,7 @@ func (s *structState) event(r Rule, o Observation, in instance, kind string, a *
 	default:
 		causes = nil
 	}
-	ev.Evidence.Causes = cutCauses(causes)
+	ev.Evidence.Causes = append([]reconcile.RankedCause(nil), ShownCauses(causes)...)
 	if kind == Raised && r.Signal.identifies() {
 		ev.Evidence.CausesAt = o.Time
 		if len(o.LoadShifts) > 0 {

@@ -31,9 +31,9 @@ import (
 	"time"
 )
 
-// Reading is one value of one channel at the logger's time. It has the same
-// fields as store.Reading, so a store.Reading converts with Reading(r).
-type Reading struct {
+// Sample is one channel's value in engineering units (after the sensor
+// map's calibration) at the logger's time.
+type Sample struct {
 	Channel string
 	Time    time.Time
 	Value   float64
@@ -212,7 +212,7 @@ func floorDiv(a, b int64) int64 {
 }
 
 // Add assembles one reading and returns the epochs it closed, oldest first.
-func (a *Assembler) Add(r Reading) []Epoch {
+func (a *Assembler) Add(r Sample) []Epoch {
 	if math.IsNaN(r.Value) || math.IsInf(r.Value, 0) {
 		a.stats.NotFinite++
 		return nil

@@ -37,7 +37,7 @@ func adaptAfter(p *reconcile.Processor, res *Result) {
 			causes = p.RecentCauses()
 		}
 		for _, c := range causes {
-			if c.Group == 1 && c.Kind != reconcile.ChannelBias.String() {
+			if c.Group == 1 && c.Kind != reconcile.ChannelBias {
 				p.Adapt(c.Label, keep)
 			}
 		}
@@ -55,7 +55,7 @@ func adaptAfter(p *reconcile.Processor, res *Result) {
 
 // adapting reports whether an alarm of the rule makes the fit carry its
 // causes: the statistical rules.
-func adapting(rule string) bool {
+func adapting(rule alerts.RuleName) bool {
 	return rule == alerts.RuleMemberDiverging || rule == alerts.RuleFitRejected || rule == alerts.RuleMemberShifted
 }
 

@@ -9,6 +9,7 @@ import (
 	"time"
 
 	"trussmonitor/internal/simulate"
+	"trussmonitor/internal/store"
 )
 
 // countSink counts the results of epochs and their missing channels.
@@ -62,9 +63,9 @@ func TestHighRateLogger(t *testing.T) {
 			}
 			fed := 0
 			if err := g.Run(func(s simulate.Step) error {
-				rs := make([]Reading, 0, len(s.Readings))
+				rs := make([]store.Reading, 0, len(s.Readings))
 				for _, r := range s.Readings {
-					rs = append(rs, Reading{Channel: r.Channel, Time: s.Time, Value: r.Value})
+					rs = append(rs, store.Reading{Channel: r.Channel, Time: s.Time, Value: r.Value})
 				}
 				fed += len(rs)
 				p.Feed(context.Background(), rs)

@@ -75,7 +75,7 @@ func idLengths(rate time.Duration) (lead, after time.Duration) {
 // idDebug logs every alarm event of every scenario.
 const idDebug = false
 
-var statisticalRules = map[string]bool{"MemberDiverging": true, "FitRejected": true, "MemberShifted": true}
+var statisticalRules = map[alerts.RuleName]bool{alerts.RuleMemberDiverging: true, alerts.RuleFitRejected: true, alerts.RuleMemberShifted: true}
 
 // runIdScenario runs one scenario.
 func runIdScenario(t *testing.T, f *scnFixture, sc idScenario) idOutcome {
@@ -166,7 +166,7 @@ func runIdScenario(t *testing.T, f *scnFixture, sc idScenario) idOutcome {
 				continue
 			}
 			out.raises++
-			if e.Rule == "MemberDiverging" || e.Rule == "MemberShifted" {
+			if e.Rule == alerts.RuleMemberDiverging || e.Rule == alerts.RuleMemberShifted {
 				// The true force change of the alarmed member.
 				// The true change of what the member's gauges read: the
 				// force, or for the member that lost stiffness its strain
@@ -182,7 +182,7 @@ func runIdScenario(t *testing.T, f *scnFixture, sc idScenario) idOutcome {
 					out.smear = append(out.smear, fmt.Sprintf("%s %s at +%s (true change %.0f N, MDB %.0f N)", e.Rule, e.Subject, s.Time.Sub(start)-lead, change, mdb[k]))
 				}
 			}
-			if !out.detected && (e.Rule == "MemberDiverging" || e.Rule == "FitRejected") {
+			if !out.detected && (e.Rule == alerts.RuleMemberDiverging || e.Rule == alerts.RuleFitRejected) {
 				out.detected = true
 				out.delay = s.Time.Sub(start) - lead
 				causes := res.Causes
