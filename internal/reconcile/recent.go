@@ -85,6 +85,7 @@ func (r *RecentRanker) Causes() []Cause {
 			count[k]++
 		}
 	}
+	onset := r.onsets(n)
 	out := make([]Cause, 0, n)
 	for k, p := range r.proto {
 		if count[k] == 0 {
@@ -93,7 +94,7 @@ func (r *RecentRanker) Causes() []Cause {
 		c := finishCause(p.Kind, p.Label, num[k], den[k], sig2[k], count[k])
 		c.info = p.info
 		c.finishSizes()
-		if sn, sd, ok := r.onsetSums(k); ok && c.Separable {
+		if sn, sd := onset.num[k], onset.den[k]; onset.at[k] > 0 && c.Separable {
 			// The size (and its spread) is estimated over the epochs since
 			// the cause's estimated onset; T and the grouping stay those
 			// of the whole span.
@@ -108,36 +109,50 @@ func (r *RecentRanker) Causes() []Cause {
 	return out
 }
 
-// onsetSums returns the sums of n_k and d_k of candidate k over the epochs
-// since its estimated onset, when that is later than the span's first
-// epoch. A cause that began within the span (a step fault seen for part of
-// the for-duration) would otherwise have its size diluted by the epochs
-// before it. The onset is the maximum-likelihood change point of a shift
-// of unknown size in the epochs' numerators: the start j maximising
-// (sum_{i>=j} n_i)^2 / (sum_{i>=j} d_i), the generalised likelihood ratio
-// of a step at j (Hinkley, "Inference about the change-point from
-// cumulative sum tests", Biometrika 58, 1971; from memory). For a cause
-// present over the whole span the first epoch wins and nothing changes.
-func (r *RecentRanker) onsetSums(k int) (num, den float64, ok bool) {
-	var sn, sd, best float64
-	bestAt := -1
-	var bn, bd float64
+// onsetSet holds, per candidate, the sums of n_k and d_k over the epochs
+// since its estimated onset and the queue index of that onset (-1 when the
+// candidate never had a positive d_k sum, 0 when the onset is the span's
+// first epoch).
+type onsetSet struct {
+	num, den, best []float64
+	at             []int
+}
+
+// onsets returns, for each of the n candidates, the sums of n_k and d_k over
+// the epochs since its estimated onset (used when that is later than the
+// span's first epoch). A cause that began within the span (a step fault seen
+// for part of the for-duration) would otherwise have its size diluted by the
+// epochs before it. The onset is the maximum-likelihood change point of a
+// shift of unknown size in the epochs' numerators: the start j maximising
+// (sum_{i>=j} n_i)^2 / (sum_{i>=j} d_i), the generalised likelihood ratio of
+// a step at j (Hinkley, "Inference about the change-point from cumulative
+// sum tests", Biometrika 58, 1971; from memory). For a cause present over
+// the whole span the first epoch wins and nothing changes.
+//
+// One pass over the held epochs, newest first, serves every candidate: a
+// candidate's sums and its ratio change only in the epochs that carry it,
+// so the ratio is compared there (after all of that epoch's terms are
+// added), in the same order and with the same operations as a separate
+// pass per candidate would.
+func (r *RecentRanker) onsets(n int) onsetSet {
+	o := onsetSet{num: make([]float64, n), den: make([]float64, n), best: make([]float64, n), at: make([]int, n)}
+	sn, sd := make([]float64, n), make([]float64, n)
+	for k := range o.at {
+		o.at[k] = -1
+	}
 	for q := len(r.queue) - 1; q >= 0; q-- {
-		e := r.queue[q]
-		for i, idx := range e.idx {
-			if idx == k {
-				sn += e.num[i]
-				sd += e.den[i]
-			}
+		e := &r.queue[q]
+		for i, k := range e.idx {
+			sn[k] += e.num[i]
+			sd[k] += e.den[i]
 		}
-		if sd > 0 {
-			if g := sn * sn / sd; bestAt < 0 || g > best {
-				best, bestAt, bn, bd = g, q, sn, sd
+		for _, k := range e.idx {
+			if sd[k] > 0 {
+				if g := sn[k] * sn[k] / sd[k]; o.at[k] < 0 || g > o.best[k] {
+					o.best[k], o.at[k], o.num[k], o.den[k] = g, q, sn[k], sd[k]
+				}
 			}
 		}
 	}
-	if bestAt <= 0 {
-		return 0, 0, false
-	}
-	return bn, bd, true
+	return o
 }
