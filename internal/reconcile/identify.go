@@ -4,8 +4,9 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"sort"
+	"slices"
 	"strings"
+	"sync"
 
 	"gonum.org/v1/gonum/stat/distuv"
 )
@@ -217,9 +218,26 @@ func (r *Result) Identify(cands []Candidate, rhoMax float64) (*Identification, e
 		norm: make([]float64, len(cands)), index: make(map[string]int, len(cands)), rhoMax: rhoMax}
 	qtc := make([]float64, pe)
 	buf := make([]float64, m*len(cands))
+	pl.projs.mu.Lock()
+	defer pl.projs.mu.Unlock()
 	for n, c := range cands {
 		if len(c.Signature) != g {
 			return nil, fmt.Errorf("reconcile: candidate %q has a signature of %d entries; want %d (one per gauged member)", c.Label, len(c.Signature), g)
+		}
+		if e := pl.projs.m[c.Label]; e != nil && sameBits(e.sig, c.Signature) {
+			// The projection of this signature under this plan was made
+			// before (and its entries checked finite); only the numerator
+			// depends on the epoch. Same operations in the same order as
+			// below.
+			num := 0.0
+			for _, i := range pl.idx {
+				num += c.Signature[i] / pl.sigma[i] * r.ew[i]
+			}
+			id.proj[n] = e.pv
+			id.norm[n] = math.Sqrt(e.den)
+			id.index[c.Label] = n
+			id.Causes[n] = finishCandidate(c, num, e.den, e.sig2, 1, r.delta0)
+			continue
 		}
 		pv := buf[n*m : (n+1)*m]
 		num, sig2 := 0.0, 0.0
@@ -253,8 +271,59 @@ func (r *Result) Identify(cands []Candidate, rhoMax float64) (*Identification, e
 		id.norm[n] = math.Sqrt(den)
 		id.index[c.Label] = n
 		id.Causes[n] = finishCandidate(c, num, den, sig2, 1, r.delta0)
+		pl.projs.keep(c.Label, c.Signature, pv, sig2, den)
 	}
 	return id, nil
+}
+
+// projections keeps, per candidate label, the whitened projected signature
+// of a plan (an availability mask) for the candidates whose signatures stay
+// the same from epoch to epoch (gauge faults, settlements, nodal loads):
+// projecting costs two products with Q (m x pe) per candidate, the
+// numerator of an epoch one pass. A label whose signature changed twice
+// (a stiffness change, whose signature follows the force state) is no
+// longer kept. Guarded by mu (a Solver is safe for concurrent use).
+type projections struct {
+	mu sync.Mutex
+	m  map[string]*projection
+}
+
+type projection struct {
+	sig       []float64 // the signature projected (a copy)
+	pv        []float64 // its whitened projection (shared, never changed)
+	sig2, den float64
+	changed   int // times the label came with another signature
+}
+
+// keep records the projection pv of signature sig (copied) under label.
+func (ps *projections) keep(label string, sig, pv []float64, sig2, den float64) {
+	if ps.m == nil {
+		ps.m = map[string]*projection{}
+	}
+	e := ps.m[label]
+	if e == nil {
+		e = &projection{}
+		ps.m[label] = e
+	} else if e.changed++; e.changed >= 2 {
+		e.sig, e.pv = nil, nil // never equal to a signature of g > 0 entries
+		return
+	}
+	e.sig = append([]float64(nil), sig...)
+	e.pv = append([]float64(nil), pv...)
+	e.sig2, e.den = sig2, den
+}
+
+// sameBits reports whether a and b hold the same numbers bit for bit.
+func sameBits(a, b []float64) bool {
+	if len(a) != len(b) || len(a) == 0 {
+		return false
+	}
+	for i, v := range a {
+		if math.Float64bits(v) != math.Float64bits(b[i]) {
+			return false
+		}
+	}
+	return true
 }
 
 // Rho returns the correlation of the w statistics of the candidates
@@ -281,13 +350,22 @@ func (id *Identification) Groups(cs []Cause) []Group {
 			order = append(order, i)
 		}
 	}
-	sort.SliceStable(order, func(a, b int) bool {
-		ca, cb := cs[order[a]], cs[order[b]]
+	slices.SortStableFunc(order, func(a, b int) int {
+		ca, cb := &cs[a], &cs[b]
 		if ca.Implausible != cb.Implausible {
-			return !ca.Implausible
+			return boolOrder(!ca.Implausible, !cb.Implausible)
 		}
-		return ca.T > cb.T
+		return boolOrder(ca.T > cb.T, cb.T > ca.T)
 	})
+	// Each cause's candidate in this epoch (-1: unknown here, or a null
+	// projected signature, so Rho is 0 with any other), looked up once.
+	cand := make([]int, len(cs))
+	for _, i := range order {
+		cand[i] = -1
+		if n, ok := id.index[cs[i].Label]; ok && id.norm[n] != 0 {
+			cand[i] = n
+		}
+	}
 	used := make([]bool, len(cs))
 	var out []Group
 	for _, li := range order {
@@ -301,21 +379,38 @@ func (id *Identification) Groups(cs []Cause) []Group {
 			if used[k] {
 				continue
 			}
-			if math.Abs(id.Rho(lead.Label, cs[k].Label)) >= id.rhoMax {
+			// |Rho(lead, cs[k])| >= rho_max, as Rho computes it.
+			i, j := cand[li], cand[k]
+			if i >= 0 && j >= 0 && math.Abs(dot(id.proj[i], id.proj[j])/(id.norm[i]*id.norm[j])) >= id.rhoMax {
 				used[k] = true
 				grp.Causes = append(grp.Causes, cs[k])
 				grp.T = math.Max(grp.T, cs[k].T)
 			}
 		}
-		sort.SliceStable(grp.Causes, func(a, b int) bool {
-			if grp.Causes[a].Kind != grp.Causes[b].Kind {
-				return grp.Causes[a].Kind < grp.Causes[b].Kind
-			}
-			return grp.Causes[a].Label < grp.Causes[b].Label
-		})
+		slices.SortStableFunc(grp.Causes, byKindAndLabel)
 		out = append(out, grp)
 	}
 	return out
+}
+
+// boolOrder turns a "less" pair (a before b, b before a) into a comparison
+// for the slices package's sorts.
+func boolOrder(aFirst, bFirst bool) int {
+	switch {
+	case aFirst:
+		return -1
+	case bFirst:
+		return 1
+	}
+	return 0
+}
+
+// byKindAndLabel orders causes by kind, then label.
+func byKindAndLabel(a, b Cause) int {
+	if a.Kind != b.Kind {
+		return boolOrder(a.Kind < b.Kind, b.Kind < a.Kind)
+	}
+	return strings.Compare(a.Label, b.Label)
 }
 
 // Untestable returns the labels of the candidates that cannot be tested in

@@ -2,6 +2,9 @@ package reconcile
 
 import (
 	"math"
+	"math/rand/v2"
+	"reflect"
+	"strconv"
 	"testing"
 	"time"
 
@@ -645,4 +648,96 @@ func TestExactSpringSizeDense(t *testing.T) {
 		t.Errorf("spring size %.9f, want %v (kappa %.6f)", got, d, sp.Kappa)
 	}
 	t.Logf("spring L8 x: u = %.3g mm, kappa = %.4f, largest change %.0f N, worst relative error %.2e", u*1e3, sp.Kappa, scale, worst)
+}
+
+// TestIdentifyProjectionReuse: a solver that reuses the projected
+// signatures of unchanged candidates (from its earlier epochs under the
+// same availability) gives bit for bit the causes, correlations and groups
+// of a fresh solver, over epochs that alternate two availability masks,
+// with one candidate whose signature changes every epoch (as a stiffness
+// change's follows the force state) and one that changes once (seeded).
+func TestIdentifyProjectionReuse(t *testing.T) {
+	rng := rand.New(rand.NewPCG(9, 9))
+	const g, p = 12, 3
+	a := mat.NewDense(g, p, nil)
+	sigma := make([]float64, g)
+	for i := range sigma {
+		sigma[i] = 0.5 + rng.Float64()
+		for j := 0; j < p; j++ {
+			a.Set(i, j, rng.NormFloat64())
+		}
+	}
+	randSig := func() []float64 {
+		s := make([]float64, g)
+		for i := range s {
+			s[i] = rng.NormFloat64()
+		}
+		return s
+	}
+	var fixed []Candidate
+	for i := 0; i < g; i++ {
+		sig := make([]float64, g)
+		sig[i] = 1
+		fixed = append(fixed, Candidate{Kind: GaugeFault, Label: "gauge " + strconv.Itoa(i), Signature: sig})
+	}
+	fixed = append(fixed, Candidate{Kind: NodalLoad, Label: "load", Signature: randSig(), Lower: -1e3, Upper: 1e3})
+	onceChanged := Candidate{Kind: NodalLoad, Label: "load once", Signature: randSig(), Lower: -1e3, Upper: 1e3}
+	long, err := NewSolver(a, sigma, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	masks := [][]bool{nil, make([]bool, g)}
+	for i := range masks[1] {
+		masks[1][i] = i != 4
+	}
+	for epoch := 0; epoch < 8; epoch++ {
+		if epoch == 5 {
+			onceChanged.Signature = randSig()
+		}
+		cands := append(append([]Candidate(nil), fixed...), onceChanged,
+			Candidate{Kind: StiffnessChange, Label: "E A of D2", Signature: randSig(), Lower: -1, Upper: 1})
+		y := randSig()
+		y[2] += 8
+		mask := masks[epoch%2]
+		fresh, err := NewSolver(a, sigma, Options{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		var ids [2]*Identification
+		for k, s := range []*Solver{long, fresh} {
+			res, err := s.Epoch(y, make([]float64, g), mask)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if ids[k], err = res.Identify(cands, 0); err != nil {
+				t.Fatal(err)
+			}
+		}
+		got, want := ids[0], ids[1]
+		if !reflect.DeepEqual(got.Causes, want.Causes) {
+			t.Fatalf("epoch %d: causes differ from a fresh solver's:\n%+v\nwant\n%+v", epoch, got.Causes, want.Causes)
+		}
+		for _, c1 := range cands {
+			for _, c2 := range cands {
+				if r1, r2 := got.Rho(c1.Label, c2.Label), want.Rho(c1.Label, c2.Label); math.Float64bits(r1) != math.Float64bits(r2) {
+					t.Fatalf("epoch %d: rho(%s, %s) %v, fresh %v", epoch, c1.Label, c2.Label, r1, r2)
+				}
+			}
+		}
+		if gg, wg := got.Groups(got.Causes), want.Groups(want.Causes); !reflect.DeepEqual(gg, wg) {
+			t.Fatalf("epoch %d: groups differ from a fresh solver's", epoch)
+		}
+	}
+	// The projections were reused: kept for an unchanged candidate, given
+	// up for the one that changes every epoch.
+	res, err := long.Epoch(make([]float64, g), make([]float64, g), nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if e := res.plan.projs.m["gauge 0"]; e == nil || e.pv == nil {
+		t.Error("gauge 0: no projection kept")
+	}
+	if e := res.plan.projs.m["E A of D2"]; e == nil || e.pv != nil {
+		t.Error("E A of D2: a projection kept for a signature that changes every epoch")
+	}
 }
