@@ -367,6 +367,7 @@ func (id *Identification) Groups(cs []Cause) []Group {
 		}
 	}
 	used := make([]bool, len(cs))
+	restBuf := make([]int, 0, len(order))
 	var out []Group
 	for _, li := range order {
 		if used[li] {
@@ -375,22 +376,58 @@ func (id *Identification) Groups(cs []Cause) []Group {
 		used[li] = true
 		lead := cs[li]
 		grp := Group{Causes: []Cause{lead}, T: lead.T, Implausible: lead.Implausible}
+		// The remaining causes with |Rho(lead, cause)| >= rho_max, Rho
+		// computed as Rho does, four products at a time.
+		i := cand[li]
+		if i < 0 {
+			out = append(out, grp)
+			continue
+		}
+		rest := restBuf[:0]
 		for _, k := range order {
-			if used[k] {
-				continue
+			if !used[k] && cand[k] >= 0 {
+				rest = append(rest, k)
 			}
-			// |Rho(lead, cs[k])| >= rho_max, as Rho computes it.
-			i, j := cand[li], cand[k]
-			if i >= 0 && j >= 0 && math.Abs(dot(id.proj[i], id.proj[j])/(id.norm[i]*id.norm[j])) >= id.rhoMax {
-				used[k] = true
-				grp.Causes = append(grp.Causes, cs[k])
-				grp.T = math.Max(grp.T, cs[k].T)
+		}
+		restBuf = rest
+		for len(rest) > 0 {
+			var p [4]float64
+			n := min(len(rest), 4)
+			switch n {
+			case 4:
+				p[0], p[1], p[2], p[3] = dot4(id.proj[i], id.proj[cand[rest[0]]], id.proj[cand[rest[1]]], id.proj[cand[rest[2]]], id.proj[cand[rest[3]]])
+			default:
+				for b := range n {
+					p[b] = dot(id.proj[i], id.proj[cand[rest[b]]])
+				}
 			}
+			for b, k := range rest[:n] {
+				if math.Abs(p[b]/(id.norm[i]*id.norm[cand[k]])) >= id.rhoMax {
+					used[k] = true
+					grp.Causes = append(grp.Causes, cs[k])
+					grp.T = math.Max(grp.T, cs[k].T)
+				}
+			}
+			rest = rest[n:]
 		}
 		slices.SortStableFunc(grp.Causes, byKindAndLabel)
 		out = append(out, grp)
 	}
 	return out
+}
+
+// dot4 returns the dot products of a with b0..b3 (each of a's length),
+// each summed in index order as dot sums (the four sums are independent,
+// so the processor overlaps them).
+func dot4(a, b0, b1, b2, b3 []float64) (s0, s1, s2, s3 float64) {
+	b0, b1, b2, b3 = b0[:len(a)], b1[:len(a)], b2[:len(a)], b3[:len(a)]
+	for i, v := range a {
+		s0 += v * b0[i]
+		s1 += v * b1[i]
+		s2 += v * b2[i]
+		s3 += v * b3[i]
+	}
+	return
 }
 
 // boolOrder turns a "less" pair (a before b, b before a) into a comparison

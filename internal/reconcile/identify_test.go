@@ -4,6 +4,7 @@ import (
 	"math"
 	"math/rand/v2"
 	"reflect"
+	"sort"
 	"strconv"
 	"testing"
 	"time"
@@ -740,4 +741,137 @@ func TestIdentifyProjectionReuse(t *testing.T) {
 	if e := res.plan.projs.m["E A of D2"]; e == nil || e.pv != nil {
 		t.Error("E A of D2: a projection kept for a signature that changes every epoch")
 	}
+}
+
+// groupsRef is Groups as first written (a Rho call per pair, reflection
+// sorts), the reference Groups must match.
+func groupsRef(id *Identification, cs []Cause) []Group {
+	order := make([]int, 0, len(cs))
+	for i, c := range cs {
+		if c.Testable {
+			order = append(order, i)
+		}
+	}
+	sort.SliceStable(order, func(a, b int) bool {
+		ca, cb := cs[order[a]], cs[order[b]]
+		if ca.Implausible != cb.Implausible {
+			return !ca.Implausible
+		}
+		return ca.T > cb.T
+	})
+	used := make([]bool, len(cs))
+	var out []Group
+	for _, li := range order {
+		if used[li] {
+			continue
+		}
+		used[li] = true
+		lead := cs[li]
+		grp := Group{Causes: []Cause{lead}, T: lead.T, Implausible: lead.Implausible}
+		for _, k := range order {
+			if used[k] {
+				continue
+			}
+			if math.Abs(id.Rho(lead.Label, cs[k].Label)) >= id.rhoMax {
+				used[k] = true
+				grp.Causes = append(grp.Causes, cs[k])
+				grp.T = math.Max(grp.T, cs[k].T)
+			}
+		}
+		sort.SliceStable(grp.Causes, func(a, b int) bool {
+			if grp.Causes[a].Kind != grp.Causes[b].Kind {
+				return grp.Causes[a].Kind < grp.Causes[b].Kind
+			}
+			return grp.Causes[a].Label < grp.Causes[b].Label
+		})
+		out = append(out, grp)
+	}
+	return out
+}
+
+// TestGroupsMatchReference: Groups gives the groups of the pairwise
+// reference (groupsRef) on seeded random designs with many near-collinear
+// candidates (so that groups of several form), null signatures, ties in T
+// and a ranking from another list of the same labels (a window's).
+func TestGroupsMatchReference(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 8))
+	multi := 0
+	for trial := 0; trial < 30; trial++ {
+		g := 6 + rng.IntN(20)
+		sigma := make([]float64, g)
+		for i := range sigma {
+			sigma[i] = 0.5 + rng.Float64()
+		}
+		s, err := NewSolver(nil, sigma, Options{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		y := make([]float64, g)
+		for i := range y {
+			y[i] = 3 * rng.NormFloat64()
+		}
+		base := make([][]float64, 4)
+		for b := range base {
+			base[b] = make([]float64, g)
+			for i := range base[b] {
+				base[b][i] = rng.NormFloat64()
+			}
+		}
+		var cands []Candidate
+		for c := 0; c < 5+rng.IntN(40); c++ {
+			sig := make([]float64, g)
+			switch rng.IntN(6) {
+			case 0: // null
+			case 1, 2, 3: // near one of the base directions
+				b := base[rng.IntN(len(base))]
+				for i := range sig {
+					sig[i] = b[i] + 0.05*rng.NormFloat64()
+				}
+			default:
+				for i := range sig {
+					sig[i] = rng.NormFloat64()
+				}
+			}
+			cands = append(cands, Candidate{Kind: Kind(rng.IntN(3)), Label: "c" + strconv.Itoa(c), Signature: sig, Lower: -100, Upper: 100})
+		}
+		res, err := s.Epoch(y, make([]float64, g), nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		id, err := res.Identify(cands, 0)
+		if err != nil {
+			t.Fatal(err)
+		}
+		lists := [][]Cause{id.Causes}
+		other := append([]Cause(nil), id.Causes...)
+		rng.Shuffle(len(other), func(i, j int) { other[i], other[j] = other[j], other[i] })
+		for i := range other {
+			if i%3 == 0 {
+				other[i].T = 7 // ties
+			}
+		}
+		lists = append(lists, other)
+		for _, cs := range lists {
+			got, want := id.Groups(cs), groupsRef(id, cs)
+			if !reflect.DeepEqual(got, want) {
+				t.Fatalf("trial %d: groups %v, reference %v", trial, labelsOf(got), labelsOf(want))
+			}
+			for _, gr := range got {
+				if len(gr.Causes) > 1 {
+					multi++
+				}
+			}
+		}
+	}
+	if multi < 20 {
+		t.Errorf("only %d groups of two or more causes compared; the test data should form more", multi)
+	}
+}
+
+func labelsOf(gs []Group) []string {
+	var out []string
+	for _, g := range gs {
+		out = append(out, g.Labels())
+	}
+	return out
 }
