@@ -690,9 +690,10 @@ func (s *Store) ReadReadings(ctx context.Context, structure string, from, to tim
 	const lowRows, highRows = 20_000, 100_000
 
 	type row struct {
-		ch  int64
-		ts  int64
-		val float64
+		ch   int64
+		ts   int64
+		val  float64
+		rank int // the channel's rank by name
 	}
 	var buf []row
 	blk := &blockReader{s: s, ids: ids, cache: map[[2]int64][]blocks.Point{}}
@@ -726,6 +727,7 @@ func (s *Store) ReadReadings(ctx context.Context, structure string, from, to tim
 				rows.Close()
 				return fmt.Errorf("store: reading %q: %w", structure, err)
 			}
+			r.rank = rank[r.ch]
 			buf = append(buf, r)
 		}
 		if err := rows.Err(); err != nil {
@@ -734,15 +736,17 @@ func (s *Store) ReadReadings(ctx context.Context, structure string, from, to tim
 		}
 		rows.Close()
 		if err := blk.points(ctx, cur, end, func(ch int64, p blocks.Point) {
-			buf = append(buf, row{ch: ch, ts: p.Time, val: p.Value})
+			buf = append(buf, row{ch: ch, ts: p.Time, val: p.Value, rank: rank[ch]})
 		}); err != nil {
 			return fmt.Errorf("store: reading %q: %w", structure, err)
 		}
-		sort.Slice(buf, func(a, b int) bool {
-			if buf[a].ts != buf[b].ts {
-				return buf[a].ts < buf[b].ts
+		// Time, then channel order (a reading's channel and time are
+		// unique, so any sort gives this one order).
+		slices.SortFunc(buf, func(a, b row) int {
+			if a.ts != b.ts {
+				return cmp.Compare(a.ts, b.ts)
 			}
-			return rank[buf[a].ch] < rank[buf[b].ch]
+			return cmp.Compare(a.rank, b.rank)
 		})
 		for _, r := range buf {
 			if err := fn(Reading{Channel: names[r.ch], Time: time.Unix(0, r.ts).UTC(), Value: r.val}); err != nil {
