@@ -24,9 +24,14 @@ type RecentRanker struct {
 }
 
 type recentEpoch struct {
-	t              time.Time
-	idx            []int
-	num, den, sig2 []float64
+	t     time.Time
+	terms []recentTerm
+}
+
+// recentTerm is one candidate's statistics in one epoch (k indexes proto).
+type recentTerm struct {
+	k              int
+	num, den, sig2 float64
 }
 
 // NewRecentRanker returns a ranker over the epochs of the last d.
@@ -40,8 +45,7 @@ func NewRecentRanker(d time.Duration) (*RecentRanker, error) {
 // Add records the causes of the epoch at t (as Identification.Causes) and
 // forgets the epochs before t - D. Epochs must come in time order.
 func (r *RecentRanker) Add(t time.Time, causes []Cause) {
-	e := recentEpoch{t: t, idx: make([]int, len(causes)), num: make([]float64, len(causes)),
-		den: make([]float64, len(causes)), sig2: make([]float64, len(causes))}
+	e := recentEpoch{t: t, terms: make([]recentTerm, len(causes))}
 	for i, c := range causes {
 		k, ok := r.index[c.Label]
 		if !ok {
@@ -49,7 +53,7 @@ func (r *RecentRanker) Add(t time.Time, causes []Cause) {
 			r.index[c.Label] = k
 			r.proto = append(r.proto, c)
 		}
-		e.idx[i], e.num[i], e.den[i], e.sig2[i] = k, c.Num, c.Den, c.sig2
+		e.terms[i] = recentTerm{k: k, num: c.Num, den: c.Den, sig2: c.sig2}
 	}
 	r.queue = append(r.queue, e)
 	from := t.Add(-r.d)
@@ -77,12 +81,12 @@ func (r *RecentRanker) Causes() []Cause {
 	n := len(r.proto)
 	num, den, sig2 := make([]float64, n), make([]float64, n), make([]float64, n)
 	count := make([]int, n)
-	for _, e := range r.queue {
-		for i, k := range e.idx {
-			num[k] += e.num[i]
-			den[k] += e.den[i]
-			sig2[k] += e.sig2[i]
-			count[k]++
+	for q := range r.queue {
+		for _, x := range r.queue[q].terms {
+			num[x.k] += x.num
+			den[x.k] += x.den
+			sig2[x.k] += x.sig2
+			count[x.k]++
 		}
 	}
 	onset := r.onsets(n)
@@ -141,13 +145,13 @@ func (r *RecentRanker) onsets(n int) onsetSet {
 		o.at[k] = -1
 	}
 	for q := len(r.queue) - 1; q >= 0; q-- {
-		e := &r.queue[q]
-		for i, k := range e.idx {
-			sn[k] += e.num[i]
-			sd[k] += e.den[i]
+		terms := r.queue[q].terms
+		for _, x := range terms {
+			sn[x.k] += x.num
+			sd[x.k] += x.den
 		}
-		for _, k := range e.idx {
-			if sd[k] > 0 {
+		for _, x := range terms {
+			if k := x.k; sd[k] > 0 {
 				if g := sn[k] * sn[k] / sd[k]; o.at[k] < 0 || g > o.best[k] {
 					o.best[k], o.at[k], o.num[k], o.den[k] = g, q, sn[k], sd[k]
 				}

@@ -60,11 +60,10 @@ func (r *RecentRanker) onsetSumsOne(k int) (num, den float64, ok bool) {
 	bestAt := -1
 	var bn, bd float64
 	for q := len(r.queue) - 1; q >= 0; q-- {
-		e := r.queue[q]
-		for i, idx := range e.idx {
-			if idx == k {
-				sn += e.num[i]
-				sd += e.den[i]
+		for _, x := range r.queue[q].terms {
+			if x.k == k {
+				sn += x.num
+				sd += x.den
 			}
 		}
 		if sd > 0 {
