@@ -217,9 +217,16 @@ func (r *Result) Identify(cands []Candidate, rhoMax float64) (*Identification, e
 	id := &Identification{Causes: make([]Cause, len(cands)), cands: cands, proj: make([][]float64, len(cands)),
 		norm: make([]float64, len(cands)), index: make(map[string]int, len(cands)), rhoMax: rhoMax}
 	qtc := make([]float64, pe)
-	buf := make([]float64, m*len(cands))
 	pl.projs.mu.Lock()
 	defer pl.projs.mu.Unlock()
+	// Room for the projections not kept from earlier epochs.
+	fresh := 0
+	for _, c := range cands {
+		if e := pl.projs.m[c.Label]; e == nil || !sameBits(e.sig, c.Signature) {
+			fresh++
+		}
+	}
+	buf := make([]float64, m*fresh)
 	for n, c := range cands {
 		if len(c.Signature) != g {
 			return nil, fmt.Errorf("reconcile: candidate %q has a signature of %d entries; want %d (one per gauged member)", c.Label, len(c.Signature), g)
@@ -239,7 +246,13 @@ func (r *Result) Identify(cands []Candidate, rhoMax float64) (*Identification, e
 			id.Causes[n] = finishCandidate(c, num, e.den, e.sig2, 1, r.delta0)
 			continue
 		}
-		pv := buf[n*m : (n+1)*m]
+		if len(buf) < m {
+			// A label listed twice with two signatures: the count
+			// above could not know.
+			buf = make([]float64, m)
+		}
+		pv := buf[:m:m]
+		buf = buf[m:]
 		num, sig2 := 0.0, 0.0
 		for k, i := range pl.idx {
 			v := c.Signature[i]
