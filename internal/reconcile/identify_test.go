@@ -875,3 +875,33 @@ func labelsOf(gs []Group) []string {
 	}
 	return out
 }
+
+// TestIdentifyLabelTwice: a label listed twice with two signatures (the
+// second one kept from an earlier epoch) is projected, not taken from the
+// kept projection of the other, and does not run out of room.
+func TestIdentifyLabelTwice(t *testing.T) {
+	sigma := []float64{1, 1, 1}
+	s, err := NewSolver(nil, sigma, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	y := []float64{5, 1, 0}
+	one := Candidate{Kind: NodalLoad, Label: "load", Signature: []float64{1, 0, 0}, Lower: -1e3, Upper: 1e3}
+	two := Candidate{Kind: NodalLoad, Label: "load", Signature: []float64{0, 1, 0}, Lower: -1e3, Upper: 1e3}
+	for _, cands := range [][]Candidate{{one}, {two, one}} {
+		res, err := s.Epoch(y, make([]float64, 3), nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		id, err := res.Identify(cands, 0)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for i, c := range cands {
+			want := dot(c.Signature, y) // unit weights, no unknowns
+			if got := id.Causes[i].Num; got != want {
+				t.Errorf("%d candidates, candidate %d: numerator %v, want %v", len(cands), i, got, want)
+			}
+		}
+	}
+}
