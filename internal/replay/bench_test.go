@@ -17,6 +17,7 @@ import (
 	"trussmonitor/internal/instrumented"
 	"trussmonitor/internal/replay"
 	"trussmonitor/internal/simulate"
+	"trussmonitor/internal/simulate/simtest"
 	"trussmonitor/internal/store"
 )
 
@@ -100,7 +101,7 @@ func generateDay(hours int, fault bool, sensorsPath string) (string, int64, erro
 		batch = batch[:0]
 		return err
 	}
-	err = g.Run(func(s simulate.Step) error {
+	err = simtest.Run(g, func(s simulate.Step) error {
 		for _, r := range s.Readings {
 			batch = append(batch, store.Reading{Channel: r.Channel, Time: s.Time, Value: r.Value})
 		}
