@@ -5,7 +5,9 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"slices"
 	"sort"
+	"strings"
 	"sync"
 	"time"
 	"trussmonitor/internal/reconcile"
@@ -251,15 +253,29 @@ type structState struct {
 	// Per-epoch statistics of the mean rules: w of each member in the
 	// epochs where it was measured and checkable, the fit score of each
 	// fitted epoch, and when each was last measured at all.
-	wHist    map[string][]sample
+	wHist    map[string]*meanSeries
 	wSeen    map[string]time.Time
-	fitHist  []sample
+	fitHist  *meanSeries
 	fitSeen  time.Time
 	meanKeep time.Duration // longest For or Hold of a mean rule
 	rules    []Rule        // the evaluator's rules (shared, read-only)
 	// revisions are the revised raised events of alarms cleared in this
 	// evaluation whose latest revision was not yet stored.
 	revisions []Event
+	// The keys of members, util, channels and watched in name order
+	// (instances lists subjects in that order), and the instances buffer.
+	memberNames, utilNames     []string
+	channelNames, watchedNames []string
+	instBuf                    []instance
+}
+
+// insertName adds name to the sorted list names unless it is there.
+func insertName(names []string, name string) []string {
+	i, found := slices.BinarySearch(names, name)
+	if found {
+		return names
+	}
+	return slices.Insert(names, i, name)
 }
 
 // NewEvaluator checks the rules and returns an evaluator that stores its
@@ -305,7 +321,7 @@ func (e *Evaluator) Observe(ctx context.Context, o Observation) ([]Event, error)
 	if s == nil {
 		s = &structState{members: map[string]Member{}, util: map[string]float64{}, channels: map[string]time.Time{}, watched: map[string]time.Time{},
 			alarms: map[alarmKey]*alarmState{}, firingCount: map[RuleName]int{}, keep: e.keep,
-			wHist: map[string][]sample{}, wSeen: map[string]time.Time{}, meanKeep: e.meanKeep, rules: e.rules}
+			wHist: map[string]*meanSeries{}, wSeen: map[string]time.Time{}, meanKeep: e.meanKeep, rules: e.rules}
 		e.st[o.Structure] = s
 	}
 	if s.seen && o.Time.Before(s.last) {
@@ -478,9 +494,15 @@ func (s *structState) signal(name RuleName) Signal {
 // update folds the observation into the held values.
 func (s *structState) update(o Observation) {
 	for _, m := range o.Members {
+		if _, ok := s.members[m.Member]; !ok {
+			s.memberNames = insertName(s.memberNames, m.Member)
+		}
 		s.members[m.Member] = m
 	}
 	for _, u := range o.Utilisation {
+		if _, ok := s.util[u.Member]; !ok {
+			s.utilNames = insertName(s.utilNames, u.Member)
+		}
 		s.util[u.Member] = u.Value
 	}
 	if o.Fit != nil {
@@ -489,10 +511,16 @@ func (s *structState) update(o Observation) {
 	}
 	for _, c := range o.Channels {
 		if !c.WatchedSince.IsZero() {
+			if _, ok := s.watched[c.Channel]; !ok {
+				s.watchedNames = insertName(s.watchedNames, c.Channel)
+			}
 			s.watched[c.Channel] = c.WatchedSince
 		}
 		if !c.LastReading.IsZero() {
 			if prev, ok := s.channels[c.Channel]; !ok || c.LastReading.After(prev) {
+				if !ok {
+					s.channelNames = insertName(s.channelNames, c.Channel)
+				}
 				s.channels[c.Channel] = c.LastReading
 			}
 		}
@@ -505,15 +533,23 @@ func (s *structState) update(o Observation) {
 		for _, m := range o.Members {
 			s.wSeen[m.Member] = o.Time
 			if m.Restart {
-				s.wHist[m.Member] = s.wHist[m.Member][:0]
+				delete(s.wHist, m.Member) // a new series from this sample on
 			}
 			if m.Checkable {
-				s.wHist[m.Member] = appendSample(s.wHist[m.Member], sample{o.Time, m.W}, oldest)
+				h := s.wHist[m.Member]
+				if h == nil {
+					h = &meanSeries{}
+					s.wHist[m.Member] = h
+				}
+				h.add(o.Time, m.W, oldest)
 			}
 		}
 		if o.Fit != nil && o.Fit.DOF > 0 {
 			s.fitSeen = o.Time
-			s.fitHist = appendSample(s.fitHist, sample{o.Time, FitScore(o.Fit.ChiSquare, o.Fit.DOF)}, oldest)
+			if s.fitHist == nil {
+				s.fitHist = &meanSeries{}
+			}
+			s.fitHist.add(o.Time, FitScore(o.Fit.ChiSquare, o.Fit.DOF), oldest)
 		}
 	}
 	keep := s.keep
@@ -527,16 +563,27 @@ func (s *structState) update(o Observation) {
 	}
 }
 
+// appendSample appends x to h (samples in time order, x not before the
+// last) and drops the samples before oldest once they are more than half of
+// those held (dropCount), so that dropping costs a constant per sample.
 func appendSample(h []sample, x sample, oldest time.Time) []sample {
 	h = append(h, x)
-	drop := 0
-	for drop < len(h)-1 && h[drop].t.Before(oldest) {
-		drop++
+	if len(h) < 3 || !h[len(h)/2].t.Before(oldest) {
+		return h
 	}
-	if drop > 0 && drop > len(h)/2 {
-		h = append(h[:0], h[drop:]...)
+	drop := min(len(h)-1, sort.Search(len(h), func(i int) bool { return !h[i].t.Before(oldest) }))
+	return append(h[:0], h[drop:]...)
+}
+
+// dropCount returns how many leading samples of times (in time order) to
+// drop: those before oldest, but never the last one, and none until they
+// are more than half of the samples. The check is on the middle sample, so
+// it costs a constant until samples are dropped.
+func dropCount(times []time.Time, oldest time.Time) int {
+	if len(times) < 3 || !times[len(times)/2].Before(oldest) {
+		return 0
 	}
-	return h
+	return min(len(times)-1, sort.Search(len(times), func(i int) bool { return !times[i].Before(oldest) }))
 }
 
 // increase returns counter(t) - counter(t - w), the old value being the
@@ -569,6 +616,10 @@ type instance struct {
 	n, nHold int
 	hold     float64
 	measured bool
+	// series is the subject's statistic (mean rules; nil without one):
+	// value, n, hold and nHold are filled from it only for an event
+	// (exactMeans), the decisions use meanAbove.
+	series *meanSeries
 }
 
 // FitScore is the Wilson-Hilferty normal score of a chi-square statistic
@@ -579,45 +630,34 @@ func FitScore(t float64, dof int) float64 {
 	return (math.Cbrt(t/nu) - (1 - v)) / math.Sqrt(v)
 }
 
-// windowMean returns the mean and count of the samples in [t - d, t]
-// (both ends included, as a Prometheus 2 range selector).
-func windowMean(h []sample, t time.Time, d time.Duration) (float64, int) {
-	from := t.Add(-d)
-	sum, n := 0.0, 0
-	for i := len(h) - 1; i >= 0 && !h[i].t.Before(from); i-- {
-		if h[i].t.After(t) {
-			continue
-		}
-		sum += h[i].v
-		n++
-	}
-	if n == 0 {
-		return 0, 0
-	}
-	return sum / float64(n), n
+// meanInstance is a mean rule's instance for one subject before its means
+// are taken: measured is whether the subject had any epoch in the last
+// Hold.
+func meanInstance(r Rule, subject string, h *meanSeries, seen time.Time, t time.Time) instance {
+	return instance{subject: subject, series: h, measured: !seen.IsZero() && !seen.Before(t.Add(-r.Hold))}
 }
 
-// meanInstance evaluates a mean rule's statistic for one subject.
-func meanInstance(r Rule, subject string, h []sample, seen time.Time, t time.Time) instance {
-	in := instance{subject: subject}
-	m, n := windowMean(h, t, r.For)
-	mh, nh := windowMean(h, t, r.Hold)
+// exactMeans fills a mean rule's instance with the means over For and
+// Hold, summed afresh (an event's evidence).
+func (in *instance) exactMeans(r Rule, t time.Time) {
+	m, n := in.series.mean(t, r.For)
+	mh, nh := in.series.mean(t, r.Hold)
 	if r.Signal == SignalAbsW {
 		m, mh = math.Abs(m), math.Abs(mh)
 	}
 	in.value, in.n, in.ok = m, n, n > 0
 	in.hold, in.nHold = mh, nh
-	in.measured = !seen.IsZero() && !seen.Before(t.Add(-r.Hold))
-	return in
 }
 
 // instances lists the rule's subjects with their values: every subject
 // seen so far, plus those with an alarm state.
 func (s *structState) instances(r Rule, t time.Time) []instance {
-	var out []instance
+	// The buffer of the previous call: its instances were used up.
+	out := s.instBuf[:0]
+	defer func() { s.instBuf = out[:0] }()
 	switch {
 	case r.Mean && r.Signal == SignalAbsW:
-		for name := range s.members {
+		for _, name := range s.memberNames {
 			out = append(out, meanInstance(r, name, s.wHist[name], s.wSeen[name], t))
 		}
 	case r.Mean && r.Signal == SignalFitZ:
@@ -628,7 +668,8 @@ func (s *structState) instances(r Rule, t time.Time) []instance {
 	switch {
 	case r.Mean:
 	case r.Signal == SignalAbsW:
-		for name, m := range s.members {
+		for _, name := range s.memberNames {
+			m := s.members[name]
 			w := m.W
 			if w < 0 {
 				w = -w
@@ -636,18 +677,18 @@ func (s *structState) instances(r Rule, t time.Time) []instance {
 			out = append(out, instance{subject: name, value: w, ok: m.Checkable})
 		}
 	case r.Signal == SignalUtilisation:
-		for name, u := range s.util {
-			out = append(out, instance{subject: name, value: u, ok: true})
+		for _, name := range s.utilNames {
+			out = append(out, instance{subject: name, value: s.util[name], ok: true})
 		}
 	case r.Signal == SignalSilence:
 		// Since the last reading; for a channel without one, since it is
 		// watched (the PromQL: last reading "or" watched since).
-		for name, last := range s.channels {
-			out = append(out, instance{subject: name, value: t.Sub(last).Seconds(), ok: true})
+		for _, name := range s.channelNames {
+			out = append(out, instance{subject: name, value: t.Sub(s.channels[name]).Seconds(), ok: true})
 		}
-		for name, since := range s.watched {
+		for _, name := range s.watchedNames {
 			if _, ok := s.channels[name]; !ok {
-				out = append(out, instance{subject: name, value: t.Sub(since).Seconds(), ok: true})
+				out = append(out, instance{subject: name, value: t.Sub(s.watched[name]).Seconds(), ok: true})
 			}
 		}
 	case r.Signal == SignalPValue:
@@ -671,16 +712,24 @@ func (s *structState) instances(r Rule, t time.Time) []instance {
 			out = append(out, instance{subject: "", value: v, ok: true})
 		}
 	}
-	have := map[string]bool{}
-	for _, in := range out {
-		have[in.subject] = true
-	}
+	// The subjects with an alarm state but no value now (the lists above
+	// are in name order, so a binary search finds the others).
+	listed := len(out)
 	for k := range s.alarms {
-		if k.rule == r.Name && !have[k.subject] {
+		if k.rule != r.Name {
+			continue
+		}
+		if _, found := slices.BinarySearchFunc(out[:listed], k.subject, func(in instance, subject string) int {
+			return strings.Compare(in.subject, subject)
+		}); !found && !slices.ContainsFunc(out[:listed], func(in instance) bool { return in.subject == k.subject }) {
 			out = append(out, instance{subject: k.subject})
 		}
 	}
-	sort.Slice(out, func(i, j int) bool { return out[i].subject < out[j].subject })
+	// Subjects are unique, so name order is one order whatever the sort.
+	bySubject := func(a, b instance) int { return strings.Compare(a.subject, b.subject) }
+	if !slices.IsSortedFunc(out, bySubject) {
+		slices.SortFunc(out, bySubject)
+	}
 	return out
 }
 
@@ -773,22 +822,23 @@ func (s *structState) suppressed(r Rule, subject string) bool {
 // A subject not measured at all in the last Hold keeps its alarm.
 func (s *structState) evaluateMean(r Rule, o Observation, events []Event) []Event {
 	t := o.Time
+	abs := r.Signal == SignalAbsW
 	for _, in := range s.instances(r, t) {
 		key := alarmKey{r.Name, in.subject}
 		a := s.alarms[key]
-		raise := in.ok && in.value > MeanThreshold(r.Raise, r.ZRaise, in.n)
 		if a == nil {
 			if r.SuppressedBy != "" && s.suppressed(r, in.subject) {
-				raise = false
-			}
-			if r.DeferAbove > 0 && r.Signal == SignalAbsW {
-				if m, ok := s.members[in.subject]; ok && m.Checkable && math.Abs(m.W) > r.DeferAbove {
-					raise = false
-				}
-			}
-			if !raise {
 				continue
 			}
+			if r.DeferAbove > 0 && abs {
+				if m, ok := s.members[in.subject]; ok && m.Checkable && math.Abs(m.W) > r.DeferAbove {
+					continue
+				}
+			}
+			if raise, _ := in.series.meanAbove(t, r.For, r.Raise, r.ZRaise, abs); !raise {
+				continue
+			}
+			in.exactMeans(r, t)
 			a = &alarmState{pending: true, activeAt: t.Add(-r.For)}
 			s.alarms[key] = a
 			a.firing, a.fired = true, t
@@ -798,12 +848,16 @@ func (s *structState) evaluateMean(r Rule, o Observation, events []Event) []Even
 			events = append(events, a.raised.clone())
 			continue
 		}
-		hold := !in.measured || in.nHold > 0 && in.hold > MeanThreshold(r.Clear, r.ZClear, in.nHold)
-		if !raise && !hold {
-			events = s.clear(r, o, in, a, events)
-			delete(s.alarms, key)
-			s.firingCount[r.Name]--
+		if raise, _ := in.series.meanAbove(t, r.For, r.Raise, r.ZRaise, abs); raise || !in.measured {
+			continue
 		}
+		if hold, _ := in.series.meanAbove(t, r.Hold, r.Clear, r.ZClear, abs); hold {
+			continue
+		}
+		in.exactMeans(r, t)
+		events = s.clear(r, o, in, a, events)
+		delete(s.alarms, key)
+		s.firingCount[r.Name]--
 	}
 	return events
 }

@@ -74,11 +74,16 @@ func CauseText(c reconcile.RankedCause) string {
 	if c.Implausible {
 		size += " (implausible size)"
 	}
-	t := "–"
-	if !math.IsNaN(c.T) {
-		t = strconv.FormatFloat(c.T, 'f', 1, 64)
+	// A carried hypothesis of the adapted fit is a parameter, not a test:
+	// its T is 0 and not shown.
+	t := "T = –, "
+	switch {
+	case c.T == 0:
+		t = ""
+	case !math.IsNaN(c.T):
+		t = "T = " + strconv.FormatFloat(c.T, 'f', 1, 64) + ", "
 	}
-	return fmt.Sprintf("%s%s %s: T = %s, size %s", grp, strings.ReplaceAll(c.Kind.String(), "_", " "), c.Subject, t, size)
+	return fmt.Sprintf("%s%s %s: %ssize %s", grp, strings.ReplaceAll(c.Kind.String(), "_", " "), c.Subject, t, size)
 }
 
 // causeSize formats a size in its unit: newtons as kilonewtons with two

@@ -333,3 +333,26 @@ func TestHighRateChannels(t *testing.T) {
 		})
 	}
 }
+
+// BenchmarkAssemble100Channels: readings of 100 channels at one a second
+// into 1 s epochs, in time and channel order (as a replay feeds them);
+// reports readings per second.
+func BenchmarkAssemble100Channels(b *testing.B) {
+	var chans []string
+	for i := range 100 {
+		chans = append(chans, fmt.Sprintf("ch%03d", i))
+	}
+	a, err := New(Config{Structure: "s", Window: time.Second, MaxLateness: 2 * time.Second, Expected: chans}, nil, nil)
+	if err != nil {
+		b.Fatal(err)
+	}
+	t0 := time.Date(2026, 6, 1, 0, 0, 0, 0, time.UTC)
+	n := 0
+	b.ReportAllocs()
+	for b.Loop() {
+		sec := n / len(chans)
+		a.Add(Sample{Channel: chans[n%len(chans)], Time: t0.Add(time.Duration(sec) * time.Second), Value: float64(n)})
+		n++
+	}
+	b.ReportMetric(float64(b.N)/b.Elapsed().Seconds(), "readings/s")
+}

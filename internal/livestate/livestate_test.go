@@ -116,8 +116,8 @@ func (s storedEvents) Events(ctx context.Context, structure string, from, to tim
 func TestLiveAlarmRevision(t *testing.T) {
 	st, p := footbridge(t)
 	t0 := time.Date(2026, 6, 1, 12, 0, 0, 0, time.UTC)
-	raisedCauses := []reconcile.RankedCause{{Label: "E A of D2", Kind: reconcile.StiffnessChange, T: 60, Size: -26, Std: 2, Unit: "%", Group: 1}}
-	revised := []reconcile.RankedCause{{Label: "E A of D2", Kind: reconcile.StiffnessChange, T: 900, Size: -29.6, Std: 0.1, Unit: "%", Group: 1}}
+	raisedCauses := []reconcile.RankedCause{{Subject: "D2", Label: "E A of D2", Kind: reconcile.StiffnessChange, T: 60, Size: -26, Std: 2, Unit: "%", Group: 1}}
+	revised := []reconcile.RankedCause{{Subject: "D2", Label: "E A of D2", Kind: reconcile.StiffnessChange, T: 900, Size: -29.6, Std: 0.1, Unit: "%", Group: 1}}
 	shift := []alerts.LoadShift{{Pattern: "crowd", Value: -0.5, Mean: 0.02, Std: 0.01, Z: -7}}
 	raised := alerts.Event{Structure: "alder-creek", Rule: alerts.RuleMemberDiverging, Subject: "D2", Kind: alerts.Raised, Time: t0,
 		Evidence: alerts.Evidence{Signal: "abs_w", W: 6, Causes: raisedCauses, LoadShifts: shift}}
@@ -138,7 +138,7 @@ func TestLiveAlarmRevision(t *testing.T) {
 		later := t0.Add(time.Hour)
 		r = result(p, later, 0.5, []alerts.Alarm{{Rule: raised.Rule, Subject: "D2", Since: t0.Add(-2 * time.Minute), FiredAt: t0, Identifies: true,
 			Causes: revised, CausesAt: later, LoadShifts: shift}})
-		r.Adapted = &reconcile.AdaptedFit{Hypotheses: []reconcile.RankedCause{{Kind: reconcile.StiffnessChange, Subject: "D2", Label: "E A of D2", Size: -29.8, Std: 0.4, Unit: "%"}}, ChiSquare: 15, DOF: 16, PValue: 0.52}
+		r.Adapted = &reconcile.AdaptedFit{Hypotheses: []reconcile.RankedCause{{Kind: reconcile.StiffnessChange, Subject: "D2", Label: "E A of D2", Size: -29.8, Std: 0.4, Unit: "%", Separable: true}}, ChiSquare: 15, DOF: 16, PValue: 0.52}
 		for i := range r.Members {
 			r.Members[i].WNominal = 7
 		}

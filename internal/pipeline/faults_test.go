@@ -11,6 +11,7 @@ import (
 	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/simulate"
+	"trussmonitor/internal/simulate/simtest"
 	"trussmonitor/internal/store"
 )
 
@@ -91,7 +92,7 @@ func TestAlarmSizeUpdates(t *testing.T) {
 	var raised *alerts.Event
 	var atRaise reconcile.RankedCause
 	var start time.Time
-	if err := g.Run(func(s simulate.Step) error {
+	if err := simtest.Run(g, func(s simulate.Step) error {
 		if start.IsZero() {
 			start = s.Time
 		}

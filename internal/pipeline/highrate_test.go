@@ -9,6 +9,7 @@ import (
 	"time"
 
 	"trussmonitor/internal/simulate"
+	"trussmonitor/internal/simulate/simtest"
 	"trussmonitor/internal/store"
 )
 
@@ -62,7 +63,7 @@ func TestHighRateLogger(t *testing.T) {
 				t.Fatal(err)
 			}
 			fed := 0
-			if err := g.Run(func(s simulate.Step) error {
+			if err := simtest.Run(g, func(s simulate.Step) error {
 				rs := make([]store.Reading, 0, len(s.Readings))
 				for _, r := range s.Readings {
 					rs = append(rs, store.Reading{Channel: r.Channel, Time: s.Time, Value: r.Value})

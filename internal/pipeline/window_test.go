@@ -9,6 +9,7 @@ import (
 
 	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/simulate"
+	"trussmonitor/internal/simulate/simtest"
 	"trussmonitor/internal/store"
 )
 
@@ -32,7 +33,7 @@ func feedScenario(t *testing.T, f *scnFixture, p *Pipeline, opt simulate.Options
 	}
 	var start time.Time
 	ctx := context.Background()
-	if err := g.Run(func(s simulate.Step) error {
+	if err := simtest.Run(g, func(s simulate.Step) error {
 		if start.IsZero() {
 			start = s.Time
 		}

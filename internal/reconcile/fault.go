@@ -40,16 +40,17 @@ func (r *RecentRanker) Fault() *FaultRanker {
 		f.index[p.Label] = k
 	}
 	for _, e := range r.queue {
-		for i, k := range e.idx {
-			f.num[k] += e.num[i]
-			f.den[k] += e.den[i]
-			f.sig2[k] += e.sig2[i]
-			f.count[k]++
+		for _, x := range e.terms {
+			f.num[x.k] += x.num
+			f.den[x.k] += x.den
+			f.sig2[x.k] += x.sig2
+			f.count[x.k]++
 		}
 	}
+	onset := r.onsets(n)
 	for k := range f.proto {
-		if sn, sd, ok := r.onsetSums(k); ok {
-			f.sNum[k], f.sDen[k] = sn, sd
+		if onset.at[k] > 0 {
+			f.sNum[k], f.sDen[k] = onset.num[k], onset.den[k]
 		} else {
 			f.sNum[k], f.sDen[k] = f.num[k], f.den[k]
 		}

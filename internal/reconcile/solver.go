@@ -328,6 +328,7 @@ type plan struct {
 	thetaStd  []float64 // p
 	dof       int
 	chi       distuv.ChiSquared
+	projs     projections // candidates' projected signatures (Identify)
 }
 
 // Epoch fits one epoch: y are the measured forces and yhat the model's

@@ -18,6 +18,7 @@ import (
 
 	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/simulate"
+	"trussmonitor/internal/simulate/simtest"
 	"trussmonitor/internal/store"
 	"trussmonitor/internal/structfile"
 )
@@ -218,7 +219,7 @@ func footbridgeDay(b *testing.B, quantise bool) (string, []store.Reading, map[st
 	}
 	var rs []store.Reading
 	decimals := map[string]int{}
-	if err := g.Run(func(s simulate.Step) error {
+	if err := simtest.Run(g, func(s simulate.Step) error {
 		for _, r := range s.Readings {
 			rs = append(rs, store.Reading{Channel: r.Channel, Time: s.Time, Value: r.Value})
 			decimals[r.Channel], _ = simulate.LoggerResolution(r.Unit)
