@@ -30,6 +30,7 @@ func TestParseFault(t *testing.T) {
 		{"drift:B4_a:2h:1e-6/s", FaultDrift, "B4_a", 2 * time.Hour, time.Time{}, 1e-6},
 		{"drift:B4_a:2h:-86.4e-6/d", FaultDrift, "B4_a", 2 * time.Hour, time.Time{}, -1e-9},
 		{"drift:temp_top:1h:0.5", FaultDrift, "temp_top", time.Hour, time.Time{}, 0.5 / 3600},
+		{"drift:B2:3h:5kN/d", FaultDrift, "B2", 3 * time.Hour, time.Time{}, 5000.0 / 86400}, // a member's gauge force, N per second
 		{"stuck:T4_a:1h", FaultStuck, "T4_a", time.Hour, time.Time{}, 0},
 		{"settlement:L8:3h:0.005", FaultSettlement, "L8", 3 * time.Hour, time.Time{}, 0.005},
 		{"settlement:L8:3h:5 mm", FaultSettlement, "L8", 3 * time.Hour, time.Time{}, 0.005},
