@@ -37,7 +37,9 @@ func adaptAfter(p *reconcile.Processor, res *Result) {
 			causes = p.RecentCauses()
 		}
 		for _, c := range causes {
-			if c.Group == 1 && c.Kind != reconcile.ChannelBias.String() {
+			// A drift is tested over an alarm's epochs only (its gauge's
+			// bias is the per-epoch candidate carried).
+			if c.Group == 1 && c.Kind != reconcile.ChannelBias.String() && c.Kind != reconcile.GaugeDrift.String() {
 				p.Adapt(c.Label, keep)
 			}
 		}

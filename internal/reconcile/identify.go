@@ -109,7 +109,8 @@ func PlausibleRange(k Kind, ea float64) (lo, hi float64, ok bool) {
 		return -MaxSpringLoss, MaxSpringGain, true
 	case ChannelBias:
 		return -MaxBiasStrain, MaxBiasStrain, true
-	case GaugeFault:
+	case GaugeFault, GaugeDrift:
+		// A drift: the same bound reached within a day (per day).
 		if ea > 0 {
 			return -MaxBiasStrain * ea, MaxBiasStrain * ea, true
 		}
@@ -301,7 +302,7 @@ func (id *Identification) Groups(cs []Cause) []Group {
 			if used[k] {
 				continue
 			}
-			if math.Abs(id.Rho(lead.Label, cs[k].Label)) >= id.rhoMax {
+			if math.Abs(id.rhoCauses(lead, cs[k])) >= id.rhoMax {
 				used[k] = true
 				grp.Causes = append(grp.Causes, cs[k])
 				grp.T = math.Max(grp.T, cs[k].T)
@@ -374,7 +375,7 @@ func (c *Cause) finishSizes() {
 			c.Implausible = true
 		}
 	}
-	if c.Kind == GaugeFault && in.ea > 0 {
+	if (c.Kind == GaugeFault || c.Kind == GaugeDrift) && in.ea > 0 {
 		c.Strain, c.StrainStd = c.Size/in.ea, c.Std/in.ea
 	}
 }
