@@ -56,6 +56,7 @@ type idOutcome struct {
 	smear       []string // member alarms on members whose true force change is below half their MDB
 	sizeErr     float64  // stiffness, spring: |estimated - true| in percentage points (NaN: not sized)
 	sizeStd     float64  // the standard deviation of that size (percentage points)
+	finalSize   string   // the true cause's size at the end
 	finalFrom   string   // where the final group came from: "fault" (the alarm's causes summed since the fault) or "window"
 	shifts      int      // load-shift flags at raises
 	adaptedSize string
@@ -277,6 +278,7 @@ func runIdScenario(t *testing.T, f *scnFixture, sc idScenario) idOutcome {
 				}
 			}
 			if c.Label == sc.truth {
+				out.finalSize = fmt.Sprintf("%.4g ± %.2g %s", c.Size, c.Std, c.Unit)
 				switch sc.kind {
 				case "stiffness":
 					out.sizeErr, out.sizeStd = math.Abs(c.Size-(-100*sc.size)), c.Std
@@ -442,7 +444,7 @@ func TestScenarioIdentification(t *testing.T) {
 			t.Logf("seed %d: smeared: %s", sc.seed, s)
 		}
 		if sc.window {
-			t.Logf("seed %d (%s %s, %s): first group at the end (%s causes): %s; carried: %s", sc.seed, sc.kind, sc.target, sc.rate, o.finalFrom, strings.Join(o.finalGroup, " or "), o.adaptedSize)
+			t.Logf("seed %d (%s %s, %s): first group at the end (%s causes): %s; %s sized %s; carried: %s", sc.seed, sc.kind, sc.target, sc.rate, o.finalFrom, strings.Join(o.finalGroup, " or "), sc.truth, o.finalSize, o.adaptedSize)
 		}
 		if sc.kind == "clean" {
 			cleanAlarms += o.raises + o.early
