@@ -268,7 +268,7 @@ func TestAlertReachesWebhook(t *testing.T) {
 		}
 		mu.Lock()
 		for _, d := range got {
-			if d.alert.Status == "firing" && d.alert.Labels["alertname"] == alerts.RuleChannelSilent && d.alert.Labels["channel"] == silentChannel {
+			if d.alert.Status == "firing" && d.alert.Labels["alertname"] == string(alerts.RuleChannelSilent) && d.alert.Labels["channel"] == silentChannel {
 				a := d.alert
 				firing, firingPath = &a, d.path
 			}
@@ -289,7 +289,7 @@ func TestAlertReachesWebhook(t *testing.T) {
 	}
 	var raised time.Time
 	for _, e := range evs {
-		if e.Rule == alerts.RuleChannelSilent && e.Subject == silentChannel && e.Kind == alerts.Raised {
+		if alerts.RuleName(e.Rule) == alerts.RuleChannelSilent && e.Subject == silentChannel && alerts.EventKind(e.Kind) == alerts.Raised {
 			raised = e.Time
 			break
 		}

@@ -6,7 +6,9 @@ import (
 	"flag"
 	"fmt"
 	"io"
+	"maps"
 	"os"
+	"slices"
 	"sort"
 	"strings"
 	"time"
@@ -165,11 +167,7 @@ func printReplaySummary(w io.Writer, s *replay.Summary) {
 		parts[i] = fmt.Sprintf("%s %d", k, s.ByOutcome[k])
 	}
 	fmt.Fprintf(w, "epochs:     %d (%s)\n", s.Epochs, strings.Join(parts, ", "))
-	rules := make([]string, 0, len(s.Raised))
-	for r := range s.Raised {
-		rules = append(rules, r)
-	}
-	sort.Strings(rules)
+	rules := slices.Sorted(maps.Keys(s.Raised))
 	raised := make([]string, len(rules))
 	nRaised := 0
 	for i, r := range rules {

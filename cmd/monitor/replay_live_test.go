@@ -20,6 +20,7 @@ import (
 	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/report"
 	"trussmonitor/internal/settings"
+	"trussmonitor/internal/store"
 )
 
 // eventCollector is a pipeline sink that keeps the alarm events.
@@ -27,7 +28,7 @@ type eventCollector struct{ events []string }
 
 func (c *eventCollector) Epoch(r *pipeline.Result) {
 	for _, e := range r.Events {
-		c.events = append(c.events, eventKey(e.Time, e.Rule, e.Subject, e.Kind))
+		c.events = append(c.events, eventKey(e.Time, string(e.Rule), e.Subject, string(e.Kind)))
 	}
 }
 
@@ -136,7 +137,7 @@ func TestReplayConfigMatchesLive(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	var scan []pipeline.Reading
+	var scan []store.Reading
 	ctx := context.Background()
 	feed := func() {
 		if len(scan) == 0 {
@@ -151,7 +152,7 @@ func TestReplayConfigMatchesLive(t *testing.T) {
 		if len(scan) > 0 && !r.Time.Equal(scan[0].Time) {
 			feed()
 		}
-		scan = append(scan, pipeline.Reading{Channel: r.Channel, Time: r.Time, Value: r.Value})
+		scan = append(scan, store.Reading{Channel: r.Channel, Time: r.Time, Value: r.Value})
 		return nil
 	}); err != nil {
 		t.Fatal(err)
@@ -201,14 +202,14 @@ func TestReplayConfigMatchesLive(t *testing.T) {
 	// silence exceeds 3 minutes in the epoch ending 08:03.
 	var silentRaised, silentCleared bool
 	for _, e := range replayed {
-		silentRaised = silentRaised || strings.HasSuffix(e, alerts.RuleChannelSilent+" "+silentChannel+" "+alerts.Raised)
-		silentCleared = silentCleared || strings.HasSuffix(e, alerts.RuleChannelSilent+" "+silentChannel+" "+alerts.Cleared)
+		silentRaised = silentRaised || strings.HasSuffix(e, string(alerts.RuleChannelSilent)+" "+silentChannel+" "+string(alerts.Raised))
+		silentCleared = silentCleared || strings.HasSuffix(e, string(alerts.RuleChannelSilent)+" "+silentChannel+" "+string(alerts.Cleared))
 	}
 	if !silentRaised || !silentCleared {
 		t.Errorf("ChannelSilent %s raised %v, cleared %v; want both", silentChannel, silentRaised, silentCleared)
 	}
 	for _, e := range replayed {
-		if strings.Contains(e, alerts.RuleChannelSilent) && strings.HasSuffix(e, alerts.Raised) && !strings.HasPrefix(e, "2026-06-01T08:03:") && !strings.HasPrefix(e, "2026-06-01T08:04:") {
+		if strings.Contains(e, string(alerts.RuleChannelSilent)) && strings.HasSuffix(e, string(alerts.Raised)) && !strings.HasPrefix(e, "2026-06-01T08:03:") && !strings.HasPrefix(e, "2026-06-01T08:04:") {
 			t.Errorf("ChannelSilent raised at %s; want 08:03-08:04 (3 minutes after the last reading at 07:59, one epoch of 60 s)", e)
 		}
 	}

@@ -6,6 +6,7 @@ import (
 	"strings"
 	"testing"
 
+	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/replay"
 )
 
@@ -14,12 +15,12 @@ import (
 func TestReplaySummaryCountsAddUp(t *testing.T) {
 	for _, c := range []struct {
 		events int
-		raised map[string]int
+		raised map[alerts.RuleName]int
 		want   string
 	}{
-		{8, map[string]int{"FitRejected": 1, "MemberDiverging": 4}, "alarms:     5 raised (FitRejected 1, MemberDiverging 4), 3 cleared: 8 events\n"},
-		{1, map[string]int{"FitRejected": 1}, "alarms:     1 raised (FitRejected 1), 0 cleared: 1 event\n"},
-		{0, map[string]int{}, "alarms:     none raised (0 events)\n"},
+		{8, map[alerts.RuleName]int{alerts.RuleFitRejected: 1, alerts.RuleMemberDiverging: 4}, "alarms:     5 raised (FitRejected 1, MemberDiverging 4), 3 cleared: 8 events\n"},
+		{1, map[alerts.RuleName]int{alerts.RuleFitRejected: 1}, "alarms:     1 raised (FitRejected 1), 0 cleared: 1 event\n"},
+		{0, map[alerts.RuleName]int{}, "alarms:     none raised (0 events)\n"},
 	} {
 		var b bytes.Buffer
 		printReplaySummary(&b, &replay.Summary{Events: c.events, Raised: c.raised, ByOutcome: map[string]int64{}})

@@ -58,7 +58,7 @@ func TestUtilisationCaution(t *testing.T) {
 	n := 0
 	for _, g := range file.Groups {
 		for _, r := range g.Rules {
-			if r.Alert == RuleUtilisationHigh {
+			if r.Alert == string(RuleUtilisationHigh) {
 				n++
 				if d := r.Annotations["description"]; !strings.Contains(d, capacity.Caution) {
 					t.Errorf("rules file: %s description %q lacks the utilisation caution", r.Alert, d)

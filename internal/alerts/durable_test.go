@@ -11,6 +11,7 @@ import (
 	"testing"
 	"time"
 
+	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/store"
 )
 
@@ -70,7 +71,7 @@ func (s storeSink) PutEvent(ctx context.Context, e Event) error {
 	if err != nil {
 		return err
 	}
-	return s.st.PutEvent(ctx, store.Event{Structure: e.Structure, Rule: e.Rule, Subject: e.Subject, Kind: e.Kind, Time: e.Time, Evidence: ev})
+	return s.st.PutEvent(ctx, store.Event{Structure: e.Structure, Rule: string(e.Rule), Subject: e.Subject, Kind: string(e.Kind), Time: e.Time, Evidence: ev})
 }
 
 func (s storeSink) ReviseEvent(ctx context.Context, e Event) error {
@@ -78,7 +79,7 @@ func (s storeSink) ReviseEvent(ctx context.Context, e Event) error {
 	if err != nil {
 		return err
 	}
-	_, err = s.st.ReviseEvent(ctx, store.Event{Structure: e.Structure, Rule: e.Rule, Subject: e.Subject, Kind: e.Kind, Time: e.Time, Evidence: ev})
+	_, err = s.st.ReviseEvent(ctx, store.Event{Structure: e.Structure, Rule: string(e.Rule), Subject: e.Subject, Kind: string(e.Kind), Time: e.Time, Evidence: ev})
 	return err
 }
 
@@ -168,9 +169,9 @@ func TestReviseStoredCauses(t *testing.T) {
 	}
 	ctx := context.Background()
 	t0 := time.Date(2026, 6, 1, 12, 0, 0, 0, time.UTC)
-	loss := func(size float64) []Cause {
-		return []Cause{{Label: "E A of D2", Kind: "stiffness_change", T: 40, Size: size, Std: 1.5, Unit: "%", Group: 1},
-			{Label: "gauge D2", Kind: "gauge_fault", T: 40, Size: -5200, Std: 300, Unit: "N", Group: 1}}
+	loss := func(size float64) []reconcile.RankedCause {
+		return []reconcile.RankedCause{{Label: "E A of D2", Kind: reconcile.StiffnessChange, T: 40, Size: size, Std: 1.5, Unit: "%", Group: 1},
+			{Label: "gauge D2", Kind: reconcile.GaugeFault, T: 40, Size: -5200, Std: 300, Unit: "N", Group: 1}}
 	}
 	shift := []LoadShift{{Pattern: "crowd", Value: -0.8, Mean: 0.1, Std: 0.05, Z: -6.1}}
 	obs := func(tm time.Time, w float64) []Event {

@@ -5,9 +5,12 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"slices"
 	"sort"
+	"strings"
 	"sync"
 	"time"
+	"trussmonitor/internal/reconcile"
 )
 
 // Lookback is how far back an absent counter sample is looked for, as
@@ -43,7 +46,7 @@ type Observation struct {
 	// 0 in replay).
 	ReconcileDropped uint64
 	// Causes are the epoch's top-ranked causes (most likely first).
-	Causes []Cause
+	Causes []reconcile.RankedCause
 	// Utilisation are the members' utilisations of a fitted epoch
 	// (structures with a design basis only).
 	Utilisation []Utilisation
@@ -86,8 +89,8 @@ type Member struct {
 	Member        string
 	W             float64
 	Checkable     bool
-	EstimatedBias float64 // gauge-fault estimate e_i / r_i, newtons
-	Causes        []Cause // optional: causes ranked for this member
+	EstimatedBias float64                 // gauge-fault estimate e_i / r_i, newtons
+	Causes        []reconcile.RankedCause // optional: causes ranked for this member
 	// Restart is true when the member's w comes from a changed fit from
 	// this epoch on (adaptation began, changed or ended): the mean rules
 	// forget its earlier samples, which test a model no longer in force.
@@ -104,52 +107,37 @@ type Channel struct {
 	WatchedSince time.Time
 }
 
-// Cause is evidence of one ranked cause.
-type Cause struct {
-	Label string  `json:"label"`
-	Kind  string  `json:"kind"`
-	T     float64 `json:"t"`
-	Size  float64 `json:"size"` // in Unit
-	Unit  string  `json:"unit"`
-	// Std is the standard deviation of Size and MDS the minimal detectable
-	// size, in Unit.
-	Std float64 `json:"std,omitempty"`
-	MDS float64 `json:"mds,omitempty"`
-	// Group numbers the separability group (from 1): causes of one group
-	// cannot be told apart by the gauges and carry no order.
-	Group int `json:"group,omitempty"`
-	// Implausible marks a size outside its plausible range.
-	Implausible bool `json:"implausible,omitempty"`
-}
+// EventKind says whether an event raised or cleared its alarm.
+type EventKind string
 
 // Event kinds.
 const (
-	Raised  = "raised"
-	Cleared = "cleared"
+	Raised  EventKind = "raised"
+	Cleared EventKind = "cleared"
 )
 
 // Event is an alarm being raised or cleared.
 type Event struct {
 	Structure string
-	Rule      string
+	Rule      RuleName
 	Subject   string // member or channel; "" for the whole structure
-	Kind      string // Raised or Cleared
+	Kind      EventKind
 	Time      time.Time
 	Evidence  Evidence
 }
 
 // Evidence is what was seen when the event happened.
 type Evidence struct {
-	Signal      string    `json:"signal"`
-	Value       float64   `json:"value"`     // the signal's value (0 when it has none)
-	Threshold   float64   `json:"threshold"` // Raise for raised, Clear for cleared
-	ActiveSince time.Time `json:"active_since"`
-	W           float64   `json:"w,omitempty"`
-	Bias        float64   `json:"estimated_bias_newtons,omitempty"`
-	PValue      float64   `json:"p_value,omitempty"`
-	ChiSquare   float64   `json:"chi_square,omitempty"`
-	DOF         int       `json:"dof,omitempty"`
-	Causes      []Cause   `json:"causes,omitempty"` // top three, or the whole first group
+	Signal      string                  `json:"signal"`
+	Value       float64                 `json:"value"`     // the signal's value (0 when it has none)
+	Threshold   float64                 `json:"threshold"` // Raise for raised, Clear for cleared
+	ActiveSince time.Time               `json:"active_since"`
+	W           float64                 `json:"w,omitempty"`
+	Bias        float64                 `json:"estimated_bias_newtons,omitempty"`
+	PValue      float64                 `json:"p_value,omitempty"`
+	ChiSquare   float64                 `json:"chi_square,omitempty"`
+	DOF         int                     `json:"dof,omitempty"`
+	Causes      []reconcile.RankedCause `json:"causes,omitempty"` // top three, or the whole first group
 	// Epochs is the number of epochs behind Value for a mean rule (Value
 	// is then the mean of the statistic over the for-duration, or over the
 	// hold-off for a cleared event).
@@ -175,17 +163,24 @@ type EventSink interface {
 	ReviseEvent(ctx context.Context, e Event) error
 }
 
+// alarmKey identifies an alarm of a structure: its rule and subject.
+type alarmKey struct {
+	rule    RuleName
+	subject string
+}
+
 // Alarm is a firing alarm.
 type Alarm struct {
-	Rule, Subject string
-	Since         time.Time // when its raise condition first held
-	FiredAt       time.Time
+	Rule    RuleName
+	Subject string
+	Since   time.Time // when its raise condition first held
+	FiredAt time.Time
 	// Identifies is true for the alarms of statistical rules, whose events
 	// carry identified causes (and whose causes Revise updates).
 	Identifies bool
 	// Causes are the alarm's causes: those of its raised event, or their
 	// latest revision, as of CausesAt (zero for a rule without causes).
-	Causes   []Cause
+	Causes   []reconcile.RankedCause
 	CausesAt time.Time
 	// LoadShifts are the unknown loads flagged when the alarm rose.
 	LoadShifts []LoadShift
@@ -251,28 +246,42 @@ type structState struct {
 	commitFail  []sample
 	recDrop     []sample
 	broker      *bool
-	causes      []Cause
-	alarms      map[[2]string]*alarmState // rule name, subject
-	firingCount map[string]int
+	causes      []reconcile.RankedCause
+	alarms      map[alarmKey]*alarmState
+	firingCount map[RuleName]int
 	keep        time.Duration // counter history kept: longest window + Lookback
 	// Per-epoch statistics of the mean rules: w of each member in the
 	// epochs where it was measured and checkable, the fit score of each
 	// fitted epoch, and when each was last measured at all.
-	wHist    map[string][]sample
+	wHist    map[string]*meanSeries
 	wSeen    map[string]time.Time
-	fitHist  []sample
+	fitHist  *meanSeries
 	fitSeen  time.Time
 	meanKeep time.Duration // longest For or Hold of a mean rule
 	rules    []Rule        // the evaluator's rules (shared, read-only)
 	// revisions are the revised raised events of alarms cleared in this
 	// evaluation whose latest revision was not yet stored.
 	revisions []Event
+	// The keys of members, util, channels and watched in name order
+	// (instances lists subjects in that order), and the instances buffer.
+	memberNames, utilNames     []string
+	channelNames, watchedNames []string
+	instBuf                    []instance
+}
+
+// insertName adds name to the sorted list names unless it is there.
+func insertName(names []string, name string) []string {
+	i, found := slices.BinarySearch(names, name)
+	if found {
+		return names
+	}
+	return slices.Insert(names, i, name)
 }
 
 // NewEvaluator checks the rules and returns an evaluator that stores its
 // events in sink (nil: events are only returned).
 func NewEvaluator(rules []Rule, sink EventSink) (*Evaluator, error) {
-	seen := map[string]bool{}
+	seen := map[RuleName]bool{}
 	for _, r := range rules {
 		if err := r.Validate(); err != nil {
 			return nil, err
@@ -311,8 +320,8 @@ func (e *Evaluator) Observe(ctx context.Context, o Observation) ([]Event, error)
 	s := e.st[o.Structure]
 	if s == nil {
 		s = &structState{members: map[string]Member{}, util: map[string]float64{}, channels: map[string]time.Time{}, watched: map[string]time.Time{},
-			alarms: map[[2]string]*alarmState{}, firingCount: map[string]int{}, keep: e.keep,
-			wHist: map[string][]sample{}, wSeen: map[string]time.Time{}, meanKeep: e.meanKeep, rules: e.rules}
+			alarms: map[alarmKey]*alarmState{}, firingCount: map[RuleName]int{}, keep: e.keep,
+			wHist: map[string]*meanSeries{}, wSeen: map[string]time.Time{}, meanKeep: e.meanKeep, rules: e.rules}
 		e.st[o.Structure] = s
 	}
 	if s.seen && o.Time.Before(s.last) {
@@ -350,18 +359,18 @@ func (e *Evaluator) Observe(ctx context.Context, o Observation) ([]Event, error)
 // alarm clears. The causes are cut as an event's (the top three, and the
 // whole first group). It reports whether an alarm was revised; an error
 // is the sink's, as for Observe.
-func (e *Evaluator) Revise(ctx context.Context, structure, rule, subject string, causes []Cause, t time.Time) (bool, error) {
+func (e *Evaluator) Revise(ctx context.Context, structure string, rule RuleName, subject string, causes []reconcile.RankedCause, t time.Time) (bool, error) {
 	e.mu.Lock()
 	s := e.st[structure]
 	var a *alarmState
 	if s != nil {
-		a = s.alarms[[2]string{rule, subject}]
+		a = s.alarms[alarmKey{rule, subject}]
 	}
 	if a == nil || !a.firing || t.Before(a.fired) {
 		e.mu.Unlock()
 		return false, nil
 	}
-	a.raised.Evidence.Causes = cutCauses(causes)
+	a.raised.Evidence.Causes = append([]reconcile.RankedCause(nil), ShownCauses(causes)...)
 	a.raised.Evidence.CausesAt = t
 	a.causesAt = t
 	var pending []pendingEvent
@@ -378,20 +387,9 @@ func (e *Evaluator) Revise(ctx context.Context, structure, rule, subject string,
 
 // clone returns a copy of the event that shares no slice with it.
 func (ev Event) clone() Event {
-	ev.Evidence.Causes = append([]Cause(nil), ev.Evidence.Causes...)
+	ev.Evidence.Causes = append([]reconcile.RankedCause(nil), ev.Evidence.Causes...)
 	ev.Evidence.LoadShifts = append([]LoadShift(nil), ev.Evidence.LoadShifts...)
 	return ev
-}
-
-// cutCauses returns the top three causes, and the whole first group when
-// it is larger (its causes cannot be told apart, so none of them may be
-// cut).
-func cutCauses(causes []Cause) []Cause {
-	n := min(len(causes), 3)
-	for n < len(causes) && causes[n].Group == 1 {
-		n++
-	}
-	return append([]Cause(nil), causes[:n]...)
 }
 
 // Retry stores the events kept after a sink failure; nil when none are
@@ -459,7 +457,7 @@ func (e *Evaluator) Active(structure string) []Alarm {
 	for k, a := range s.alarms {
 		if a.firing {
 			ev := a.raised.clone()
-			out = append(out, Alarm{Rule: k[0], Subject: k[1], Since: a.activeAt, FiredAt: a.fired, Identifies: s.signal(k[0]).identifies(),
+			out = append(out, Alarm{Rule: k.rule, Subject: k.subject, Since: a.activeAt, FiredAt: a.fired, Identifies: s.signal(k.rule).identifies(),
 				Causes: ev.Evidence.Causes, CausesAt: ev.Evidence.CausesAt, LoadShifts: ev.Evidence.LoadShifts})
 		}
 	}
@@ -474,7 +472,7 @@ func (e *Evaluator) Active(structure string) []Alarm {
 
 // FiringCount returns how many alarms of rule are firing for structure
 // (the value of shm_alarms_firing).
-func (e *Evaluator) FiringCount(structure, rule string) int {
+func (e *Evaluator) FiringCount(structure string, rule RuleName) int {
 	e.mu.Lock()
 	defer e.mu.Unlock()
 	if s := e.st[structure]; s != nil {
@@ -484,7 +482,7 @@ func (e *Evaluator) FiringCount(structure, rule string) int {
 }
 
 // signal returns the signal of the rule named name (0 when none).
-func (s *structState) signal(name string) Signal {
+func (s *structState) signal(name RuleName) Signal {
 	for _, r := range s.rules {
 		if r.Name == name {
 			return r.Signal
@@ -496,9 +494,15 @@ func (s *structState) signal(name string) Signal {
 // update folds the observation into the held values.
 func (s *structState) update(o Observation) {
 	for _, m := range o.Members {
+		if _, ok := s.members[m.Member]; !ok {
+			s.memberNames = insertName(s.memberNames, m.Member)
+		}
 		s.members[m.Member] = m
 	}
 	for _, u := range o.Utilisation {
+		if _, ok := s.util[u.Member]; !ok {
+			s.utilNames = insertName(s.utilNames, u.Member)
+		}
 		s.util[u.Member] = u.Value
 	}
 	if o.Fit != nil {
@@ -507,10 +511,16 @@ func (s *structState) update(o Observation) {
 	}
 	for _, c := range o.Channels {
 		if !c.WatchedSince.IsZero() {
+			if _, ok := s.watched[c.Channel]; !ok {
+				s.watchedNames = insertName(s.watchedNames, c.Channel)
+			}
 			s.watched[c.Channel] = c.WatchedSince
 		}
 		if !c.LastReading.IsZero() {
 			if prev, ok := s.channels[c.Channel]; !ok || c.LastReading.After(prev) {
+				if !ok {
+					s.channelNames = insertName(s.channelNames, c.Channel)
+				}
 				s.channels[c.Channel] = c.LastReading
 			}
 		}
@@ -523,15 +533,23 @@ func (s *structState) update(o Observation) {
 		for _, m := range o.Members {
 			s.wSeen[m.Member] = o.Time
 			if m.Restart {
-				s.wHist[m.Member] = s.wHist[m.Member][:0]
+				delete(s.wHist, m.Member) // a new series from this sample on
 			}
 			if m.Checkable {
-				s.wHist[m.Member] = appendSample(s.wHist[m.Member], sample{o.Time, m.W}, oldest)
+				h := s.wHist[m.Member]
+				if h == nil {
+					h = &meanSeries{}
+					s.wHist[m.Member] = h
+				}
+				h.add(o.Time, m.W, oldest)
 			}
 		}
 		if o.Fit != nil && o.Fit.DOF > 0 {
 			s.fitSeen = o.Time
-			s.fitHist = appendSample(s.fitHist, sample{o.Time, FitScore(o.Fit.ChiSquare, o.Fit.DOF)}, oldest)
+			if s.fitHist == nil {
+				s.fitHist = &meanSeries{}
+			}
+			s.fitHist.add(o.Time, FitScore(o.Fit.ChiSquare, o.Fit.DOF), oldest)
 		}
 	}
 	keep := s.keep
@@ -545,16 +563,27 @@ func (s *structState) update(o Observation) {
 	}
 }
 
+// appendSample appends x to h (samples in time order, x not before the
+// last) and drops the samples before oldest once they are more than half of
+// those held (dropCount), so that dropping costs a constant per sample.
 func appendSample(h []sample, x sample, oldest time.Time) []sample {
 	h = append(h, x)
-	drop := 0
-	for drop < len(h)-1 && h[drop].t.Before(oldest) {
-		drop++
+	if len(h) < 3 || !h[len(h)/2].t.Before(oldest) {
+		return h
 	}
-	if drop > 0 && drop > len(h)/2 {
-		h = append(h[:0], h[drop:]...)
+	drop := min(len(h)-1, sort.Search(len(h), func(i int) bool { return !h[i].t.Before(oldest) }))
+	return append(h[:0], h[drop:]...)
+}
+
+// dropCount returns how many leading samples of times (in time order) to
+// drop: those before oldest, but never the last one, and none until they
+// are more than half of the samples. The check is on the middle sample, so
+// it costs a constant until samples are dropped.
+func dropCount(times []time.Time, oldest time.Time) int {
+	if len(times) < 3 || !times[len(times)/2].Before(oldest) {
+		return 0
 	}
-	return h
+	return min(len(times)-1, sort.Search(len(times), func(i int) bool { return !times[i].Before(oldest) }))
 }
 
 // increase returns counter(t) - counter(t - w), the old value being the
@@ -587,6 +616,10 @@ type instance struct {
 	n, nHold int
 	hold     float64
 	measured bool
+	// series is the subject's statistic (mean rules; nil without one):
+	// value, n, hold and nHold are filled from it only for an event
+	// (exactMeans), the decisions use meanAbove.
+	series *meanSeries
 }
 
 // FitScore is the Wilson-Hilferty normal score of a chi-square statistic
@@ -597,45 +630,34 @@ func FitScore(t float64, dof int) float64 {
 	return (math.Cbrt(t/nu) - (1 - v)) / math.Sqrt(v)
 }
 
-// windowMean returns the mean and count of the samples in [t - d, t]
-// (both ends included, as a Prometheus 2 range selector).
-func windowMean(h []sample, t time.Time, d time.Duration) (float64, int) {
-	from := t.Add(-d)
-	sum, n := 0.0, 0
-	for i := len(h) - 1; i >= 0 && !h[i].t.Before(from); i-- {
-		if h[i].t.After(t) {
-			continue
-		}
-		sum += h[i].v
-		n++
-	}
-	if n == 0 {
-		return 0, 0
-	}
-	return sum / float64(n), n
+// meanInstance is a mean rule's instance for one subject before its means
+// are taken: measured is whether the subject had any epoch in the last
+// Hold.
+func meanInstance(r Rule, subject string, h *meanSeries, seen time.Time, t time.Time) instance {
+	return instance{subject: subject, series: h, measured: !seen.IsZero() && !seen.Before(t.Add(-r.Hold))}
 }
 
-// meanInstance evaluates a mean rule's statistic for one subject.
-func meanInstance(r Rule, subject string, h []sample, seen time.Time, t time.Time) instance {
-	in := instance{subject: subject}
-	m, n := windowMean(h, t, r.For)
-	mh, nh := windowMean(h, t, r.Hold)
+// exactMeans fills a mean rule's instance with the means over For and
+// Hold, summed afresh (an event's evidence).
+func (in *instance) exactMeans(r Rule, t time.Time) {
+	m, n := in.series.mean(t, r.For)
+	mh, nh := in.series.mean(t, r.Hold)
 	if r.Signal == SignalAbsW {
 		m, mh = math.Abs(m), math.Abs(mh)
 	}
 	in.value, in.n, in.ok = m, n, n > 0
 	in.hold, in.nHold = mh, nh
-	in.measured = !seen.IsZero() && !seen.Before(t.Add(-r.Hold))
-	return in
 }
 
 // instances lists the rule's subjects with their values: every subject
 // seen so far, plus those with an alarm state.
 func (s *structState) instances(r Rule, t time.Time) []instance {
-	var out []instance
+	// The buffer of the previous call: its instances were used up.
+	out := s.instBuf[:0]
+	defer func() { s.instBuf = out[:0] }()
 	switch {
 	case r.Mean && r.Signal == SignalAbsW:
-		for name := range s.members {
+		for _, name := range s.memberNames {
 			out = append(out, meanInstance(r, name, s.wHist[name], s.wSeen[name], t))
 		}
 	case r.Mean && r.Signal == SignalFitZ:
@@ -646,7 +668,8 @@ func (s *structState) instances(r Rule, t time.Time) []instance {
 	switch {
 	case r.Mean:
 	case r.Signal == SignalAbsW:
-		for name, m := range s.members {
+		for _, name := range s.memberNames {
+			m := s.members[name]
 			w := m.W
 			if w < 0 {
 				w = -w
@@ -654,18 +677,18 @@ func (s *structState) instances(r Rule, t time.Time) []instance {
 			out = append(out, instance{subject: name, value: w, ok: m.Checkable})
 		}
 	case r.Signal == SignalUtilisation:
-		for name, u := range s.util {
-			out = append(out, instance{subject: name, value: u, ok: true})
+		for _, name := range s.utilNames {
+			out = append(out, instance{subject: name, value: s.util[name], ok: true})
 		}
 	case r.Signal == SignalSilence:
 		// Since the last reading; for a channel without one, since it is
 		// watched (the PromQL: last reading "or" watched since).
-		for name, last := range s.channels {
-			out = append(out, instance{subject: name, value: t.Sub(last).Seconds(), ok: true})
+		for _, name := range s.channelNames {
+			out = append(out, instance{subject: name, value: t.Sub(s.channels[name]).Seconds(), ok: true})
 		}
-		for name, since := range s.watched {
+		for _, name := range s.watchedNames {
 			if _, ok := s.channels[name]; !ok {
-				out = append(out, instance{subject: name, value: t.Sub(since).Seconds(), ok: true})
+				out = append(out, instance{subject: name, value: t.Sub(s.watched[name]).Seconds(), ok: true})
 			}
 		}
 	case r.Signal == SignalPValue:
@@ -689,16 +712,24 @@ func (s *structState) instances(r Rule, t time.Time) []instance {
 			out = append(out, instance{subject: "", value: v, ok: true})
 		}
 	}
-	have := map[string]bool{}
-	for _, in := range out {
-		have[in.subject] = true
-	}
+	// The subjects with an alarm state but no value now (the lists above
+	// are in name order, so a binary search finds the others).
+	listed := len(out)
 	for k := range s.alarms {
-		if k[0] == r.Name && !have[k[1]] {
-			out = append(out, instance{subject: k[1]})
+		if k.rule != r.Name {
+			continue
+		}
+		if _, found := slices.BinarySearchFunc(out[:listed], k.subject, func(in instance, subject string) int {
+			return strings.Compare(in.subject, subject)
+		}); !found && !slices.ContainsFunc(out[:listed], func(in instance) bool { return in.subject == k.subject }) {
+			out = append(out, instance{subject: k.subject})
 		}
 	}
-	sort.Slice(out, func(i, j int) bool { return out[i].subject < out[j].subject })
+	// Subjects are unique, so name order is one order whatever the sort.
+	bySubject := func(a, b instance) int { return strings.Compare(a.subject, b.subject) }
+	if !slices.IsSortedFunc(out, bySubject) {
+		slices.SortFunc(out, bySubject)
+	}
 	return out
 }
 
@@ -715,7 +746,7 @@ func (s *structState) evaluate(r Rule, o Observation, events []Event) []Event {
 	}
 	t := o.Time
 	for _, in := range s.instances(r, t) {
-		key := [2]string{r.Name, in.subject}
+		key := alarmKey{r.Name, in.subject}
 		a := s.alarms[key]
 		raise := in.ok && r.raised(in.value)
 		hold := in.ok && r.held(in.value)
@@ -775,7 +806,7 @@ func (s *structState) suppressed(r Rule, subject string) bool {
 		return false
 	}
 	if by.Signal.Scope() == r.Signal.Scope() {
-		a := s.alarms[[2]string{by.Name, subject}]
+		a := s.alarms[alarmKey{by.Name, subject}]
 		return a != nil && a.firing
 	}
 	return s.firingCount[by.Name] > 0
@@ -791,22 +822,23 @@ func (s *structState) suppressed(r Rule, subject string) bool {
 // A subject not measured at all in the last Hold keeps its alarm.
 func (s *structState) evaluateMean(r Rule, o Observation, events []Event) []Event {
 	t := o.Time
+	abs := r.Signal == SignalAbsW
 	for _, in := range s.instances(r, t) {
-		key := [2]string{r.Name, in.subject}
+		key := alarmKey{r.Name, in.subject}
 		a := s.alarms[key]
-		raise := in.ok && in.value > MeanThreshold(r.Raise, r.ZRaise, in.n)
 		if a == nil {
 			if r.SuppressedBy != "" && s.suppressed(r, in.subject) {
-				raise = false
-			}
-			if r.DeferAbove > 0 && r.Signal == SignalAbsW {
-				if m, ok := s.members[in.subject]; ok && m.Checkable && math.Abs(m.W) > r.DeferAbove {
-					raise = false
-				}
-			}
-			if !raise {
 				continue
 			}
+			if r.DeferAbove > 0 && abs {
+				if m, ok := s.members[in.subject]; ok && m.Checkable && math.Abs(m.W) > r.DeferAbove {
+					continue
+				}
+			}
+			if raise, _ := in.series.meanAbove(t, r.For, r.Raise, r.ZRaise, abs); !raise {
+				continue
+			}
+			in.exactMeans(r, t)
 			a = &alarmState{pending: true, activeAt: t.Add(-r.For)}
 			s.alarms[key] = a
 			a.firing, a.fired = true, t
@@ -816,17 +848,21 @@ func (s *structState) evaluateMean(r Rule, o Observation, events []Event) []Even
 			events = append(events, a.raised.clone())
 			continue
 		}
-		hold := !in.measured || in.nHold > 0 && in.hold > MeanThreshold(r.Clear, r.ZClear, in.nHold)
-		if !raise && !hold {
-			events = s.clear(r, o, in, a, events)
-			delete(s.alarms, key)
-			s.firingCount[r.Name]--
+		if raise, _ := in.series.meanAbove(t, r.For, r.Raise, r.ZRaise, abs); raise || !in.measured {
+			continue
 		}
+		if hold, _ := in.series.meanAbove(t, r.Hold, r.Clear, r.ZClear, abs); hold {
+			continue
+		}
+		in.exactMeans(r, t)
+		events = s.clear(r, o, in, a, events)
+		delete(s.alarms, key)
+		s.firingCount[r.Name]--
 	}
 	return events
 }
 
-func (s *structState) event(r Rule, o Observation, in instance, kind string, a *alarmState) Event {
+func (s *structState) event(r Rule, o Observation, in instance, kind EventKind, a *alarmState) Event {
 	ev := Event{Structure: o.Structure, Rule: r.Name, Subject: in.subject, Kind: kind, Time: o.Time}
 	ev.Evidence = Evidence{Signal: r.Signal.String(), ActiveSince: a.activeAt, Threshold: r.Raise}
 	if kind == Cleared {
@@ -861,7 +897,7 @@ func (s *structState) event(r Rule, o Observation, in instance, kind string, a *
 	default:
 		causes = nil
 	}
-	ev.Evidence.Causes = cutCauses(causes)
+	ev.Evidence.Causes = append([]reconcile.RankedCause(nil), ShownCauses(causes)...)
 	if kind == Raised && r.Signal.identifies() {
 		ev.Evidence.CausesAt = o.Time
 		if len(o.LoadShifts) > 0 {

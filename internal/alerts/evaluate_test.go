@@ -8,6 +8,7 @@ import (
 	"strings"
 	"testing"
 	"time"
+	"trussmonitor/internal/reconcile"
 
 	"gonum.org/v1/gonum/stat/distuv"
 )
@@ -46,11 +47,11 @@ func TestMemberAlarmEvidenceAndHold(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	causes := []Cause{
-		{Label: "gauge D2", Kind: "gauge_fault", T: 30, Size: 8200, Unit: "N"},
-		{Label: "E A of D2", Kind: "stiffness_change", T: 12, Size: -4.1, Unit: "%"},
-		{Label: "settlement L8 y", Kind: "support_settlement", T: 3, Size: 1.2, Unit: "mm"},
-		{Label: "gauge D3", Kind: "gauge_fault", T: 1, Size: 900, Unit: "N"},
+	causes := []reconcile.RankedCause{
+		{Label: "gauge D2", Kind: reconcile.GaugeFault, T: 30, Size: 8200, Unit: "N"},
+		{Label: "E A of D2", Kind: reconcile.StiffnessChange, T: 12, Size: -4.1, Unit: "%"},
+		{Label: "settlement L8 y", Kind: reconcile.SupportSettlement, T: 3, Size: 1.2, Unit: "mm"},
+		{Label: "gauge D3", Kind: reconcile.GaugeFault, T: 1, Size: 900, Unit: "N"},
 	}
 	ctx := context.Background()
 	obs := func(min int, w float64, members bool) Observation {
@@ -97,8 +98,8 @@ func TestMemberAlarmEvidenceAndHold(t *testing.T) {
 		}
 		var kinds []string
 		for _, e := range events {
-			if e.Rule == "MemberDiverging" {
-				kinds = append(kinds, e.Kind)
+			if e.Rule == RuleMemberDiverging {
+				kinds = append(kinds, string(e.Kind))
 			}
 		}
 		if strings.Join(kinds, ",") != s.want {

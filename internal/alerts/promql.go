@@ -71,7 +71,7 @@ func PrometheusRulesFor(rules []Rule, structures []string) ([]byte, error) {
 			if err := r.Validate(); err != nil {
 				return nil, err
 			}
-			pr := rule{Alert: r.Name, Expr: Expr(r, s), Labels: map[string]string{"severity": r.Severity, "structure": s},
+			pr := rule{Alert: string(r.Name), Expr: Expr(r, s), Labels: map[string]string{"severity": r.Severity, "structure": s},
 				Annotations: map[string]string{"summary": r.Summary, "description": r.Description}}
 			if r.For > 0 && !r.Mean {
 				pr.For = promDuration(r.For)
@@ -146,7 +146,7 @@ func meanExpr(r Rule, s string) string {
 		rng := rec + "[" + promDuration(d) + "]"
 		return fmt.Sprintf("%s > clamp_min(%s / sqrt(count_over_time(%s)), %s)", abs("avg_over_time("+rng+")"), num(z), rng, num(floor))
 	}
-	firing := fmt.Sprintf("ALERTS{alertname=%s, alertstate=\"firing\", structure=%s}", strconv.Quote(r.Name), strconv.Quote(s))
+	firing := fmt.Sprintf("ALERTS{alertname=%s, alertstate=\"firing\", structure=%s}", strconv.Quote(string(r.Name)), strconv.Quote(s))
 	raise := cond(r.For, r.Raise, r.ZRaise)
 	if r.SuppressedBy != "" {
 		// Same scope: the same subject; otherwise any alarm of the structure.
@@ -154,7 +154,7 @@ func meanExpr(r Rule, s string) string {
 		if by, ok := ruleNamed(r.SuppressedBy); !ok || by.Signal.Scope() != r.Signal.Scope() {
 			son = "structure"
 		}
-		raise = fmt.Sprintf("(%s unless on(%s) ALERTS{alertname=%s, alertstate=\"firing\", structure=%s})", raise, son, strconv.Quote(r.SuppressedBy), strconv.Quote(s))
+		raise = fmt.Sprintf("(%s unless on(%s) ALERTS{alertname=%s, alertstate=\"firing\", structure=%s})", raise, son, strconv.Quote(string(r.SuppressedBy)), strconv.Quote(s))
 	}
 	if r.DeferAbove > 0 && r.Signal == SignalAbsW {
 		raise = fmt.Sprintf("(%s unless on(%s) %s > %s)", raise, on, abs(rec), num(r.DeferAbove))
@@ -163,7 +163,7 @@ func meanExpr(r Rule, s string) string {
 }
 
 // ruleNamed returns the default rule of that name.
-func ruleNamed(name string) (Rule, bool) {
+func ruleNamed(name RuleName) (Rule, bool) {
 	rules, err := DefaultRules()
 	if err != nil {
 		return Rule{}, false
@@ -220,7 +220,7 @@ func Expr(r Rule, s string) string {
 	if r.Clear == r.Raise {
 		return raise
 	}
-	firing := fmt.Sprintf("ALERTS{alertname=%s, alertstate=\"firing\", structure=%s}", strconv.Quote(r.Name), strconv.Quote(s))
+	firing := fmt.Sprintf("ALERTS{alertname=%s, alertstate=\"firing\", structure=%s}", strconv.Quote(string(r.Name)), strconv.Quote(s))
 	return fmt.Sprintf("%s\nor\n((%s) %s %s and on(%s) %s)", raise, sig, op, num(r.Clear), on, firing)
 }
 

@@ -302,7 +302,7 @@ func TestPromtoolAgreesWithEvaluator(t *testing.T) {
 			t.Fatal(err)
 		}
 		for _, e := range events {
-			key := e.Rule + "/" + e.Subject
+			key := string(e.Rule) + "/" + e.Subject
 			if e.Kind == Raised {
 				got[key] = append(got[key], [2]int{k, -1})
 			} else {
@@ -423,7 +423,7 @@ func promtoolTestFile(t *testing.T, rules []Rule, sc scenario, firing [][]Alarm)
 	n := 0
 	for k := 0; k < sc.minutes; k++ {
 		for _, r := range rules {
-			at := alertTest{EvalTime: fmt.Sprintf("%dm", k), Alertname: r.Name, ExpAlerts: []alert{}}
+			at := alertTest{EvalTime: fmt.Sprintf("%dm", k), Alertname: string(r.Name), ExpAlerts: []alert{}}
 			for _, a := range firing[k] {
 				if a.Rule != r.Name {
 					continue

@@ -103,19 +103,23 @@ func (s Signal) Scope() Scope {
 	return ScopeStructure
 }
 
+// RuleName is the name of an alarm rule: the Prometheus alert name and the
+// rule of an event.
+type RuleName string
+
 // The monitor's rule names (the Prometheus alert names and the rule of a
 // stored event). Code outside this package names a rule by these constants,
 // never by a string literal.
 const (
-	RuleMemberDiverging = "MemberDiverging"
-	RuleFitRejected     = "FitRejected"
-	RuleChannelSilent   = "ChannelSilent"
-	RuleClockSkew       = "ClockSkew"
-	RuleIngestRejects   = "IngestRejects"
-	RuleCommitsFailing  = "CommitsFailing"
-	RuleMemberShifted   = "MemberShifted"
-	RuleBrokerDown      = "BrokerDisconnected"
-	RuleReconcileDrops  = "ReconcileDropping"
+	RuleMemberDiverging RuleName = "MemberDiverging"
+	RuleFitRejected     RuleName = "FitRejected"
+	RuleChannelSilent   RuleName = "ChannelSilent"
+	RuleClockSkew       RuleName = "ClockSkew"
+	RuleIngestRejects   RuleName = "IngestRejects"
+	RuleCommitsFailing  RuleName = "CommitsFailing"
+	RuleMemberShifted   RuleName = "MemberShifted"
+	RuleBrokerDown      RuleName = "BrokerDisconnected"
+	RuleReconcileDrops  RuleName = "ReconcileDropping"
 )
 
 // counting reports whether the signal is a counter's increase in a window.
@@ -125,7 +129,7 @@ func (s Signal) counting() bool {
 
 // Rule is one alarm rule.
 type Rule struct {
-	Name     string // alert name, one of the Rule... constants
+	Name     RuleName // alert name, one of the Rule... constants
 	Signal   Signal
 	Severity string // "critical", "warning" or "info"
 	// Below selects the direction: the alarm is raised when the signal is
@@ -149,7 +153,7 @@ type Rule struct {
 	// SuppressedBy names a rule whose firing alarm keeps this rule from
 	// raising (one alarm per fault): on the same subject when both rules
 	// have the same scope, on any subject of the structure otherwise.
-	SuppressedBy string
+	SuppressedBy RuleName
 	// DeferAbove, when positive, keeps a mean rule over a member's |w| from
 	// raising while the member's latest |w| exceeds it: a deviation that
 	// large is the business of the rule with the short window (SuppressedBy),
@@ -276,7 +280,7 @@ const (
 )
 
 // RuleUtilisationHigh is the name of the utilisation rule.
-const RuleUtilisationHigh = "MemberUtilisationHigh"
+const RuleUtilisationHigh RuleName = "MemberUtilisationHigh"
 
 // MeanThreshold returns the threshold on the mean of n epochs' standard
 // normal statistics: max(floor, z / sqrt(n)). Without a fault the mean is

@@ -266,8 +266,7 @@ func FuzzDecode(f *testing.F) {
 	})
 }
 
-func appendUvarint(b []byte, v uint64) []byte { return binaryAppendUvarint(b, v) }
-func appendVarint(b []byte, v int64) []byte   { return binaryAppendVarint(b, v) }
+func appendVarint(b []byte, v int64) []byte { return binaryAppendVarint(b, v) }
 
 // benchPoints is an hour of a strain gauge at 1 Hz printed with 8
 // significant digits.

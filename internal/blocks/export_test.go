@@ -3,6 +3,5 @@ package blocks
 import "encoding/binary"
 
 var (
-	binaryAppendUvarint = binary.AppendUvarint
-	binaryAppendVarint  = binary.AppendVarint
+	binaryAppendVarint = binary.AppendVarint
 )

@@ -11,6 +11,7 @@ import (
 
 	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/simulate"
+	"trussmonitor/internal/simulate/simtest"
 	"trussmonitor/internal/structfile"
 )
 
@@ -47,7 +48,7 @@ func bridgeBlocks(b *testing.B, quantise bool) hourBlocks {
 		b.Fatal(err)
 	}
 	h := hourBlocks{}
-	if err := g.Run(func(s simulate.Step) error {
+	if err := simtest.Run(g, func(s simulate.Step) error {
 		for _, r := range s.Readings {
 			v := r.Value
 			if !quantise {

@@ -11,6 +11,7 @@ import (
 	"github.com/chromedp/chromedp"
 
 	"trussmonitor/internal/dashboard/browsertest"
+	"trussmonitor/internal/reconcile"
 )
 
 // TestBrowserFootbridge drives the page in headless Chromium over the
@@ -83,10 +84,10 @@ func TestBrowserFootbridge(t *testing.T) {
 	src.addEvent(Event{
 		Time: t0.Add(45 * time.Second), Rule: "member_residual", Subject: "D2", Kind: "raised",
 		W: 5.2, Size: 3050, SizeUnit: "N", Message: "D2 strays from prediction",
-		Causes: []Cause{
-			{Kind: "gauge_fault", Subject: "D2-a", T: 27.0, Size: 3050, Unit: "N"},
-			{Kind: "stiffness_change", Subject: "D2", T: 22.4, Size: -0.07, Unit: "1"},
-			{Kind: "node_load", Subject: "L2", T: 8.8, Size: 5100, Unit: "N"},
+		Causes: []reconcile.RankedCause{
+			{Kind: reconcile.GaugeFault, Subject: "D2-a", T: 27.0, Size: 3050, Unit: "N"},
+			{Kind: reconcile.StiffnessChange, Subject: "D2", T: 22.4, Size: -0.07, Unit: "1"},
+			{Kind: reconcile.NodalLoad, Subject: "L2", T: 8.8, Size: 5100, Unit: "N"},
 		},
 	})
 	browsertest.WaitJS(t, ctx, 20*time.Second, "D2 in alarm", `document.querySelector('#truss line[data-member="D2"]').getAttribute('data-state') === 'alarm'`)

@@ -10,6 +10,7 @@ import (
 	"strings"
 	"testing"
 	"time"
+	"trussmonitor/internal/reconcile"
 )
 
 var t0 = time.Date(2026, 6, 14, 9, 0, 0, 0, time.UTC)
@@ -29,10 +30,10 @@ func fixture(t testing.TB) (*memSource, http.Handler) {
 	src.addEvent(Event{
 		Time: t0.Add(53 * time.Second), Rule: "member_residual", Subject: "D2", Kind: "raised",
 		W: 5.3, Size: 3100, SizeUnit: "N", Message: "D2 strays from prediction",
-		Causes: []Cause{
-			{Kind: "gauge_fault", Subject: "D2-a", T: 28.1, Size: 3100, Unit: "N"},
-			{Kind: "stiffness_change", Subject: "D2", T: 24.9, Size: -0.08, Unit: "1"},
-			{Kind: "node_load", Subject: "L2", T: 9.2, Size: 5200, Unit: "N"},
+		Causes: []reconcile.RankedCause{
+			{Kind: reconcile.GaugeFault, Subject: "D2-a", T: 28.1, Size: 3100, Unit: "N"},
+			{Kind: reconcile.StiffnessChange, Subject: "D2", T: 24.9, Size: -0.08, Unit: "1"},
+			{Kind: reconcile.NodalLoad, Subject: "L2", T: 9.2, Size: 5200, Unit: "N"},
 		},
 	})
 	h := New(src, Options{Now: func() time.Time { return t0.Add(60 * time.Second) }})
@@ -337,13 +338,13 @@ func TestStateAlarmsJSON(t *testing.T) {
 	last := &src.history[len(src.history)-1]
 	revised := last.Epoch
 	last.Alarms = []ActiveAlarm{{Rule: "MemberDiverging", Subject: "D2", Since: t0.Add(48 * time.Second), FiredAt: t0.Add(53 * time.Second),
-		Causes: []Cause{
-			{Kind: "gauge_fault", Subject: "D2", Label: "gauge D2", T: 410, Size: 3050, Unit: "N", Std: 40, Group: 1},
-			{Kind: "stiffness_change", Subject: "D2", Label: "E A of D2", T: 410, Size: -29.6, Unit: "%", Std: 0.3, Group: 1},
+		Causes: []reconcile.RankedCause{
+			{Kind: reconcile.GaugeFault, Subject: "D2", Label: "gauge D2", T: 410, Size: 3050, Unit: "N", Std: 40, Group: 1},
+			{Kind: reconcile.StiffnessChange, Subject: "D2", Label: "E A of D2", T: 410, Size: -29.6, Unit: "%", Std: 0.3, Group: 1},
 		},
 		CausesAt:   revised,
 		LoadShifts: []LoadShift{{Pattern: "crowd", Value: -0.41, Mean: 0.02, StdDev: 0.03, Unit: "kPa", Z: -9.8}}}}
-	last.Adapted = &AdaptedFit{Hypotheses: []Cause{{Kind: "stiffness_change", Subject: "D2", Label: "E A of D2", Size: -29.9, Unit: "%", Std: 0.6}},
+	last.Adapted = &AdaptedFit{Hypotheses: []reconcile.RankedCause{{Kind: reconcile.StiffnessChange, Subject: "D2", Label: "E A of D2", Size: -29.9, Unit: "%", Std: 0.6}},
 		ChiSquare: 12.5, DOF: 6, PValue: 0.052}
 	last.Gauged[0].WNominal = 4.4
 	for i := 1; i < len(last.Gauged); i++ {

@@ -17,6 +17,8 @@ import (
 	"context"
 	"errors"
 	"time"
+	"trussmonitor/internal/alerts"
+	"trussmonitor/internal/reconcile"
 )
 
 // Caution is the safety text shown on the page and returned in every state
@@ -89,14 +91,15 @@ type State struct {
 // ActiveAlarm is one firing alarm.
 type ActiveAlarm struct {
 	// Rule and Subject name the alarm.
-	Rule, Subject string
+	Rule    alerts.RuleName
+	Subject string
 	// Since is when its raise condition first held, FiredAt when it was
 	// raised.
 	Since, FiredAt time.Time
 	// Causes are its causes in separability groups; for a statistical
 	// alarm their sizes are estimated over the epochs since the fault
 	// began, as of CausesAt (zero: as of the raise).
-	Causes   []Cause
+	Causes   []reconcile.RankedCause
 	CausesAt time.Time
 	// LoadShifts are the unknown-load estimates that left their recent
 	// distribution when the alarm rose: they may be absorbing the fault.
@@ -121,7 +124,7 @@ type LoadShift struct {
 type AdaptedFit struct {
 	// Hypotheses are the carried hypotheses with their sizes in the
 	// adapted fit (Cause.T is 0: they are parameters, not tests).
-	Hypotheses []Cause
+	Hypotheses []reconcile.RankedCause
 	// ChiSquare, DOF, PValue and Rejected are the adapted fit's global test.
 	ChiSquare float64
 	DOF       int
@@ -282,12 +285,12 @@ type Event struct {
 	// Time the event happened.
 	Time time.Time
 	// Rule is the alarm rule's name.
-	Rule string
+	Rule alerts.RuleName
 	// Subject is what the rule is about: a member, gauge, channel or the
 	// structure.
 	Subject string
-	// Kind is "raised" or "cleared".
-	Kind string
+	// Kind says whether the event raised or cleared its alarm.
+	Kind alerts.EventKind
 	// W is the normalised residual that raised it (0 when not applicable).
 	W float64
 	// Size is the estimated size of the deviation in SizeUnit.
@@ -297,34 +300,10 @@ type Event struct {
 	// Message is a one-line human-readable summary.
 	Message string
 	// Causes are the top-ranked candidate causes, best first.
-	Causes []Cause
+	Causes []reconcile.RankedCause
 	// CausesAt is the epoch of the latest revision of a raised event's
 	// causes while its alarm was active (zero: the raising epoch's).
 	CausesAt time.Time
 	// LoadShifts are the unknown loads flagged when the alarm rose.
 	LoadShifts []LoadShift
-}
-
-// Cause is one ranked candidate cause of a rejection.
-type Cause struct {
-	// Kind is the signature's kind, e.g. "gauge_fault", "stiffness_change",
-	// "support_settlement", "node_load".
-	Kind string
-	// Subject is the gauge, member, support or node concerned.
-	Subject string
-	// T is the test statistic T_c = (c^T W e)^2 / (c^T W Q_e W c).
-	T float64
-	// Size is the estimated size (c^T W e) / (c^T W Q_e W c) in Unit.
-	Size float64
-	// Unit of Size, e.g. "N", "1" (relative EA change), "m".
-	Unit string
-	// Label is the cause as worded by the monitor ("E A of D2").
-	Label string
-	// Std is the standard deviation of Size (0: not given); Group the
-	// separability group from 1 (causes of one group cannot be told apart
-	// and carry no order; 0: not grouped); Implausible marks a size
-	// outside its plausible range.
-	Std         float64
-	Group       int
-	Implausible bool
 }

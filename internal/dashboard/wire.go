@@ -3,6 +3,8 @@ package dashboard
 import (
 	"math"
 	"time"
+	"trussmonitor/internal/alerts"
+	"trussmonitor/internal/reconcile"
 )
 
 // The JSON wire format of the API. Non-finite numbers (NaN, +-Inf) are
@@ -196,6 +198,8 @@ type eventJSON struct {
 }
 
 type causeJSON struct {
+	// Text is the cause's wording (alerts.CauseText).
+	Text        string `json:"text"`
 	Kind        string `json:"kind"`
 	Subject     string `json:"subject"`
 	Label       string `json:"label"`
@@ -271,7 +275,7 @@ func toStateJSON(s State) stateJSON {
 	}
 	out.Alarms = make([]activeAlarmJSON, 0, len(s.Alarms))
 	for _, a := range s.Alarms {
-		out.Alarms = append(out.Alarms, activeAlarmJSON{Rule: a.Rule, Subject: a.Subject, Since: timeText(a.Since), FiredAt: timeText(a.FiredAt),
+		out.Alarms = append(out.Alarms, activeAlarmJSON{Rule: string(a.Rule), Subject: a.Subject, Since: timeText(a.Since), FiredAt: timeText(a.FiredAt),
 			Causes: toCausesJSON(a.Causes), CausesAt: optTime(a.CausesAt), LoadShifts: toLoadShiftsJSON(a.LoadShifts)})
 	}
 	if a := s.Adapted; a != nil {
@@ -280,10 +284,10 @@ func toStateJSON(s State) stateJSON {
 	return out
 }
 
-func toCausesJSON(cs []Cause) []causeJSON {
+func toCausesJSON(cs []reconcile.RankedCause) []causeJSON {
 	out := make([]causeJSON, 0, len(cs))
 	for _, c := range cs {
-		out = append(out, causeJSON{Kind: c.Kind, Subject: c.Subject, Label: c.Label, T: n(c.T), Size: n(c.Size), Unit: c.Unit,
+		out = append(out, causeJSON{Text: alerts.CauseText(c), Kind: c.Kind.String(), Subject: c.Subject, Label: c.Label, T: n(c.T), Size: n(c.Size), Unit: c.Unit,
 			Std: n(c.Std), Group: c.Group, Implausible: c.Implausible})
 	}
 	return out
@@ -308,9 +312,9 @@ func toSeriesPointJSON(p SeriesPoint, k float64) seriesPointJSON {
 
 func toEventJSON(e Event) eventJSON {
 	out := eventJSON{
-		Time: timeText(e.Time), Rule: e.Rule, Subject: e.Subject, Kind: e.Kind,
+		Time: timeText(e.Time), Rule: string(e.Rule), Subject: e.Subject, Kind: string(e.Kind),
 		W: n(e.W), Size: n(e.Size), SizeUnit: e.SizeUnit, Message: e.Message,
-		Causes: toCausesJSON(e.Causes), CausesAt: optTime(e.CausesAt), LoadShifts: toLoadShiftsJSON(e.LoadShifts),
+		Causes: toCausesJSON(alerts.ShownCauses(e.Causes)), CausesAt: optTime(e.CausesAt), LoadShifts: toLoadShiftsJSON(e.LoadShifts),
 	}
 	return out
 }

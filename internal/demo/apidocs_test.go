@@ -196,7 +196,7 @@ func TestAPIDocsMatchService(t *testing.T) {
 		raised := false
 		for _, e := range events.(map[string]any)["events"].([]any) {
 			ev := e.(map[string]any)
-			if ev["rule"] == "MemberDiverging" && ev["subject"] == "D2" && ev["kind"] == "raised" && len(ev["causes"].([]any)) > 0 {
+			if ev["rule"] == string(alerts.RuleMemberDiverging) && ev["subject"] == "D2" && ev["kind"] == string(alerts.Raised) && len(ev["causes"].([]any)) > 0 {
 				raised = true
 			}
 		}
@@ -235,7 +235,7 @@ func TestAPIDocsMatchService(t *testing.T) {
 	}
 	ruleNames := map[string]bool{}
 	for _, r := range rules {
-		ruleNames[r.Name] = true
+		ruleNames[string(r.Name)] = true
 	}
 	causeKinds, causeUnits := map[string]bool{}, map[string]bool{}
 	for k := reconcile.GaugeFault; k <= reconcile.ChannelBias; k++ {
@@ -249,7 +249,7 @@ func TestAPIDocsMatchService(t *testing.T) {
 		if !ruleNames[ev["rule"].(string)] {
 			t.Errorf("docs/api.md: event rule %q is not a rule of the service (%v)", ev["rule"], ruleNames)
 		}
-		if k := ev["kind"].(string); k != alerts.Raised && k != alerts.Cleared {
+		if k := ev["kind"].(string); k != string(alerts.Raised) && k != string(alerts.Cleared) {
 			t.Errorf("docs/api.md: event kind %q", k)
 		}
 		for _, c := range ev["causes"].([]any) {

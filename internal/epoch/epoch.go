@@ -25,15 +25,16 @@ package epoch
 import (
 	"errors"
 	"fmt"
+	"maps"
 	"math"
 	"slices"
 	"sort"
 	"time"
 )
 
-// Reading is one value of one channel at the logger's time. It has the same
-// fields as store.Reading, so a store.Reading converts with Reading(r).
-type Reading struct {
+// Sample is one channel's value in engineering units (after the sensor
+// map's calibration) at the logger's time.
+type Sample struct {
 	Channel string
 	Time    time.Time
 	Value   float64
@@ -132,10 +133,12 @@ type Observer interface {
 	ReadingsHandled(structure, outcome string, n int)
 }
 
+// acc is an open epoch: per expected channel (by its place in name order)
+// the sum and count of its readings.
 type acc struct {
 	index int64
-	sum   map[string]float64
-	n     map[string]int
+	sum   []float64
+	n     []int
 	full  int // expected channels with their expected number of readings
 }
 
@@ -148,6 +151,12 @@ type Assembler struct {
 	expected map[string]bool
 	need     map[string]int // readings per epoch that complete each expected channel
 	window   int64          // ns
+	// The expected channels in name order, their places in it, and the
+	// readings that complete each.
+	names  []string
+	place  map[string]int
+	needAt []int
+	spare  []*acc // closed epochs' accumulators, for reuse
 
 	open       []*acc // by index, ascending
 	closedUpTo int64  // every epoch with index <= closedUpTo is closed
@@ -198,6 +207,13 @@ func New(cfg Config, clock func() time.Time, obs Observer) (*Assembler, error) {
 		}
 		a.need[c] = n
 	}
+	a.names = slices.Sorted(maps.Keys(a.expected))
+	a.place = make(map[string]int, len(a.names))
+	a.needAt = make([]int, len(a.names))
+	for i, c := range a.names {
+		a.place[c] = i
+		a.needAt[i] = a.need[c]
+	}
 	a.stats.LateByChannel = map[string]int64{}
 	return a, nil
 }
@@ -212,12 +228,13 @@ func floorDiv(a, b int64) int64 {
 }
 
 // Add assembles one reading and returns the epochs it closed, oldest first.
-func (a *Assembler) Add(r Reading) []Epoch {
+func (a *Assembler) Add(r Sample) []Epoch {
 	if math.IsNaN(r.Value) || math.IsInf(r.Value, 0) {
 		a.stats.NotFinite++
 		return nil
 	}
-	if !a.expected[r.Channel] {
+	ch, ok := a.place[r.Channel]
+	if !ok {
 		a.stats.Unexpected++
 		return nil
 	}
@@ -243,11 +260,11 @@ func (a *Assembler) Add(r Reading) []Epoch {
 		return nil
 	}
 	e := a.epochAt(k)
-	if e.n[r.Channel]+1 == a.need[r.Channel] {
+	if e.n[ch]+1 == a.needAt[ch] {
 		e.full++
 	}
-	e.sum[r.Channel] += r.Value
-	e.n[r.Channel]++
+	e.sum[ch] += r.Value
+	e.n[ch]++
 	a.stats.Readings++
 	if !a.seen || ts > a.maxEvent {
 		a.maxEvent, a.seen = ts, true
@@ -264,7 +281,16 @@ func (a *Assembler) epochAt(k int64) *acc {
 	if i < len(a.open) && a.open[i].index == k {
 		return a.open[i]
 	}
-	e := &acc{index: k, sum: map[string]float64{}, n: map[string]int{}}
+	var e *acc
+	if last := len(a.spare) - 1; last >= 0 {
+		e = a.spare[last]
+		a.spare = a.spare[:last]
+		clear(e.sum)
+		clear(e.n)
+		e.index, e.full = k, 0
+	} else {
+		e = &acc{index: k, sum: make([]float64, len(a.names)), n: make([]int, len(a.names))}
+	}
 	a.open = slices.Insert(a.open, i, e)
 	return e
 }
@@ -342,23 +368,32 @@ func (a *Assembler) Stats() Stats {
 	return s
 }
 
+// emit builds the closed epoch of e (channels, missing and short ones in
+// name order) and keeps e for reuse.
 func (a *Assembler) emit(e *acc, reason string) Epoch {
 	start := time.Unix(0, e.index*a.window).UTC()
 	ep := Epoch{Structure: a.cfg.Structure, Start: start, End: start.Add(a.cfg.Window), Reason: reason}
-	for c, n := range e.n {
-		ep.Channels = append(ep.Channels, ChannelMean{Channel: c, Mean: e.sum[c] / float64(n), N: n})
-	}
-	sort.Slice(ep.Channels, func(i, j int) bool { return ep.Channels[i].Channel < ep.Channels[j].Channel })
-	for _, c := range a.cfg.Expected {
-		switch n := e.n[c]; {
-		case n == 0:
-			ep.Missing = append(ep.Missing, c)
-		case n < a.need[c]:
-			ep.Short = append(ep.Short, c)
+	reported := 0
+	for _, n := range e.n {
+		if n > 0 {
+			reported++
 		}
 	}
-	sort.Strings(ep.Missing)
-	sort.Strings(ep.Short)
+	if reported > 0 {
+		ep.Channels = make([]ChannelMean, 0, reported)
+	}
+	for i, c := range a.names {
+		switch n := e.n[i]; {
+		case n == 0:
+			ep.Missing = append(ep.Missing, c)
+		default:
+			ep.Channels = append(ep.Channels, ChannelMean{Channel: c, Mean: e.sum[i] / float64(n), N: n})
+			if n < a.needAt[i] {
+				ep.Short = append(ep.Short, c)
+			}
+		}
+	}
+	a.spare = append(a.spare, e)
 	a.stats.Epochs++
 	if len(ep.Missing) > 0 || len(ep.Short) > 0 {
 		a.stats.Incomplete++

@@ -124,7 +124,7 @@ func TestAssembler(t *testing.T) {
 			a := mustNew(t, c.cfg, nil)
 			var got []Epoch
 			for _, r := range c.input {
-				got = append(got, a.Add(Reading{r.ch, at(r.ms), r.v})...)
+				got = append(got, a.Add(Sample{r.ch, at(r.ms), r.v})...)
 			}
 			if d := describe(got); d != c.want {
 				t.Errorf("epochs\n got %s\nwant %s", d, c.want)
@@ -144,7 +144,7 @@ func TestIdleFlushAndSkew(t *testing.T) {
 	clock := func() time.Time { return now } // injected receiver clock
 	a := mustNew(t, Config{MaxLateness: 2 * time.Second, IdleFlush: 5 * time.Second,
 		MaxFuture: time.Minute, MaxPast: time.Hour}, clock)
-	a.Add(Reading{"g1", at(100), 1})
+	a.Add(Sample{"g1", at(100), 1})
 	if es := a.Tick(); len(es) != 0 {
 		t.Fatalf("closed too early: %s", describe(es))
 	}
@@ -158,11 +158,11 @@ func TestIdleFlushAndSkew(t *testing.T) {
 		t.Fatalf("idle flush: %s", describe(es))
 	}
 	// A reading for the flushed epoch is now late.
-	a.Add(Reading{"g2", at(200), 1})
+	a.Add(Sample{"g2", at(200), 1})
 	// Clock skew: a logger a day ahead must not move the watermark.
-	a.Add(Reading{"g1", now.Add(24 * time.Hour), 1})
-	a.Add(Reading{"g1", now.Add(-2 * time.Hour), 1})
-	a.Add(Reading{"g1", now.Add(30 * time.Second), 1}) // within MaxFuture
+	a.Add(Sample{"g1", now.Add(24 * time.Hour), 1})
+	a.Add(Sample{"g1", now.Add(-2 * time.Hour), 1})
+	a.Add(Sample{"g1", now.Add(30 * time.Second), 1}) // within MaxFuture
 	s := a.Stats()
 	if s.Late != 1 || s.Future != 1 || s.Past != 1 || s.Readings != 2 || s.LateByChannel["g2"] != 1 {
 		t.Fatalf("stats %+v", s)
@@ -192,14 +192,14 @@ func TestConfigErrors(t *testing.T) {
 func TestDeterministic(t *testing.T) {
 	rng := rand.New(rand.NewPCG(1, 2))
 	chans := []string{"g1", "g2", "g3", "t1"}
-	var rs []Reading
+	var rs []Sample
 	for i := range 20000 {
 		c := chans[rng.IntN(len(chans))]
 		if rng.IntN(50) == 0 {
 			continue // a gap
 		}
 		jitter := rng.IntN(3000) - 1500 // out of order by up to 1.5 s
-		rs = append(rs, Reading{c, at(i*2 + jitter), rng.NormFloat64()})
+		rs = append(rs, Sample{c, at(i*2 + jitter), rng.NormFloat64()})
 	}
 	run := func() ([]Epoch, Stats) {
 		a := mustNew(t, Config{MaxLateness: time.Second, Expected: chans, ExpectedSamples: 100}, nil)
@@ -237,9 +237,9 @@ func ExampleAssembler() {
 		Expected:    []string{"g1", "g2"},
 	}, nil, nil)
 	t0 := time.Date(2026, 3, 1, 12, 0, 0, 0, time.UTC)
-	a.Add(Reading{"g1", t0.Add(100 * time.Millisecond), 101.0})
-	a.Add(Reading{"g1", t0.Add(600 * time.Millisecond), 103.0})
-	for _, e := range a.Add(Reading{"g2", t0.Add(700 * time.Millisecond), -40.0}) {
+	a.Add(Sample{"g1", t0.Add(100 * time.Millisecond), 101.0})
+	a.Add(Sample{"g1", t0.Add(600 * time.Millisecond), 103.0})
+	for _, e := range a.Add(Sample{"g2", t0.Add(700 * time.Millisecond), -40.0}) {
 		g1, _ := e.Mean("g1")
 		g2, _ := e.Mean("g2")
 		fmt.Println(e.Start.Format(time.TimeOnly), e.Reason, g1, g2)
@@ -292,7 +292,7 @@ func TestHighRateChannels(t *testing.T) {
 			sort.SliceStable(in, func(i, j int) bool { return in[i].ns < in[j].ns })
 			var out []Epoch
 			for _, s := range in {
-				out = append(out, a.Add(Reading{Channel: s.ch, Time: t0.Add(time.Duration(s.ns)), Value: s.v})...)
+				out = append(out, a.Add(Sample{Channel: s.ch, Time: t0.Add(time.Duration(s.ns)), Value: s.v})...)
 			}
 			closedEarly := len(out)
 			out = append(out, a.Flush()...)
@@ -332,4 +332,27 @@ func TestHighRateChannels(t *testing.T) {
 			}
 		})
 	}
+}
+
+// BenchmarkAssemble100Channels: readings of 100 channels at one a second
+// into 1 s epochs, in time and channel order (as a replay feeds them);
+// reports readings per second.
+func BenchmarkAssemble100Channels(b *testing.B) {
+	var chans []string
+	for i := range 100 {
+		chans = append(chans, fmt.Sprintf("ch%03d", i))
+	}
+	a, err := New(Config{Structure: "s", Window: time.Second, MaxLateness: 2 * time.Second, Expected: chans}, nil, nil)
+	if err != nil {
+		b.Fatal(err)
+	}
+	t0 := time.Date(2026, 6, 1, 0, 0, 0, 0, time.UTC)
+	n := 0
+	b.ReportAllocs()
+	for b.Loop() {
+		sec := n / len(chans)
+		a.Add(Sample{Channel: chans[n%len(chans)], Time: t0.Add(time.Duration(sec) * time.Second), Value: float64(n)})
+		n++
+	}
+	b.ReportMetric(float64(b.N)/b.Elapsed().Seconds(), "readings/s")
 }

@@ -11,7 +11,6 @@ import (
 	"fmt"
 	"math"
 	"sort"
-	"strings"
 	"sync"
 	"time"
 
@@ -182,21 +181,11 @@ func (e *entry) reviseRecent(active []alerts.Alarm) {
 		for i := len(e.recent) - 1; i >= 0; i-- {
 			ev := &e.recent[i]
 			if ev.Kind == alerts.Raised && ev.Rule == a.Rule && ev.Subject == a.Subject && ev.Time.Equal(a.FiredAt) {
-				ev.Causes, ev.CausesAt = dashboardCauses(a.Causes), a.CausesAt
+				ev.Causes, ev.CausesAt = a.Causes, a.CausesAt
 				break
 			}
 		}
 	}
-}
-
-// dashboardCauses converts alarm causes for the dashboard.
-func dashboardCauses(cs []alerts.Cause) []dashboard.Cause {
-	out := make([]dashboard.Cause, 0, len(cs))
-	for _, c := range cs {
-		out = append(out, dashboard.Cause{Kind: c.Kind, Subject: causeSubject(c.Label), Label: c.Label, T: c.T, Size: c.Size, Unit: c.Unit,
-			Std: c.Std, Group: c.Group, Implausible: c.Implausible})
-	}
-	return out
 }
 
 // loadShifts presents flagged unknown loads in their pattern's
@@ -218,34 +207,17 @@ func (e *entry) loadShifts(ls []alerts.LoadShift) []dashboard.LoadShift {
 }
 
 func (e *entry) dashboardEvent(ev alerts.Event) dashboard.Event {
-	d := dashboard.Event{Time: ev.Time, Rule: ev.Rule, Subject: ev.Subject, Kind: ev.Kind, W: ev.Evidence.W, Size: ev.Evidence.Bias}
+	d := dashboard.Event{Time: ev.Time, Rule: ev.Rule, Subject: ev.Subject, Kind: ev.Kind, W: nan(), Size: nan()}
 	// Only a member's event has a w and an estimated gauge bias; the others
 	// show none (NaN is written as null).
-	if ev.Evidence.W == 0 {
-		d.W = nan()
-	}
-	if ev.Evidence.Bias != 0 {
-		d.SizeUnit = "N"
-	} else {
-		d.Size = nan()
+	if w, bias, ok := ev.MemberFigures(); ok {
+		d.W, d.Size, d.SizeUnit = w, bias, "N"
 	}
 	d.Message = alerts.Message(ev)
-	d.Causes = dashboardCauses(ev.Evidence.Causes)
+	d.Causes = ev.Evidence.Causes
 	d.CausesAt = ev.Evidence.CausesAt
 	d.LoadShifts = e.loadShifts(ev.Evidence.LoadShifts)
 	return d
-}
-
-// causeSubject returns what a cause label is about: "gauge D2" -> "D2",
-// "E A of D2" -> "D2", "settlement L8 y" -> "L8 y", "load at U2 y" -> "U2 y"
-// (the labels the pipeline gives its candidates).
-func causeSubject(label string) string {
-	for _, p := range []string{"gauge ", "E A of ", "settlement ", "load at "} {
-		if rest, ok := strings.CutPrefix(label, p); ok {
-			return rest
-		}
-	}
-	return label
 }
 
 // Structures lists the registered structures in registration order.
@@ -293,13 +265,11 @@ func (l *Live) State(name string) (dashboard.State, error) {
 	}
 	for _, a := range r.Active {
 		st.Alarms = append(st.Alarms, dashboard.ActiveAlarm{Rule: a.Rule, Subject: a.Subject, Since: a.Since, FiredAt: a.FiredAt,
-			Causes: dashboardCauses(a.Causes), CausesAt: a.CausesAt, LoadShifts: e.loadShifts(a.LoadShifts)})
+			Causes: a.Causes, CausesAt: a.CausesAt, LoadShifts: e.loadShifts(a.LoadShifts)})
 	}
 	if ad := r.Adapted; ad != nil {
 		st.Adapted = &dashboard.AdaptedFit{ChiSquare: ad.ChiSquare, DOF: ad.DOF, PValue: ad.PValue, Rejected: ad.Rejected}
-		for _, h := range ad.Hypotheses {
-			st.Adapted.Hypotheses = append(st.Adapted.Hypotheses, dashboard.Cause{Kind: h.Kind, Subject: h.Subject, Label: h.Label, Size: h.Size, Unit: h.Unit, Std: h.Std})
-		}
+		st.Adapted.Hypotheses = ad.Estimable()
 	}
 	st.Fit.ChiSquare, st.Fit.DOF, st.Fit.PValue, st.Fit.Rejected = r.ChiSquare, r.DOF, r.PValue, r.Rejected
 	for _, ld := range r.Loads {
@@ -361,7 +331,7 @@ func (l *Live) Events(ctx context.Context, name string, from, to time.Time) ([]d
 			if err := json.Unmarshal(se.Evidence, &ev); err != nil {
 				return nil, fmt.Errorf("structure %q: event %s/%s at %s: evidence: %w", name, se.Rule, se.Subject, se.Time, err)
 			}
-			out = append(out, e.dashboardEvent(alerts.Event{Structure: se.Structure, Rule: se.Rule, Subject: se.Subject, Kind: se.Kind, Time: se.Time, Evidence: ev}))
+			out = append(out, e.dashboardEvent(alerts.Event{Structure: se.Structure, Rule: alerts.RuleName(se.Rule), Subject: se.Subject, Kind: alerts.EventKind(se.Kind), Time: se.Time, Evidence: ev}))
 		}
 		// The store holds a revision at most a minute old; the active
 		// alarms in memory hold this epoch's.

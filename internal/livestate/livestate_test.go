@@ -59,16 +59,16 @@ func TestLiveState(t *testing.T) {
 	for i := 0; i < 5; i++ {
 		var active []alerts.Alarm
 		if i == 4 {
-			active = []alerts.Alarm{{Rule: "MemberDiverging", Subject: "B2"}}
+			active = []alerts.Alarm{{Rule: alerts.RuleMemberDiverging, Subject: "B2"}}
 		}
 		r := result(p, t0.Add(time.Duration(i)*time.Second), float64(i), active)
 		if i == 4 {
-			r.Events = []alerts.Event{{Structure: "alder-creek", Rule: "MemberDiverging", Subject: "B2", Kind: "raised", Time: r.Time, Evidence: alerts.Evidence{W: 4, Causes: []alerts.Cause{{Label: "gauge B2", Kind: "gauge_fault", T: 16, Size: 200, Unit: "N"}}}}}
+			r.Events = []alerts.Event{{Structure: "alder-creek", Rule: alerts.RuleMemberDiverging, Subject: "B2", Kind: alerts.Raised, Time: r.Time, Evidence: alerts.Evidence{W: 4, Causes: []reconcile.RankedCause{{Label: "gauge B2", Subject: "B2", Kind: reconcile.GaugeFault, T: 16, Size: 200, Unit: "N"}}}}}
 		}
 		sink.Epoch(r)
 	}
 	// A skipped epoch keeps the last fitted state.
-	sink.Epoch(&pipeline.Result{EpochResult: &reconcile.EpochResult{Structure: "alder-creek", Time: t0.Add(5 * time.Second), Outcome: reconcile.OutcomeSkipped}, Active: []alerts.Alarm{{Rule: "MemberDiverging", Subject: "B2"}}})
+	sink.Epoch(&pipeline.Result{EpochResult: &reconcile.EpochResult{Structure: "alder-creek", Time: t0.Add(5 * time.Second), Outcome: reconcile.OutcomeSkipped}, Active: []alerts.Alarm{{Rule: alerts.RuleMemberDiverging, Subject: "B2"}}})
 	s, err := l.State("alder-creek")
 	if err != nil {
 		t.Fatal(err)
@@ -88,7 +88,7 @@ func TestLiveState(t *testing.T) {
 		t.Errorf("series: %+v", ser.Points)
 	}
 	evs, err := l.Events(context.Background(), "alder-creek", t0, t0.Add(time.Minute))
-	if err != nil || len(evs) != 1 || evs[0].Subject != "B2" || len(evs[0].Causes) != 1 || evs[0].Causes[0].Subject != "B2" || evs[0].Causes[0].Kind != "gauge_fault" {
+	if err != nil || len(evs) != 1 || evs[0].Subject != "B2" || len(evs[0].Causes) != 1 || evs[0].Causes[0].Subject != "B2" || evs[0].Causes[0].Kind != reconcile.GaugeFault {
 		t.Errorf("events: %+v, %v", evs, err)
 	}
 	if !math.IsNaN(evs[0].Size) {
@@ -116,8 +116,8 @@ func (s storedEvents) Events(ctx context.Context, structure string, from, to tim
 func TestLiveAlarmRevision(t *testing.T) {
 	st, p := footbridge(t)
 	t0 := time.Date(2026, 6, 1, 12, 0, 0, 0, time.UTC)
-	raisedCauses := []alerts.Cause{{Label: "E A of D2", Kind: "stiffness_change", T: 60, Size: -26, Std: 2, Unit: "%", Group: 1}}
-	revised := []alerts.Cause{{Label: "E A of D2", Kind: "stiffness_change", T: 900, Size: -29.6, Std: 0.1, Unit: "%", Group: 1}}
+	raisedCauses := []reconcile.RankedCause{{Subject: "D2", Label: "E A of D2", Kind: reconcile.StiffnessChange, T: 60, Size: -26, Std: 2, Unit: "%", Group: 1}}
+	revised := []reconcile.RankedCause{{Subject: "D2", Label: "E A of D2", Kind: reconcile.StiffnessChange, T: 900, Size: -29.6, Std: 0.1, Unit: "%", Group: 1}}
 	shift := []alerts.LoadShift{{Pattern: "crowd", Value: -0.5, Mean: 0.02, Std: 0.01, Z: -7}}
 	raised := alerts.Event{Structure: "alder-creek", Rule: alerts.RuleMemberDiverging, Subject: "D2", Kind: alerts.Raised, Time: t0,
 		Evidence: alerts.Evidence{Signal: "abs_w", W: 6, Causes: raisedCauses, LoadShifts: shift}}
@@ -128,7 +128,7 @@ func TestLiveAlarmRevision(t *testing.T) {
 	for _, stored := range []bool{false, true} {
 		var es EventStore
 		if stored {
-			es = storedEvents{{Structure: "alder-creek", Rule: raised.Rule, Subject: "D2", Kind: store.Raised, Time: t0, Evidence: evidence}}
+			es = storedEvents{{Structure: "alder-creek", Rule: string(raised.Rule), Subject: "D2", Kind: store.Raised, Time: t0, Evidence: evidence}}
 		}
 		l := New(es, 10)
 		sink := l.Register(st, p, 0.001)
@@ -138,7 +138,7 @@ func TestLiveAlarmRevision(t *testing.T) {
 		later := t0.Add(time.Hour)
 		r = result(p, later, 0.5, []alerts.Alarm{{Rule: raised.Rule, Subject: "D2", Since: t0.Add(-2 * time.Minute), FiredAt: t0, Identifies: true,
 			Causes: revised, CausesAt: later, LoadShifts: shift}})
-		r.Adapted = &reconcile.AdaptedFit{Hypotheses: []reconcile.RankedCause{{Kind: "stiffness_change", Subject: "D2", Label: "E A of D2", Size: -29.8, Std: 0.4, Unit: "%"}}, ChiSquare: 15, DOF: 16, PValue: 0.52}
+		r.Adapted = &reconcile.AdaptedFit{Hypotheses: []reconcile.RankedCause{{Kind: reconcile.StiffnessChange, Subject: "D2", Label: "E A of D2", Size: -29.8, Std: 0.4, Unit: "%", Separable: true}}, ChiSquare: 15, DOF: 16, PValue: 0.52}
 		for i := range r.Members {
 			r.Members[i].WNominal = 7
 		}

@@ -39,7 +39,7 @@ func adaptAfter(p *reconcile.Processor, res *Result) {
 		for _, c := range causes {
 			// A drift is tested over an alarm's epochs only (its gauge's
 			// bias is the per-epoch candidate carried).
-			if c.Group == 1 && c.Kind != reconcile.ChannelBias.String() && c.Kind != reconcile.GaugeDrift.String() {
+			if c.Group == 1 && c.Kind != reconcile.ChannelBias && c.Kind != reconcile.GaugeDrift {
 				p.Adapt(c.Label, keep)
 			}
 		}
@@ -57,7 +57,7 @@ func adaptAfter(p *reconcile.Processor, res *Result) {
 
 // adapting reports whether an alarm of the rule makes the fit carry its
 // causes: the statistical rules.
-func adapting(rule string) bool {
+func adapting(rule alerts.RuleName) bool {
 	return rule == alerts.RuleMemberDiverging || rule == alerts.RuleFitRejected || rule == alerts.RuleMemberShifted
 }
 

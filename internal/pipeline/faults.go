@@ -18,7 +18,7 @@ import (
 const ReviseInterval = 10 * time.Second
 
 // faultKey names an alarm's fault tracker in the Processor.
-func faultKey(rule, subject string) string { return rule + "\x00" + subject }
+func faultKey(rule alerts.RuleName, subject string) string { return string(rule) + "\x00" + subject }
 
 // reviseAlarms tracks the faults of the active statistical alarms
 // (reconcile.Processor.TrackFault) and, on a fitted epoch at least
@@ -42,22 +42,12 @@ func (p *Pipeline) reviseAlarms(ctx context.Context, res *Result) error {
 		if len(causes) == 0 {
 			continue
 		}
-		if _, err := p.eval.Revise(ctx, p.structure, a.Rule, a.Subject, alertCauses(causes), res.Time); err != nil && first == nil {
+		if _, err := p.eval.Revise(ctx, p.structure, a.Rule, a.Subject, append([]reconcile.RankedCause(nil), causes...), res.Time); err != nil && first == nil {
 			first = err
 		}
 	}
 	p.proc.DropFaults(keep)
 	return first
-}
-
-// alertCauses converts ranked causes to alarm evidence.
-func alertCauses(cs []reconcile.RankedCause) []alerts.Cause {
-	out := make([]alerts.Cause, len(cs))
-	for i, c := range cs {
-		out[i] = alerts.Cause{Label: c.Label, Kind: c.Kind, T: c.T, Size: c.Size, Unit: c.Unit,
-			Std: c.Std, MDS: c.MDS, Group: c.Group, Implausible: c.Implausible}
-	}
-	return out
 }
 
 // alertLoadShifts converts load shifts to alarm evidence.

@@ -9,7 +9,10 @@ import (
 	"time"
 
 	"trussmonitor/internal/alerts"
+	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/simulate"
+	"trussmonitor/internal/simulate/simtest"
+	"trussmonitor/internal/store"
 )
 
 // revisionSink keeps the stored events and the revisions of raised events
@@ -46,13 +49,13 @@ type lastSink struct{ last *Result }
 func (s *lastSink) Epoch(r *Result) { s.last = r }
 
 // causeOf returns the cause labelled label.
-func causeOf(cs []alerts.Cause, label string) (alerts.Cause, bool) {
+func causeOf(cs []reconcile.RankedCause, label string) (reconcile.RankedCause, bool) {
 	for _, c := range cs {
 		if c.Label == label {
 			return c, true
 		}
 	}
-	return alerts.Cause{}, false
+	return reconcile.RankedCause{}, false
 }
 
 // TestAlarmSizeUpdates: a 30 % stiffness loss of the footbridge's
@@ -87,15 +90,15 @@ func TestAlarmSizeUpdates(t *testing.T) {
 	}
 	ctx := context.Background()
 	var raised *alerts.Event
-	var atRaise alerts.Cause
+	var atRaise reconcile.RankedCause
 	var start time.Time
-	if err := g.Run(func(s simulate.Step) error {
+	if err := simtest.Run(g, func(s simulate.Step) error {
 		if start.IsZero() {
 			start = s.Time
 		}
-		rs := make([]Reading, 0, len(s.Readings))
+		rs := make([]store.Reading, 0, len(s.Readings))
 		for _, r := range s.Readings {
-			rs = append(rs, Reading{Channel: r.Channel, Time: s.Time, Value: r.Value})
+			rs = append(rs, store.Reading{Channel: r.Channel, Time: s.Time, Value: r.Value})
 		}
 		p.Feed(ctx, rs)
 		if raised == nil && last.last != nil {

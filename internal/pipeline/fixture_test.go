@@ -16,6 +16,7 @@ import (
 	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/simulate"
+	"trussmonitor/internal/simulate/simtest"
 	"trussmonitor/internal/structfile"
 )
 
@@ -107,7 +108,7 @@ func (f *scnFixture) run(tb testing.TB, opt simulate.Options, fn func(g *simulat
 	if err != nil {
 		tb.Fatal(err)
 	}
-	err = g.Run(func(s simulate.Step) error {
+	err = simtest.Run(g, func(s simulate.Step) error {
 		values := make(map[string]float64, len(s.Readings))
 		for _, r := range s.Readings {
 			v, err := f.sm.Convert(r.Channel, r.Value)

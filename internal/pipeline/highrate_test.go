@@ -9,6 +9,8 @@ import (
 	"time"
 
 	"trussmonitor/internal/simulate"
+	"trussmonitor/internal/simulate/simtest"
+	"trussmonitor/internal/store"
 )
 
 // countSink counts the results of epochs and their missing channels.
@@ -61,10 +63,10 @@ func TestHighRateLogger(t *testing.T) {
 				t.Fatal(err)
 			}
 			fed := 0
-			if err := g.Run(func(s simulate.Step) error {
-				rs := make([]Reading, 0, len(s.Readings))
+			if err := simtest.Run(g, func(s simulate.Step) error {
+				rs := make([]store.Reading, 0, len(s.Readings))
 				for _, r := range s.Readings {
-					rs = append(rs, Reading{Channel: r.Channel, Time: s.Time, Value: r.Value})
+					rs = append(rs, store.Reading{Channel: r.Channel, Time: s.Time, Value: r.Value})
 				}
 				fed += len(rs)
 				p.Feed(context.Background(), rs)

@@ -108,7 +108,7 @@ func idLengths(rate time.Duration, window bool, kind string) (lead, after time.D
 // idDebug logs every alarm event of every scenario.
 const idDebug = false
 
-var statisticalRules = map[string]bool{"MemberDiverging": true, "FitRejected": true, "MemberShifted": true}
+var statisticalRules = map[alerts.RuleName]bool{alerts.RuleMemberDiverging: true, alerts.RuleFitRejected: true, alerts.RuleMemberShifted: true}
 
 // runIdScenario runs one scenario.
 func runIdScenario(t *testing.T, f *scnFixture, sc idScenario) idOutcome {
@@ -204,7 +204,7 @@ func runIdScenario(t *testing.T, f *scnFixture, sc idScenario) idOutcome {
 				continue
 			}
 			out.raises++
-			if e.Rule == "MemberDiverging" || e.Rule == "MemberShifted" {
+			if e.Rule == alerts.RuleMemberDiverging || e.Rule == alerts.RuleMemberShifted {
 				// The true force change of the alarmed member.
 				// The true change of what the member's gauges read: the
 				// force, or for the member that lost stiffness its strain

@@ -23,14 +23,8 @@ import (
 	"trussmonitor/internal/model"
 	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/sensors"
+	"trussmonitor/internal/store"
 )
-
-// Reading is one raw reading as the logger sent it (and as it is stored).
-type Reading struct {
-	Channel string
-	Time    time.Time
-	Value   float64
-}
 
 // Result is one epoch's reconciliation with what the pipeline added to it:
 // the alarm events the epoch raised or cleared, the alarms firing after it,
@@ -178,7 +172,7 @@ func New(m *model.Model, sm *sensors.Map, cfg Config, sinks ...Sink) (*Pipeline,
 	}, nil
 }
 
-// Structure returns the structure's name.
+// Structure returns the name of the structure the pipeline reconciles.
 func (p *Pipeline) Structure() string { return p.structure }
 
 // Sensors returns the sensor map.
@@ -194,9 +188,9 @@ func (p *Pipeline) AddSink(s Sink) {
 	p.mu.Unlock()
 }
 
-// Feed calibrates raw readings, assembles them and processes every epoch
-// they close.
-func (p *Pipeline) Feed(ctx context.Context, rs []Reading) {
+// Feed calibrates raw readings (as the logger sent them and the store
+// keeps them), assembles them and processes every epoch they close.
+func (p *Pipeline) Feed(ctx context.Context, rs []store.Reading) {
 	p.mu.Lock()
 	defer p.mu.Unlock()
 	if p.cfg.Clock != nil && len(rs) > 0 {
@@ -213,7 +207,7 @@ func (p *Pipeline) Feed(ctx context.Context, rs []Reading) {
 		if r.Time.After(p.lastSeen[r.Channel]) {
 			p.lastSeen[r.Channel] = r.Time
 		}
-		for _, e := range p.asm.Add(epoch.Reading{Channel: r.Channel, Time: r.Time, Value: v}) {
+		for _, e := range p.asm.Add(epoch.Sample{Channel: r.Channel, Time: r.Time, Value: v}) {
 			p.process(ctx, e)
 		}
 	}
@@ -300,9 +294,6 @@ func (p *Pipeline) Stats() Stats {
 	s.Assembler = p.asm.Stats()
 	return s
 }
-
-// ActiveAlarms returns the firing alarms.
-func (p *Pipeline) ActiveAlarms() []alerts.Alarm { return p.eval.Active(p.structure) }
 
 // process reconciles one epoch, evaluates the alarms and hands the result
 // to the sinks. The epoch's time is its end: the instant by which all its
@@ -392,11 +383,7 @@ func fitObservation(o *alerts.Observation, res *reconcile.EpochResult) {
 	// The first group is kept whole (its causes carry no order), then
 	// further causes up to three.
 	causes := res.Causes
-	n := 0
-	for n < len(causes) && (n < 3 || causes[n].Group == 1) {
-		n++
-	}
-	o.Causes = alertCauses(causes[:n])
+	o.Causes = append(o.Causes, alerts.ShownCauses(causes)...)
 	for _, m := range res.Members {
 		if !m.Available {
 			continue

@@ -9,6 +9,8 @@ import (
 
 	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/simulate"
+	"trussmonitor/internal/simulate/simtest"
+	"trussmonitor/internal/store"
 )
 
 // eventLog keeps every result's events.
@@ -31,13 +33,13 @@ func feedScenario(t *testing.T, f *scnFixture, p *Pipeline, opt simulate.Options
 	}
 	var start time.Time
 	ctx := context.Background()
-	if err := g.Run(func(s simulate.Step) error {
+	if err := simtest.Run(g, func(s simulate.Step) error {
 		if start.IsZero() {
 			start = s.Time
 		}
-		rs := make([]Reading, 0, len(s.Readings))
+		rs := make([]store.Reading, 0, len(s.Readings))
 		for _, r := range s.Readings {
-			rs = append(rs, Reading{Channel: r.Channel, Time: s.Time, Value: r.Value})
+			rs = append(rs, store.Reading{Channel: r.Channel, Time: s.Time, Value: r.Value})
 		}
 		p.Feed(ctx, rs)
 		return nil

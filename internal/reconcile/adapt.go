@@ -41,6 +41,22 @@ type AdaptedFit struct {
 	Kept []string
 }
 
+// Estimable returns the carried hypotheses the adapted fit can estimate
+// (Separable). A hypothesis whose signature the others already span (a
+// second member of an inseparable group carried together, such as a
+// member's gauge fault and its stiffness change in a statically
+// determinate panel) adds nothing to the fit and has no size of its own:
+// it is left out rather than shown as 0 with a standard deviation of 0.
+func (f *AdaptedFit) Estimable() []RankedCause {
+	var out []RankedCause
+	for _, h := range f.Hypotheses {
+		if h.Separable {
+			out = append(out, h)
+		}
+	}
+	return out
+}
+
 // LoadShift flags an unknown-load estimate that left its recent
 // distribution when an alarm rose: it may be absorbing the fault.
 type LoadShift struct {
@@ -214,7 +230,7 @@ func (p *Processor) identifiedGroup(res *EpochResult, k float64) []adaptedHypoth
 			break
 		}
 		best = math.Max(best, c.T)
-		if c.Kind != ChannelBias.String() && len(out) < MaxAdapted {
+		if c.Kind != ChannelBias && len(out) < MaxAdapted {
 			out = append(out, adaptedHypothesis{label: c.Label, keep: -1})
 		}
 	}
@@ -287,7 +303,7 @@ func (p *Processor) adaptedFitWith(res *EpochResult, s *Solver, cands []Candidat
 			size = x / (1 - c.Kappa*x)
 			std = sd / ((1 - c.Kappa*x) * (1 - c.Kappa*x))
 		}
-		fit.Hypotheses = append(fit.Hypotheses, RankedCause{Kind: c.Kind.String(), Subject: p.subjects[c.Label], Label: c.Label,
+		fit.Hypotheses = append(fit.Hypotheses, RankedCause{Kind: c.Kind, Subject: p.subjects[c.Label], Label: c.Label,
 			Size: size * scale, Std: std * scale, Unit: unit, Separable: r.Estimable[cols+j]})
 	}
 	res.Adapted = fit

@@ -222,7 +222,7 @@ func convertGroups(groups []Group, subjects map[string]string, maxGroups int) []
 		for _, c := range g.Causes {
 			scale, unit := c.Kind.Display()
 			out = append(out, RankedCause{
-				Kind: c.Kind.String(), Subject: subjects[c.Label], Label: c.Label,
+				Kind: c.Kind, Subject: subjects[c.Label], Label: c.Label,
 				T: c.T, PValue: c.PValue, Size: c.DisplaySize, Unit: unit,
 				Std: c.Std * scale, MDS: c.MDS * scale, Implausible: c.Implausible,
 				Strain: c.Strain * 1e6, StrainStd: c.StrainStd * 1e6,

@@ -3,7 +3,7 @@ package reconcile
 import (
 	"fmt"
 	"math"
-	"sort"
+	"slices"
 )
 
 // Kind is the kind of a candidate cause; it fixes the unit of its size.
@@ -191,11 +191,11 @@ func finishCause(kind Kind, label string, num, den, sig2 float64, epochs int) Ca
 // rankCauses sorts by T_c descending, separable first; stable so ties and
 // non-separable candidates keep their input order.
 func rankCauses(cs []Cause) {
-	sort.SliceStable(cs, func(i, j int) bool {
-		if cs[i].Separable != cs[j].Separable {
-			return cs[i].Separable
+	slices.SortStableFunc(cs, func(a, b Cause) int {
+		if a.Separable != b.Separable {
+			return boolOrder(a.Separable, b.Separable)
 		}
-		return cs[i].T > cs[j].T
+		return boolOrder(a.T > b.T, b.T > a.T)
 	})
 }
 
@@ -310,14 +310,6 @@ func (w *WindowRanker) RankedLast(last int) []Cause {
 		c.finishSizes()
 		out = append(out, c)
 	}
-	sort.SliceStable(out, func(i, j int) bool {
-		if out[i].Separable != out[j].Separable {
-			return out[i].Separable
-		}
-		if out[i].T != out[j].T {
-			return out[i].T > out[j].T
-		}
-		return false
-	})
+	rankCauses(out)
 	return out
 }

@@ -48,17 +48,18 @@ func (r *RecentRanker) Fault() *FaultRanker {
 			f.ref = e.t
 		}
 		tk := days(e.t, f.ref)
-		for i, k := range e.idx {
-			f.num[k] += e.num[i]
-			f.den[k] += e.den[i]
-			f.sig2[k] += e.sig2[i]
-			f.count[k]++
-			f.addDrift(k, tk, e.num[i], e.den[i])
+		for _, x := range e.terms {
+			f.num[x.k] += x.num
+			f.den[x.k] += x.den
+			f.sig2[x.k] += x.sig2
+			f.count[x.k]++
+			f.addDrift(x.k, tk, x.num, x.den)
 		}
 	}
+	onset := r.onsets(n)
 	for k := range f.proto {
-		if sn, sd, ok := r.onsetSums(k); ok {
-			f.sNum[k], f.sDen[k] = sn, sd
+		if onset.at[k] > 0 {
+			f.sNum[k], f.sDen[k] = onset.num[k], onset.den[k]
 		} else {
 			f.sNum[k], f.sDen[k] = f.num[k], f.den[k]
 		}

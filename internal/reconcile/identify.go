@@ -4,8 +4,9 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"sort"
+	"slices"
 	"strings"
+	"sync"
 
 	"gonum.org/v1/gonum/stat/distuv"
 )
@@ -217,12 +218,42 @@ func (r *Result) Identify(cands []Candidate, rhoMax float64) (*Identification, e
 	id := &Identification{Causes: make([]Cause, len(cands)), cands: cands, proj: make([][]float64, len(cands)),
 		norm: make([]float64, len(cands)), index: make(map[string]int, len(cands)), rhoMax: rhoMax}
 	qtc := make([]float64, pe)
-	buf := make([]float64, m*len(cands))
+	pl.projs.mu.Lock()
+	defer pl.projs.mu.Unlock()
+	// Room for the projections not kept from earlier epochs.
+	fresh := 0
+	for _, c := range cands {
+		if e := pl.projs.m[c.Label]; e == nil || !sameBits(e.sig, c.Signature) {
+			fresh++
+		}
+	}
+	buf := make([]float64, m*fresh)
 	for n, c := range cands {
 		if len(c.Signature) != g {
 			return nil, fmt.Errorf("reconcile: candidate %q has a signature of %d entries; want %d (one per gauged member)", c.Label, len(c.Signature), g)
 		}
-		pv := buf[n*m : (n+1)*m]
+		if e := pl.projs.m[c.Label]; e != nil && sameBits(e.sig, c.Signature) {
+			// The projection of this signature under this plan was made
+			// before (and its entries checked finite); only the numerator
+			// depends on the epoch. Same operations in the same order as
+			// below.
+			num := 0.0
+			for _, i := range pl.idx {
+				num += c.Signature[i] / pl.sigma[i] * r.ew[i]
+			}
+			id.proj[n] = e.pv
+			id.norm[n] = math.Sqrt(e.den)
+			id.index[c.Label] = n
+			id.Causes[n] = finishCandidate(c, num, e.den, e.sig2, 1, r.delta0)
+			continue
+		}
+		if len(buf) < m {
+			// A label listed twice with two signatures: the count
+			// above could not know.
+			buf = make([]float64, m)
+		}
+		pv := buf[:m:m]
+		buf = buf[m:]
 		num, sig2 := 0.0, 0.0
 		for k, i := range pl.idx {
 			v := c.Signature[i]
@@ -254,8 +285,59 @@ func (r *Result) Identify(cands []Candidate, rhoMax float64) (*Identification, e
 		id.norm[n] = math.Sqrt(den)
 		id.index[c.Label] = n
 		id.Causes[n] = finishCandidate(c, num, den, sig2, 1, r.delta0)
+		pl.projs.keep(c.Label, c.Signature, pv, sig2, den)
 	}
 	return id, nil
+}
+
+// projections keeps, per candidate label, the whitened projected signature
+// of a plan (an availability mask) for the candidates whose signatures stay
+// the same from epoch to epoch (gauge faults, settlements, nodal loads):
+// projecting costs two products with Q (m x pe) per candidate, the
+// numerator of an epoch one pass. A label whose signature changed twice
+// (a stiffness change, whose signature follows the force state) is no
+// longer kept. Guarded by mu (a Solver is safe for concurrent use).
+type projections struct {
+	mu sync.Mutex
+	m  map[string]*projection
+}
+
+type projection struct {
+	sig       []float64 // the signature projected (a copy)
+	pv        []float64 // its whitened projection (shared, never changed)
+	sig2, den float64
+	changed   int // times the label came with another signature
+}
+
+// keep records the projection pv of signature sig (copied) under label.
+func (ps *projections) keep(label string, sig, pv []float64, sig2, den float64) {
+	if ps.m == nil {
+		ps.m = map[string]*projection{}
+	}
+	e := ps.m[label]
+	if e == nil {
+		e = &projection{}
+		ps.m[label] = e
+	} else if e.changed++; e.changed >= 2 {
+		e.sig, e.pv = nil, nil // never equal to a signature of g > 0 entries
+		return
+	}
+	e.sig = append([]float64(nil), sig...)
+	e.pv = append([]float64(nil), pv...)
+	e.sig2, e.den = sig2, den
+}
+
+// sameBits reports whether a and b hold the same numbers bit for bit.
+func sameBits(a, b []float64) bool {
+	if len(a) != len(b) || len(a) == 0 {
+		return false
+	}
+	for i, v := range a {
+		if math.Float64bits(v) != math.Float64bits(b[i]) {
+			return false
+		}
+	}
+	return true
 }
 
 // Rho returns the correlation of the w statistics of the candidates
@@ -282,14 +364,31 @@ func (id *Identification) Groups(cs []Cause) []Group {
 			order = append(order, i)
 		}
 	}
-	sort.SliceStable(order, func(a, b int) bool {
-		ca, cb := cs[order[a]], cs[order[b]]
+	slices.SortStableFunc(order, func(a, b int) int {
+		ca, cb := &cs[a], &cs[b]
 		if ca.Implausible != cb.Implausible {
-			return !ca.Implausible
+			return boolOrder(!ca.Implausible, !cb.Implausible)
 		}
-		return ca.T > cb.T
+		return boolOrder(ca.T > cb.T, cb.T > ca.T)
 	})
+	// Each cause's candidate in this epoch (-1: unknown here, or a null
+	// projected signature, so Rho is 0 with any other), looked up once; a
+	// drift's is its gauge's, with the ramp's correlation with a constant
+	// as a factor (drift.go, rhoCauses).
+	cand := make([]int, len(cs))
+	fac := make([]float64, len(cs))
+	for _, i := range order {
+		cand[i], fac[i] = -1, 1
+		label := cs[i].Label
+		if d := cs[i].drift; d != nil {
+			label, fac[i] = d.gauge, d.rhoTime
+		}
+		if n, ok := id.index[label]; ok && id.norm[n] != 0 {
+			cand[i] = n
+		}
+	}
 	used := make([]bool, len(cs))
+	restBuf := make([]int, 0, len(order))
 	var out []Group
 	for _, li := range order {
 		if used[li] {
@@ -298,25 +397,82 @@ func (id *Identification) Groups(cs []Cause) []Group {
 		used[li] = true
 		lead := cs[li]
 		grp := Group{Causes: []Cause{lead}, T: lead.T, Implausible: lead.Implausible}
+		// The remaining causes with |Rho(lead, cause)| >= rho_max, Rho
+		// computed as Rho does, four products at a time.
+		i := cand[li]
+		if i < 0 {
+			out = append(out, grp)
+			continue
+		}
+		rest := restBuf[:0]
 		for _, k := range order {
-			if used[k] {
-				continue
-			}
-			if math.Abs(id.rhoCauses(lead, cs[k])) >= id.rhoMax {
-				used[k] = true
-				grp.Causes = append(grp.Causes, cs[k])
-				grp.T = math.Max(grp.T, cs[k].T)
+			if !used[k] && cand[k] >= 0 {
+				rest = append(rest, k)
 			}
 		}
-		sort.SliceStable(grp.Causes, func(a, b int) bool {
-			if grp.Causes[a].Kind != grp.Causes[b].Kind {
-				return grp.Causes[a].Kind < grp.Causes[b].Kind
+		restBuf = rest
+		for len(rest) > 0 {
+			var p [4]float64
+			n := min(len(rest), 4)
+			switch n {
+			case 4:
+				p[0], p[1], p[2], p[3] = dot4(id.proj[i], id.proj[cand[rest[0]]], id.proj[cand[rest[1]]], id.proj[cand[rest[2]]], id.proj[cand[rest[3]]])
+			default:
+				for b := range n {
+					p[b] = dot(id.proj[i], id.proj[cand[rest[b]]])
+				}
 			}
-			return grp.Causes[a].Label < grp.Causes[b].Label
-		})
+			for b, k := range rest[:n] {
+				f := fac[li] * fac[k]
+				if cs[li].drift != nil && cs[k].drift != nil {
+					f = 1 // two drifts: their ramps taken alike
+				}
+				if math.Abs(f*p[b]/(id.norm[i]*id.norm[cand[k]])) >= id.rhoMax {
+					used[k] = true
+					grp.Causes = append(grp.Causes, cs[k])
+					grp.T = math.Max(grp.T, cs[k].T)
+				}
+			}
+			rest = rest[n:]
+		}
+		slices.SortStableFunc(grp.Causes, byKindAndLabel)
 		out = append(out, grp)
 	}
 	return out
+}
+
+// dot4 returns the dot products of a with b0..b3 (each of a's length),
+// each summed in index order as dot sums (the four sums are independent,
+// so the processor overlaps them).
+func dot4(a, b0, b1, b2, b3 []float64) (s0, s1, s2, s3 float64) {
+	b0, b1, b2, b3 = b0[:len(a)], b1[:len(a)], b2[:len(a)], b3[:len(a)]
+	for i, v := range a {
+		s0 += v * b0[i]
+		s1 += v * b1[i]
+		s2 += v * b2[i]
+		s3 += v * b3[i]
+	}
+	return
+}
+
+// boolOrder turns a "less" pair (a before b, b before a) into a comparison
+// for the slices package's sorts.
+func boolOrder(aFirst, bFirst bool) int {
+	switch {
+	case aFirst:
+		return -1
+	case bFirst:
+		return 1
+	}
+	return 0
+}
+
+// byKindAndLabel orders causes by kind, then label.
+func byKindAndLabel(a, b Cause) int {
+	if a.Kind != b.Kind {
+		return boolOrder(a.Kind < b.Kind, b.Kind < a.Kind)
+	}
+	return strings.Compare(a.Label, b.Label)
 }
 
 // Untestable returns the labels of the candidates that cannot be tested in

@@ -2,6 +2,10 @@ package reconcile
 
 import (
 	"math"
+	"math/rand/v2"
+	"reflect"
+	"sort"
+	"strconv"
 	"testing"
 	"time"
 
@@ -645,4 +649,259 @@ func TestExactSpringSizeDense(t *testing.T) {
 		t.Errorf("spring size %.9f, want %v (kappa %.6f)", got, d, sp.Kappa)
 	}
 	t.Logf("spring L8 x: u = %.3g mm, kappa = %.4f, largest change %.0f N, worst relative error %.2e", u*1e3, sp.Kappa, scale, worst)
+}
+
+// TestIdentifyProjectionReuse: a solver that reuses the projected
+// signatures of unchanged candidates (from its earlier epochs under the
+// same availability) gives bit for bit the causes, correlations and groups
+// of a fresh solver, over epochs that alternate two availability masks,
+// with one candidate whose signature changes every epoch (as a stiffness
+// change's follows the force state) and one that changes once (seeded).
+func TestIdentifyProjectionReuse(t *testing.T) {
+	rng := rand.New(rand.NewPCG(9, 9))
+	const g, p = 12, 3
+	a := mat.NewDense(g, p, nil)
+	sigma := make([]float64, g)
+	for i := range sigma {
+		sigma[i] = 0.5 + rng.Float64()
+		for j := 0; j < p; j++ {
+			a.Set(i, j, rng.NormFloat64())
+		}
+	}
+	randSig := func() []float64 {
+		s := make([]float64, g)
+		for i := range s {
+			s[i] = rng.NormFloat64()
+		}
+		return s
+	}
+	var fixed []Candidate
+	for i := 0; i < g; i++ {
+		sig := make([]float64, g)
+		sig[i] = 1
+		fixed = append(fixed, Candidate{Kind: GaugeFault, Label: "gauge " + strconv.Itoa(i), Signature: sig})
+	}
+	fixed = append(fixed, Candidate{Kind: NodalLoad, Label: "load", Signature: randSig(), Lower: -1e3, Upper: 1e3})
+	onceChanged := Candidate{Kind: NodalLoad, Label: "load once", Signature: randSig(), Lower: -1e3, Upper: 1e3}
+	long, err := NewSolver(a, sigma, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	masks := [][]bool{nil, make([]bool, g)}
+	for i := range masks[1] {
+		masks[1][i] = i != 4
+	}
+	for epoch := 0; epoch < 8; epoch++ {
+		if epoch == 5 {
+			onceChanged.Signature = randSig()
+		}
+		cands := append(append([]Candidate(nil), fixed...), onceChanged,
+			Candidate{Kind: StiffnessChange, Label: "E A of D2", Signature: randSig(), Lower: -1, Upper: 1})
+		y := randSig()
+		y[2] += 8
+		mask := masks[epoch%2]
+		fresh, err := NewSolver(a, sigma, Options{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		var ids [2]*Identification
+		for k, s := range []*Solver{long, fresh} {
+			res, err := s.Epoch(y, make([]float64, g), mask)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if ids[k], err = res.Identify(cands, 0); err != nil {
+				t.Fatal(err)
+			}
+		}
+		got, want := ids[0], ids[1]
+		if !reflect.DeepEqual(got.Causes, want.Causes) {
+			t.Fatalf("epoch %d: causes differ from a fresh solver's:\n%+v\nwant\n%+v", epoch, got.Causes, want.Causes)
+		}
+		for _, c1 := range cands {
+			for _, c2 := range cands {
+				if r1, r2 := got.Rho(c1.Label, c2.Label), want.Rho(c1.Label, c2.Label); math.Float64bits(r1) != math.Float64bits(r2) {
+					t.Fatalf("epoch %d: rho(%s, %s) %v, fresh %v", epoch, c1.Label, c2.Label, r1, r2)
+				}
+			}
+		}
+		if gg, wg := got.Groups(got.Causes), want.Groups(want.Causes); !reflect.DeepEqual(gg, wg) {
+			t.Fatalf("epoch %d: groups differ from a fresh solver's", epoch)
+		}
+	}
+	// The projections were reused: kept for an unchanged candidate, given
+	// up for the one that changes every epoch.
+	res, err := long.Epoch(make([]float64, g), make([]float64, g), nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if e := res.plan.projs.m["gauge 0"]; e == nil || e.pv == nil {
+		t.Error("gauge 0: no projection kept")
+	}
+	if e := res.plan.projs.m["E A of D2"]; e == nil || e.pv != nil {
+		t.Error("E A of D2: a projection kept for a signature that changes every epoch")
+	}
+}
+
+// groupsRef is Groups as first written (a Rho call per pair, reflection
+// sorts), the reference Groups must match.
+func groupsRef(id *Identification, cs []Cause) []Group {
+	order := make([]int, 0, len(cs))
+	for i, c := range cs {
+		if c.Testable {
+			order = append(order, i)
+		}
+	}
+	sort.SliceStable(order, func(a, b int) bool {
+		ca, cb := cs[order[a]], cs[order[b]]
+		if ca.Implausible != cb.Implausible {
+			return !ca.Implausible
+		}
+		return ca.T > cb.T
+	})
+	used := make([]bool, len(cs))
+	var out []Group
+	for _, li := range order {
+		if used[li] {
+			continue
+		}
+		used[li] = true
+		lead := cs[li]
+		grp := Group{Causes: []Cause{lead}, T: lead.T, Implausible: lead.Implausible}
+		for _, k := range order {
+			if used[k] {
+				continue
+			}
+			if math.Abs(id.Rho(lead.Label, cs[k].Label)) >= id.rhoMax {
+				used[k] = true
+				grp.Causes = append(grp.Causes, cs[k])
+				grp.T = math.Max(grp.T, cs[k].T)
+			}
+		}
+		sort.SliceStable(grp.Causes, func(a, b int) bool {
+			if grp.Causes[a].Kind != grp.Causes[b].Kind {
+				return grp.Causes[a].Kind < grp.Causes[b].Kind
+			}
+			return grp.Causes[a].Label < grp.Causes[b].Label
+		})
+		out = append(out, grp)
+	}
+	return out
+}
+
+// TestGroupsMatchReference: Groups gives the groups of the pairwise
+// reference (groupsRef) on seeded random designs with many near-collinear
+// candidates (so that groups of several form), null signatures, ties in T
+// and a ranking from another list of the same labels (a window's).
+func TestGroupsMatchReference(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 8))
+	multi := 0
+	for trial := 0; trial < 30; trial++ {
+		g := 6 + rng.IntN(20)
+		sigma := make([]float64, g)
+		for i := range sigma {
+			sigma[i] = 0.5 + rng.Float64()
+		}
+		s, err := NewSolver(nil, sigma, Options{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		y := make([]float64, g)
+		for i := range y {
+			y[i] = 3 * rng.NormFloat64()
+		}
+		base := make([][]float64, 4)
+		for b := range base {
+			base[b] = make([]float64, g)
+			for i := range base[b] {
+				base[b][i] = rng.NormFloat64()
+			}
+		}
+		var cands []Candidate
+		for c := 0; c < 5+rng.IntN(40); c++ {
+			sig := make([]float64, g)
+			switch rng.IntN(6) {
+			case 0: // null
+			case 1, 2, 3: // near one of the base directions
+				b := base[rng.IntN(len(base))]
+				for i := range sig {
+					sig[i] = b[i] + 0.05*rng.NormFloat64()
+				}
+			default:
+				for i := range sig {
+					sig[i] = rng.NormFloat64()
+				}
+			}
+			cands = append(cands, Candidate{Kind: Kind(rng.IntN(3)), Label: "c" + strconv.Itoa(c), Signature: sig, Lower: -100, Upper: 100})
+		}
+		res, err := s.Epoch(y, make([]float64, g), nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		id, err := res.Identify(cands, 0)
+		if err != nil {
+			t.Fatal(err)
+		}
+		lists := [][]Cause{id.Causes}
+		other := append([]Cause(nil), id.Causes...)
+		rng.Shuffle(len(other), func(i, j int) { other[i], other[j] = other[j], other[i] })
+		for i := range other {
+			if i%3 == 0 {
+				other[i].T = 7 // ties
+			}
+		}
+		lists = append(lists, other)
+		for _, cs := range lists {
+			got, want := id.Groups(cs), groupsRef(id, cs)
+			if !reflect.DeepEqual(got, want) {
+				t.Fatalf("trial %d: groups %v, reference %v", trial, labelsOf(got), labelsOf(want))
+			}
+			for _, gr := range got {
+				if len(gr.Causes) > 1 {
+					multi++
+				}
+			}
+		}
+	}
+	if multi < 20 {
+		t.Errorf("only %d groups of two or more causes compared; the test data should form more", multi)
+	}
+}
+
+func labelsOf(gs []Group) []string {
+	var out []string
+	for _, g := range gs {
+		out = append(out, g.Labels())
+	}
+	return out
+}
+
+// TestIdentifyLabelTwice: a label listed twice with two signatures (the
+// second one kept from an earlier epoch) is projected, not taken from the
+// kept projection of the other, and does not run out of room.
+func TestIdentifyLabelTwice(t *testing.T) {
+	sigma := []float64{1, 1, 1}
+	s, err := NewSolver(nil, sigma, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	y := []float64{5, 1, 0}
+	one := Candidate{Kind: NodalLoad, Label: "load", Signature: []float64{1, 0, 0}, Lower: -1e3, Upper: 1e3}
+	two := Candidate{Kind: NodalLoad, Label: "load", Signature: []float64{0, 1, 0}, Lower: -1e3, Upper: 1e3}
+	for _, cands := range [][]Candidate{{one}, {two, one}} {
+		res, err := s.Epoch(y, make([]float64, 3), nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		id, err := res.Identify(cands, 0)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for i, c := range cands {
+			want := dot(c.Signature, y) // unit weights, no unknowns
+			if got := id.Causes[i].Num; got != want {
+				t.Errorf("%d candidates, candidate %d: numerator %v, want %v", len(cands), i, got, want)
+			}
+		}
+	}
 }

@@ -60,31 +60,41 @@ type LoadEstimate struct {
 	Estimable bool
 }
 
-// RankedCause is one ranked candidate cause of a rejected fit.
+// RankedCause is one ranked candidate cause of a rejected fit, in the
+// units it is shown in: the one vocabulary of causes of the epoch
+// results, the alarm events' evidence, the dashboard, the API and the
+// replay report.
 type RankedCause struct {
-	Kind      string  // gauge_fault, stiffness_change, support_settlement, nodal_load
-	Subject   string  // member, support direction or node direction
-	Label     string  // human-readable
-	T         float64 // test statistic, chi-square(1) without the cause
-	PValue    float64
-	Size      float64 // in Unit
-	Unit      string  // N, %, mm
-	Separable bool
-	Epochs    int
+	Kind Kind `json:"kind"`
+	// Subject is what the cause is about: a member, a gauge channel, a
+	// support or node direction ("L8 y"), a support spring.
+	Subject string `json:"subject"`
+	// Label names the candidate ("gauge D2", "E A of D2"); unique among
+	// the candidates of a structure.
+	Label     string  `json:"label"`
+	T         float64 `json:"t"` // test statistic, chi-square(1) without the cause
+	PValue    float64 `json:"p_value,omitempty"`
+	Size      float64 `json:"size"` // in Unit
+	Unit      string  `json:"unit"` // N, %, mm, µε (Kind.Display)
+	Separable bool    `json:"separable,omitempty"`
+	Epochs    int     `json:"epochs,omitempty"`
 	// Std is the standard deviation of Size and MDS the minimal detectable
 	// size (for a stiffness change, a loss), both in Unit.
-	Std, MDS float64
+	Std float64 `json:"std,omitempty"`
+	MDS float64 `json:"mds,omitempty"`
 	// Implausible marks a size outside the candidate's plausible range
 	// (PlausibleRange); such groups are listed last.
-	Implausible bool
+	Implausible bool `json:"implausible,omitempty"`
 	// Strain and StrainStd give a gauge fault as a mean strain of the
 	// member's gauges, in microstrain (0 for other kinds).
-	Strain, StrainStd float64
+	Strain    float64 `json:"strain_microstrain,omitempty"`
+	StrainStd float64 `json:"strain_std_microstrain,omitempty"`
 	// Group numbers the separability groups from 1 in rank order; causes
 	// with the same Group cannot be told apart by these gauges and are
 	// listed in no particular order (by kind and label). GroupSize is the
 	// number of causes in the group.
-	Group, GroupSize int
+	Group     int `json:"group,omitempty"`
+	GroupSize int `json:"group_size,omitempty"`
 }
 
 // EpochResult is everything computed for one epoch.

@@ -24,9 +24,14 @@ type RecentRanker struct {
 }
 
 type recentEpoch struct {
-	t              time.Time
-	idx            []int
-	num, den, sig2 []float64
+	t     time.Time
+	terms []recentTerm
+}
+
+// recentTerm is one candidate's statistics in one epoch (k indexes proto).
+type recentTerm struct {
+	k              int
+	num, den, sig2 float64
 }
 
 // NewRecentRanker returns a ranker over the epochs of the last d.
@@ -40,8 +45,7 @@ func NewRecentRanker(d time.Duration) (*RecentRanker, error) {
 // Add records the causes of the epoch at t (as Identification.Causes) and
 // forgets the epochs before t - D. Epochs must come in time order.
 func (r *RecentRanker) Add(t time.Time, causes []Cause) {
-	e := recentEpoch{t: t, idx: make([]int, len(causes)), num: make([]float64, len(causes)),
-		den: make([]float64, len(causes)), sig2: make([]float64, len(causes))}
+	e := recentEpoch{t: t, terms: make([]recentTerm, len(causes))}
 	for i, c := range causes {
 		k, ok := r.index[c.Label]
 		if !ok {
@@ -49,7 +53,7 @@ func (r *RecentRanker) Add(t time.Time, causes []Cause) {
 			r.index[c.Label] = k
 			r.proto = append(r.proto, c)
 		}
-		e.idx[i], e.num[i], e.den[i], e.sig2[i] = k, c.Num, c.Den, c.sig2
+		e.terms[i] = recentTerm{k: k, num: c.Num, den: c.Den, sig2: c.sig2}
 	}
 	r.queue = append(r.queue, e)
 	from := t.Add(-r.d)
@@ -77,14 +81,15 @@ func (r *RecentRanker) Causes() []Cause {
 	n := len(r.proto)
 	num, den, sig2 := make([]float64, n), make([]float64, n), make([]float64, n)
 	count := make([]int, n)
-	for _, e := range r.queue {
-		for i, k := range e.idx {
-			num[k] += e.num[i]
-			den[k] += e.den[i]
-			sig2[k] += e.sig2[i]
-			count[k]++
+	for q := range r.queue {
+		for _, x := range r.queue[q].terms {
+			num[x.k] += x.num
+			den[x.k] += x.den
+			sig2[x.k] += x.sig2
+			count[x.k]++
 		}
 	}
+	onset := r.onsets(n)
 	out := make([]Cause, 0, n)
 	for k, p := range r.proto {
 		if count[k] == 0 {
@@ -93,7 +98,7 @@ func (r *RecentRanker) Causes() []Cause {
 		c := finishCause(p.Kind, p.Label, num[k], den[k], sig2[k], count[k])
 		c.info = p.info
 		c.finishSizes()
-		if sn, sd, ok := r.onsetSums(k); ok && c.Separable {
+		if sn, sd := onset.num[k], onset.den[k]; onset.at[k] > 0 && c.Separable {
 			// The size (and its spread) is estimated over the epochs since
 			// the cause's estimated onset; T and the grouping stay those
 			// of the whole span.
@@ -108,36 +113,50 @@ func (r *RecentRanker) Causes() []Cause {
 	return out
 }
 
-// onsetSums returns the sums of n_k and d_k of candidate k over the epochs
-// since its estimated onset, when that is later than the span's first
-// epoch. A cause that began within the span (a step fault seen for part of
-// the for-duration) would otherwise have its size diluted by the epochs
-// before it. The onset is the maximum-likelihood change point of a shift
-// of unknown size in the epochs' numerators: the start j maximising
-// (sum_{i>=j} n_i)^2 / (sum_{i>=j} d_i), the generalised likelihood ratio
-// of a step at j (Hinkley, "Inference about the change-point from
-// cumulative sum tests", Biometrika 58, 1971; from memory). For a cause
-// present over the whole span the first epoch wins and nothing changes.
-func (r *RecentRanker) onsetSums(k int) (num, den float64, ok bool) {
-	var sn, sd, best float64
-	bestAt := -1
-	var bn, bd float64
+// onsetSet holds, per candidate, the sums of n_k and d_k over the epochs
+// since its estimated onset and the queue index of that onset (-1 when the
+// candidate never had a positive d_k sum, 0 when the onset is the span's
+// first epoch).
+type onsetSet struct {
+	num, den, best []float64
+	at             []int
+}
+
+// onsets returns, for each of the n candidates, the sums of n_k and d_k over
+// the epochs since its estimated onset (used when that is later than the
+// span's first epoch). A cause that began within the span (a step fault seen
+// for part of the for-duration) would otherwise have its size diluted by the
+// epochs before it. The onset is the maximum-likelihood change point of a
+// shift of unknown size in the epochs' numerators: the start j maximising
+// (sum_{i>=j} n_i)^2 / (sum_{i>=j} d_i), the generalised likelihood ratio of
+// a step at j (Hinkley, "Inference about the change-point from cumulative
+// sum tests", Biometrika 58, 1971; from memory). For a cause present over
+// the whole span the first epoch wins and nothing changes.
+//
+// One pass over the held epochs, newest first, serves every candidate: a
+// candidate's sums and its ratio change only in the epochs that carry it,
+// so the ratio is compared there (after all of that epoch's terms are
+// added), in the same order and with the same operations as a separate
+// pass per candidate would.
+func (r *RecentRanker) onsets(n int) onsetSet {
+	o := onsetSet{num: make([]float64, n), den: make([]float64, n), best: make([]float64, n), at: make([]int, n)}
+	sn, sd := make([]float64, n), make([]float64, n)
+	for k := range o.at {
+		o.at[k] = -1
+	}
 	for q := len(r.queue) - 1; q >= 0; q-- {
-		e := r.queue[q]
-		for i, idx := range e.idx {
-			if idx == k {
-				sn += e.num[i]
-				sd += e.den[i]
-			}
+		terms := r.queue[q].terms
+		for _, x := range terms {
+			sn[x.k] += x.num
+			sd[x.k] += x.den
 		}
-		if sd > 0 {
-			if g := sn * sn / sd; bestAt < 0 || g > best {
-				best, bestAt, bn, bd = g, q, sn, sd
+		for _, x := range terms {
+			if k := x.k; sd[k] > 0 {
+				if g := sn[k] * sn[k] / sd[k]; o.at[k] < 0 || g > o.best[k] {
+					o.best[k], o.at[k], o.num[k], o.den[k] = g, q, sn[k], sd[k]
+				}
 			}
 		}
 	}
-	if bestAt <= 0 {
-		return 0, 0, false
-	}
-	return bn, bd, true
+	return o
 }

@@ -42,6 +42,7 @@ import (
 	"trussmonitor/internal/model"
 	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/simulate"
+	"trussmonitor/internal/simulate/simtest"
 	"trussmonitor/internal/structfile"
 )
 
@@ -155,7 +156,7 @@ func (f *scnFixture) run(tb testing.TB, opt simulate.Options, fn func(g *simulat
 	if err != nil {
 		tb.Fatal(err)
 	}
-	err = g.Run(func(s simulate.Step) error {
+	err = simtest.Run(g, func(s simulate.Step) error {
 		values := make(map[string]float64, len(s.Readings))
 		for _, r := range s.Readings {
 			v, err := f.sm.Convert(r.Channel, r.Value)
@@ -466,7 +467,7 @@ func TestScenarioGaugeBias(t *testing.T) {
 				t.Fatalf("%s %s: no window ranking", tc.structure, tc.member)
 			}
 			top := lastWindow[0]
-			if top.Kind != "gauge_fault" && len(lastWindow) > 1 {
+			if top.Kind != GaugeFault && len(lastWindow) > 1 {
 				top = lastWindow[1]
 			}
 			tol := 4 * math.Abs(top.Size) / math.Sqrt(top.T)
@@ -481,8 +482,8 @@ func TestScenarioGaugeBias(t *testing.T) {
 // member first or, when paired, whether its first two are that gauge fault
 // and that member's stiffness change in either order.
 func firstIsGauge(w []RankedCause, member string, paired bool) bool {
-	isGauge := func(c RankedCause) bool { return c.Kind == "gauge_fault" && c.Subject == member }
-	isStiff := func(c RankedCause) bool { return c.Kind == "stiffness_change" && c.Subject == member }
+	isGauge := func(c RankedCause) bool { return c.Kind == GaugeFault && c.Subject == member }
+	isStiff := func(c RankedCause) bool { return c.Kind == StiffnessChange && c.Subject == member }
 	if len(w) == 0 {
 		return false
 	}
@@ -614,7 +615,7 @@ func TestScenarioStiffnessLoss(t *testing.T) {
 		// crowd estimate, which the fault itself shifts) rather than the
 		// true one.
 		tol := 4*st.Std + 1
-		if st.Kind != "stiffness_change" || st.Unit != "%" || math.Abs(st.Size-want) > tol {
+		if st.Kind != StiffnessChange || st.Unit != "%" || math.Abs(st.Size-want) > tol {
 			t.Errorf("D2: estimated stiffness change %.2f %s, want %.2f %% +- %.2f (30 %% loss, exact size, gamma %.4f)", st.Size, st.Unit, want, tol, gamma)
 		}
 	})
@@ -780,7 +781,7 @@ func TestScenarioSettlement(t *testing.T) {
 				}
 				if n >= faultAt+window-1 && res.Rejected {
 					checks++
-					isIt := func(c RankedCause) bool { return c.Kind == "support_settlement" && c.Subject == tc.subject }
+					isIt := func(c RankedCause) bool { return c.Kind == SupportSettlement && c.Subject == tc.subject }
 					w := p.WindowCauses()
 					if len(w) > 0 && isIt(w[0]) {
 						rawFirst++
@@ -1059,7 +1060,7 @@ func BenchmarkProcess(b *testing.B) {
 func plausible(cs []RankedCause) []RankedCause {
 	var out []RankedCause
 	for _, c := range cs {
-		if c.Kind == "stiffness_change" && math.Abs(c.Size) > 100 {
+		if c.Kind == StiffnessChange && math.Abs(c.Size) > 100 {
 			continue
 		}
 		out = append(out, c)

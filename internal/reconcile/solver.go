@@ -21,6 +21,12 @@
 // products with the G x p matrix Q. Q, R^-1, r_i, MDB_i and the w
 // normalisers depend only on which gauges reported (the availability mask)
 // and are cached per mask.
+//
+// The reconciliation model of a structure with its sensor map is here too:
+// the linear model of the prediction (linear.go), the per-epoch Processor
+// (snapshot in, EpochResult out: fit, causes, adaptation, member state)
+// and the detectability and separability of a gauge layout
+// (LayoutDetectability).
 package reconcile
 
 import (
@@ -322,6 +328,7 @@ type plan struct {
 	thetaStd  []float64 // p
 	dof       int
 	chi       distuv.ChiSquared
+	projs     projections // candidates' projected signatures (Identify)
 }
 
 // Epoch fits one epoch: y are the measured forces and yhat the model's

@@ -4,7 +4,6 @@ import (
 	"fmt"
 	"math"
 	"sort"
-	"strings"
 
 	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/pipeline"
@@ -16,8 +15,7 @@ import (
 // collector is the pipeline sink of a replay: it hands every fitted
 // epoch to the report's stream as it comes (epochs.csv row by row, the
 // plots as bounded summaries) and keeps only what does not grow with the
-// period's length: the alarm events (few), the pipeline's cause subjects,
-// every member's running totals and which pattern columns were used.
+// period's length: the alarm events (few), every member's running totals and which pattern columns were used.
 // Nothing measured on the wall clock (Result.Took) is kept.
 type collector struct {
 	stream *report.Stream
@@ -25,10 +23,9 @@ type collector struct {
 	// raised indexes the raised events of identifying alarms by rule,
 	// subject and time; adapted holds each one's carried hypotheses at
 	// its latest epoch active.
-	raised   map[alarmKey]int
-	adapted  map[int][]reconcile.RankedCause
-	subjects map[string]string // cause label -> subject, from the pipeline's causes
-	totals   memberTotals      // every member's total state (members.go)
+	raised  map[alarmKey]int
+	adapted map[int][]reconcile.RankedCause
+	totals  memberTotals // every member's total state (members.go)
 	// col maps a load pattern to its report column; scale is the column's
 	// reference load (1: a bare factor); used marks the columns some
 	// epoch gave an estimate (estimable or not) for.
@@ -69,7 +66,7 @@ func reportPatterns(unknown []string, sm *sensors.Map, estimateMissing bool) []s
 // newCollector streams into s, whose head lists the columns; scale holds
 // each pattern column's reference load (referenceUnits).
 func newCollector(s *report.Stream, head *report.Report, scale []float64) *collector {
-	c := &collector{stream: s, subjects: map[string]string{}, col: map[string]int{}, scale: scale,
+	c := &collector{stream: s, col: map[string]int{}, scale: scale,
 		raised: map[alarmKey]int{}, adapted: map[int][]reconcile.RankedCause{}}
 	for j, p := range head.Patterns {
 		c.col[p.Name] = j
@@ -83,13 +80,6 @@ func newCollector(s *report.Stream, head *report.Report, scale []float64) *colle
 
 // Epoch implements pipeline.Sink.
 func (c *collector) Epoch(r *pipeline.Result) {
-	for _, cs := range [][]reconcile.RankedCause{r.Causes, r.Window} {
-		for _, k := range cs {
-			if k.Subject != "" {
-				c.subjects[k.Label] = k.Subject
-			}
-		}
-	}
 	for _, ev := range r.Events {
 		if ev.Kind == alerts.Raised {
 			c.raised[alarmKey{ev.Rule, ev.Subject, ev.Time.UnixNano()}] = len(c.events)
@@ -138,8 +128,9 @@ func (c *collector) Epoch(r *pipeline.Result) {
 
 // alarmKey names an alarm by rule, subject and raise time.
 type alarmKey struct {
-	rule, subject string
-	fired         int64
+	rule    alerts.RuleName
+	subject string
+	fired   int64
 }
 
 // revise gives the raised events of the alarms active after r their
@@ -155,9 +146,9 @@ func (c *collector) revise(r *pipeline.Result) {
 			continue
 		}
 		ev := &c.events[i].Evidence
-		ev.Causes, ev.CausesAt = append([]alerts.Cause(nil), a.Causes...), a.CausesAt
+		ev.Causes, ev.CausesAt = append([]reconcile.RankedCause(nil), a.Causes...), a.CausesAt
 		if r.Adapted != nil {
-			c.adapted[i] = append([]reconcile.RankedCause(nil), r.Adapted.Hypotheses...)
+			c.adapted[i] = r.Adapted.Estimable()
 		}
 	}
 }
@@ -177,9 +168,7 @@ func (c *collector) reportEvents() []report.Event {
 	var out []report.Event
 	for i, ev := range c.events {
 		row := c.event(ev)
-		for _, h := range c.adapted[i] {
-			row.Adapted = append(row.Adapted, report.Cause{Kind: h.Kind, Subject: h.Subject, Size: h.Size, Std: h.Std, Unit: h.Unit})
-		}
+		row.Adapted = c.adapted[i]
 		out = append(out, row)
 	}
 	return out
@@ -189,14 +178,11 @@ func (c *collector) reportEvents() []report.Event {
 func (c *collector) event(e alerts.Event) report.Event {
 	ev := e.Evidence
 	out := report.Event{Time: e.Time, Rule: e.Rule, Subject: e.Subject, Kind: e.Kind, W: math.NaN(), Size: math.NaN()}
-	if ev.Signal == "abs_w" {
-		out.W = ev.W
-		out.Size, out.SizeUnit = ev.Bias, "N"
+	if w, bias, ok := e.MemberFigures(); ok {
+		out.W, out.Size, out.SizeUnit = w, bias, "N"
 	}
 	out.Message = alerts.Message(e)
-	for _, k := range ev.Causes {
-		out.Causes = append(out.Causes, report.Cause{Kind: k.Kind, Subject: c.subject(k.Label), T: k.T, Size: k.Size, Std: k.Std, Unit: k.Unit, Group: k.Group, Implausible: k.Implausible})
-	}
+	out.Causes = ev.Causes
 	out.CausesAt = ev.CausesAt
 	for _, l := range ev.LoadShifts {
 		// In the report's unit of the pattern's column (its reference
@@ -208,18 +194,4 @@ func (c *collector) event(e alerts.Event) report.Event {
 		out.LoadShifts = append(out.LoadShifts, ls)
 	}
 	return out
-}
-
-// subject returns the item a cause concerns: the pipeline's subject for its
-// label, or the label without its kind prefix.
-func (c *collector) subject(label string) string {
-	if s, ok := c.subjects[label]; ok {
-		return s
-	}
-	for _, p := range []string{"E A of ", "gauge ", "settlement ", "load at "} {
-		if strings.HasPrefix(label, p) {
-			return strings.TrimPrefix(label, p)
-		}
-	}
-	return label
 }

@@ -42,7 +42,11 @@ func fatigueFigures(ctx context.Context, db *store.Store, structure string, sm *
 		sources[i] = "from the hourly stress-range histograms stored by the live count"
 	}
 	if len(raw) > 0 {
-		rl, err := fatiguetrack.LivesFromRaw(ctx, db, structure, sm, raw, from, to)
+		gr := gaugeReader{db: db}
+		for _, g := range raw {
+			gr.channels = append(gr.channels, g.Channel)
+		}
+		rl, err := fatiguetrack.LivesFromRaw(ctx, gr, structure, sm, raw, from, to)
 		if err != nil {
 			return nil, err
 		}
@@ -73,4 +77,18 @@ func fatigueFigures(ctx context.Context, db *store.Store, structure string, sm *
 		out[i] = fg
 	}
 	return out, nil
+}
+
+// gaugeReader reads the stored readings of the given channels only (the
+// fatigue gauges recounted), in the store's order, so that the recount
+// does not read every channel of the period a second time.
+type gaugeReader struct {
+	db       *store.Store
+	channels []string
+}
+
+// ReadReadings calls fn for every reading of the reader's channels of
+// structure in [from, to), as store.Store.ReadReadings orders them.
+func (g gaugeReader) ReadReadings(ctx context.Context, structure string, from, to time.Time, fn func(store.Reading) error) error {
+	return g.db.ReadChannelReadings(ctx, structure, g.channels, from, to, fn)
 }

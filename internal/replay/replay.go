@@ -97,7 +97,7 @@ type Summary struct {
 	ByOutcome map[string]int64
 	// Raised counts raised alarm events by rule; Events is the number of
 	// events (raised and cleared).
-	Raised map[string]int
+	Raised map[alerts.RuleName]int
 	Events int
 	// Report is the report (also when OutDir is empty) without its
 	// epochs: they were streamed to epochs.csv as they came and are not
@@ -177,7 +177,7 @@ func Run(ctx context.Context, opt Options) (*Summary, error) {
 	sum := &Summary{
 		Structure: mdl.name, ModelVersion: mdl.hash, ModelSource: mdl.source,
 		From: opt.From.UTC(), To: opt.To.UTC(), Warnings: mdl.warnings,
-		Raised: map[string]int{},
+		Raised: map[alerts.RuleName]int{},
 	}
 	sm, err := instrumented.SensorsFor(opt.SensorsFile, sensorData, mdl.st, mdl.source)
 	if err != nil {
@@ -313,10 +313,10 @@ func feed(ctx context.Context, db *store.Store, pl *pipeline.Pipeline, structure
 	rctx, cancel := context.WithCancel(ctx)
 	defer cancel()
 	const buffers = 6
-	batches := make(chan []pipeline.Reading, buffers-2)
-	free := make(chan []pipeline.Reading, buffers)
+	batches := make(chan []store.Reading, buffers-2)
+	free := make(chan []store.Reading, buffers)
 	for range buffers {
-		free <- make([]pipeline.Reading, 0, opt.Batch)
+		free <- make([]store.Reading, 0, opt.Batch)
 	}
 	readErr := make(chan error, 1)
 	go func() {
@@ -337,7 +337,7 @@ func feed(ctx context.Context, db *store.Store, pl *pipeline.Pipeline, structure
 			return nil
 		}
 		err := db.ReadReadings(rctx, structure, opt.From, opt.To, func(r store.Reading) error {
-			buf = append(buf, pipeline.Reading(r))
+			buf = append(buf, r)
 			if len(buf) < opt.Batch {
 				return nil
 			}

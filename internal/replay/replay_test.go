@@ -154,7 +154,7 @@ func readEvents(t *testing.T, dir string) []eventRow {
 
 // statistical reports whether an event is one of the two statistical alarms.
 func statistical(e eventRow) bool {
-	return e.rule == "MemberDiverging" || e.rule == "FitRejected"
+	return e.rule == string(alerts.RuleMemberDiverging) || e.rule == string(alerts.RuleFitRejected)
 }
 
 // TestRecordedDayFault replays the recorded day (stored model version, 60 s
@@ -200,7 +200,7 @@ func TestRecordedDayFault(t *testing.T) {
 	var d2 *eventRow
 	for i, e := range events {
 		t.Logf("event %s %s %s %s causes %v %v", e.time.Format(time.TimeOnly), e.kind, e.rule, e.subject, e.causeKind, e.causeSubj)
-		if !statistical(e) || e.kind != alerts.Raised {
+		if !statistical(e) || e.kind != string(alerts.Raised) {
 			continue
 		}
 		if e.time.Before(faultTime) {
@@ -210,7 +210,7 @@ func TestRecordedDayFault(t *testing.T) {
 		if first == nil {
 			first = &events[i]
 		}
-		if d2 == nil && e.rule == "MemberDiverging" && e.subject == "D2" {
+		if d2 == nil && e.rule == string(alerts.RuleMemberDiverging) && e.subject == "D2" {
 			d2 = &events[i]
 		}
 	}
@@ -300,7 +300,7 @@ func reducedD2(t *testing.T) string {
 // countRaised counts raised statistical alarms before and from the fault.
 func countRaised(events []eventRow) (before, after int) {
 	for _, e := range events {
-		if !statistical(e) || e.kind != alerts.Raised {
+		if !statistical(e) || e.kind != string(alerts.Raised) {
 			continue
 		}
 		if e.time.Before(faultTime) {
@@ -429,7 +429,7 @@ func TestWhatIfModel(t *testing.T) {
 	t.Logf("raised statistical alarms before/after 14:00: stored model %d/%d, D2 at 70 %% %d/%d; epochs %v", b0, a0, b1, a1, sum.ByOutcome)
 	perSubject := map[string]int{}
 	for _, e := range ev1 {
-		if e.kind == alerts.Raised {
+		if e.kind == string(alerts.Raised) {
 			perSubject[e.rule+" "+e.subject]++
 		}
 	}

@@ -55,11 +55,11 @@ func writeEventsCSV(buf *bytes.Buffer, r *Report) error {
 		return err
 	}
 	for _, e := range r.Events {
-		row := []string{timeText(e.Time), e.Rule, e.Subject, e.Kind, floatText(e.W), floatText(e.Size), e.SizeUnit, e.Message}
+		row := []string{timeText(e.Time), string(e.Rule), e.Subject, string(e.Kind), floatText(e.W), floatText(e.Size), e.SizeUnit, e.Message}
 		for i := 0; i < maxCauses; i++ {
 			if i < len(e.Causes) {
 				c := e.Causes[i]
-				row = append(row, c.Kind, c.Subject, floatText(c.T), floatText(c.Size), floatText(c.Std), c.Unit, strconv.Itoa(c.Group))
+				row = append(row, c.Kind.String(), c.Subject, floatText(c.T), floatText(c.Size), floatText(c.Std), c.Unit, strconv.Itoa(c.Group))
 				continue
 			}
 			row = append(row, "", "", "", "", "", "", "")

@@ -9,6 +9,7 @@ import (
 	"strconv"
 	"strings"
 	"time"
+	"trussmonitor/internal/alerts"
 )
 
 // esc escapes text for HTML and XML alike (numeric entities only).
@@ -106,7 +107,7 @@ func writeSummary(sb *strings.Builder, r *Report, sum *epochSummary) {
 	rejected := sum.rejected
 	raised := 0
 	for _, e := range r.Events {
-		if e.Kind == "raised" {
+		if e.Kind == alerts.Raised {
 			raised++
 		}
 	}
@@ -140,18 +141,18 @@ func alarmRows(r *Report, tr timeRange) (keys []string, rows map[string][]interv
 	rows = map[string][]interval{}
 	open := map[string]int64{}
 	for _, e := range evs {
-		k := e.Rule + ": " + e.Subject
+		k := string(e.Rule) + ": " + e.Subject
 		if _, ok := rows[k]; !ok {
 			rows[k] = nil
 			keys = append(keys, k)
 		}
 		t := e.Time.UnixNano()
 		switch e.Kind {
-		case "raised":
+		case alerts.Raised:
 			if _, ok := open[k]; !ok {
 				open[k] = t
 			}
-		case "cleared":
+		case alerts.Cleared:
 			if from, ok := open[k]; ok {
 				rows[k] = append(rows[k], interval{from, t})
 				delete(open, k)
@@ -211,26 +212,6 @@ func writeTimeline(sb *strings.Builder, r *Report, sum *epochSummary) {
 	sb.WriteString("</svg>\n</section>\n")
 }
 
-// causeText words a cause with its group, its size and the size's
-// standard deviation (T left out for a carried hypothesis, whose T is 0).
-func causeText(c Cause) string {
-	grp, size := "", sizeText(c.Size, c.Unit)
-	if c.Group > 0 {
-		grp = fmt.Sprintf("[group %d] ", c.Group)
-	}
-	if c.Std > 0 && !math.IsInf(c.Std, 0) {
-		size += " ± " + sizeText(c.Std, c.Unit)
-	}
-	if c.Implausible {
-		size += " (implausible size)"
-	}
-	t := ""
-	if c.T != 0 {
-		t = "T = " + num(c.T, 1) + ", "
-	}
-	return fmt.Sprintf("%s%s %s: %ssize %s", grp, strings.ReplaceAll(c.Kind, "_", " "), c.Subject, t, size)
-}
-
 func writeEventTable(sb *strings.Builder, r *Report) {
 	sb.WriteString("<section id=\"events\">\n<h2>Events</h2>\n")
 	sb.WriteString("<table id=\"event-table\">\n<thead><tr><th>time (UTC)</th><th>kind</th><th>rule</th><th>subject</th><th>w</th><th>estimated size</th><th>ranked causes (test statistic T, estimated size)</th></tr></thead>\n<tbody>\n")
@@ -239,7 +220,7 @@ func writeEventTable(sb *strings.Builder, r *Report) {
 	}
 	for _, e := range r.Events {
 		fmt.Fprintf(sb, "<tr class=\"%s\" data-subject=\"%s\"><td>%s</td><td>%s</td><td>%s</td><td>%s</td><td class=\"num\">%s</td><td class=\"num\">%s</td><td>",
-			esc(idPart(e.Kind)), esc(e.Subject), esc(timeText(e.Time)), esc(e.Kind), esc(e.Rule), esc(e.Subject), num(e.W, 2), esc(sizeText(e.Size, e.SizeUnit)))
+			esc(idPart(string(e.Kind))), esc(e.Subject), esc(timeText(e.Time)), esc(string(e.Kind)), esc(string(e.Rule)), esc(e.Subject), num(e.W, 2), esc(sizeText(e.Size, e.SizeUnit)))
 		if e.Message != "" {
 			fmt.Fprintf(sb, "%s", esc(e.Message))
 		}
@@ -248,18 +229,15 @@ func writeEventTable(sb *strings.Builder, r *Report) {
 				fmt.Fprintf(sb, "<div class=\"sizes-note\">sizes over the epochs since the fault began, as of %s</div>", esc(timeText(e.CausesAt)))
 			}
 			sb.WriteString("<ol>")
-			for i, c := range e.Causes {
-				if i >= maxCauses && c.Group != 1 {
-					break
-				}
-				fmt.Fprintf(sb, "<li>%s</li>", esc(causeText(c)))
+			for _, c := range alerts.ShownCauses(e.Causes) {
+				fmt.Fprintf(sb, "<li>%s</li>", esc(alerts.CauseText(c)))
 			}
 			sb.WriteString("</ol>")
 		}
 		if len(e.Adapted) > 0 {
 			var hs []string
 			for _, h := range e.Adapted {
-				hs = append(hs, causeText(h))
+				hs = append(hs, alerts.CauseText(h))
 			}
 			fmt.Fprintf(sb, "<div class=\"adapted\">carried in the adapted fit: %s</div>", esc(strings.Join(hs, "; ")))
 		}

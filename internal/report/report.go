@@ -20,6 +20,8 @@ import (
 	"os"
 	"path/filepath"
 	"time"
+	"trussmonitor/internal/alerts"
+	"trussmonitor/internal/reconcile"
 )
 
 // Caution is the safety text printed in the report when Report.Caution is
@@ -122,9 +124,10 @@ type Event struct {
 	Time time.Time
 	// Rule is the alarm rule's name; Subject the member, gauge, channel or
 	// structure it concerns.
-	Rule, Subject string
-	// Kind is "raised" or "cleared".
-	Kind string
+	Rule    alerts.RuleName
+	Subject string
+	// Kind says whether the event raised or cleared its alarm.
+	Kind alerts.EventKind
 	// W is the normalised residual that raised the event (NaN when none).
 	W float64
 	// Size is the estimated size of the deviation in SizeUnit.
@@ -134,7 +137,7 @@ type Event struct {
 	Message string
 	// Causes are the ranked candidate causes, best first; the report shows
 	// the first three and the rest of the first group.
-	Causes []Cause
+	Causes []reconcile.RankedCause
 	// CausesAt is the epoch the causes' sizes are estimated as of: for a
 	// raised statistical alarm, its last epoch active in the period (the
 	// sizes over the epochs since the fault began); zero when not given.
@@ -143,7 +146,7 @@ type Event struct {
 	LoadShifts []LoadShift
 	// Adapted are the hypotheses the fit carried for the alarm, with
 	// their sizes in the adapted fit at CausesAt (T is 0).
-	Adapted []Cause
+	Adapted []reconcile.RankedCause
 }
 
 // LoadShift is an unknown-load estimate that left its recent
@@ -156,24 +159,6 @@ type LoadShift struct {
 	Value, Mean, StdDev float64
 	Unit                string
 	Z                   float64
-}
-
-// Cause is one ranked candidate cause.
-type Cause struct {
-	// Kind of signature, e.g. "gauge_fault", "stiffness_change",
-	// "support_settlement", "node_load"; Subject the item concerned.
-	Kind, Subject string
-	// T is the test statistic (c^T W e)^2 / (c^T W Q_e W c).
-	T float64
-	// Size is the estimated size (c^T W e) / (c^T W Q_e W c) in Unit
-	// (exact for a stiffness change), Std its standard deviation.
-	Size, Std float64
-	Unit      string
-	// Group numbers the separability group from 1 (0: not grouped):
-	// causes of one group cannot be told apart by the gauges.
-	Group int
-	// Implausible marks a size outside its plausible range.
-	Implausible bool
 }
 
 // File names written by Write.

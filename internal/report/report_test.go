@@ -14,6 +14,7 @@ import (
 	"strings"
 	"testing"
 	"time"
+	"trussmonitor/internal/reconcile"
 )
 
 var update = flag.Bool("update", false, "rewrite the golden files in testdata/")
@@ -51,25 +52,25 @@ func smallReport() *Report {
 	r.Events = []Event{
 		{Time: t0.Add(4*time.Second + 250*time.Millisecond), Rule: "member_residual", Subject: "D2", Kind: "raised",
 			W: 5.28, Size: 3160.2, SizeUnit: "N", Message: "D2 strays from prediction, \"5.3 sigma\"",
-			Causes: []Cause{
-				{Kind: "gauge_fault", Subject: "D2-a", T: 27.9, Size: 3160.2, Unit: "N"},
-				{Kind: "stiffness_change", Subject: "D2", T: 24.1, Size: -0.081, Unit: "1"},
-				{Kind: "node_load", Subject: "L2", T: 9.4, Size: 5230, Unit: "N"},
-				{Kind: "support_settlement", Subject: "L0", T: 1.2, Size: 0.0004, Unit: "m"},
+			Causes: []reconcile.RankedCause{
+				{Kind: reconcile.GaugeFault, Subject: "D2-a", T: 27.9, Size: 3160.2, Unit: "N"},
+				{Kind: reconcile.StiffnessChange, Subject: "D2", T: 24.1, Size: -0.081, Unit: "1"},
+				{Kind: reconcile.NodalLoad, Subject: "L2", T: 9.4, Size: 5230, Unit: "N"},
+				{Kind: reconcile.SupportSettlement, Subject: "L0", T: 1.2, Size: 0.0004, Unit: "m"},
 			}},
 		{Time: t0.Add(4*time.Second + 250*time.Millisecond), Rule: "fit_rejected", Subject: "alder-creek", Kind: "raised",
 			W: math.NaN(), Size: math.NaN(), Message: "global test rejected for 2 epochs"},
 		{Time: t0.Add(4*time.Second + 500*time.Millisecond), Rule: "member_shifted", Subject: "B4", Kind: "raised",
 			W: 2.1, Size: 1210.5, SizeUnit: "N", Message: "B4 shifted",
-			Causes: []Cause{
-				{Kind: "stiffness_change", Subject: "B4", T: 51.2, Size: -29.6, Std: 0.41, Unit: "%", Group: 1},
-				{Kind: "gauge_fault", Subject: "B4", T: 51.2, Size: 1210.5, Std: 17.5, Unit: "N", Group: 1},
-				{Kind: "nodal_load", Subject: "U3 y", T: 12.5, Size: -2100, Std: 600, Unit: "N", Group: 2},
-				{Kind: "support_settlement", Subject: "L8 y", T: 11.5, Size: 2.5, Std: 0.8, Unit: "mm", Group: 3, Implausible: true},
+			Causes: []reconcile.RankedCause{
+				{Kind: reconcile.StiffnessChange, Subject: "B4", T: 51.2, Size: -29.6, Std: 0.41, Unit: "%", Group: 1},
+				{Kind: reconcile.GaugeFault, Subject: "B4", T: 51.2, Size: 1210.5, Std: 17.5, Unit: "N", Group: 1},
+				{Kind: reconcile.NodalLoad, Subject: "U3 y", T: 12.5, Size: -2100, Std: 600, Unit: "N", Group: 2},
+				{Kind: reconcile.SupportSettlement, Subject: "L8 y", T: 11.5, Size: 2.5, Std: 0.8, Unit: "mm", Group: 3, Implausible: true},
 			},
 			CausesAt:   t0.Add(5 * time.Second),
 			LoadShifts: []LoadShift{{Pattern: "crowd", Value: -0.31, Mean: 0.02, StdDev: 0.04, Unit: "kPa", Z: -7.31}},
-			Adapted:    []Cause{{Kind: "stiffness_change", Subject: "B4", Size: -29.9, Std: 0.6, Unit: "%"}}},
+			Adapted:    []reconcile.RankedCause{{Kind: reconcile.StiffnessChange, Subject: "B4", Size: -29.9, Std: 0.6, Unit: "%"}}},
 		{Time: t0.Add(5*time.Second + 750*time.Millisecond), Rule: "fit_rejected", Subject: "alder-creek", Kind: "cleared",
 			W: math.NaN(), Size: math.NaN()},
 	}

@@ -16,9 +16,9 @@ import (
 
 	mqtt "github.com/eclipse/paho.mqtt.golang"
 
+	"trussmonitor/internal/alerts"
 	"trussmonitor/internal/broker"
 	"trussmonitor/internal/config"
-	"trussmonitor/internal/pipeline"
 	"trussmonitor/internal/store"
 )
 
@@ -125,7 +125,7 @@ func TestSilenceSurvivesRestart(t *testing.T) {
 		}
 		out := map[string]bool{}
 		for _, e := range evs {
-			if e.Rule == "ChannelSilent" && e.Kind == store.Raised {
+			if alerts.RuleName(e.Rule) == alerts.RuleChannelSilent && alerts.EventKind(e.Kind) == alerts.Raised {
 				out[e.Subject] = true
 			}
 		}
@@ -320,7 +320,7 @@ func TestReadinessSeesStalledEpochs(t *testing.T) {
 	stall := svc.epochStall()
 	// One channel, one logger time: its epoch stays open (no Tick flushes
 	// it), so readings arrive and no epoch closes.
-	reading := []pipeline.Reading{{Channel: "B2_a", Time: now, Value: 1e-5}}
+	reading := []store.Reading{{Channel: "B2_a", Time: now, Value: 1e-5}}
 	for step := time.Duration(0); step <= 2*stall; step += stall / 4 {
 		mu.Lock()
 		now = now.Add(stall / 4)

@@ -74,7 +74,7 @@ type feeder struct {
 
 // feedEntry is one committed message's readings, or a gap.
 type feedEntry struct {
-	rs  []pipeline.Reading
+	rs  []store.Reading
 	gap *gap
 }
 
@@ -129,10 +129,7 @@ func (f *feeder) offer(rs []store.Reading) {
 	if len(rs) == 0 {
 		return
 	}
-	in := make([]pipeline.Reading, len(rs))
-	for i, r := range rs {
-		in[i] = pipeline.Reading{Channel: r.Channel, Time: r.Time, Value: r.Value}
-	}
+	in := append([]store.Reading(nil), rs...)
 	f.mu.Lock()
 	if f.open == nil && (f.pending == 0 || f.pending+len(in) <= f.limit) {
 		f.items = append(f.items, feedEntry{rs: in})
@@ -233,7 +230,7 @@ func (f *feeder) run(ctx context.Context) {
 
 // feedEntry feeds one message's readings, less those a gap's read-back
 // already fed.
-func (f *feeder) feedEntry(ctx context.Context, rs []pipeline.Reading) {
+func (f *feeder) feedEntry(ctx context.Context, rs []store.Reading) {
 	if len(f.readBack) > 0 {
 		kept := rs[:0]
 		for _, r := range rs {
@@ -248,7 +245,7 @@ func (f *feeder) feedEntry(ctx context.Context, rs []pipeline.Reading) {
 }
 
 // feed feeds readings and notes each channel's latest time fed.
-func (f *feeder) feed(ctx context.Context, rs []pipeline.Reading) {
+func (f *feeder) feed(ctx context.Context, rs []store.Reading) {
 	if len(rs) == 0 {
 		return
 	}
@@ -262,7 +259,7 @@ func (f *feeder) feed(ctx context.Context, rs []pipeline.Reading) {
 
 // feedGap reads a gap's readings back from the store and feeds them.
 func (f *feeder) feedGap(ctx context.Context, g *gap) {
-	buf := make([]pipeline.Reading, 0, min(g.n, readBackChunk))
+	buf := make([]store.Reading, 0, min(g.n, readBackChunk))
 	fed := 0
 	flush := func() {
 		f.feed(ctx, buf)
@@ -275,7 +272,7 @@ func (f *feeder) feedGap(ctx context.Context, g *gap) {
 		if t, ok := f.lastFed[r.Channel]; ok && !r.Time.After(t) {
 			return nil // fed from an entry before the gap
 		}
-		buf = append(buf, pipeline.Reading{Channel: r.Channel, Time: r.Time, Value: r.Value})
+		buf = append(buf, r)
 		if t := f.readBack[r.Channel]; r.Time.After(t) {
 			f.readBack[r.Channel] = r.Time
 		}

@@ -61,10 +61,10 @@ func BenchmarkFeed(b *testing.B) {
 	}
 	b.Run("direct", func(b *testing.B) {
 		p := newPipe(b)
-		in := make([][]pipeline.Reading, b.N)
+		in := make([][]store.Reading, b.N)
 		for k, rs := range packs(b, b.N) {
 			for _, r := range rs {
-				in[k] = append(in[k], pipeline.Reading{Channel: r.Channel, Time: r.Time, Value: r.Value})
+				in[k] = append(in[k], store.Reading{Channel: r.Channel, Time: r.Time, Value: r.Value})
 			}
 		}
 		b.ResetTimer()

@@ -193,7 +193,7 @@ func (s *Service) addStructure(mon *instrumented.Structure) error {
 	if err != nil {
 		return fmt.Errorf("structure %q: %w", name, err)
 	}
-	p.AddSink(&metricsSink{m: s.met, sm: s.met.Structure(name, proc.Gauged(), proc.Unknown()), name: name, rules: s.rules, last: map[string]int{},
+	p.AddSink(&metricsSink{m: s.met, sm: s.met.Structure(name, proc.Gauged(), proc.Unknown()), name: name, rules: s.rules, last: map[alerts.RuleName]int{},
 		state: s.met.MemberState(name, proc.Members()), loads: loads, adapt: s.met.Adaptation(name, proc.Gauged(), proc.Unknown()), unknown: proc.Unknown()})
 	p.AddSink(s.results)
 	s.pipes[name] = p
@@ -570,7 +570,7 @@ func (e eventSink) PutEvent(ctx context.Context, ev alerts.Event) error {
 	if err != nil {
 		return err
 	}
-	return e.st.PutEvent(ctx, store.Event{Structure: ev.Structure, Rule: ev.Rule, Subject: ev.Subject, Kind: ev.Kind, Time: ev.Time, Evidence: evidence})
+	return e.st.PutEvent(ctx, store.Event{Structure: ev.Structure, Rule: string(ev.Rule), Subject: ev.Subject, Kind: string(ev.Kind), Time: ev.Time, Evidence: evidence})
 }
 
 // ReviseEvent replaces the evidence of a stored raised event (its causes
@@ -581,6 +581,6 @@ func (e eventSink) ReviseEvent(ctx context.Context, ev alerts.Event) error {
 	if err != nil {
 		return err
 	}
-	_, err = e.st.ReviseEvent(ctx, store.Event{Structure: ev.Structure, Rule: ev.Rule, Subject: ev.Subject, Kind: ev.Kind, Time: ev.Time, Evidence: evidence})
+	_, err = e.st.ReviseEvent(ctx, store.Event{Structure: ev.Structure, Rule: string(ev.Rule), Subject: ev.Subject, Kind: string(ev.Kind), Time: ev.Time, Evidence: evidence})
 	return err
 }

@@ -20,7 +20,7 @@ type metricsSink struct {
 	sm    *metrics.StructureMetrics
 	name  string
 	rules []alerts.Rule
-	last  map[string]int
+	last  map[alerts.RuleName]int
 	skewN uint64
 	state *metrics.MemberStateMetrics // every member's total state
 	loads *metrics.UnknownLoadMetrics // unknown loads in their engineering quantity
@@ -55,13 +55,13 @@ func (ms *metricsSink) Epoch(r *pipeline.Result) {
 			}
 		}
 	}
-	count := map[string]int{}
+	count := map[alerts.RuleName]int{}
 	for _, a := range r.Active {
 		count[a.Rule]++
 	}
 	for _, rule := range ms.rules {
 		if n := count[rule.Name]; n != ms.last[rule.Name] || len(ms.last) == 0 {
-			ms.m.AlarmsFiring(ms.name, rule.Name, n)
+			ms.m.AlarmsFiring(ms.name, string(rule.Name), n)
 			ms.last[rule.Name] = n
 		}
 	}

@@ -14,7 +14,7 @@ import (
 	"trussmonitor/internal/config"
 )
 
-func ruleByName(t *testing.T, rules []alerts.Rule, name string) alerts.Rule {
+func ruleByName(t *testing.T, rules []alerts.Rule, name alerts.RuleName) alerts.Rule {
 	t.Helper()
 	for _, r := range rules {
 		if r.Name == name {

@@ -788,17 +788,3 @@ func (g *Generator) All() iter.Seq2[Step, error] {
 		}
 	}
 }
-
-// Run calls fn with every step in time order and stops at the first error
-// (from the generator or from fn).
-func (g *Generator) Run(fn func(Step) error) error {
-	for st, err := range g.All() {
-		if err != nil {
-			return err
-		}
-		if err := fn(st); err != nil {
-			return err
-		}
-	}
-	return nil
-}

@@ -39,8 +39,9 @@ func (d Defect) String() string {
 	return "defect?"
 }
 
-// Reading is one raw value as the logger sends it.
-type Reading struct {
+// LoggerValue is one raw value as the logger sends it (the time is the
+// Step's).
+type LoggerValue struct {
 	// Channel is the channel id from the sensor map (or an unknown id for
 	// DefectUnknownChannel).
 	Channel string
@@ -59,10 +60,10 @@ type Step struct {
 	Time time.Time
 	// Readings are the good readings, in the order of the sensor map's
 	// channels; a channel whose reading went bad this step is missing here.
-	Readings []Reading
+	Readings []LoggerValue
 	// Bad are the bad messages of this step, one reading each; a publisher
 	// sends each in a message of its own so that it spoils nothing else.
-	Bad []Reading
+	Bad []LoggerValue
 	// Truth is the state of the simulated structure at Time.
 	Truth Truth
 }

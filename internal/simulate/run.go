@@ -158,7 +158,7 @@ func (r *run) step(k int) (Step, error) {
 	st.Truth.Engineering = eng
 
 	// Raw readings with noise, stuck channels and bad messages.
-	st.Readings = make([]Reading, 0, len(g.chans))
+	st.Readings = make([]LoggerValue, 0, len(g.chans))
 	for i, c := range g.chans {
 		noisy := eng[i] + c.ch.Noise*r.noise.NormFloat64()
 		var raw float64
@@ -189,7 +189,7 @@ func (r *run) step(k int) (Step, error) {
 			raw = r.stuckRaw[i]
 		}
 		r.lastRaw[i], r.haveRaw[i] = raw, true
-		rd := Reading{Channel: c.ch.ID, Value: raw, Unit: c.ch.Unit}
+		rd := LoggerValue{Channel: c.ch.ID, Value: raw, Unit: c.ch.Unit}
 		if g.opt.BadRate > 0 && r.bad.Float64() < g.opt.BadRate {
 			d := Defect(1 + r.bad.IntN(4))
 			bad := rd

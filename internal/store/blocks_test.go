@@ -394,3 +394,64 @@ func compactChild(path string, round int) {
 	st.Close()
 	os.Exit(0)
 }
+
+// TestReadChannelReadings: reading some channels gives, in the same order,
+// exactly the readings of those channels that reading every channel gives,
+// from rows and from blocks (three channels, the first two hours
+// compacted), over the whole store and over a period across the compacted
+// boundary; an unknown name and an empty list read nothing.
+func TestReadChannelReadings(t *testing.T) {
+	ctx := context.Background()
+	st := openTemp(t)
+	rs := someReadings(3, 2)
+	for i := range rs {
+		if i%4 == 0 {
+			r := rs[i]
+			r.Channel = "c"
+			rs = append(rs, r)
+		}
+	}
+	if n, err := st.InsertReadings(ctx, "bridge", rs); err != nil || n != len(rs) {
+		t.Fatalf("insert: %d, %v", n, err)
+	}
+	if _, err := st.Compact(ctx, dayStart.Add(2*time.Hour+30*time.Minute)); err != nil {
+		t.Fatal(err)
+	}
+	for _, c := range []struct {
+		channels []string
+		from, to time.Time
+	}{
+		{[]string{"b"}, time.Time{}, time.Time{}},
+		{[]string{"c", "a"}, time.Time{}, time.Time{}},
+		{[]string{"a", "b", "c"}, dayStart.Add(119 * time.Minute), dayStart.Add(121 * time.Minute)},
+		{[]string{"c", "nonesuch"}, dayStart.Add(time.Hour), dayStart.Add(150 * time.Minute)},
+		{[]string{"nonesuch"}, time.Time{}, time.Time{}},
+		{nil, time.Time{}, time.Time{}},
+	} {
+		keep := map[string]bool{}
+		for _, ch := range c.channels {
+			keep[ch] = true
+		}
+		var want, got []Reading
+		if err := st.ReadReadings(ctx, "bridge", c.from, c.to, func(r Reading) error {
+			if keep[r.Channel] {
+				want = append(want, r)
+			}
+			return nil
+		}); err != nil {
+			t.Fatal(err)
+		}
+		if err := st.ReadChannelReadings(ctx, "bridge", c.channels, c.from, c.to, func(r Reading) error {
+			got = append(got, r)
+			return nil
+		}); err != nil {
+			t.Fatal(err)
+		}
+		if err := sameReadings(want, got); err != nil {
+			t.Errorf("channels %v [%v, %v): %v", c.channels, c.from, c.to, err)
+		}
+		if len(c.channels) > 0 && c.channels[0] != "nonesuch" && len(got) == 0 {
+			t.Errorf("channels %v: nothing read", c.channels)
+		}
+	}
+}

@@ -18,6 +18,7 @@ import (
 
 	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/simulate"
+	"trussmonitor/internal/simulate/simtest"
 	"trussmonitor/internal/store"
 	"trussmonitor/internal/structfile"
 )
@@ -44,11 +45,10 @@ func fileSize(b *testing.B, st *store.Store, dir, name string) (int64, string) {
 // sum of the block payloads alone (the rest of the blocks file is the
 // SQLite row of each block, page fill and the schema).
 type storageSize struct {
-	readings             int64
-	empty                int64 // the compact copy of the store before any reading
-	rows, blocks, blobs  int64
-	blockRows            int64
-	valueBound, timeBits float64 // bits per reading, see noiseBound
+	readings            int64
+	empty               int64 // the compact copy of the store before any reading
+	rows, blocks, blobs int64
+	blockRows           int64
 }
 
 // storeAndCompact commits the readings (time-ordered, one batch per time
@@ -180,7 +180,7 @@ func footbridgeDay(b *testing.B, quantise bool) (string, []store.Reading, map[st
 	}
 	var rs []store.Reading
 	decimals := map[string]int{}
-	if err := g.Run(func(s simulate.Step) error {
+	if err := simtest.Run(g, func(s simulate.Step) error {
 		for _, r := range s.Readings {
 			rs = append(rs, store.Reading{Channel: r.Channel, Time: s.Time, Value: r.Value})
 			decimals[r.Channel], _ = simulate.LoggerResolution(r.Unit)

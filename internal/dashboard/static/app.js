@@ -480,17 +480,6 @@ function drawFit() {
   ]);
 }
 
-// causeText words one cause with its group and its size's uncertainty.
-function causeText(c) {
-  // Causes of one group cannot be told apart by the gauges: shown with
-  // their group number, in no order of likelihood.
-  const grp = c.group ? `[group ${c.group}] ` : '';
-  const std = c.std ? ` ± ${fmtSize(c.std, c.unit)}` : '';
-  const odd = c.implausible ? ' (implausible size)' : '';
-  const t = c.t ? `T = ${fmtNum(c.t, 1)}, ` : '';
-  return `${grp}${c.kind.replace(/_/g, ' ')} ${c.subject}: ${t}size ${fmtSize(c.size, c.unit)}${std}${odd}`;
-}
-
 // shiftText words an unknown load flagged when an alarm rose.
 function shiftText(l) {
   return `unknown load ${l.pattern} left its recent distribution when the alarm rose: ${fmtSize(l.value, l.unit)} against ` +
@@ -512,7 +501,7 @@ function drawAlarms() {
     html('p', `raised ${fmtTime(a.fired_at)} UTC (condition since ${fmtTime(a.since)}); ${asOf}`, div, { class: 'note' });
     if (a.causes.length) {
       const ol = html('ol', null, div);
-      for (const c of a.causes) html('li', causeText(c), ol, { 'data-group': c.group || 0 });
+      for (const c of a.causes) html('li', c.text, ol, { 'data-group': c.group || 0 });
     }
     for (const l of a.load_shifts) html('p', shiftText(l), div, { class: 'load-shift', 'data-pattern': l.pattern });
   }
@@ -689,7 +678,10 @@ function drawEvents(evs) {
     if (e.causes.length) {
       if (e.causes_at && e.causes_at !== e.time) html('div', `sizes over the fault's epochs, as of ${fmtTime(e.causes_at)} UTC`, td, { class: 'note' });
       const ol = html('ol', null, td);
-      for (const c of e.causes.filter((c, i) => i < 3 || c.group === 1)) html('li', causeText(c), ol);
+      // The service sends the top three causes, or the whole first group
+      // (its causes cannot be told apart by the gauges: shown with their
+      // group number, in no order of likelihood), each with its wording.
+      for (const c of e.causes) html('li', c.text, ol);
     }
     for (const l of e.load_shifts) html('div', shiftText(l), td, { class: 'load-shift' });
   }

@@ -15,13 +15,13 @@ import (
 func twoSteps() iter.Seq2[simulate.Step, error] {
 	t0 := time.Date(2026, 6, 1, 0, 0, 0, 500, time.UTC)
 	return func(yield func(simulate.Step, error) bool) {
-		s := simulate.Step{Time: t0, Readings: []simulate.Reading{{Channel: "B2_a", Unit: "/", Value: -1.2345678912e-5}, {Channel: "pad_1", Unit: "N", Value: 735.25}}}
+		s := simulate.Step{Time: t0, Readings: []simulate.LoggerValue{{Channel: "B2_a", Unit: "/", Value: -1.2345678912e-5}, {Channel: "pad_1", Unit: "N", Value: 735.25}}}
 		if !yield(s, nil) {
 			return
 		}
 		s = simulate.Step{Time: t0.Add(time.Minute),
-			Readings: []simulate.Reading{{Channel: "pad_1", Unit: "N", Value: 2.5}},
-			Bad:      []simulate.Reading{{Channel: "B2_a", Unit: "/", Value: math.NaN(), Defect: simulate.DefectNaN}, {Channel: "ghost_1", Unit: "N", Value: 1, Defect: simulate.DefectUnknownChannel}}}
+			Readings: []simulate.LoggerValue{{Channel: "pad_1", Unit: "N", Value: 2.5}},
+			Bad:      []simulate.LoggerValue{{Channel: "B2_a", Unit: "/", Value: math.NaN(), Defect: simulate.DefectNaN}, {Channel: "ghost_1", Unit: "N", Value: 1, Defect: simulate.DefectUnknownChannel}}}
 		yield(s, nil)
 	}
 }

@@ -169,7 +169,7 @@ func (p *sender) sendStep(st simulate.Step) error {
 	s := p.opt.Structure
 	if p.opt.PerChannel {
 		for _, r := range st.Readings {
-			p.buf = AppendPack(p.buf[:0], st.Time, []simulate.Reading{r})
+			p.buf = AppendPack(p.buf[:0], st.Time, []simulate.LoggerValue{r})
 			if err := p.publish(ChannelTopic(s, r.Channel), p.buf); err != nil {
 				return err
 			}
@@ -186,7 +186,7 @@ func (p *sender) sendStep(st simulate.Step) error {
 		if r.Defect == simulate.DefectMalformed {
 			payload = Malformed(st.Time, r)
 		} else {
-			payload = AppendPack(nil, st.Time, []simulate.Reading{r})
+			payload = AppendPack(nil, st.Time, []simulate.LoggerValue{r})
 		}
 		topic := Topic(s)
 		if p.opt.PerChannel {

@@ -27,10 +27,10 @@ func steps(n int, channels []string) iter.Seq2[simulate.Step, error] {
 		for k := 0; k < n; k++ {
 			st := simulate.Step{Time: t0.Add(time.Duration(k) * time.Second)}
 			for i, c := range channels {
-				st.Readings = append(st.Readings, simulate.Reading{Channel: c, Unit: "/", Value: float64(k*100 + i)})
+				st.Readings = append(st.Readings, simulate.LoggerValue{Channel: c, Unit: "/", Value: float64(k*100 + i)})
 			}
 			if k%10 == 9 {
-				st.Bad = append(st.Bad, simulate.Reading{Channel: channels[0], Unit: "/", Value: math.NaN(), Defect: simulate.DefectNaN})
+				st.Bad = append(st.Bad, simulate.LoggerValue{Channel: channels[0], Unit: "/", Value: math.NaN(), Defect: simulate.DefectNaN})
 			}
 			if !yield(st, nil) {
 				return
@@ -194,7 +194,7 @@ func TestConnectError(t *testing.T) {
 
 func TestAppendPackDecodes(t *testing.T) {
 	tm := time.Date(2026, 6, 1, 14, 0, 0, 123456789, time.UTC)
-	rs := []simulate.Reading{{Channel: "B2_a", Unit: "/", Value: -1.25e-5}, {Channel: "pad_1", Unit: "N", Value: 735.5}}
+	rs := []simulate.LoggerValue{{Channel: "B2_a", Unit: "/", Value: -1.25e-5}, {Channel: "pad_1", Unit: "N", Value: 735.5}}
 	p := AppendPack(nil, tm, rs)
 	want := `[{"bn":"","bt":1780322400.123456789,"n":"B2_a","u":"/","v":-1.25e-05},{"n":"pad_1","u":"N","v":735.5}]`
 	if string(p) != want {
@@ -214,7 +214,7 @@ func TestAppendPackDecodes(t *testing.T) {
 	if _, err := senml.Decode(Malformed(tm, rs[0]), time.Now()); err == nil {
 		t.Fatal("the malformed payload decoded")
 	}
-	if _, err := senml.Decode(AppendPack(nil, tm, []simulate.Reading{{Channel: "x", Value: math.NaN()}}), time.Now()); err == nil {
+	if _, err := senml.Decode(AppendPack(nil, tm, []simulate.LoggerValue{{Channel: "x", Value: math.NaN()}}), time.Now()); err == nil {
 		t.Fatal("a NaN payload decoded")
 	}
 }

@@ -17,7 +17,7 @@ import (
 //
 // A NaN value is written as the bare token NaN, as a careless logger does;
 // that makes the message invalid JSON, which is the point of that defect.
-func AppendPack(dst []byte, t time.Time, readings []simulate.Reading) []byte {
+func AppendPack(dst []byte, t time.Time, readings []simulate.LoggerValue) []byte {
 	dst = append(dst, '[')
 	for i, r := range readings {
 		if i == 0 {
@@ -71,7 +71,7 @@ func appendValue(dst []byte, v float64) []byte {
 
 // Malformed returns the pack for one bad reading cut off in the middle, as
 // a message truncated in transit would be.
-func Malformed(t time.Time, r simulate.Reading) []byte {
-	p := AppendPack(nil, t, []simulate.Reading{r})
+func Malformed(t time.Time, r simulate.LoggerValue) []byte {
+	p := AppendPack(nil, t, []simulate.LoggerValue{r})
 	return p[:len(p)/2]
 }
