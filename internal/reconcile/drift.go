@@ -129,18 +129,3 @@ func driftSlope(b, a, f, e, cc float64) (slope, std float64) {
 	det := f*cc - e*e
 	return (f*a - e*b) / det, math.Sqrt(f / det)
 }
-
-// rhoCauses returns the correlation of the w statistics of causes a and b
-// over their epochs: Rho of their labels, or for a drift that of its gauge
-// times the ramp's correlation with a constant (see above).
-func (id *Identification) rhoCauses(a, b Cause) float64 {
-	switch {
-	case a.drift != nil && b.drift != nil:
-		return id.Rho(a.drift.gauge, b.drift.gauge)
-	case a.drift != nil:
-		return id.Rho(a.drift.gauge, b.Label) * a.drift.rhoTime
-	case b.drift != nil:
-		return id.Rho(a.Label, b.drift.gauge) * b.drift.rhoTime
-	}
-	return id.Rho(a.Label, b.Label)
-}

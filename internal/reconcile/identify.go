@@ -374,7 +374,7 @@ func (id *Identification) Groups(cs []Cause) []Group {
 	// Each cause's candidate in this epoch (-1: unknown here, or a null
 	// projected signature, so Rho is 0 with any other), looked up once; a
 	// drift's is its gauge's, with the ramp's correlation with a constant
-	// as a factor (drift.go, rhoCauses).
+	// as a factor (drift.go; two drifts correlate as their gauges).
 	cand := make([]int, len(cs))
 	fac := make([]float64, len(cs))
 	for _, i := range order {
