@@ -10,33 +10,42 @@ import (
 )
 
 // driftEpochs feeds a FaultRanker epochs of a gauge-bias candidate whose
-// bias is offset plus rate (t - onset) (rate in N per day, zero before
-// onset),
+// bias is offset plus rate (t - onset) from onset on (rate in N per day;
+// zero before onset),
 // with the per-epoch bias estimate's noise of variance 1/d, every step, and
 // returns the ranker, the epochs' times in days from the first, their
 // per-epoch bias estimates n/d and weights d.
 func driftEpochs(t *testing.T, offset, rate float64, onset, step time.Duration, n int, seed uint64) (f *FaultRanker, tk, bias, w []float64) {
+	return driftEpochsRaised(t, offset, rate, onset, step, n, 0, seed)
+}
+
+// driftEpochsRaised is driftEpochs with the alarm raised at epoch raise:
+// the epochs up to it are the cause span the fault tracker starts from.
+func driftEpochsRaised(t *testing.T, offset, rate float64, onset, step time.Duration, n, raise int, seed uint64) (f *FaultRanker, tk, bias, w []float64) {
 	t.Helper()
 	rng := rand.New(rand.NewPCG(seed, 1))
 	t0 := time.Date(2026, 6, 1, 0, 0, 0, 0, time.UTC)
-	recent, err := NewRecentRanker(2 * step)
+	recent, err := NewRecentRanker(time.Duration(raise+2) * step)
 	if err != nil {
 		t.Fatal(err)
 	}
 	for i := 0; i < n; i++ {
 		at := t0.Add(time.Duration(i) * step)
 		d := 4e-6 * (1 + 0.5*math.Sin(float64(i)/7)) // 1/d: a bias variance of (500 N)^2 and so
-		b := offset
-		if el := at.Sub(t0.Add(onset)); el > 0 {
-			b = rate * el.Seconds() / secondsPerDay
+		b := 0.0
+		if el := at.Sub(t0.Add(onset)); el >= 0 {
+			b = offset + rate*el.Seconds()/secondsPerDay
 		}
 		est := b + rng.NormFloat64()/math.Sqrt(d)
 		c := finishCause(GaugeFault, "gauge D2", est*d, d, d, 1)
 		c.info = candInfo{lower: -5000e-6 * 1e9, upper: 5000e-6 * 1e9, ea: 1e9, delta0: 4.13}
-		if i == 0 {
+		switch {
+		case i < raise:
+			recent.Add(at, []Cause{c})
+		case i == raise:
 			recent.Add(at, []Cause{c})
 			f = recent.Fault()
-		} else {
+		default:
 			f.Add(at, []Cause{c})
 		}
 		tk = append(tk, at.Sub(t0).Seconds()/secondsPerDay)
@@ -111,6 +120,16 @@ func TestDriftSeparatesFromBias(t *testing.T) {
 		}
 		if d := gs[0].Causes[0].drift; math.Abs(d.rhoTime-math.Sqrt(3)/2) > 0.02 {
 			t.Errorf("rho_time %.4f, want about sqrt(3)/2", d.rhoTime)
+		}
+	})
+	t.Run("step", func(t *testing.T) {
+		// A step of 5 kN 2 minutes into a cause span of 4 minutes (the
+		// alarm's fault tracker starts from the span before the raise),
+		// then 6 h: the drift is not offered, a step at its onset
+		// explains the epochs better.
+		f, _, _, _ := driftEpochsRaised(t, 5e3, 0, 2*time.Minute, 10*time.Second, 2160, 24, 10)
+		if d, ok := causeByLabel(f.Causes(), "drift of gauge D2"); ok {
+			t.Errorf("a step offered as a drift: %.1f ± %.1f kN/d, T %.1f", d.DisplaySize, d.Std*1e-3, d.T)
 		}
 	})
 	t.Run("constant", func(t *testing.T) {

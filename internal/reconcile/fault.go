@@ -128,14 +128,20 @@ func (f *FaultRanker) Causes() []Cause {
 		}
 		out = append(out, c)
 	}
-	// The drifts of the gauges, over the whole sums (drift.go).
+	// The drifts of the gauges, over the whole sums (drift.go), offered
+	// only when the ramp explains the gauge's epochs better than a step of
+	// its bias at the step's estimated onset (both fit an onset and a
+	// size): a step that began within the epochs otherwise looks more like
+	// a ramp than like a constant over them.
 	for k, p := range f.proto {
 		if p.Kind != GaugeFault {
 			continue
 		}
-		if d, ok := driftCause(p, f.num[k], f.den[k], f.drift[k], f.count[k]); ok {
-			out = append(out, d)
+		d, ok := driftCause(p, f.num[k], f.den[k], f.drift[k], f.count[k])
+		if !ok || !(f.sDen[k] > 0) || d.T <= f.sNum[k]*f.sNum[k]/f.sDen[k] {
+			continue
 		}
+		out = append(out, d)
 	}
 	return out
 }
