@@ -2,8 +2,8 @@ package simulate
 
 import (
 	"errors"
-	"math"
 	"fmt"
+	"math"
 	"strings"
 	"testing"
 	"time"
