@@ -61,7 +61,7 @@ func runSimulate(ctx context.Context, args []string, stdout, stderr io.Writer) i
 	csvPath := fs.String("csv", "", "write a logger CSV file (gzip when the name ends in .gz) instead of publishing")
 	highRate := fs.Duration("high-rate", 0, "publish instead the high-rate record of the gauges with a fatigue block, sampled at this interval (20ms = 50 Hz; pedestrian groups and a service vehicle), one SenML pack per second")
 	var faults faultFlags
-	fs.Var(&faults, "fault", "inject a fault KIND:TARGET:AT[:SIZE], repeatable: stiffness:D2:10m:0.3, drift:B4_a:2h:50e-6/h, stuck:T4_a:1h, settlement:L8:3h:0.005, spring:L8:3h:-0.5 (AT: duration from --start or RFC 3339 time)")
+	fs.Var(&faults, "fault", "inject a fault KIND:TARGET:AT[:SIZE], repeatable: stiffness:D2:10m:0.3, drift:B4_a:2h:50e-6/h (a channel), drift:B2:2h:5kN/d (a member's gauges, as force), stuck:T4_a:1h, settlement:L8:3h:0.005, spring:L8:3h:-0.5 (AT: duration from --start or RFC 3339 time)")
 	fs.Usage = func() {
 		fmt.Fprintln(stderr, "usage: monitor simulate --structure FILE --sensors FILE [--broker URL] [--seed N] [--start RFC3339] [--duration 24h] [--rate 1s] [--speed 1] [--fault KIND:TARGET:AT[:SIZE]] [--bad-rate 0.001] [--csv FILE]")
 		fmt.Fprintln(stderr, "Simulates the site logger of a structure (demo data) and publishes its readings or writes them as CSV.")

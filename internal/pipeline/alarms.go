@@ -37,7 +37,9 @@ func adaptAfter(p *reconcile.Processor, res *Result) {
 			causes = p.RecentCauses()
 		}
 		for _, c := range causes {
-			if c.Group == 1 && c.Kind != reconcile.ChannelBias {
+			// A drift is tested over an alarm's epochs only (its gauge's
+			// bias is the per-epoch candidate carried).
+			if c.Group == 1 && c.Kind != reconcile.ChannelBias && c.Kind != reconcile.GaugeDrift {
 				p.Adapt(c.Label, keep)
 			}
 		}

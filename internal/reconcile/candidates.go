@@ -121,6 +121,7 @@ func (c *candidates) fixedCandidates(lm *linearModel, sm *sensors.Map, rows int)
 		cand.EA = mb.E * mb.A
 		out = append(out, c.bounded(cand))
 		subjects[cand.Label] = lm.names[i]
+		subjects[DriftLabel(cand.Label)] = lm.names[i]
 	}
 	count := map[string]int{}
 	for _, ch := range sm.Channels() {

@@ -32,6 +32,11 @@ const (
 	// newtons per unit strain of that channel (E A / number of gauges of
 	// the member); size as a strain, shown in microstrain.
 	ChannelBias
+	// GaugeDrift is a bias of one member's gauge group growing linearly in
+	// time from an onset, tested over an active alarm's epochs (drift.go);
+	// signature: the gauge bias's times the time since the onset; size in
+	// newtons per day, shown in kN/d (and as microstrain per day).
+	GaugeDrift
 )
 
 // rankOne reports whether the kind changes the stiffness matrix by a
@@ -54,6 +59,8 @@ func (k Kind) String() string {
 		return "spring_change"
 	case ChannelBias:
 		return "channel_bias"
+	case GaugeDrift:
+		return "gauge_drift"
 	}
 	return fmt.Sprintf("kind(%d)", int(k))
 }
@@ -68,6 +75,8 @@ func (k Kind) Display() (scale float64, unit string) {
 		return 100, "%"
 	case ChannelBias:
 		return 1e6, "µε"
+	case GaugeDrift:
+		return 1e-3, "kN/d"
 	case SupportSettlement:
 		return 1000, "mm"
 	default:
@@ -133,6 +142,7 @@ type Cause struct {
 	// the member's gauges (Size / E A); 0 for other kinds.
 	Strain, StrainStd float64
 	info              candInfo
+	drift             *driftLink // a drift's gauge and ramp correlation (nil for the other kinds)
 }
 
 // candInfo carries the candidate's constants into window sums.

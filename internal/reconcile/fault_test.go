@@ -44,7 +44,7 @@ func TestFaultRankerSinceOnset(t *testing.T) {
 				t.Errorf("at the raise: size %.3f, want %.1f within 3 standard deviations", got.Size, x)
 			}
 		case i >= span:
-			f.Add(c)
+			f.Add(t0.Add(time.Duration(i)*time.Second), c)
 		}
 	}
 	got := f.Causes()[0]
@@ -73,7 +73,7 @@ func TestFaultRankerNewCandidate(t *testing.T) {
 	t0 := time.Date(2026, 6, 1, 14, 0, 0, 0, time.UTC)
 	recent.Add(t0, []Cause{finishCause(GaugeFault, "gauge D2", 8, 4, 4, 1)})
 	f := recent.Fault()
-	f.Add([]Cause{finishCause(GaugeFault, "gauge D2", 8, 4, 4, 1), finishCause(GaugeFault, "gauge D3", 3, 1, 1, 1)})
+	f.Add(t0.Add(time.Second), []Cause{finishCause(GaugeFault, "gauge D2", 8, 4, 4, 1), finishCause(GaugeFault, "gauge D3", 3, 1, 1, 1)})
 	cs := f.Causes()
 	if len(cs) != 2 || cs[0].Label != "gauge D2" || cs[1].Label != "gauge D3" {
 		t.Fatalf("causes %+v, want gauge D2 then gauge D3", cs)

@@ -110,7 +110,8 @@ func PlausibleRange(k Kind, ea float64) (lo, hi float64, ok bool) {
 		return -MaxSpringLoss, MaxSpringGain, true
 	case ChannelBias:
 		return -MaxBiasStrain, MaxBiasStrain, true
-	case GaugeFault:
+	case GaugeFault, GaugeDrift:
+		// A drift: the same bound reached within a day (per day).
 		if ea > 0 {
 			return -MaxBiasStrain * ea, MaxBiasStrain * ea, true
 		}
@@ -371,11 +372,18 @@ func (id *Identification) Groups(cs []Cause) []Group {
 		return boolOrder(ca.T > cb.T, cb.T > ca.T)
 	})
 	// Each cause's candidate in this epoch (-1: unknown here, or a null
-	// projected signature, so Rho is 0 with any other), looked up once.
+	// projected signature, so Rho is 0 with any other), looked up once; a
+	// drift's is its gauge's, with the ramp's correlation with a constant
+	// as a factor (drift.go; two drifts correlate as their gauges).
 	cand := make([]int, len(cs))
+	fac := make([]float64, len(cs))
 	for _, i := range order {
-		cand[i] = -1
-		if n, ok := id.index[cs[i].Label]; ok && id.norm[n] != 0 {
+		cand[i], fac[i] = -1, 1
+		label := cs[i].Label
+		if d := cs[i].drift; d != nil {
+			label, fac[i] = d.gauge, d.rhoTime
+		}
+		if n, ok := id.index[label]; ok && id.norm[n] != 0 {
 			cand[i] = n
 		}
 	}
@@ -415,7 +423,11 @@ func (id *Identification) Groups(cs []Cause) []Group {
 				}
 			}
 			for b, k := range rest[:n] {
-				if math.Abs(p[b]/(id.norm[i]*id.norm[cand[k]])) >= id.rhoMax {
+				f := fac[li] * fac[k]
+				if cs[li].drift != nil && cs[k].drift != nil {
+					f = 1 // two drifts: their ramps taken alike
+				}
+				if math.Abs(f*p[b]/(id.norm[i]*id.norm[cand[k]])) >= id.rhoMax {
 					used[k] = true
 					grp.Causes = append(grp.Causes, cs[k])
 					grp.T = math.Max(grp.T, cs[k].T)
@@ -519,7 +531,7 @@ func (c *Cause) finishSizes() {
 			c.Implausible = true
 		}
 	}
-	if c.Kind == GaugeFault && in.ea > 0 {
+	if (c.Kind == GaugeFault || c.Kind == GaugeDrift) && in.ea > 0 {
 		c.Strain, c.StrainStd = c.Size/in.ea, c.Std/in.ea
 	}
 }

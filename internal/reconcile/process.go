@@ -460,7 +460,7 @@ func (p *Processor) fill(res *EpochResult, r *Result, s *Solver, missing []strin
 	p.window.Add(id.Causes)
 	p.recent.Add(res.Time, id.Causes)
 	for _, f := range p.faults {
-		f.Add(id.Causes)
+		f.Add(res.Time, id.Causes)
 	}
 	if r.Rejected {
 		// The causes summed over the epochs of the last CauseSpan (the

@@ -17,7 +17,10 @@ type FaultKind string
 // The fault kinds the simulator can inject.
 const (
 	// FaultDrift adds a ramp to one channel's engineering value (for a
-	// gauge: strain per unit time), starting at the fault time.
+	// gauge: strain per unit time), starting at the fault time; with a
+	// member as target, to each of the member's gauge channels (a rate in
+	// force per unit time is divided by the member's E A: the member's
+	// gauge force drifts at that rate).
 	FaultDrift FaultKind = "drift"
 	// FaultStuck freezes one channel's raw value at the last reading sent
 	// before the fault time; later readings repeat it without noise.
@@ -61,6 +64,9 @@ type Fault struct {
 	// relative change of the spring stiffness (spring, Size > -1, not 0).
 	// Unused for stuck.
 	Size float64
+	// Force is true for a drift whose Size is a force rate (N/s) of the
+	// target member's gauge group rather than an engineering-value rate.
+	Force bool
 	// Spec is the text the fault was parsed from, for messages.
 	Spec string
 }
@@ -100,6 +106,7 @@ var ErrFaultSpec = errors.New("bad fault specification")
 //	stiffness:D2:10m:0.3              member D2 loses 30 % of E*A 10 min after the start
 //	stiffness:D2:2026-06-01T14:00:00Z  the same, at an absolute time, default 30 %
 //	drift:B4_a:2h:50e-6/h             channel B4_a drifts by 50e-6 (strain) per hour from 2 h on
+//	drift:B2:3h:5kN/d                 the gauges of member B2 drift by 5 kN a day (as force) from 3 h on
 //	stuck:T4_a:1h                     channel T4_a freezes 1 h after the start
 //	settlement:L8:3h:0.005            support L8 settles 5 mm (also "5 mm") at 3 h
 //	spring:L8:3h:-0.5                 the springs of support L8 lose half their stiffness at 3 h
@@ -159,11 +166,11 @@ func ParseFault(spec string) (Fault, error) {
 		if sizeText == "" {
 			return fail("a drift fault needs a rate, for example 50e-6/h")
 		}
-		v, err := parseRate(sizeText)
+		v, force, err := parseRate(sizeText)
 		if err != nil {
 			return fail("%v", err)
 		}
-		f.Size = v
+		f.Size, f.Force = v, force
 	case FaultSpring:
 		v, err := strconv.ParseFloat(sizeText, 64)
 		if sizeText == "" || err != nil || !(v > -1) || v == 0 || math.IsInf(v, 0) {
@@ -207,8 +214,9 @@ func splitAt(rest string) (at, size string, err error) {
 	return strings.TrimSpace(at), strings.TrimSpace(size), nil
 }
 
-// parseRate reads a drift rate such as "50e-6/h" and returns it per second.
-func parseRate(text string) (float64, error) {
+// parseRate reads a drift rate such as "50e-6/h" or "5kN/d" and returns it
+// per second; force is true when the amount carries a force unit.
+func parseRate(text string) (rate float64, force bool, err error) {
 	num, per, found := strings.Cut(text, "/")
 	seconds := 3600.0
 	if found {
@@ -222,15 +230,23 @@ func parseRate(text string) (float64, error) {
 		case "d":
 			seconds = 86400
 		default:
-			return 0, fmt.Errorf("drift rate %q: unknown time unit %q (want s, min, h or d)", text, per)
+			return 0, false, fmt.Errorf("drift rate %q: unknown time unit %q (want s, min, h or d)", text, per)
 		}
 	}
 	v, err := strconv.ParseFloat(strings.TrimSpace(num), 64)
-	if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
-		return 0, fmt.Errorf("drift rate %q: %q is not a number", text, num)
+	if err != nil {
+		// An amount with a force unit (5kN): the member's gauge force.
+		fv, ferr := units.Parse(strings.TrimSpace(num), units.Force, "N")
+		if ferr != nil {
+			return 0, false, fmt.Errorf("drift rate %q: %q is neither a number nor a force (%v)", text, num, ferr)
+		}
+		v, force = fv, true
+	}
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return 0, false, fmt.Errorf("drift rate %q: %q is not a finite number", text, num)
 	}
 	if v == 0 {
-		return 0, fmt.Errorf("drift rate %q is zero", text)
+		return 0, false, fmt.Errorf("drift rate %q is zero", text)
 	}
-	return v / seconds, nil
+	return v / seconds, force, nil
 }

@@ -398,6 +398,15 @@ func (g *Generator) prepareFaults() error {
 					k = i
 				}
 			}
+			if k >= 0 && f.Force {
+				return fmt.Errorf("simulate: fault %s: a drift in force needs a member as target, %q is a channel; give the channel's rate as strain (50e-6/d)", f, f.Target)
+			}
+			if k < 0 && f.Kind == FaultDrift {
+				if err := g.memberDrift(f); err != nil {
+					return err
+				}
+				continue
+			}
 			if k < 0 {
 				return fmt.Errorf("simulate: fault %s: channel %q is not in the sensor map %s", f, f.Target, g.sm.File())
 			}
@@ -436,6 +445,32 @@ func (g *Generator) prepareFaults() error {
 		return structural[i].Time(g.opt.Start).Before(structural[j].Time(g.opt.Start))
 	})
 	g.opt.Faults = append(append([]Fault(nil), nonStructural(g.opt.Faults)...), structural...)
+	return nil
+}
+
+// memberDrift spreads a drift fault on a member over its gauge channels:
+// each drifts by the rate, or by the force rate divided by the member's
+// E A (the member's gauge force is E A times its gauges' mean strain).
+func (g *Generator) memberDrift(f Fault) error {
+	e, a, _, ok := g.st.MemberProperties(f.Target)
+	if !ok {
+		return fmt.Errorf("simulate: fault %s: %q is neither a channel of the sensor map %s nor a member of structure %q", f, f.Target, g.sm.File(), g.st.Name)
+	}
+	n := 0
+	for i, c := range g.chans {
+		if !c.ch.Kind.IsGauge() || c.ch.Member != f.Target {
+			continue
+		}
+		per := f
+		if f.Force {
+			per.Size = f.Size / (e * a)
+		}
+		g.chans[i].drift = append(g.chans[i].drift, per)
+		n++
+	}
+	if n == 0 {
+		return fmt.Errorf("simulate: fault %s: member %q has no gauge channel in the sensor map %s", f, f.Target, g.sm.File())
+	}
 	return nil
 }
 

@@ -667,7 +667,9 @@ func TestNewErrors(t *testing.T) {
 		fault, want string
 	}{
 		{"stiffness:Z9:1h:0.3", `member "Z9" is not in structure`},
-		{"drift:nope:1h:1e-6/h", `channel "nope" is not in the sensor map`},
+		{"drift:nope:1h:1e-6/h", `"nope" is neither a channel of the sensor map`},
+		{"drift:B4_a:1h:5kN/d", `a drift in force needs a member as target`},
+		{"drift:D4:1h:5kN/d", `member "D4" has no gauge channel`}, // the ungauged brace
 		{"settlement:U4:1h:0.01", `node "U4" is not a support`},
 		{"settlement:Q1:1h:0.01", `node "Q1" is not in structure`},
 	} {
