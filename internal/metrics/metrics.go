@@ -46,6 +46,10 @@ const (
 	CommitFailures       = "shm_ingest_commit_failures_total"
 	BrokerConnected      = "shm_broker_connected"
 	BrokerReconnects     = "shm_broker_reconnects_total"
+	// EmbeddedBrokerClients is the MQTT clients connected to the embedded
+	// broker (the loggers and the monitor's own ingest); only exported
+	// when the service runs the embedded broker.
+	EmbeddedBrokerClients = "shm_embedded_broker_clients"
 	// ReconcileQueueDepth is the readings waiting for reconciliation,
 	// ReconcileQueueOverflow those that found its queue full (read back
 	// from the store later) and ReconcileQueueDropped those left out of
@@ -54,6 +58,20 @@ const (
 	ReconcileQueueOverflow = "shm_reconcile_queue_overflow_readings_total"
 	ReconcileQueueDropped  = "shm_reconcile_queue_dropped_readings_total"
 )
+
+// RegisterEmbeddedBroker exports the embedded broker's connected clients
+// (EmbeddedBrokerClients), read from clients at every scrape: a logger that
+// stopped publishing but is still connected differs from one that lost its
+// connection.
+func RegisterEmbeddedBroker(reg prometheus.Registerer, clients func() int64) error {
+	g := prometheus.NewGaugeFunc(prometheus.GaugeOpts{Name: EmbeddedBrokerClients,
+		Help: "MQTT clients connected to the embedded broker (the loggers and the monitor's own ingest)."},
+		func() float64 { return float64(clients()) })
+	if err := reg.Register(g); err != nil {
+		return fmt.Errorf("metrics: %s: %w", EmbeddedBrokerClients, err)
+	}
+	return nil
+}
 
 // Epoch outcomes for Metrics.Epoch (common values; any string is accepted).
 const (

@@ -242,6 +242,9 @@ func (s *Service) Start(ctx context.Context) error {
 			return fmt.Errorf("%s: broker.listen: %w", s.cfg.File, err)
 		}
 		s.brk = b
+		if err := metrics.RegisterEmbeddedBroker(s.reg, b.Clients); err != nil {
+			return err
+		}
 	}
 	ln, err := new(net.ListenConfig).Listen(ctx, "tcp", s.cfg.HTTP.Listen)
 	if err != nil {
