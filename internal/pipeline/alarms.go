@@ -19,7 +19,7 @@ func adaptAfter(p *reconcile.Processor, res *Result) {
 		if ev.Kind != alerts.Raised || !adapting(ev.Rule) {
 			continue
 		}
-		if shifts := p.LoadShifts(res.EpochResult, reconcile.LoadShiftK); len(shifts) > 0 {
+		if shifts := p.LoadShifts(res.EpochResult); len(shifts) > 0 {
 			res.LoadShifts = shifts
 		}
 		keep := ""

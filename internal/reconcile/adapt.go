@@ -314,27 +314,9 @@ func (p *Processor) adaptedFitWith(res *EpochResult, s *Solver, cands []Candidat
 			fit.Kept = append(fit.Kept, mr.Member)
 			continue
 		}
-		mr.AdjustedN = r.Adjusted[g]
-		mr.W = r.W[g]
-		mr.Redundancy = r.Redundancy[g]
-		mr.MDBN = r.MDB[g]
-		mr.Checkable = r.Checkable[g]
-		if mr.Available {
-			mr.FittedN = mr.MeasuredN - mr.AdjustedN
-			mr.SigmaAdjustedN = 0
-			if mr.Redundancy > 0 {
-				mr.SigmaAdjustedN = p.sigma[g] * math.Sqrt(mr.Redundancy)
-			}
-		}
+		p.fitMember(mr, r, g)
 	}
-	res.Loads = res.Loads[:0]
-	names := append(append([]string(nil), p.lm.unknown...), missing...)
-	for j, n := range names {
-		if j >= len(r.Theta) {
-			break
-		}
-		res.Loads = append(res.Loads, LoadEstimate{Pattern: n, Value: r.Theta[j], Std: r.ThetaStd[j], Estimable: r.Estimable[j]})
-	}
+	res.Loads = p.loadEstimates(res.Loads[:0], r, missing)
 	// A further cause: the causes of the adapted fit, when it rejects.
 	if !further {
 		return true
@@ -357,8 +339,3 @@ func (p *Processor) subjectMember(c Candidate) string {
 	}
 	return ""
 }
-
-// LoadShiftK is the number of combined standard deviations beyond which
-// an unknown-load estimate counts as having left its recent distribution
-// (Baarda's critical value 3.29 at alpha0 = 0.001).
-const LoadShiftK = 3.29

@@ -77,8 +77,8 @@ func TestAdaptationCarriesTheBias(t *testing.T) {
 }
 
 // TestLoadShiftFlag: an estimate 5 combined standard deviations from the
-// mean of its recent values is flagged, one 1 away is not (the k = 3.29
-// bound of LoadShiftK).
+// mean of its recent values is flagged, one 1 away is not (k = 3.29,
+// Baarda's critical value at alpha0 = 0.001, as the processor's default).
 func TestLoadShiftFlag(t *testing.T) {
 	h := loadHistory{n: 10}
 	for _, v := range []float64{1.0, 1.2, 0.8, 1.1, 0.9, 1.0, 1.05, 0.95, 1.0, 1.0} {
@@ -87,10 +87,10 @@ func TestLoadShiftFlag(t *testing.T) {
 	// Recent mean 1.0, sample sd sqrt(0.105 / 9) = 0.10801 (squared
 	// deviations 0.04 + 0.04 + 0.01 + 0.01 + 0.0025 + 0.0025); with theta
 	// std 0.05 the combined sd is sqrt(0.011667 + 0.0025) = 0.11902.
-	if s := h.shifts([]string{"crowd"}, []float64{1.0 + 5*0.11902}, []float64{0.05}, LoadShiftK); len(s) != 1 || math.Abs(s[0].Z-5) > 0.01 {
+	if s := h.shifts([]string{"crowd"}, []float64{1.0 + 5*0.11902}, []float64{0.05}, 3.29); len(s) != 1 || math.Abs(s[0].Z-5) > 0.01 {
 		t.Errorf("shift of 5 sd: %+v; want one flag with Z = 5", s)
 	}
-	if s := h.shifts([]string{"crowd"}, []float64{1.0 + 0.11902}, []float64{0.05}, LoadShiftK); len(s) != 0 {
+	if s := h.shifts([]string{"crowd"}, []float64{1.0 + 0.11902}, []float64{0.05}, 3.29); len(s) != 0 {
 		t.Errorf("shift of 1 sd flagged: %+v", s)
 	}
 }

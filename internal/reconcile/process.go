@@ -400,6 +400,39 @@ func (p *Processor) Process(t time.Time, snap *sensors.Snapshot, missingChannels
 	return res
 }
 
+// fitMember sets gauged member g's statistics from the fit r: the
+// adjusted residual, Baarda's w, redundancy, MDB, the fitted force
+// (measured less the adjusted residual) and the adjusted residual's
+// standard deviation sigma_g sqrt(r_g).
+func (p *Processor) fitMember(mr *MemberResult, r *Result, g int) {
+	mr.AdjustedN = r.Adjusted[g]
+	mr.W = r.W[g]
+	mr.Redundancy = r.Redundancy[g]
+	mr.MDBN = r.MDB[g]
+	mr.Checkable = r.Checkable[g]
+	if mr.Available {
+		mr.FittedN = mr.MeasuredN - mr.AdjustedN
+		mr.SigmaAdjustedN = 0
+		if mr.Redundancy > 0 {
+			mr.SigmaAdjustedN = p.sigma[g] * math.Sqrt(mr.Redundancy)
+		}
+	}
+}
+
+// loadEstimates appends to dst the fit's estimates of the unknown load
+// patterns and of the missing inputs estimated in their place, in the
+// solver's column order.
+func (p *Processor) loadEstimates(dst []LoadEstimate, r *Result, missing []string) []LoadEstimate {
+	names := append(append([]string(nil), p.lm.unknown...), missing...)
+	for j, n := range names {
+		if j >= len(r.Theta) {
+			break
+		}
+		dst = append(dst, LoadEstimate{Pattern: n, Value: r.Theta[j], Std: r.ThetaStd[j], Estimable: r.Estimable[j]})
+	}
+	return dst
+}
+
 // fill copies the fit into res and ranks causes when the fit is rejected.
 func (p *Processor) fill(res *EpochResult, r *Result, s *Solver, missing []string, snap *sensors.Snapshot) {
 	lm := p.lm
@@ -409,26 +442,9 @@ func (p *Processor) fill(res *EpochResult, r *Result, s *Solver, missing []strin
 		res.Outcome = OutcomeRejected
 	}
 	for g := range res.Members {
-		mr := &res.Members[g]
-		mr.AdjustedN = r.Adjusted[g]
-		mr.W = r.W[g]
-		mr.Redundancy = r.Redundancy[g]
-		mr.MDBN = r.MDB[g]
-		mr.Checkable = r.Checkable[g]
-		if mr.Available {
-			mr.FittedN = mr.MeasuredN - mr.AdjustedN
-			if mr.Redundancy > 0 {
-				mr.SigmaAdjustedN = p.sigma[g] * math.Sqrt(mr.Redundancy)
-			}
-		}
+		p.fitMember(&res.Members[g], r, g)
 	}
-	names := append(append([]string(nil), lm.unknown...), missing...)
-	for j, n := range names {
-		if j >= len(r.Theta) {
-			break
-		}
-		res.Loads = append(res.Loads, LoadEstimate{Pattern: n, Value: r.Theta[j], Std: r.ThetaStd[j], Estimable: r.Estimable[j]})
-	}
+	res.Loads = p.loadEstimates(res.Loads[:0], r, missing)
 	theta := r.Theta
 	if len(theta) > len(lm.unknown) {
 		theta = theta[:len(lm.unknown)]
@@ -482,9 +498,14 @@ func (p *Processor) fill(res *EpochResult, r *Result, s *Solver, missing []strin
 }
 
 // LoadShifts returns the unknown-load estimates of res that left the
-// distribution of the recent accepted epochs by more than k combined
-// standard deviations (to be called when an alarm rises).
-func (p *Processor) LoadShifts(res *EpochResult, k float64) []LoadShift {
+// distribution of the recent accepted epochs by more than the local
+// test's critical value res.Critical (Baarda's k of the configured
+// alpha0) in combined standard deviations (to be called when an alarm
+// rises).
+func (p *Processor) LoadShifts(res *EpochResult) []LoadShift {
+	if res.Critical <= 0 { // not fitted
+		return nil
+	}
 	theta := make([]float64, 0, len(p.lm.unknown))
 	std := make([]float64, 0, len(p.lm.unknown))
 	for j := range p.lm.unknown {
@@ -494,7 +515,7 @@ func (p *Processor) LoadShifts(res *EpochResult, k float64) []LoadShift {
 		theta = append(theta, res.Loads[j].Value)
 		std = append(std, res.Loads[j].Std)
 	}
-	return p.loadHist.shifts(p.lm.unknown, theta, std, k)
+	return p.loadHist.shifts(p.lm.unknown, theta, std, res.Critical)
 }
 
 // minStiffnessEffect is the least effect, in standard deviations of the
