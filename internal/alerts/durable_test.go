@@ -173,7 +173,7 @@ func TestReviseStoredCauses(t *testing.T) {
 		return []reconcile.RankedCause{{Label: "E A of D2", Kind: reconcile.StiffnessChange, T: 40, Size: size, Std: 1.5, Unit: "%", Group: 1},
 			{Label: "gauge D2", Kind: reconcile.GaugeFault, T: 40, Size: -5200, Std: 300, Unit: "N", Group: 1}}
 	}
-	shift := []LoadShift{{Pattern: "crowd", Value: -0.8, Mean: 0.1, Std: 0.05, Z: -6.1}}
+	shift := []reconcile.LoadShift{{Pattern: "crowd", Value: -0.8, Mean: 0.1, Std: 0.05, Z: -6.1}}
 	obs := func(tm time.Time, w float64) []Event {
 		evs, err := ev.Observe(ctx, Observation{Time: tm, Structure: "alder-creek", Causes: loss(-22),
 			Members: []Member{{Member: "D2", W: w, Checkable: true, EstimatedBias: -5200}}, LoadShifts: shift})

@@ -53,21 +53,7 @@ type Observation struct {
 	// LoadShifts are the unknown-load estimates of this epoch that left
 	// their recent distribution; an alarm of an identifying rule raised
 	// at this epoch carries them (they may be absorbing the fault).
-	LoadShifts []LoadShift
-}
-
-// LoadShift flags an unknown-load estimate that left the distribution of
-// the recent accepted epochs when an alarm rose: it may be absorbing the
-// fault (DESIGN.md, Identification and adaptation).
-type LoadShift struct {
-	Pattern string `json:"pattern"`
-	// Value is the estimate (pattern factor) when the alarm rose; Mean and
-	// Std those of the recent epochs before it; Z = (Value - Mean) /
-	// sqrt(Std^2 + the estimate's own variance).
-	Value float64 `json:"value"`
-	Mean  float64 `json:"mean"`
-	Std   float64 `json:"std"`
-	Z     float64 `json:"z"`
+	LoadShifts []reconcile.LoadShift
 }
 
 // Utilisation is one member's utilisation (|total force| / design
@@ -150,7 +136,7 @@ type Evidence struct {
 	CausesAt time.Time `json:"causes_at,omitzero"`
 	// LoadShifts flags the unknown-load estimates that left their recent
 	// distribution when the alarm rose.
-	LoadShifts []LoadShift `json:"load_shifts,omitempty"`
+	LoadShifts []reconcile.LoadShift `json:"load_shifts,omitempty"`
 }
 
 // EventSink stores events (the store package, adapted by the caller).
@@ -183,7 +169,7 @@ type Alarm struct {
 	Causes   []reconcile.RankedCause
 	CausesAt time.Time
 	// LoadShifts are the unknown loads flagged when the alarm rose.
-	LoadShifts []LoadShift
+	LoadShifts []reconcile.LoadShift
 }
 
 // ReviseEvery is the least epoch time between two revisions of an active
@@ -388,7 +374,7 @@ func (e *Evaluator) Revise(ctx context.Context, structure string, rule RuleName,
 // clone returns a copy of the event that shares no slice with it.
 func (ev Event) clone() Event {
 	ev.Evidence.Causes = append([]reconcile.RankedCause(nil), ev.Evidence.Causes...)
-	ev.Evidence.LoadShifts = append([]LoadShift(nil), ev.Evidence.LoadShifts...)
+	ev.Evidence.LoadShifts = append([]reconcile.LoadShift(nil), ev.Evidence.LoadShifts...)
 	return ev
 }
 
@@ -901,7 +887,7 @@ func (s *structState) event(r Rule, o Observation, in instance, kind EventKind, 
 	if kind == Raised && r.Signal.identifies() {
 		ev.Evidence.CausesAt = o.Time
 		if len(o.LoadShifts) > 0 {
-			ev.Evidence.LoadShifts = append([]LoadShift(nil), o.LoadShifts...)
+			ev.Evidence.LoadShifts = append([]reconcile.LoadShift(nil), o.LoadShifts...)
 		}
 	}
 	return ev

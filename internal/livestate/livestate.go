@@ -190,7 +190,7 @@ func (e *entry) reviseRecent(active []alerts.Alarm) {
 
 // loadShifts presents flagged unknown loads in their pattern's
 // engineering unit (or as pattern factors).
-func (e *entry) loadShifts(ls []alerts.LoadShift) []dashboard.LoadShift {
+func (e *entry) loadShifts(ls []reconcile.LoadShift) []dashboard.LoadShift {
 	var out []dashboard.LoadShift
 	for _, l := range ls {
 		d := dashboard.LoadShift{Pattern: l.Pattern, Value: l.Value, Mean: l.Mean, StdDev: l.Std, Unit: "pattern factor", Z: l.Z}

@@ -118,7 +118,7 @@ func TestLiveAlarmRevision(t *testing.T) {
 	t0 := time.Date(2026, 6, 1, 12, 0, 0, 0, time.UTC)
 	raisedCauses := []reconcile.RankedCause{{Subject: "D2", Label: "E A of D2", Kind: reconcile.StiffnessChange, T: 60, Size: -26, Std: 2, Unit: "%", Group: 1}}
 	revised := []reconcile.RankedCause{{Subject: "D2", Label: "E A of D2", Kind: reconcile.StiffnessChange, T: 900, Size: -29.6, Std: 0.1, Unit: "%", Group: 1}}
-	shift := []alerts.LoadShift{{Pattern: "crowd", Value: -0.5, Mean: 0.02, Std: 0.01, Z: -7}}
+	shift := []reconcile.LoadShift{{Pattern: "crowd", Value: -0.5, Mean: 0.02, Std: 0.01, Z: -7}}
 	raised := alerts.Event{Structure: "alder-creek", Rule: alerts.RuleMemberDiverging, Subject: "D2", Kind: alerts.Raised, Time: t0,
 		Evidence: alerts.Evidence{Signal: "abs_w", W: 6, Causes: raisedCauses, LoadShifts: shift}}
 	evidence, err := json.Marshal(raised.Evidence)

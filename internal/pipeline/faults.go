@@ -49,15 +49,3 @@ func (p *Pipeline) reviseAlarms(ctx context.Context, res *Result) error {
 	p.proc.DropFaults(keep)
 	return first
 }
-
-// alertLoadShifts converts load shifts to alarm evidence.
-func alertLoadShifts(ls []reconcile.LoadShift) []alerts.LoadShift {
-	if len(ls) == 0 {
-		return nil
-	}
-	out := make([]alerts.LoadShift, len(ls))
-	for i, l := range ls {
-		out[i] = alerts.LoadShift(l)
-	}
-	return out
-}

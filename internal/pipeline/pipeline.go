@@ -317,7 +317,7 @@ func (p *Pipeline) process(ctx context.Context, e epoch.Epoch) {
 			p.model.mark(&obs, p.proc, res.EpochResult)
 			// An alarm rising now carries the unknown loads that left
 			// their recent distribution (they may absorb the fault).
-			obs.LoadShifts = alertLoadShifts(p.proc.LoadShifts(res.EpochResult))
+			obs.LoadShifts = p.proc.LoadShifts(res.EpochResult)
 		}
 		evs, err := p.eval.Observe(ctx, obs)
 		if err != nil {

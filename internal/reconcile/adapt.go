@@ -59,11 +59,17 @@ func (f *AdaptedFit) Estimable() []RankedCause {
 
 // LoadShift flags an unknown-load estimate that left its recent
 // distribution when an alarm rose: it may be absorbing the fault.
+//
+// Its JSON form is that of a stored alarm event's evidence.
 type LoadShift struct {
-	Pattern string
-	// Value is the estimate when the alarm rose, Mean and Std those of the
-	// recent epochs before it; Z = (Value - Mean) / sqrt(Std^2 + ThetaStd^2).
-	Value, Mean, Std, Z float64
+	Pattern string `json:"pattern"`
+	// Value is the estimate (pattern factor) when the alarm rose, Mean and
+	// Std those of the recent epochs before it; Z = (Value - Mean) /
+	// sqrt(Std^2 + the estimate's own variance).
+	Value float64 `json:"value"`
+	Mean  float64 `json:"mean"`
+	Std   float64 `json:"std"`
+	Z     float64 `json:"z"`
 }
 
 // loadHistory keeps the recent unknown-load estimates of accepted epochs.
