@@ -12,12 +12,12 @@ import (
 	"time"
 
 	"trussmonitor/internal/alerts"
+	"trussmonitor/internal/instrumented"
 	"trussmonitor/internal/model"
 	"trussmonitor/internal/reconcile"
 	"trussmonitor/internal/sensors"
 	"trussmonitor/internal/simulate"
 	"trussmonitor/internal/simulate/simtest"
-	"trussmonitor/internal/structfile"
 )
 
 // scnFixture is an example structure with its sensor map.
@@ -39,14 +39,6 @@ func loadScnFixture(tb testing.TB, name string) *scnFixture {
 func loadScnFixtureWith(tb testing.TB, name string, edit func(string) string) *scnFixture {
 	tb.Helper()
 	dir := "../../testdata/" + name + "/"
-	st, err := structfile.LoadFile(dir + "structure.yaml")
-	if err != nil {
-		tb.Fatal(err)
-	}
-	m, err := model.Analyze(st)
-	if err != nil {
-		tb.Fatal(err)
-	}
 	path := dir + "sensors.yaml"
 	if edit != nil {
 		text, err := os.ReadFile(path)
@@ -58,11 +50,11 @@ func loadScnFixtureWith(tb testing.TB, name string, edit func(string) string) *s
 			tb.Fatal(err)
 		}
 	}
-	sm, err := sensors.LoadFile(path, st)
+	mon, err := instrumented.Load(dir+"structure.yaml", path)
 	if err != nil {
 		tb.Fatal(err)
 	}
-	return &scnFixture{name: name, st: st, m: m, sm: sm}
+	return &scnFixture{name: name, st: mon.Structure, m: mon.Model, sm: mon.Sensors}
 }
 
 // processor builds the fixture's Processor; a zero CauseSpan becomes
